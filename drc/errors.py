@@ -1,0 +1,75 @@
+"""One error hierarchy for everything a user can get wrong.
+
+Every error carries enough to point at the cause: a file, and where the
+cause is inside a file, a line and a column. The command line maps the whole
+hierarchy to exit status 2 and one clean message; nothing below it prints.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True, slots=True)
+class SourceLocation:
+    """A 1-based position in an input file."""
+
+    file: str
+    line: int = 0
+    column: int = 0
+
+    def __str__(self) -> str:
+        if self.line <= 0:
+            return self.file
+        if self.column <= 0:
+            return f"{self.file}:{self.line}"
+        return f"{self.file}:{self.line}:{self.column}"
+
+
+class DrcError(Exception):
+    """Base of every error the tool reports to a user (exit status 2)."""
+
+    def __init__(self, message: str, location: SourceLocation | None = None,
+                 source_line: str | None = None) -> None:
+        super().__init__(message)
+        self.message = message
+        self.location = location
+        self.source_line = source_line
+
+    def render(self) -> str:
+        """`FILE:LINE:COLUMN: message`, then the offending line with a caret."""
+        head = f"{self.location}: {self.message}" if self.location else self.message
+        if self.source_line is None or not self.location or self.location.line <= 0:
+            return head
+        text = self.source_line.rstrip("\r\n").expandtabs(1)
+        if len(text) > 200:
+            start = max(0, self.location.column - 100)
+            text = text[start:start + 200]
+            caret_at = self.location.column - start
+        else:
+            caret_at = self.location.column
+        caret = " " * max(0, caret_at - 1) + "^" if caret_at > 0 else ""
+        return f"{head}\n    {text}\n    {caret}".rstrip()
+
+    def __str__(self) -> str:
+        return self.render()
+
+
+class NetlistError(DrcError):
+    """The netlist text is malformed or inconsistent."""
+
+
+class LimitError(DrcError):
+    """A resource limit (include depth, nesting, element count, file size...) was hit."""
+
+
+class ConfigError(DrcError):
+    """A configuration, waiver or baseline file is malformed."""
+
+
+class UsageError(DrcError):
+    """The command line asks for something impossible."""
+
+
+class LibraryError(DrcError):
+    """The engineering data under rules/ is malformed (a bug in a shipped file)."""
