@@ -1,0 +1,13 @@
+import os
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parent.parent
+BOARDS = ROOT / "boards"
+
+
+@pytest.fixture
+def boards_dir() -> Path:
+    return BOARDS
