@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from .electrical import ReceiverElectrical
 from .stage import Stage
 
 ACTUATOR_STATES = ("released", "pressed")
@@ -85,4 +86,5 @@ class StageResult:
     contact_current_a: float | None
     surge_peak_a: float | None
     max_input_v: float | None
+    receiver_electrical: ReceiverElectrical | None = None  # what the analysis used
     notes: tuple[str, ...] = ()
