@@ -1,0 +1,106 @@
+"""What the engine hands a rule: its limits, its severity and a finding builder.
+
+A rule states facts (which parts, which figures, what message and fix); the
+context fills in what is the same for every rule: the board name, the
+severity (the rule's default, a per-finding default, or the user's
+override), and the netlist locations of the parts involved. Locations are
+looked up in a designator index built once per board, not per finding.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+
+from ..errors import LibraryError, SourceLocation
+from ..findings import Figure, Finding
+from ..netlist import key
+from ..results import StageResult
+from ..units import format_quantity
+
+
+def figure(value: float, unit: str) -> Figure:
+    """A Figure with its display text ("11.8 ms", "4.7 kΩ")."""
+    return Figure(value=float(value), unit=unit, text=format_quantity(value, unit))
+
+
+def locations_of(board) -> dict[str, SourceLocation]:
+    """Designator key -> netlist location, for every element and part of a board."""
+    if board is None:
+        return {}
+    out: dict[str, SourceLocation] = {}
+    netlist = getattr(board, "netlist", None)
+    if netlist is not None:
+        for element in netlist.elements:
+            out.setdefault(key(element.designator), element.location)
+    for part in getattr(board, "parts", {}).values():
+        out.setdefault(key(part.designator), part.location)
+    for contact in getattr(board, "contacts", ()):
+        out.setdefault(key(contact.designator), contact.location)
+    return out
+
+
+@dataclass(slots=True)
+class RuleContext:
+    """Per-run facts for one rule.
+
+    limits: key -> SI float (library defaults overridden by config).
+    severity_override: the user's severity for this rule, or None.
+    """
+
+    rule_id: str
+    default_severity: str
+    board_name: str
+    limits: Mapping[str, float]
+    severity_override: str | None = None
+    locations: dict[str, SourceLocation] = field(default_factory=dict)
+
+    def limit(self, limit_key: str) -> float:
+        """The limit `limit_key`; a missing key is a library bug, said plainly."""
+        try:
+            return float(self.limits[limit_key])
+        except KeyError:
+            raise LibraryError(f"rule {self.rule_id!r} needs limit {limit_key!r}, which "
+                               f"rules/limits.toml does not define") from None
+
+    def severity(self, finding_default: str | None = None) -> str:
+        return self.severity_override or finding_default or self.default_severity
+
+    def location(self, designator: str) -> SourceLocation | None:
+        return self.locations.get(key(designator))
+
+    def finding(self, *, parts: tuple[str, ...], message: str, fix: str,
+                measured: Figure | None, limit: Figure | None,
+                contact: str | None = None, receiver: str | None = None,
+                nets: tuple[str, ...] = (), severity: str | None = None,
+                location: SourceLocation | None = None,
+                related: tuple[SourceLocation, ...] | None = None) -> Finding:
+        """A Finding located at its first part, related to the others'."""
+        if location is None and parts:
+            location = self.location(parts[0])
+        if related is None:
+            found = (self.location(p) for p in parts[1:])
+            related = tuple(dict.fromkeys(loc for loc in found if loc is not None and loc != location))
+        return Finding(rule=self.rule_id, severity=self.severity(severity), board=self.board_name,
+                       contact=contact, receiver=receiver, parts=tuple(parts), nets=tuple(nets),
+                       measured=measured, limit=limit, message=message, fix=fix,
+                       location=location, related=related)
+
+    def stage_finding(self, result: StageResult, *, parts: tuple[str, ...] | None = None,
+                      **kwargs) -> Finding:
+        """A finding about one stage: contact, receiver and nets filled in.
+
+        parts: the parts involved; the contact comes first and the receiver's
+        part last whatever the caller lists.
+        """
+        stage = result.stage
+        middle = tuple(p for p in (parts if parts is not None else stage.parts)
+                       if p not in (stage.contact.designator, stage.receiver.part))
+        everything = (stage.contact.designator, *middle, stage.receiver.part)
+        location = self.location(stage.contact.designator) or stage.contact.location
+        related = [self.location(p) for p in everything[1:-1]]
+        related.append(stage.receiver.location)
+        related_t = tuple(dict.fromkeys(loc for loc in related if loc is not None and loc != location))
+        return self.finding(parts=everything, contact=stage.contact.designator,
+                            receiver=stage.receiver.ref, nets=tuple(stage.nets),
+                            location=location, related=related_t, **kwargs)

@@ -1,0 +1,47 @@
+"""Rule pullup-waste: the pull resistor draws too much current while the contact is held."""
+
+from __future__ import annotations
+
+from ..results import StageResult
+from ..ruledoc import RuleDoc
+from ..units import format_quantity as fq
+from .common import contact_name, pull_resistors, resistor_text
+from .context import RuleContext, figure
+from .examples import debounced_stage, netlist
+from .registry import rule
+
+BUDGET = "pull_current_budget"
+
+DOC = RuleDoc(
+    id="pullup-waste",
+    title="Pull resistor wastes current while the contact is held",
+    severity="warning",
+    what=("Checks the current through the pull resistor(s) while the contact is held in its "
+          "current-drawing state, at the rail's maximum and the resistor's minimum, against a "
+          "per-contact budget."),
+    why=("A button held down, a DIP switch left on or a reed switch that sits closed draws this "
+         "current for hours; on battery boards a few low-value pull-ups can dominate the sleep "
+         "current, and they warm up for nothing."),
+    how="I = V_rail,max / R_pull,min (DC nodal analysis in the closed state), compared with `pull_current_budget`.",
+    fix="Raise the pull resistor (keep the leakage headroom and the timing in view); drc proposes a standard value.",
+    failing_example=netlist("A 3.3 kΩ pull-up draws about 1.7 mA while SW1 is held",
+                            *debounced_stage(r1="3.3k")),
+    passing_example=netlist("An 8.2 kΩ pull-up draws about 0.7 mA", *debounced_stage()),
+    limits=(BUDGET,),
+)
+
+
+@rule(DOC, kind="stage")
+def check(result: StageResult, ctx: RuleContext):
+    budget = ctx.limit(BUDGET)
+    current = result.pull_current_a
+    if current is None or current <= budget:
+        return
+    pulls = pull_resistors(result)
+    names = ", ".join(resistor_text(r) for r in pulls) or "the pull resistor"
+    yield ctx.stage_finding(
+        result, parts=tuple(r.designator for r in pulls),
+        measured=figure(current, "A"), limit=figure(budget, "A"),
+        message=(f"{names} draws {fq(current, 'A')} while {contact_name(result)} is held, over the "
+                 f"{fq(budget, 'A')} budget"),
+        fix=f"raise {names} so the held current stays under {fq(budget, 'A')}")

@@ -1,0 +1,60 @@
+"""Rule slow-edge: an RC edge crawls through a plain (non-Schmitt) input's threshold."""
+
+from __future__ import annotations
+
+from ..results import EDGES, StageResult
+from ..ruledoc import RuleDoc
+from ..units import format_quantity as fq
+from .common import DEBOUNCED_ELSEWHERE, contact_name, is_schmitt, timing_parts
+from .context import RuleContext, figure
+from .examples import debounced_stage, netlist
+from .registry import rule
+
+DOC = RuleDoc(
+    id="slow-edge",
+    title="Slow RC edge into a plain (non-Schmitt) input",
+    severity="error",
+    what=("For stages with a capacitor feeding a plain input, checks the edge's rate at the "
+          "threshold (s/V, slowest corner) against the family's input transition limit."),
+    why=("A plain CMOS input held near its threshold conducts through both output transistors "
+         "and amplifies noise: the output oscillates, a clocked part counts several edges, and "
+         "supply current spikes. An RC slow enough to debounce a contact is thousands of times "
+         "slower than any plain input's limit, so RC debouncing needs a Schmitt-trigger input."),
+    how=("1 / |dV/dt| at the threshold crossing of each edge, slowest corner: for a single RC, "
+         "τ/(Vf − Vth). Compared with the family's transition limit in s/V (for HC: the 10-90 % "
+         "rise-time limit divided by 0.8 × VCC), from rules/families.toml."),
+    fix=("Feed the RC into a Schmitt-trigger input (a '14 inverter, a '132 NAND, an MCU pin with "
+         "Schmitt input) or add one between the filter and this input; no RC value passes a plain input."),
+    failing_example=netlist("A relay contact (5 ms bounce) through an RC filter into a plain 74HC04 input",
+                            *debounced_stage(contact="RELAY"), part="74HC04"),
+    passing_example=netlist("The same filter into a 74HC14 Schmitt input",
+                            *debounced_stage(contact="RELAY")),
+)
+
+
+@rule(DOC, kind="stage")
+def check(result: StageResult, ctx: RuleContext):
+    stage = result.stage
+    rx = result.receiver_electrical
+    if (rx is None or is_schmitt(result) or rx.transition_limit_s_per_v is None
+            or not stage.circuit.capacitors or stage.kind in DEBOUNCED_ELSEWHERE):
+        return
+    limit = rx.transition_limit_s_per_v
+    for name in EDGES:
+        edge = result.edges.get(name)
+        if edge is None:
+            continue
+        slope = edge.slowest_slope_v_per_s or edge.slope_v_per_s
+        if not slope or slope <= 0:
+            continue
+        rate = 1.0 / slope
+        if rate <= limit:
+            continue
+        yield ctx.stage_finding(
+            result, parts=timing_parts(result),
+            measured=figure(rate, "s/V"), limit=figure(limit, "s/V"),
+            message=(f"{name} edge from {contact_name(result)} crosses the threshold of plain input "
+                     f"{stage.receiver.ref} ({rx.family}) at {fq(rate, 's/V')}, "
+                     f"{rate / limit:.3g}× the {fq(limit, 's/V')} transition limit"),
+            fix=(f"feed {stage.receiver.ref} from a Schmitt-trigger input (e.g. the family's '14) "
+                 f"after the RC; no RC value passes a plain {rx.family} input"))

@@ -1,0 +1,53 @@
+"""Line-level fast path for plain element lines.
+
+Most lines of a board export are plain: `R12 Net-3 +5V 4k7`, `SW3 a b
+TACTILE`, `XU1 a b 0 vcc 74HC14`. For these, the grammar's tokens are exactly
+the blank-separated words, so `str.split` gives the same record the lark
+grammar would (tests/reader/test_fastpath.py proves it with generated lines).
+A line qualifies when it starts with one of the letters below, contains
+none of the characters that make the grammar do more than split words
+(`= , { } ' " *`), and every word holding a parenthesis is a whole name in
+the grammar's sense (`Net-(SW1-Pad2)`: balanced, nothing but name characters
+inside). Everything else goes to drc/grammar.py.
+"""
+
+from __future__ import annotations
+
+import re
+
+# Element letters the fast path takes (B needs its raw expression, K/E/G...
+# are rare enough that the grammar path costs nothing measurable).
+FAST_LETTERS = frozenset("RCLVIDSXrclvidsx")
+
+_NEEDS_GRAMMAR = re.compile(r"[=,{}'\"*]")
+# The grammar's NAME terminal (grammars/spice.lark), for words with parentheses.
+_NAME = re.compile(r"[^\s=(),{}'\"*][^\s=(),{}'\"]*(?:\([^\s=(),{}'\"]*\)[^\s=(),{}'\"]*)*")
+
+
+def fast_element(text: str) -> tuple | None:
+    """The element record `(designator, items, ())` of a plain line, else None."""
+    if text[0] not in FAST_LETTERS or _NEEDS_GRAMMAR.search(text) is not None:
+        return None
+    words = text.split()
+    if "(" in text or ")" in text:
+        fullmatch = _NAME.fullmatch
+        for word in words:
+            if ("(" in word or ")" in word) and fullmatch(word) is None:
+                return None
+    return (words[0], tuple(words[1:]), ())
+
+
+# Directives whose plain form is a list of words in the grammar (words_line,
+# and subckt_line without parameters).
+FAST_DIRECTIVES = frozenset({"include", "inc", "lib", "endl", "global", "ends", "end", "subckt"})
+_NEEDS_GRAMMAR_DIRECTIVE = re.compile(r"[=(),{}'\"*]")
+
+
+def fast_directive(text: str, keyword: str) -> tuple | None:
+    """The directive record `(keyword, args, ())` of a plain directive, else None."""
+    if keyword not in FAST_DIRECTIVES or _NEEDS_GRAMMAR_DIRECTIVE.search(text) is not None:
+        return None
+    words = text.split()
+    if keyword == "subckt" and len(words) < 3:
+        return None
+    return (keyword, tuple(words[1:]), ())

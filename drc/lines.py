@@ -1,0 +1,227 @@
+"""From bytes on disk to logical netlist lines, with positions.
+
+This is the lexical layer under the grammar: it decodes a file (UTF-8 with
+or without BOM, UTF-16 with BOM, else Latin-1), splits it on any mix of
+CRLF/CR/LF, drops full-line comments (`*` as first non-blank character) and
+blank lines, cuts inline comments (`;`, `$` or `//` at the start of a line's
+content or after a blank, outside braces and quotes, so `N$12` stays a node),
+and joins `+` continuation lines onto the line they continue, across comment
+and blank lines (ngspice-39 behaviour, shared/reference/spice-dialect.md).
+Each logical line keeps where every piece came from, so an error anywhere in
+it can point at the physical line and column. Files are opened read-only and
+must be regular files.
+"""
+
+from __future__ import annotations
+
+import codecs
+import os
+import stat
+from dataclasses import dataclass
+
+from .errors import LimitError, NetlistError, SourceLocation
+
+
+@dataclass(frozen=True, slots=True)
+class SourceFile:
+    """One input file: the name shown in locations and its physical lines."""
+
+    path: str
+    lines: list[str]
+
+
+class LogicalLine:
+    """A statement after continuation joining and comment removal.
+
+    `text` starts at the first non-blank character of physical line `line`,
+    column `column` (1-based). `pieces` is None for a one-line statement, else
+    a tuple of (offset in text, physical line, column) for every piece.
+    """
+
+    __slots__ = ("text", "line", "column", "pieces", "source")
+
+    def __init__(self, text: str, line: int, column: int, pieces, source: SourceFile) -> None:
+        self.text = text
+        self.line = line
+        self.column = column
+        self.pieces = pieces
+        self.source = source
+
+    def position(self, offset: int) -> tuple[int, int]:
+        """Physical (line, column) of character `offset` of `text`."""
+        if self.pieces is None:
+            return self.line, self.column + offset
+        line, column, start = self.line, self.column, 0
+        for piece_offset, piece_line, piece_column in self.pieces:
+            if piece_offset > offset:
+                break
+            line, column, start = piece_line, piece_column, piece_offset
+        return line, column + (offset - start)
+
+    def location(self, offset: int = 0) -> SourceLocation:
+        line, column = self.position(offset)
+        return SourceLocation(self.source.path, line, column)
+
+    def source_line(self, offset: int = 0) -> str:
+        line, _ = self.position(offset)
+        return physical_line(self.source, line)
+
+    def error(self, message: str, offset: int = 0, cls: type = NetlistError) -> Exception:
+        """A located error pointing at character `offset` of this statement."""
+        return cls(message, self.location(offset), self.source_line(offset))
+
+    def __repr__(self) -> str:
+        return f"LogicalLine({self.text!r}, line={self.line}, column={self.column})"
+
+
+def physical_line(source: SourceFile, line: int) -> str:
+    if 1 <= line <= len(source.lines):
+        return source.lines[line - 1]
+    return ""
+
+
+def decode(data: bytes) -> str:
+    """Text of a netlist file: BOM-marked UTF-8/UTF-16, else UTF-8, else Latin-1."""
+    if data.startswith(codecs.BOM_UTF8):
+        data = data[len(codecs.BOM_UTF8):]
+    elif data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        return data.decode("utf-16")
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        # Latin-1 maps every byte, so old exports with a µ byte still read.
+        return data.decode("latin-1")
+
+
+def split_lines(text: str) -> list[str]:
+    """Physical lines on any mix of CRLF, CR and LF endings."""
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    return text.split("\n")
+
+
+def check_nul(source: SourceFile) -> None:
+    """A NUL character is never valid netlist text: report where it is."""
+    for number, line in enumerate(source.lines, 1):
+        column = line.find("\x00")
+        if column >= 0:
+            raise NetlistError("NUL byte in netlist text (is this a binary file?)",
+                               SourceLocation(source.path, number, column + 1), line)
+
+
+def read_source(path: str, shown: str, max_bytes: int) -> SourceFile:
+    """Read and decode one regular file, refusing devices, FIFOs and big files."""
+    try:
+        fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0))
+    except FileNotFoundError:
+        raise NetlistError("file not found", SourceLocation(shown)) from None
+    except OSError as exc:
+        raise NetlistError(f"cannot open file: {exc.strerror}", SourceLocation(shown)) from None
+    try:
+        info = os.fstat(fd)
+        if not stat.S_ISREG(info.st_mode):
+            raise NetlistError("not a regular file (a folder, device, FIFO or socket); "
+                               "only plain netlist files are read", SourceLocation(shown))
+        if info.st_size > max_bytes:
+            raise LimitError(f"file is {info.st_size} bytes, above the limit of {max_bytes} "
+                             "(raise ReaderOptions.max_file_bytes)", SourceLocation(shown))
+        with os.fdopen(os.dup(fd), "rb") as handle:
+            data = handle.read(max_bytes + 1)
+    finally:
+        os.close(fd)
+    if len(data) > max_bytes:
+        raise LimitError(f"file is larger than the limit of {max_bytes} bytes "
+                         "(raise ReaderOptions.max_file_bytes)", SourceLocation(shown))
+    try:
+        text = decode(data)
+    except UnicodeDecodeError as exc:
+        raise NetlistError(f"file has a UTF-16 byte-order mark but is not valid UTF-16 "
+                           f"({exc.reason})", SourceLocation(shown)) from None
+    source = SourceFile(shown, split_lines(text))
+    if "\x00" in text:
+        check_nul(source)
+    return source
+
+
+def source_from_text(text: str, shown: str) -> SourceFile:
+    source = SourceFile(shown, split_lines(text))
+    if "\x00" in text:
+        check_nul(source)
+    return source
+
+
+def strip_comment(text: str) -> str:
+    """`text` without an inline comment (`;`, `$`, `//` after a blank).
+
+    `text` starts at a non-blank character; a marker at position 0 makes the
+    whole line a comment. Markers inside `{...}` or quotes do not count.
+    """
+    depth = 0
+    quote = ""
+    previous = " "
+    for index, char in enumerate(text):
+        if quote:
+            if char == quote:
+                quote = ""
+        elif char == "{":
+            depth += 1
+        elif char == "}":
+            depth = max(0, depth - 1)
+        elif char in "'\"":
+            quote = char
+        elif depth == 0 and previous in " \t" and (
+                char in ";$" or (char == "/" and text.startswith("//", index))):
+            return text[:index].rstrip()
+        previous = char
+    return text.rstrip()
+
+
+def logical_lines(source: SourceFile, first: int, max_length: int) -> list[LogicalLine]:
+    """The statements of `source`, from physical line index `first` (0-based)."""
+    out: list[LogicalLine] = []
+    current: LogicalLine | None = None
+    pieces: list | None = None
+    append = out.append
+    lines = source.lines
+    for index in range(first, len(lines)):
+        raw = lines[index]
+        text = raw.lstrip()
+        if not text:
+            continue
+        head = text[0]
+        if head == "*":
+            continue
+        if ";" in text or "$" in text or "//" in text:
+            text = strip_comment(text)
+            if not text:
+                continue
+            head = text[0]
+        else:
+            text = text.rstrip()
+        column = len(raw) - len(raw.lstrip()) + 1
+        if head == "+":
+            if current is None:
+                raise NetlistError("continuation line (`+`) with no statement before it",
+                                   SourceLocation(source.path, index + 1, column), raw)
+            body = text[1:]
+            stripped = body.lstrip()
+            if not stripped:
+                continue
+            if pieces is None:
+                pieces = [(0, current.line, current.column)]
+            offset = len(current.text) + 1
+            pieces.append((offset, index + 1, column + 1 + len(body) - len(stripped)))
+            current.text = current.text + " " + stripped
+            current.pieces = pieces
+            if len(current.text) > max_length:
+                raise current.error(f"statement is longer than {max_length} characters "
+                                    "(raise ReaderOptions.max_line_length)", cls=LimitError)
+            continue
+        if len(text) > max_length:
+            raise LimitError(f"line is longer than {max_length} characters "
+                             "(raise ReaderOptions.max_line_length)",
+                             SourceLocation(source.path, index + 1, column), raw)
+        current = LogicalLine(text, index + 1, column, None, source)
+        pieces = None
+        append(current)
+    return out

@@ -1,0 +1,161 @@
+"""The JSON report: a documented, versioned document ("drc-report/1").
+
+docs/report-schema.md is the schema; a test checks that the keys written
+here and the keys documented there agree. Output is deterministic: keys
+sorted, lists in the model's order, floats rounded to nine significant
+figures (enough for any figure here, and immune to last-bit noise), no
+timestamps, so two runs on the same input are byte-identical.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+from .. import __version__
+from ..errors import SourceLocation
+from ..findings import Figure, Finding
+from ..results import EdgeResult, LevelResult, StageResult
+from .model import BoardReport, RunReport
+
+REPORT_FORMAT = "drc-report/1"
+
+
+def number(value: float | None) -> float | None:
+    """A JSON-safe float: None for missing, infinite or NaN; nine significant figures."""
+    if value is None or isinstance(value, bool):
+        return None
+    value = float(value)
+    if not math.isfinite(value):
+        return None
+    return float(f"{value:.9g}")
+
+
+def location_json(location: SourceLocation | None) -> dict | None:
+    if location is None:
+        return None
+    return {"file": location.file, "line": location.line or None, "column": location.column or None}
+
+
+def figure_json(figure: Figure | None) -> dict | None:
+    if figure is None:
+        return None
+    return {"value": number(figure.value), "unit": figure.unit, "text": figure.text}
+
+
+def edge_json(edge: EdgeResult) -> dict:
+    return {
+        "direction": edge.direction,
+        "start_v": number(edge.start_v),
+        "final_v": number(edge.final_v),
+        "threshold_v": number(edge.threshold_v),
+        "threshold_fastest_v": number(edge.threshold_fastest_v),
+        "threshold_slowest_v": number(edge.threshold_slowest_v),
+        "nominal_s": number(edge.nominal_s),
+        "fastest_s": number(edge.fastest_s),
+        "slowest_s": number(edge.slowest_s),
+        "slope_v_per_s": number(edge.slope_v_per_s),
+        "slowest_slope_v_per_s": number(edge.slowest_slope_v_per_s),
+        "corner_fastest": {k: number(v) for k, v in edge.corner_fastest.items()},
+        "corner_slowest": {k: number(v) for k, v in edge.corner_slowest.items()},
+    }
+
+
+def level_json(level: LevelResult) -> dict:
+    return {
+        "logic": level.logic,
+        "nominal_v": number(level.nominal_v),
+        "worst_v": number(level.worst_v),
+        "required_v": number(level.required_v),
+        "margin_v": number(level.margin_v),
+        "thevenin_v": number(level.thevenin_v),
+        "thevenin_ohms": number(level.thevenin_ohms),
+    }
+
+
+def stage_json(result: StageResult) -> dict:
+    stage = result.stage
+    contact, receiver = stage.contact, stage.receiver
+    return {
+        "contact": contact.designator,
+        "contact_class": contact.contact_class,
+        "form": contact.form,
+        "bounce_s": number(contact.bounce_s),
+        "receiver": receiver.ref,
+        "part_type": receiver.part_type,
+        "family": receiver.family,
+        "schmitt": receiver.schmitt,
+        "edge_sensitive": receiver.edge_sensitive,
+        "kind": stage.kind,
+        "parts": list(stage.parts),
+        "nets": list(stage.nets),
+        "edges": {name: edge_json(edge) for name, edge in sorted(result.edges.items())},
+        "levels": {name: level_json(level) for name, level in sorted(result.levels.items())},
+        "currents": {
+            "pull_a": number(result.pull_current_a),
+            "contact_a": number(result.contact_current_a),
+            "surge_peak_a": number(result.surge_peak_a),
+        },
+        "max_input_v": number(result.max_input_v),
+        "notes": list(result.notes),
+    }
+
+
+def finding_json(finding: Finding) -> dict:
+    suppressed = None
+    if finding.suppression is not None:
+        suppressed = {"kind": finding.suppression, "justification": finding.justification}
+    return {
+        "rule": finding.rule,
+        "severity": finding.severity,
+        "contact": finding.contact,
+        "receiver": finding.receiver,
+        "parts": list(finding.parts),
+        "nets": list(finding.nets),
+        "measured": figure_json(finding.measured),
+        "limit": figure_json(finding.limit),
+        "message": finding.message,
+        "fix": finding.fix,
+        "location": location_json(finding.location),
+        "related": [location_json(r) for r in finding.related],
+        "suppressed": suppressed,
+    }
+
+
+def board_json(board: BoardReport) -> dict:
+    return {
+        "path": board.path,
+        "config": board.config_path,
+        "error": board.error,
+        "contacts": board.contacts,
+        "stage_kinds": dict(board.stage_kinds),
+        "diagnostics": list(board.diagnostics),
+        "stages": [stage_json(s) for s in board.stages],
+        "findings": [finding_json(f) for f in board.findings],
+        "summary": board.counts(),
+    }
+
+
+def report_document(run: RunReport) -> dict:
+    """The report as plain JSON data (the schema of docs/report-schema.md)."""
+    baseline = None
+    if run.baseline is not None:
+        baseline = {"path": run.baseline.path, "matched": run.baseline.matched,
+                    "new": run.baseline.new, "written": run.baseline.written,
+                    "fixed": [e.as_json() for e in run.fixed]}
+    return {
+        "format": REPORT_FORMAT,
+        "tool": {"name": "drc", "version": __version__},
+        "caution": run.caution,
+        "fail_level": run.fail_level,
+        "boards": [board_json(b) for b in run.boards],
+        "waiver_notes": list(run.waiver_notes),
+        "baseline": baseline,
+        "summary": {**run.counts(), "boards": len(run.boards)},
+    }
+
+
+def render_json(run: RunReport) -> str:
+    """The JSON report text: sorted keys, two-space indent, UTF-8 characters kept, final newline."""
+    return json.dumps(report_document(run), indent=2, sort_keys=True, ensure_ascii=False,
+                      allow_nan=False) + "\n"

@@ -1,0 +1,190 @@
+"""Quantities at the edges: parse "5 ms" or "10 kΩ" from config, format SI floats for people.
+
+Inside the tool every figure is a plain SI float. Text with units arrives
+only from config files, annotations and command-line options, and leaves
+only through reports; this module is the one place that crosses that edge.
+Parsing uses pint (imported lazily, one registry for the process) so that any
+unit spelling pint knows works; formatting is a few lines of arithmetic with
+engineering prefixes, because reports format thousands of figures and need
+no unit algebra for that.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from functools import cache
+
+from .errors import ConfigError
+
+# The pint reference unit each dimension must be compatible with, and the
+# example shown when the text is not such a quantity.
+DIMENSIONS: dict[str, tuple[str, str]] = {
+    "time": ("second", "5 ms"),
+    "resistance": ("ohm", "10 kΩ"),
+    "capacitance": ("farad", "100 nF"),
+    "voltage": ("volt", "3.3 V"),
+    "current": ("ampere", "1 mA"),
+    "fraction": ("", "5 %"),
+}
+
+# A bare number is unambiguous only where the base unit is what a person
+# means by default (volts for a rail, ohms for a resistor, a plain ratio);
+# "bounce = 5" or "100" for a capacitor is far more likely a slip than 5 s or 100 F.
+_BARE_NUMBER_OK = frozenset({"voltage", "resistance", "fraction"})
+
+_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
+# "4.7k", "10K", "1M" written for a resistance with no unit (common practice on schematics).
+_BARE_RESISTANCE = re.compile(r"^([+-]?(?:\d+\.?\d*|\.\d+))\s*([kKM])$")
+# The letter-as-decimal-point code of IEC 60062 (from memory): 3V3, 4k7, 2R2, 4n7.
+_LETTER_CODE = re.compile(r"^(\d+)([A-Za-zΩµμ])(\d+)$")
+
+_LETTER_CODE_UNITS = {
+    "V": ("", "V"), "v": ("", "V"), "R": ("", "Ω"), "r": ("", "Ω"), "Ω": ("", "Ω"),
+    "k": ("k", "Ω"), "K": ("k", "Ω"), "M": ("M", "Ω"), "m": ("m", "Ω"),
+    "p": ("p", "F"), "n": ("n", "F"), "u": ("µ", "F"), "µ": ("µ", "F"), "μ": ("µ", "F"),
+}
+
+
+@cache
+def _registry():
+    import pint  # lazy: pint costs a noticeable start-up time
+
+    return pint.UnitRegistry()
+
+
+def _error(message: str, where: str) -> ConfigError:
+    return ConfigError(f"{where}: {message}" if where else message)
+
+
+def _letter_code_suggestion(text: str) -> str | None:
+    match = _LETTER_CODE.match(text)
+    if not match:
+        return None
+    whole, letter, fraction = match.groups()
+    prefix, unit = _LETTER_CODE_UNITS.get(letter, ("", letter))
+    return f"{whole}.{fraction} {prefix}{unit}"
+
+
+def _normalise(text: str) -> str:
+    # pint knows "Ω" and "µ"; the Greek mu (U+03BC) and "Ohm" spellings are normalised here.
+    return text.replace("μ", "µ").replace("Ohm", "ohm").replace("OHM", "ohm").strip()
+
+
+def parse_quantity(text: str, dimension: str, where: str = "") -> float:
+    """The SI value of `text` ("5 ms", "10 kΩ", "4.7k", "100 nF", "3.3 V", "5 %").
+
+    dimension: one of DIMENSIONS. where: what is being read, for the error
+    message (e.g. "drc.toml: rails[0].voltage"). A fraction accepts "5 %" or
+    a plain ratio such as 0.05. Raises ConfigError when the text is not a
+    quantity of that dimension, saying what was expected.
+    """
+    if dimension not in DIMENSIONS:
+        raise ValueError(f"unknown dimension {dimension!r}")
+    reference, example = DIMENSIONS[dimension]
+    raw = text if isinstance(text, str) else str(text)
+    clean = _normalise(raw)
+    if not clean:
+        raise _error(f"expected a {dimension} such as {example!r}, got an empty text", where)
+    if _NUMBER.match(clean):
+        if dimension in _BARE_NUMBER_OK:
+            return float(clean)
+        raise _error(f"{raw!r} has no unit; write a {dimension} with its unit, e.g. {example!r}", where)
+    suggestion = _letter_code_suggestion(clean)
+    if suggestion is not None:
+        raise _error(f"{raw!r} is a part-marking code, not a quantity; write {suggestion!r}", where)
+    if dimension == "resistance":
+        bare = _BARE_RESISTANCE.match(clean)
+        if bare:
+            return float(bare.group(1)) * (1e3 if bare.group(2) in "kK" else 1e6)
+    if dimension == "fraction" and clean.endswith("%"):
+        number = clean[:-1].strip()
+        if _NUMBER.match(number):
+            return float(number) / 100.0
+        raise _error(f"{raw!r} is not a percentage; expected e.g. {example!r}", where)
+    registry = _registry()
+    try:
+        quantity = registry.Quantity(clean)
+    except Exception:  # pint raises several unrelated types for unreadable text
+        raise _error(f"{raw!r} is not a {dimension}; expected e.g. {example!r}", where) from None
+    if not hasattr(quantity, "magnitude") or not hasattr(quantity, "to"):
+        raise _error(f"{raw!r} is not a {dimension}; expected e.g. {example!r}", where)
+    try:
+        value = quantity.to(reference).magnitude if reference else quantity.to("").magnitude
+    except Exception:
+        raise _error(f"{raw!r} is not a {dimension} (its unit is {quantity.units}); "
+                     f"expected e.g. {example!r}", where) from None
+    value = float(value)
+    if not math.isfinite(value):
+        raise _error(f"{raw!r} is not a finite {dimension}", where)
+    return value
+
+
+def parse_any_quantity(text: str, where: str = "") -> float:
+    """The SI base-unit magnitude of any quantity ("20 ms" -> 0.02, "5 %" -> 0.05).
+
+    For values whose dimension the caller does not know (limit overrides).
+    """
+    clean = _normalise(str(text))
+    if _NUMBER.match(clean):
+        return float(clean)
+    suggestion = _letter_code_suggestion(clean)
+    if suggestion is not None:
+        raise _error(f"{text!r} is a part-marking code, not a quantity; write {suggestion!r}", where)
+    if clean.endswith("%") and _NUMBER.match(clean[:-1].strip()):
+        return float(clean[:-1]) / 100.0
+    try:
+        quantity = _registry().Quantity(clean)
+        value = float(quantity.to_base_units().magnitude)
+    except Exception:
+        raise _error(f"{text!r} is not a quantity; expected a number or e.g. '20 ms'", where) from None
+    return value
+
+
+# Engineering prefixes, largest first.
+_PREFIXES = ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""),
+             (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f"))
+
+
+def _three_figures(mantissa: float) -> str:
+    text = f"{mantissa:.3g}"
+    if "e" in text:  # .3g switches to exponent form at 1000 after rounding
+        text = f"{mantissa:.0f}"
+    return text
+
+
+def format_quantity(value: float, unit: str) -> str:
+    """`value` (SI) as text with an engineering prefix and three figures.
+
+    0.0118 s -> "11.8 ms", 4700 Ω -> "4.7 kΩ", 2.53 V -> "2.53 V",
+    0.0004 A -> "0.4 mA". Volts and amperes between 0.1 and 1 of a prefix
+    keep the larger prefix ("0.45 V", "0.4 mA"), as the trade writes margins
+    and currents; other units move to the smaller prefix ("470 Ω", "100 nF").
+    unit "%" formats a fraction as a percentage.
+    """
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "n/a"
+    if math.isinf(value):
+        return ("-∞ " if value < 0 else "∞ ") + unit if unit else ("-∞" if value < 0 else "∞")
+    if unit == "%":
+        return f"{_three_figures(value * 100.0)} %"
+    if unit in ("", "1"):  # a plain ratio takes no prefix
+        return f"{value:.3g}"
+    if value == 0:
+        return f"0 {unit}".rstrip()
+    magnitude = abs(value)
+    scale, prefix = _PREFIXES[-1]
+    for candidate_scale, candidate_prefix in _PREFIXES:
+        if magnitude >= candidate_scale * 0.9995:
+            scale, prefix = candidate_scale, candidate_prefix
+            break
+    if unit in ("V", "A") and magnitude < 1.0:
+        # One prefix up when the value reads as 0.1..0.999 of it; amperes never go
+        # to the bare unit this way (150 mA, not 0.15 A).
+        index = [s for s, _ in _PREFIXES].index(scale)
+        if index > 0:
+            up_scale, up_prefix = _PREFIXES[index - 1]
+            if magnitude >= 0.1 * up_scale and not (unit == "A" and up_prefix == ""):
+                scale, prefix = up_scale, up_prefix
+    text = _three_figures(value / scale)
+    return f"{text} {prefix}{unit}".rstrip()

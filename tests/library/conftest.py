@@ -1,0 +1,8 @@
+import pytest
+
+from drc.library import Library, load_library
+
+
+@pytest.fixture(scope="session")
+def library() -> Library:
+    return load_library()

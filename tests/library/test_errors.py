@@ -1,0 +1,58 @@
+"""A malformed rules folder gives a LibraryError naming the file and line."""
+
+import shutil
+
+import pytest
+
+from drc.datafiles import data_folder
+from drc.errors import LibraryError
+from drc.library import load_library
+
+
+@pytest.fixture
+def rules_copy(tmp_path):
+    folder = tmp_path / "rules"
+    shutil.copytree(data_folder("rules"), folder)
+    return folder
+
+
+def test_copy_loads_as_a_separate_library(rules_copy):
+    copy = load_library(rules_copy)
+    assert copy is not load_library()
+    assert set(copy.families) == set(load_library().families)
+
+
+def test_toml_syntax_error_has_file_and_line(rules_copy):
+    path = rules_copy / "limits.toml"
+    path.write_text("[bounce_margin]\nvalue = = 1\n")
+    with pytest.raises(LibraryError) as info:
+        load_library(rules_copy)
+    assert info.value.location.file.endswith("limits.toml")
+    assert info.value.location.line == 2
+
+
+def test_missing_source_is_refused(rules_copy):
+    path = rules_copy / "contacts.toml"
+    text = path.read_text().replace(
+        'bounce_ms = { value = 2.0, source = "common practice, no source (typically under 1 ms)" }',
+        "bounce_ms = { value = 2.0 }")
+    path.write_text(text)
+    with pytest.raises(LibraryError, match="source") as info:
+        load_library(rules_copy)
+    assert info.value.location.line > 0
+
+
+def test_disordered_levels_are_refused(rules_copy):
+    path = rules_copy / "families.toml"
+    text = path.read_text().replace(
+        'vil_v = { value = 0.8, source = "from memory, typical of the family (54LS: 0.7 V)" }',
+        'vil_v = { value = 2.5, source = "from memory, typical of the family (54LS: 0.7 V)" }')
+    path.write_text(text)
+    with pytest.raises(LibraryError, match="families.LS"):
+        load_library(rules_copy)
+
+
+def test_missing_file_is_a_library_error(rules_copy):
+    (rules_copy / "parts.toml").unlink()
+    with pytest.raises(LibraryError, match="parts.toml|cannot read"):
+        load_library(rules_copy)
