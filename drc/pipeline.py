@@ -1,13 +1,16 @@
-"""The whole check of one board, as one pure pipeline.
+"""The whole check of one board, and of many, as one pure pipeline.
 
-read -> classify -> trace/recognise -> analyse -> check -> (gate: waivers,
-annotations, baseline) -> BoardReport. Each step is a function of what came
-before; nothing here prints. The command line and the Python API both call
-`check_board`; a batch audit maps it over boards with any Executor.
+read -> classify -> trace/recognise -> analyse -> check rules -> gate
+(annotations, waivers) -> BoardReport; a run maps `check_board` over boards
+(with any concurrent.futures Executor) and applies the baseline. Nothing here
+prints: the command line and the Python API both call these functions.
 """
 
 from __future__ import annotations
 
+import gc
+from collections import Counter
+from concurrent.futures import Executor
 from dataclasses import dataclass, field, replace
 from datetime import date
 from pathlib import Path
@@ -18,15 +21,18 @@ from .errors import DrcError
 from .findings import Finding
 from .results import StageResult
 
+NETLIST_SUFFIXES = (".cir", ".sp", ".spice", ".net", ".ckt")
+
 
 @dataclass(frozen=True)
 class CheckOptions:
-    """What a run asks for, beyond what the board's config says.
+    """What a run asks for, beyond what each board's config says.
 
     config_path: an explicit config file (wins over discovery); None = discover.
-    default_bounce_s: the `--bounce` option.
-    select / ignore: rule ids from the command line (added to the config's).
-    propose_fixes: search standard-value fixes for failing stages.
+    default_bounce_s: the `--bounce` option. select / ignore: rule ids from
+    the command line (added to the config's). propose_fixes: search
+    standard-value fixes for failing stages. reader_limits: ReaderOptions
+    overrides as (name, value) pairs. today: the date waivers expire against.
     """
 
     config_path: str | None = None
@@ -38,37 +44,67 @@ class CheckOptions:
     include_folders: tuple[str, ...] = ()
     reader_limits: tuple[tuple[str, int], ...] = ()
     today: date | None = None
-    baseline_path: str | None = None
 
 
 @dataclass
-class BoardOutcome:
-    """Everything computed for one board (the report model adds the summary)."""
+class BoardCheck:
+    """Everything computed for one board, before it is frozen into a BoardReport."""
 
     path: str
-    board: object | None
+    board: object
     results: list[StageResult] = field(default_factory=list)
     findings: list[Finding] = field(default_factory=list)
     config: Config | None = None
+    waiver_outcome: object | None = None
+    annotation_notes: tuple = ()
 
 
-def _library():
+def library():
     from .library import load_library
     return load_library()
 
 
-def load_board_config(board_path: str | None, options: CheckOptions) -> Config:
-    from . import config as config_loader
+def rule_ids() -> list[str]:
+    from .checks import all_rules
+    return [r.id for r in all_rules()]
+
+
+def _limit_keys() -> dict[str, str]:
+    """Limit keys as users write them in config (kebab-case) -> their unit."""
+    return {k.replace("_", "-"): v.unit for k, v in library().limits.items()}
+
+
+def load_config_file(path: str | Path) -> Config:
+    """Load a config, checking names against the rule catalogue and the library."""
+    from . import config as loader
+    lib = library()
+    config = loader.load_config(path, rule_ids=rule_ids(), limit_keys=_limit_keys(),
+                                contact_classes=tuple(lib.contact_classes),
+                                families=_family_names(lib))
+    config.limits = {k.replace("-", "_"): v for k, v in config.limits.items()}
+    return config
+
+
+def _family_names(lib) -> tuple[str, ...]:
+    names: list[str] = []
+    for family in lib.families.values():
+        names.append(family.name)
+        names.extend(getattr(family, "aliases", ()) or ())
+    return tuple(names)
+
+
+def find_config(board_path: str | None, options: CheckOptions) -> Config:
+    from . import config as loader
     if options.config_path:
-        return config_loader.load_config(options.config_path)
+        return load_config_file(options.config_path)
     if board_path and not board_path.startswith("<"):
-        found = config_loader.discover_config(Path(board_path))
+        found = loader.discover_config(Path(board_path))
         if found is not None:
-            return config_loader.load_config(found)
+            return load_config_file(found)
     return Config()
 
 
-def _reader_options(config: Config, options: CheckOptions, board_path: str | None):
+def _reader_options(config: Config, options: CheckOptions):
     from .reader import ReaderOptions
     folders = tuple(options.include_folders) + tuple(config.include_folders)
     kwargs = dict(options.reader_limits)
@@ -79,7 +115,7 @@ def analyse_board(board, config: Config) -> list[StageResult]:
     """Trace, recognise and analyse every input path of a classified board."""
     from .analysis import analyse_stage
     from .recognise import stages_for_board
-    lib = _library()
+    lib = library()
     cache: dict[tuple, object] = {}
     results: list[StageResult] = []
     for stage in stages_for_board(board, config):
@@ -97,86 +133,210 @@ def analyse_board(board, config: Config) -> list[StageResult]:
 
 
 def effective_limits(config: Config) -> dict[str, float]:
-    lib = _library()
-    limits = {k: v.value for k, v in lib.limits.items()}
+    limits = {k: v.value for k, v in library().limits.items()}
     limits.update(config.limits)
     return limits
 
 
-def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> BoardOutcome:
-    from .checks import run_rules, all_rules
+def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
+    from .errors import UsageError
+    from .selection import resolve_selection
+    ids = rule_ids()
+    # Command-line ids are usage errors; the config's were checked when it loaded.
+    resolve_selection(ids, options.select, options.ignore, where="command line", error=UsageError)
+    return resolve_selection(ids, tuple(config.select) + tuple(options.select),
+                             tuple(config.ignore) + tuple(options.ignore))
+
+
+def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[Finding]:
+    """Upgrade the plain-words fix of each stage finding to concrete standard values."""
+    from .fixes import propose_fixes
+    by_stage: dict[tuple, list[Finding]] = {}
+    for f in findings:
+        if f.contact is not None and f.receiver is not None:
+            by_stage.setdefault((f.contact, f.receiver), []).append(f)
+    fixed: dict[int, str] = {}
+    for result in results:
+        stage_findings = by_stage.get((result.stage.contact.designator, result.stage.receiver.ref))
+        if stage_findings:
+            for finding, text in propose_fixes(result, stage_findings, limits, series).items():
+                fixed[id(finding)] = text
+    return [replace(f, fix=fixed[id(f)]) if id(f) in fixed else f for f in findings]
+
+
+def _apply_debounce_annotations(board, debounces: dict[str, float]) -> None:
+    if not debounces:
+        return
+    board.receivers = [replace(r, firmware_debounce_s=debounces[r.ref.casefold()])
+                       if r.ref.casefold() in debounces else r for r in board.receivers]
+
+
+def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> BoardCheck:
+    """Classify, analyse and check one read netlist; annotations and waivers applied."""
+    from .annotations import read_annotations
+    from .checks import run_rules
     from .classify import classify
-    lib = _library()
-    board = classify(netlist, lib, config, default_bounce_s=options.default_bounce_s)
+    from .waivers import apply_annotations, apply_waivers
+    lib = library()
+    annotations = read_annotations(netlist.files) if netlist.files else None
+    if annotations and annotations.contacts:
+        config = replace(config, contacts=tuple(config.contacts) + tuple(annotations.contacts))
+    board = classify(netlist, lib, config, default_bounce_s=options.default_bounce_s
+                     if options.default_bounce_s is not None else config.default_bounce_s)
+    if annotations:
+        _apply_debounce_annotations(board, annotations.debounces)
     results = analyse_board(board, config)
     limits = effective_limits(config)
     selected = selected_rule_ids(config, options)
     findings = run_rules(board, results, limits, dict(config.severities), selected)
     if options.propose_fixes and findings:
         findings = _with_fixes(results, findings, limits, options.eseries or config.eseries)
-    return BoardOutcome(path=path, board=board, results=results, findings=findings, config=config)
+    notes: tuple = ()
+    if annotations and annotations.waivers:
+        outcome = apply_annotations(findings, [(w.rule, w.parts, w.reason, w.location)
+                                               for w in annotations.waivers])
+        findings, notes = list(outcome.findings), tuple(outcome.notes)
+    waiver_outcome = None
+    if config.waivers:
+        waiver_outcome = apply_waivers(findings, config.waivers, path, options.today or date.today())
+        findings = list(waiver_outcome.findings)
+    return BoardCheck(path=path, board=board, results=results, findings=findings, config=config,
+                      waiver_outcome=waiver_outcome, annotation_notes=notes)
 
 
-def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
-    from .checks import all_rules
-    from .selection import resolve_selection
-    ids = [r.id for r in all_rules()]
-    select = tuple(config.select) + tuple(options.select)
-    ignore = tuple(config.ignore) + tuple(options.ignore)
-    return resolve_selection(ids, select, ignore)
+def read_board(path: str, config: Config, options: CheckOptions):
+    from .reader import read_netlist
+    return read_netlist(path, options=_reader_options(config, options),
+                        keep_as_part=library().is_known_subcircuit)
 
 
-def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[Finding]:
-    from .fixes import propose_fixes
-    by_stage: dict[tuple, list[Finding]] = {}
-    for f in findings:
-        by_stage.setdefault((f.contact, f.receiver), []).append(f)
-    out: list[Finding] = []
-    seen: set[int] = set()
-    for result in results:
-        key = (result.stage.contact.designator, result.stage.receiver.ref)
-        stage_findings = by_stage.get(key)
-        if not stage_findings:
-            continue
-        fixes = propose_fixes(result, stage_findings, limits, series)
-        for f in stage_findings:
-            seen.add(id(f))
-            text = fixes.get(f)
-            out.append(replace(f, fix=text) if text else f)
-    out.extend(f for f in findings if id(f) not in seen)
-    return out
+def check_board_full(path: str | Path, options: CheckOptions = CheckOptions()) -> BoardCheck:
+    """Read and check one netlist file (errors propagate as DrcError)."""
+    path = str(path)
+    config = find_config(path, options)
+    gc_was_enabled = gc.isenabled()
+    gc.disable()  # the pipeline allocates many small records and frees few
+    try:
+        netlist = read_board(path, config, options)
+        return check_netlist(netlist, config, options, path)
+    finally:
+        if gc_was_enabled:
+            gc.enable()
+
+
+def board_report(check: BoardCheck):
+    from .report.model import BoardReport
+    board = check.board
+    kinds = Counter(r.stage.kind for r in check.results)
+    diagnostics = tuple(str(d.location) + ": " + d.message for d in getattr(board, "diagnostics", ()))
+    return BoardReport(path=check.path, stages=tuple(check.results), findings=tuple(check.findings),
+                       contacts=len(board.contacts), stage_kinds=dict(kinds),
+                       diagnostics=diagnostics, config_path=check.config.path if check.config else None)
+
+
+@dataclass(frozen=True)
+class BoardOutcome:
+    """What a worker sends back for one board: its report and its gate notes."""
+
+    report: object
+    notes: tuple[str, ...] = ()
+    waivers: tuple = ()
+    waiver_outcome: object | None = None
+    failed: bool = False
 
 
 def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> BoardOutcome:
-    """Read and check one netlist file."""
-    from .reader import read_netlist
-    path = str(path)
-    config = load_board_config(path, options)
-    lib = _library()
-    netlist = read_netlist(path, options=_reader_options(config, options, path),
-                           keep_as_part=lib.is_known_subcircuit)
-    return check_netlist(netlist, config, options, path)
+    """Check one board; a bad board becomes a report with an error, never an exception.
+
+    Top-level and picklable, so a process pool or a cluster executor can run it.
+    """
+    from .report.model import BoardReport
+    try:
+        check = check_board_full(path, options)
+    except DrcError as exc:
+        return BoardOutcome(BoardReport(path=str(path), error=exc.render()), failed=True)
+    notes = tuple(n.message for n in check.annotation_notes)
+    waivers = tuple(check.config.waivers) if check.config else ()
+    return BoardOutcome(board_report(check), notes, waivers, check.waiver_outcome)
 
 
 def check_text(text: str, path: str = "<example>", config: Config | None = None,
                options: CheckOptions = CheckOptions(propose_fixes=False)):
     """Check netlist text; returns (board, results, findings). For tests and the API."""
     from .reader import read_netlist_text
-    lib = _library()
-    config = config or Config()
-    netlist = read_netlist_text(text, path, keep_as_part=lib.is_known_subcircuit)
-    outcome = check_netlist(netlist, config, options, path)
-    return outcome.board, outcome.results, outcome.findings
+    netlist = read_netlist_text(text, path, keep_as_part=library().is_known_subcircuit)
+    check = check_netlist(netlist, config or Config(), options, path)
+    return check.board, check.results, check.findings
 
 
-def iter_board_files(paths: Iterable[str | Path]) -> list[Path]:
-    """Expand folders into the netlist files they hold, sorted; files as given."""
-    suffixes = {".cir", ".sp", ".spice", ".net", ".ckt"}
+def board_files(paths: Iterable[str | Path]) -> list[Path]:
+    """Expand folders (recursively) into the netlist files they hold; files as given."""
     out: list[Path] = []
     for p in paths:
         p = Path(p)
         if p.is_dir():
-            out.extend(sorted(f for f in p.rglob("*") if f.suffix.lower() in suffixes and f.is_file()))
+            out.extend(sorted((f for f in p.rglob("*")
+                               if f.suffix.lower() in NETLIST_SUFFIXES and f.is_file()),
+                              key=lambda f: str(f)))
         else:
             out.append(p)
     return out
+
+
+def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *,
+          executor: Executor | None = None, baseline_path: str | None = None,
+          fail_level: str = "error", progress=None):
+    """Check many boards and assemble a RunReport (results in a stable order).
+
+    executor: any concurrent.futures.Executor (a process pool, a cluster's
+    executor); None runs in this process. progress: called once per board.
+    """
+    from .checks import all_rules
+    from .report.model import BaselineInfo, RunReport
+    from .waivers import combine_notes
+    files = [str(f) for f in board_files(paths)]
+    if executor is None:
+        outcomes = []
+        for f in files:
+            outcomes.append(check_board(f, options))
+            if progress:
+                progress(f)
+    else:
+        futures = [executor.submit(check_board, f, options) for f in files]
+        outcomes = []
+        for fut in futures:
+            outcomes.append(fut.result())
+            if progress:
+                progress(None)
+    notes: list[str] = [n for o in outcomes for n in o.notes]
+    waiver_sets = {}
+    for o in outcomes:
+        if o.waivers:
+            waiver_sets.setdefault(o.waivers, []).append(o.waiver_outcome)
+    for waivers, wo in waiver_sets.items():
+        notes.extend(n.message for n in combine_notes(waivers, [w for w in wo if w is not None],
+                                                      options.today or date.today()))
+    reports = [o.report for o in outcomes]
+    baseline_info, fixed = None, ()
+    if baseline_path:
+        reports, baseline_info, fixed = _apply_baseline(reports, baseline_path)
+    docs = tuple(r.doc for r in all_rules())
+    return RunReport(boards=tuple(reports), rule_docs=docs, fail_level=fail_level,
+                     waiver_notes=tuple(notes), baseline=baseline_info, fixed=tuple(fixed))
+
+
+def _apply_baseline(reports, baseline_path: str):
+    from .baseline import apply_baseline, load_baseline
+    from .report.model import BaselineInfo
+    baseline = load_baseline(baseline_path)
+    out, fixed, matched, new = [], [], 0, 0
+    for report in reports:
+        if report.error:
+            out.append(report)
+            continue
+        findings, gone = apply_baseline(report.findings, baseline, report.path)
+        matched += sum(1 for f in findings if f.suppression == "baseline")
+        new += sum(1 for f in findings if f.suppression is None)
+        fixed.extend(gone)
+        out.append(replace(report, findings=tuple(findings)))
+    return out, BaselineInfo(path=baseline_path, matched=matched, new=new), fixed

@@ -3,8 +3,12 @@
 Inside the tool every figure is a plain SI float. Text with units arrives
 only from config files, annotations and command-line options, and leaves
 only through reports; this module is the one place that crosses that edge.
-Parsing uses pint (imported lazily, one registry for the process) so that any
-unit spelling pint knows works; formatting is a few lines of arithmetic with
+Parsing reads the common forms ("20 ms", "10 kΩ", "100 nF", "3.3 V", "5 %")
+with a small SI-prefix parser of its own, and falls back to pint (imported
+lazily, one registry for the process) for any other spelling pint knows, and
+for every refusal, so the messages stay pint's; building pint's registry costs
+most of a second, which a command-line run should pay only when needed.
+Formatting is a few lines of arithmetic with
 engineering prefixes, because reports format thousands of figures and need
 no unit algebra for that.
 """
@@ -44,6 +48,28 @@ _LETTER_CODE_UNITS = {
     "k": ("k", "Ω"), "K": ("k", "Ω"), "M": ("M", "Ω"), "m": ("m", "Ω"),
     "p": ("p", "F"), "n": ("n", "F"), "u": ("µ", "F"), "µ": ("µ", "F"), "μ": ("µ", "F"),
 }
+
+
+# SI prefixes (BIPM SI Brochure, 9th edition, table 7); "u" is the usual ASCII micro.
+_SI_PREFIX = {"T": 1e12, "G": 1e9, "M": 1e6, "k": 1e3, "": 1.0, "m": 1e-3,
+              "u": 1e-6, "µ": 1e-6, "n": 1e-9, "p": 1e-12, "f": 1e-15}
+# Coherent SI unit symbols and names per dimension: their base-unit magnitude is the value.
+_SI_UNITS = {
+    "time": ("s",), "resistance": ("Ω", "ohm", "ohms"), "capacitance": ("F",),
+    "voltage": ("V",), "current": ("A",),
+}
+_UNIT_DIMENSION = {unit: dim for dim, units in _SI_UNITS.items() for unit in units}
+_QUANTITY = re.compile(r"^([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*([TGMkmuµnpf]?)(Ω|ohms?|[sFVA])$")
+
+
+def _fast_quantity(clean: str) -> tuple[float, str] | None:
+    """(SI value, dimension) of "<number> <prefix><unit>", or None to let pint decide."""
+    match = _QUANTITY.match(clean)
+    if match is None:
+        return None
+    number, prefix, unit = match.groups()
+    value = float(number) * _SI_PREFIX[prefix]
+    return (value, _UNIT_DIMENSION[unit]) if math.isfinite(value) else None
 
 
 @cache
@@ -102,6 +128,9 @@ def parse_quantity(text: str, dimension: str, where: str = "") -> float:
         if _NUMBER.match(number):
             return float(number) / 100.0
         raise _error(f"{raw!r} is not a percentage; expected e.g. {example!r}", where)
+    fast = _fast_quantity(clean)
+    if fast is not None and fast[1] == dimension:
+        return fast[0]
     registry = _registry()
     try:
         quantity = registry.Quantity(clean)
@@ -133,6 +162,9 @@ def parse_any_quantity(text: str, where: str = "") -> float:
         raise _error(f"{text!r} is a part-marking code, not a quantity; write {suggestion!r}", where)
     if clean.endswith("%") and _NUMBER.match(clean[:-1].strip()):
         return float(clean[:-1]) / 100.0
+    fast = _fast_quantity(clean)
+    if fast is not None:
+        return fast[0]
     try:
         quantity = _registry().Quantity(clean)
         value = float(quantity.to_base_units().magnitude)
