@@ -100,8 +100,8 @@ def _print_text(run, console, quiet: bool) -> None:
     from .report.text import render_folder_summary, render_text
     for board in run.boards:
         if board.error:
-            console.print(f"[bold red]not checked[/]: {board.path}", highlight=False)
-            console.print(board.error, markup=False, highlight=False)
+            console.print(f"[bold red]not checked[/]: {board.path} (the error is on standard error)",
+                          highlight=False)
     render_text(run, console, quiet=quiet)
     if len(run.boards) > 1:
         render_folder_summary(run, console)
@@ -132,6 +132,9 @@ def run_check(args) -> int:
     inputs = [str(f) for f in files] + ([args.config] if args.config else [])
     if args.baseline:
         inputs.append(args.baseline)
+    from .pipeline import rule_ids
+    from .selection import resolve_selection
+    resolve_selection(rule_ids(), options.select, options.ignore, where="command line", error=UsageError)
     fail_level = _run_fail_level(args, options, files)
     executor = None
     if args.jobs > 1 and len(files) > 1:
@@ -155,6 +158,9 @@ def run_check(args) -> int:
         write_baseline(args.write_baseline, run, inputs=inputs)
         active = sum(1 for f in run.findings() if f.suppression is None)
         run = replace(run, baseline=BaselineInfo(args.write_baseline, matched=0, new=active, written=True))
+    for board in run.boards:
+        if board.error:  # bad input is reported on standard error whatever the format
+            sys.stderr.write(board.error.rstrip("\n") + "\n")
     for fmt, file in outputs:
         write_atomic(file, _render(fmt, run, args.quiet), inputs=inputs)
     if args.format == "text":

@@ -1,0 +1,164 @@
+"""The exit-status table, through the real console script in a subprocess.
+
+0: nothing at or above the fail level; 1: findings at or above it; 2: bad
+input, bad config or usage. (Gate convention described in the project's
+CI-format notes; the table is ours.)
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from .helpers import CLEAN, ERROR, WARNING_ONLY, drc
+
+
+@pytest.fixture
+def boards(tmp_path: Path) -> Path:
+    (tmp_path / ".git").mkdir()  # config discovery stops here
+    for name, text in (("clean.cir", CLEAN), ("warning.cir", WARNING_ONLY), ("error.cir", ERROR)):
+        (tmp_path / name).write_text(text)
+    return tmp_path
+
+
+def test_version():
+    proc = drc("--version")
+    assert proc.returncode == 0 and proc.stdout.startswith("drc ")
+
+
+@pytest.mark.parametrize("board, args, status", [
+    ("clean.cir", (), 0),
+    ("warning.cir", (), 0),                           # warnings do not fail at the default level
+    ("warning.cir", ("--fail-level", "warning"), 1),
+    ("warning.cir", ("--fail-level", "note"), 1),
+    ("error.cir", (), 1),
+    ("error.cir", ("--report-only",), 0),
+    ("error.cir", ("--ignore", "undebounced-input,floating-input"), 0),
+    ("error.cir", ("--select", "pullup-waste"), 0),
+    ("clean.cir", ("--select", "bounce-windw"), 2),    # unknown id: usage error
+    ("clean.cir", ("--fail-level", "fatal"), 2),
+    ("clean.cir", ("--bounce", "3V3"), 2),
+    ("missing.cir", (), 2),
+])
+def test_exit_status_table(boards: Path, board, args, status):
+    proc = drc("check", str(boards / board), "--no-fixes", *args)
+    assert proc.returncode == status, proc.stdout + proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
+def test_unknown_rule_suggests_the_nearest(boards: Path):
+    proc = drc("check", str(boards / "clean.cir"), "--select", "bounce-windw")
+    assert "bounce-window" in proc.stderr
+
+
+def test_bad_netlist_is_located(boards: Path):
+    bad = boards / "bad.cir"
+    bad.write_text("bad board\nR1 a b 10k\nR2 a\n.end\n")
+    proc = drc("check", str(bad))
+    assert proc.returncode == 2
+    assert f"{bad}:3:" in proc.stderr, proc.stderr
+    assert "Traceback" not in proc.stderr
+
+
+def test_bad_config_is_located(boards: Path):
+    (boards / "drc.toml").write_text('fail-level = "error"\nbounse = "5 ms"\n')
+    proc = drc("check", str(boards / "clean.cir"))
+    assert proc.returncode == 2
+    assert "drc.toml:2" in proc.stderr and "bounse" in proc.stderr, proc.stderr
+
+
+def test_one_bad_board_in_a_folder_exits_2_but_reports_the_rest(boards: Path):
+    (boards / "bad.cir").write_text("bad board\n.subckt X a\n")
+    proc = drc("check", str(boards), "--format", "json", "--no-fixes")
+    assert proc.returncode == 2
+    doc = json.loads(proc.stdout)
+    assert doc["format"] == "drc-report/1"
+    paths = [b["path"] for b in doc["boards"]]
+    assert len(paths) == 4
+
+
+def test_output_files_and_no_overwrite_of_inputs(boards: Path):
+    sarif = boards / "out" / "drc.sarif"
+    sarif.parent.mkdir()
+    proc = drc("check", str(boards / "error.cir"), "-o", f"sarif:{sarif}", "-o",
+               f"junit:{boards / 'out' / 'junit.xml'}", "--no-fixes")
+    assert proc.returncode == 1
+    assert json.loads(sarif.read_text())["version"] == "2.1.0"
+    assert (boards / "out" / "junit.xml").read_text().startswith("<?xml")
+    before = (boards / "error.cir").read_bytes()
+    proc = drc("check", str(boards / "error.cir"), "-o", f"json:{boards / 'error.cir'}")
+    assert proc.returncode == 2 and (boards / "error.cir").read_bytes() == before
+
+
+def test_json_is_deterministic(boards: Path):
+    first = drc("check", str(boards), "--format", "json", "--no-fixes").stdout
+    second = drc("check", str(boards), "--format", "json", "--no-fixes", "--jobs", "2").stdout
+    assert first == second
+    doc = json.loads(first)
+    stage = next(s for b in doc["boards"] for s in b["stages"] if b["path"].endswith("clean.cir"))
+    assert stage["contact"] == "SW1" and stage["receiver"] == "U1:1" and stage["kind"] == "rc-schmitt"
+    assert set(stage["edges"]) == {"press", "release"}
+    for edge in stage["edges"].values():
+        assert edge["fastest_s"] <= edge["nominal_s"] <= edge["slowest_s"]
+
+
+def test_baseline_flow(boards: Path):
+    base = boards / "baseline.json"
+    proc = drc("check", str(boards / "error.cir"), "--write-baseline", str(base), "--no-fixes")
+    assert proc.returncode == 1 and base.is_file()
+    proc = drc("check", str(boards / "error.cir"), "--baseline", str(base), "--no-fixes")
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    # A line shift keeps the match (designators, not line numbers).
+    shifted = boards / "error.cir"
+    shifted.write_text(ERROR.replace("error board\n", "error board\n* a new comment\n* another\n"))
+    assert drc("check", str(shifted), "--baseline", str(base), "--no-fixes").returncode == 0
+    # A new finding fails.
+    shifted.write_text(ERROR.replace(".end", "SW2 d2 0 TOGGLE\nR9 vcc d2 10k\nXU2 vcc d2 d2 vcc q2 d3 0 0 0 vcc 0 0 vcc vcc 74HC74\n.end"))
+    proc = drc("check", str(shifted), "--baseline", str(base), "--no-fixes")
+    assert proc.returncode == 1, proc.stdout
+
+
+def test_waiver_flow(boards: Path):
+    (boards / "drc.toml").write_text(
+        '[[waivers]]\nrule = "undebounced-input"\nparts = ["SW1"]\nreason = "toggle read by a poll loop"\n'
+        'author = "bench team"\nexpires = 2099-01-01\n'
+        '[[waivers]]\nrule = "pullup-waste"\nparts = ["R77"]\nreason = "stale"\nauthor = "x"\nexpires = 2099-01-01\n')
+    proc = drc("check", str(boards / "error.cir"), "--no-fixes")
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    assert "R77" in proc.stdout and "matches no finding" in " ".join(proc.stdout.split())
+    # An expired waiver stops suppressing.
+    proc = drc("check", str(boards / "error.cir"), "--no-fixes", "--as-of", "2100-01-01")
+    assert proc.returncode == 1
+    assert "expired" in proc.stdout
+
+
+def test_annotation_waiver(boards: Path):
+    text = ERROR.replace(".end", "*@drc waive undebounced-input SW1 : toggle polled in firmware\n.end")
+    (boards / "annotated.cir").write_text(text)
+    proc = drc("check", str(boards / "annotated.cir"), "--no-fixes", "--format", "sarif")
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    results = json.loads(proc.stdout)["runs"][0]["results"]
+    assert all(r.get("suppressions") for r in results)
+    assert any(s["kind"] == "inSource" for r in results for s in r["suppressions"])
+
+
+def test_rules_and_explain():
+    proc = drc("rules")
+    assert proc.returncode == 0
+    for rule_id in ("undebounced-input", "bounce-window", "ambiguous-value"):
+        assert rule_id in proc.stdout
+    proc = drc("explain", "slow-edge")
+    assert proc.returncode == 0 and "Failing example" in proc.stdout
+    proc = drc("explain", "slow-edg")
+    assert proc.returncode == 2 and "slow-edge" in proc.stderr
+
+
+def test_trace_prints_times(boards: Path):
+    proc = drc("trace", str(boards / "clean.cir"), "SW1")
+    assert proc.returncode == 0, proc.stderr
+    for word in ("rc-schmitt", "press", "release", "fastest", "R2", "C1"):
+        assert word in proc.stdout
+    proc = drc("trace", str(boards / "clean.cir"), "SW9")
+    assert proc.returncode == 2 and "SW1" in proc.stderr
