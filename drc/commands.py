@@ -264,9 +264,8 @@ def run_simulate(args) -> int:
     sim = simulate_stage(result.stage, rx, trials=args.trials, seed=args.seed)
     if args.spice:
         from .atomic import write_atomic
-        write_atomic(args.spice, chatter_deck(result.stage, rx, sim.worst_trial_record
-                                              if hasattr(sim, "worst_trial_record") else sim),
-                     inputs=[args.board] + ([args.config] if args.config else []))
+        deck = chatter_deck(result.stage, rx, sim.trial(sim.worst_trial))
+        write_atomic(args.spice, deck, inputs=[args.board] + ([args.config] if args.config else []))
     if args.format == "json":
         sys.stdout.write(json.dumps(simulation_json(sim), indent=2, sort_keys=True) + "\n")
     else:

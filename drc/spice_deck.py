@@ -29,7 +29,7 @@ _MAX_POINTS = 250_000  # cap on t_stop / max step, so a deck runs in seconds
 
 
 def _fmt(x: float) -> str:
-    return f"{x:.9g}"
+    return f"{x:.15g}"  # PWL times late in a long deck need more than 9 figures
 
 
 def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner="nominal", press_at: float = 1e-3,
