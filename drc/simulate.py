@@ -262,7 +262,7 @@ class _StageSystem:
         """(the new state, the bounce state) of an actuation."""
         return self.mode(EDGE_STATES[edge][1], edge), self.mode(self.alternate[edge], edge)
 
-    def start_u(self, edge: str) -> np.ndarray:
+    def start_u(self, edge: str) -> tuple[np.ndarray, float]:
         dc = dc_solve(self.model, EDGE_STATES[edge][0], self.row(edge)[None, :])
         return cap_voltages(self.model, dc)[0], float(dc.rx_v[0])
 
@@ -442,10 +442,13 @@ def replay_trial(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> T
 
 # ---------------------------------------------------------------- the ngspice deck of one trial
 
+def _time(t: float) -> str:
+    """A time with 15 significant figures: the 1 ns control ramps stay distinct after a second."""
+    return f"{t:.15g}"
+
+
 def _pwl(points: list[tuple[float, float]]) -> str:
-    from .spice_deck import _fmt  # the deck writer's number format, so both decks read alike
-    body = " ".join(f"{_fmt(t)} {_fmt(v)}" for t, v in points)
-    return f"PWL({body})"
+    return "PWL(" + " ".join(f"{_time(t)} {v:g}" for t, v in points) + ")"
 
 
 def _control_points(instants: list[float], levels: list[int], initial: int) -> list[tuple[float, float]]:
@@ -522,16 +525,16 @@ def chatter_deck(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> s
         "* throw(s); both 0 V while a changeover's common is between throws",
         f"Vctl ctl 0 {_pwl(ctl)}",
         f"Vctlb ctlb 0 {_pwl(ctlb)}",
-        f".tran {_fmt(t_max)} {_fmt(sch.t_stop)} 0 {_fmt(t_max)}",
+        f".tran {_fmt(t_max)} {_time(sch.t_stop)} 0 {_fmt(t_max)}",
     ]
     for i, t in enumerate(instants):
-        lines.append(f".meas tran v{i:03d} FIND {node} AT={_fmt(t - _DECK_HALF_EDGE)}")
-    lines.append(f".meas tran vend FIND {node} AT={_fmt(sch.t_stop)}")
+        lines.append(f".meas tran v{i:03d} FIND {node} AT={_time(t - _DECK_HALF_EDGE)}")
+    lines.append(f".meas tran vend FIND {node} AT={_time(sch.t_stop)}")
     for edge, start, stop in (("press", sch.press_at, sch.leak_switch), ("release", sch.release_at, sch.t_stop)):
         es = system.setups[edge]
         vth = up if es.direction > 0 else lo
         way = "RISE" if es.direction > 0 else "FALL"
-        td = _fmt(start - _DECK_HALF_EDGE)
+        td = _time(start - _DECK_HALF_EDGE)
         lines.append(f"* {edge}: the receiver should {way.lower()} through {_fmt(vth)} V once")
         lines.append(f".meas tran {edge}_first WHEN {node}={_fmt(vth)} {way}=1 TD={td}")
         lines.append(f".meas tran {edge}_last WHEN {node}={_fmt(vth)} {way}=LAST TD={td}")

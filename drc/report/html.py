@@ -138,7 +138,6 @@ def _stage_view(result: StageResult, anchor: str, findings: list[Finding], svg_c
         "crossings": [(edge, crossings.get(edge, [])) for edge in EDGES],
         "notes": list(result.notes), "status": _status(findings),
         "findings": len([f for f in findings if f.suppression is None]),
-        "plot_data": [(e.edge, [(c.corner, c.crossing_s) for c in e.curves]) for e in plot.edges],
     }
 
 
