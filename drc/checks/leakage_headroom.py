@@ -26,7 +26,10 @@ DOC = RuleDoc(
          "into the wrong logic value. TTL's large IIL makes pull-downs above about 2 kΩ fail outright."),
     how=("DC nodal analysis with the leakage as a current source, at the corner nearest the "
          "threshold. Margin = worst level − required (high) or required − worst level (low), "
-         "compared with `leakage_headroom_margin` × VCC."),
+         "compared with `leakage_headroom_margin` × VCC, but never with more than half the room "
+         "between the threshold and the rail the level heads for (VCC − required for a high, "
+         "required − 0 V for a low): a TTL-level input whose VT- min is 0.5 V cannot keep 0.5 V "
+         "of margin above 0 V, and an ideal low must pass."),
     fix=("Lower the pull or series resistance, remove a divider, or use a CMOS-input family "
          "instead of TTL when a resistor sits in the low path."),
     failing_example=netlist("A 22 kΩ bleeder divides the 6.8 kΩ pull-up's high level down to about 3.5 V",
@@ -41,9 +44,12 @@ DOC = RuleDoc(
 def check(result: StageResult, ctx: RuleContext):
     rx = result.receiver_electrical
     vcc = rx.vcc if rx is not None else result.stage.receiver.supply_v
-    needed = ctx.limit(MARGIN) * vcc
     for state, level in result.levels.items():
-        if level.logic not in ("high", "low") or level.margin_v is None or level.margin_v >= needed:
+        if level.logic not in ("high", "low") or level.margin_v is None or level.required_v is None:
+            continue
+        room = vcc - level.required_v if level.logic == "high" else level.required_v
+        needed = min(ctx.limit(MARGIN) * vcc, 0.5 * max(room, 0.0))
+        if level.margin_v >= needed:
             continue
         if level.logic == "high":
             req = "VT+ max" if is_schmitt(result) else "VIH min"
