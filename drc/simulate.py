@@ -560,6 +560,21 @@ def simulation_json(result: SimulationResult) -> dict:
     }
 
 
+_BINS = ((0, 0), (1, 1), (2, 2), (3, 5), (6, 10), (11, 30), (31, 100), (101, None))
+
+
+def histogram_bins(histogram: dict[int, int]) -> list[tuple[str, int]]:
+    """Edges-per-actuation counts folded into a few readable ranges ("3-5": 17, ">100": 2)."""
+    out = []
+    for low, high in _BINS:
+        count = sum(n for edges, n in histogram.items()
+                    if edges >= low and (high is None or edges <= high))
+        if count:
+            label = str(low) if low == high else (f">{low - 1}" if high is None else f"{low}-{high}")
+            out.append((label, count))
+    return out
+
+
 def render_simulation_text(result: SimulationResult, console) -> None:
     """Print the result to a rich Console: a table per actuation and a verdict."""
     from rich import box
@@ -579,7 +594,7 @@ def render_simulation_text(result: SimulationResult, console) -> None:
                           ("most edges", "right"), ("mean", "right"), ("edges per actuation", "left")):
         table.add_column(name, justify=justify)
     for edge, s in result.edges.items():
-        hist = "  ".join(f"{k}:{v}" for k, v in sorted(s.histogram.items()))
+        hist = "  ".join(f"{k}:{v}" for k, v in histogram_bins(s.histogram))
         style = "green" if s.clean_trials == s.trials else "bold red"
         table.add_row(edge, Text(f"{s.clean_trials}/{s.trials}", style=style), str(s.missed_trials),
                       str(s.max_edges), f"{s.mean_edges:.2f}", hist)
