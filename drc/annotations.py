@@ -23,12 +23,14 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass, field
-from pathlib import Path
 
 from .config_model import ContactConfig
-from .errors import ConfigError, SourceLocation
+from .errors import ConfigError, DrcError, SourceLocation
+from .lines import decode, read_regular, split_lines
 
 MARK = "*@drc"
+# The reader already refused files above its own limit; this only bounds a re-read.
+MAX_ANNOTATED_BYTES = 1 << 31
 _REASON = re.compile(r":(?=\s|$)")
 
 
@@ -89,7 +91,9 @@ def parse_annotations(text: str, file: str) -> Annotations:
     found = Annotations()
     if MARK not in text:
         return found
-    for line_no, line in enumerate(text.splitlines(), start=1):
+    # The reader's own line splitting (CR, LF, CRLF only), so line numbers agree
+    # with its locations even when the text holds form feeds or U+2028.
+    for line_no, line in enumerate(split_lines(text), start=1):
         stripped = line.lstrip()
         if not stripped.startswith(MARK):
             continue
@@ -129,12 +133,15 @@ def read_annotations(files: tuple[str, ...]) -> Annotations:
     merged = Annotations()
     for file in files:
         try:
-            raw = Path(file).read_bytes()
-        except OSError:
+            # Same guards and decoding as the reader (regular files only, BOMs,
+            # Latin-1 fallback): the file was read once already, so this only
+            # fails if it changed under us, and then it is simply skipped.
+            text = decode(read_regular(file, file, MAX_ANNOTATED_BYTES))
+        except (DrcError, UnicodeDecodeError):
             continue
-        if MARK.encode() not in raw:
+        if MARK not in text:
             continue
-        one = parse_annotations(raw.decode("utf-8", errors="replace"), file)
+        one = parse_annotations(text, file)
         merged.contacts.extend(one.contacts)
         merged.debounces.update(one.debounces)
         merged.waivers.extend(one.waivers)

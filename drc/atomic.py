@@ -26,13 +26,27 @@ def _same_file(a: Path, b: Path) -> bool:
         return False
 
 
+# Existing files with these names or suffixes are inputs of some run (netlists,
+# included libraries, configs): never replaced, even when a caller forgot to
+# list them among its inputs (a config found by discovery, an included file).
+INPUT_NAMES = frozenset({"drc.toml", "pyproject.toml"})
+INPUT_SUFFIXES = frozenset({".cir", ".sp", ".spice", ".net", ".ckt", ".inc", ".lib", ".mod",
+                            ".sub", ".subckt"})
+
+
 def check_not_input(path: str | os.PathLike, inputs: Iterable[str | os.PathLike]) -> None:
-    """Raise UsageError when `path` is one of the input files (also via links)."""
+    """Raise UsageError when `path` is one of the input files (also via links), or an
+    existing netlist or config file."""
     target = Path(path).resolve()
     for item in inputs:
         if _same_file(target, Path(item).resolve()):
             raise UsageError(f"refusing to write {os.fspath(path)}: it is an input file "
                              f"(input files are never modified); choose another output path")
+    if target.exists() and (target.name.lower() in INPUT_NAMES
+                            or target.suffix.lower() in INPUT_SUFFIXES):
+        raise UsageError(f"refusing to write {os.fspath(path)}: it is an existing netlist or "
+                         "config file, an input of some run (input files are never modified); "
+                         "choose another output path")
 
 
 def write_atomic(path: str | os.PathLike, text: str,
@@ -56,9 +70,13 @@ def write_atomic(path: str | os.PathLike, text: str,
             handle.flush()
             os.fsync(handle.fileno())
         os.replace(handle.name, target)
-    except OSError as exc:
+    except BaseException as exc:
+        # Interrupted (Ctrl-C) or failed: the destination keeps its previous
+        # content and no temporary file is left behind.
         try:
             os.unlink(handle.name)
         except OSError:
             pass
-        raise UsageError(f"cannot write {os.fspath(path)}: {exc.strerror or exc}") from None
+        if isinstance(exc, OSError):
+            raise UsageError(f"cannot write {os.fspath(path)}: {exc.strerror or exc}") from None
+        raise

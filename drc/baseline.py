@@ -12,6 +12,7 @@ returns the entries that matched nothing: findings that have been fixed.
 
 from __future__ import annotations
 
+import codecs
 import json
 import os
 from collections.abc import Iterable, Sequence
@@ -21,12 +22,15 @@ from typing import TYPE_CHECKING, Any
 
 from .atomic import write_atomic
 from .errors import ConfigError, SourceLocation
+from .lines import read_regular
 from .findings import SEVERITIES, Finding
 
 if TYPE_CHECKING:
     from .report.model import RunReport
 
 BASELINE_FORMAT = "drc-baseline/1"
+# A baseline of a large audit is megabytes; a fixed cap keeps a wrong path cheap.
+MAX_BASELINE_BYTES = 256 * 1024 * 1024
 _ENTRY_KEYS = ("board", "rule", "contact", "receiver", "parts", "severity", "message")
 
 
@@ -113,12 +117,20 @@ def load_baseline(path: str | os.PathLike) -> Baseline:
     """Read a baseline file; a malformed one is a located ConfigError."""
     name = os.fspath(path)
     try:
-        text = Path(path).read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        reason = getattr(exc, "strerror", None) or str(exc)
-        raise _bad(name, f"cannot read the file: {reason}") from None
+        data = read_regular(name, name, MAX_BASELINE_BYTES, ConfigError, None)
+    except ConfigError as exc:
+        raise _bad(name, f"cannot read the file: {exc.message}") from None
+    try:
+        text = data.decode("utf-16") if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)) \
+            else data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        before = data[:exc.start]
+        raise _bad(name, f"not UTF-8 text ({exc.reason})", before.count(b"\n") + 1,
+                   exc.start - (before.rfind(b"\n") + 1) + 1) from None
     try:
         document = json.loads(text)
+    except RecursionError:
+        raise _bad(name, "not valid JSON: arrays or objects nest too deeply") from None
     except json.JSONDecodeError as exc:
         raise ConfigError(f"baseline: not valid JSON: {exc.msg}",
                           SourceLocation(name, exc.lineno, exc.colno),

@@ -43,6 +43,7 @@ class Contact:
     location: SourceLocation
     origin: str  # "element", "subcircuit", "config" or "annotation"
     closed_resistance: float = 0.1
+    static: bool = False  # read as configuration (e.g. DIP), not as events
 
 
 @dataclass(frozen=True, slots=True)

@@ -387,7 +387,7 @@ def _add_contacts(ctx: _Context, element: Element, nodes: tuple[str, ...], match
             designator=designator, contact_class=cls.name, form=form,
             terminals=tuple(ctx.net(n) for n in terminals), bounce_s=bounce,
             wetting_a=getattr(cls, "wetting_a", None), rating_a=getattr(cls, "rating_a", None),
-            location=element.location, origin=origin, **extra))
+            location=element.location, origin=origin, static=getattr(cls, "static", False), **extra))
 
 
 def _poles(nodes: tuple[str, ...], form: str, form_configured: bool):

@@ -88,11 +88,14 @@ from typing import Any
 from .config_model import (Config, ContactConfig, McuConfig, McuPinConfig, PartConfig,
                            RailConfig, Tolerances, Waiver)
 from .errors import ConfigError, SourceLocation
+from .lines import read_regular
 from .findings import SEVERITIES
 from .selection import suggest, unknown_name_message
 from .units import parse_any_quantity, parse_quantity
 
 CONFIG_NAME = "drc.toml"
+# A config is a few kilobytes; anything near this is not one (a fixed limit).
+MAX_CONFIG_BYTES = 16 * 1024 * 1024
 PYPROJECT_NAME = "pyproject.toml"
 CONTACT_FORMS = ("SPST-NO", "SPST-NC", "SPDT")
 PULL_DIRECTIONS = ("up", "down")
@@ -123,12 +126,14 @@ def _has_tool_drc(pyproject: Path) -> bool:
     import tomllib
 
     try:
-        data = tomllib.loads(pyproject.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError):
+        text = _decode(read_regular(str(pyproject), str(pyproject), MAX_CONFIG_BYTES,
+                                    ConfigError, None), str(pyproject))
+        data = tomllib.loads(text)
+    except ConfigError:
         return False
-    except tomllib.TOMLDecodeError:
+    except (tomllib.TOMLDecodeError, RecursionError, ValueError):
         # A broken pyproject that mentions our table is ours to report, not to skip.
-        return "tool.drc" in pyproject.read_text(encoding="utf-8", errors="replace")
+        return "tool.drc" in text
     return isinstance(data.get("tool"), dict) and "drc" in data["tool"]
 
 
@@ -491,18 +496,42 @@ def _waivers(r: _Reader, value: Any, rule_ids: tuple[str, ...] | None) -> tuple[
 
 # ---------------------------------------------------------------- loading
 
+def _decode(data: bytes, shown: str) -> str:
+    """Config text: UTF-8 (a BOM is dropped) or BOM-marked UTF-16; else a located error."""
+    import codecs
+
+    if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        try:
+            return data.decode("utf-16")
+        except UnicodeDecodeError as exc:
+            raise ConfigError(f"the config file has a UTF-16 byte-order mark but is not valid "
+                              f"UTF-16 ({exc.reason})", SourceLocation(shown)) from None
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        before = data[:exc.start]
+        line = before.count(b"\n") + 1
+        column = exc.start - (before.rfind(b"\n") + 1) + 1
+        raw = data.splitlines()[line - 1].decode("utf-8", "replace") if data else None
+        raise ConfigError(f"the file is not UTF-8 text (byte 0x{data[exc.start]:02x}); "
+                          "save it as UTF-8", SourceLocation(shown, line, column), raw) from None
+
+
 def _read_toml(path: Path) -> tuple[str, dict]:
     import tomllib
 
-    try:
-        text = path.read_text(encoding="utf-8")
-    except UnicodeDecodeError:
-        raise ConfigError("the config file is not UTF-8 text", SourceLocation(str(path))) from None
-    except OSError as exc:
-        raise ConfigError(f"cannot read the config file: {exc.strerror or exc}",
-                          SourceLocation(str(path))) from None
+    text = _decode(read_regular(str(path), str(path), MAX_CONFIG_BYTES, ConfigError, None),
+                   str(path))
+    if "\x00" in text:
+        for number, raw in enumerate(text.splitlines(), 1):
+            if "\x00" in raw:
+                raise ConfigError("NUL byte in the config file (is this a binary file?)",
+                                  SourceLocation(str(path), number, raw.index("\x00") + 1), raw)
     try:
         return text, tomllib.loads(text)
+    except RecursionError:
+        raise ConfigError("not valid TOML: arrays or inline tables nest too deeply",
+                          SourceLocation(str(path))) from None
     except tomllib.TOMLDecodeError as exc:
         message = str(exc)
         found = re.search(r"\(at line (\d+), column (\d+)\)", message)

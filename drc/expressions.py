@@ -79,7 +79,8 @@ def _tokenize(text: str, max_work: int) -> list[tuple[str, str, int]]:
         if len(tokens) > max_work:
             raise ExpressionError(
                 f"expression has more than {max_work} tokens "
-                "(limit ReaderOptions.max_expression_work)", pos, "max_expression_work")
+                "(limit max-expression-work: raise it with --max-expression-work or "
+                "ReaderOptions.max_expression_work)", pos, "max_expression_work")
         pos = match.end()
     tokens.append(("end", "", end))
     return tokens
@@ -110,7 +111,8 @@ class _Parser:
         if depth >= self.max_depth:
             raise ExpressionError(
                 f"expression nests deeper than {self.max_depth} levels "
-                "(limit ReaderOptions.max_expression_depth)", offset, "max_expression_depth")
+                "(limit max-expression-depth: raise it with --max-expression-depth or "
+                "ReaderOptions.max_expression_depth)", offset, "max_expression_depth")
         return depth + 1
 
     def expr(self, depth: int) -> tuple:
@@ -194,7 +196,8 @@ def compile_expression(text: str, *, max_depth: int = 64, max_work: int = 10_000
         tree = parser.expr(0)
     except RecursionError:
         raise ExpressionError("expression nests too deeply for this interpreter "
-                              "(limit ReaderOptions.max_expression_depth)", 0,
+                              "(limit max-expression-depth: lower --max-expression-depth or "
+                              "ReaderOptions.max_expression_depth)", 0,
                               "max_expression_depth") from None
     kind, value, offset = parser.peek()
     if kind != "end":
@@ -272,7 +275,9 @@ def evaluate(expression: Expression,
     try:
         pair = (_eval(expression.tree, scope, 0), _eval(expression.tree, scope, 1))
     except RecursionError:
-        raise ExpressionError("expression nests too deeply", 0, "max_expression_depth") from None
+        raise ExpressionError("expression nests too deeply for this interpreter "
+                              "(limit max-expression-depth: lower --max-expression-depth)", 0,
+                              "max_expression_depth") from None
     for number in pair:
         if not math.isfinite(number):
             raise ExpressionError(f"expression {expression.text!r} overflows", 0)

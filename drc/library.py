@@ -335,6 +335,7 @@ class ContactClass:
     bounce_source: str
     wetting_source: str | None
     rating_source: str | None
+    static: bool = False  # read as configuration, not as events
 
 
 @dataclass(frozen=True, slots=True)
@@ -644,6 +645,13 @@ def _parse_contact(r: _Reader, name: str, raw: Any) -> ContactClass:
         raise r.error(where, "missing `bounce_ms`")
     wetting, wetting_src = amount("wetting_ma", 1e-3)
     rating, rating_src = amount("rating_ma", 1e-3)
+    static = False
+    if "static" in t:
+        q = r.table(t["static"], f"{where}.static")
+        if not isinstance(q.get("value"), bool):
+            raise r.error(f"{where}.static", "expected `value = true` or `value = false`")
+        r.source(q, f"{where}.static")
+        static = q["value"]
     form = t.get("default_form")
     if form not in FORMS:
         raise r.error(where, f"default_form must be one of {FORMS}")
@@ -655,6 +663,7 @@ def _parse_contact(r: _Reader, name: str, raw: Any) -> ContactClass:
         wetting_a=wetting, rating_a=rating, default_form=form,
         patterns=tuple(str(p).upper() for p in patterns),
         bounce_source=bounce_src, wetting_source=wetting_src, rating_source=rating_src,
+        static=static,
     )
 
 

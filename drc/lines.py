@@ -38,7 +38,7 @@ class LogicalLine:
     a tuple of (offset in text, physical line, column) for every piece.
     """
 
-    __slots__ = ("text", "line", "column", "pieces", "source")
+    __slots__ = ("text", "line", "column", "pieces", "source", "record")
 
     def __init__(self, text: str, line: int, column: int, pieces, source: SourceFile) -> None:
         self.text = text
@@ -46,6 +46,7 @@ class LogicalLine:
         self.column = column
         self.pieces = pieces
         self.source = source
+        self.record = None  # the parsed record, kept for a file that is included again
 
     def position(self, offset: int) -> tuple[int, int]:
         """Physical (line, column) of character `offset` of `text`."""
@@ -72,6 +73,12 @@ class LogicalLine:
 
     def __repr__(self) -> str:
         return f"LogicalLine({self.text!r}, line={self.line}, column={self.column})"
+
+
+def limit_hint(field: str) -> str:
+    """How a limit message names its limit: the command-line option and the API field."""
+    return f"(limit {field.replace('_', '-')}: raise it with --{field.replace('_', '-')} " \
+           f"or ReaderOptions.{field})"
 
 
 def physical_line(source: SourceFile, line: int) -> str:
@@ -109,29 +116,47 @@ def check_nul(source: SourceFile) -> None:
                                SourceLocation(source.path, number, column + 1), line)
 
 
-def read_source(path: str, shown: str, max_bytes: int) -> SourceFile:
-    """Read and decode one regular file, refusing devices, FIFOs and big files."""
+def read_regular(path: str, shown: str, max_bytes: int, error: type = NetlistError,
+                 limit_name: str | None = "max_file_bytes") -> bytes:
+    """The bytes of the regular file `path`, refusing devices, FIFOs, folders and big files.
+
+    Opened non-blocking, so a FIFO never hangs the open; checked with fstat
+    on the open descriptor, so a file swapped for a device after a check is
+    still refused. `error` is the DrcError class raised (located at `shown`);
+    `limit_name` the ReaderOptions field named when the file is too big
+    (None: a fixed limit).
+    """
     try:
         fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0))
     except FileNotFoundError:
-        raise NetlistError("file not found", SourceLocation(shown)) from None
+        raise error("file not found", SourceLocation(shown)) from None
     except OSError as exc:
-        raise NetlistError(f"cannot open file: {exc.strerror}", SourceLocation(shown)) from None
+        raise error(f"cannot open file: {exc.strerror or exc}", SourceLocation(shown)) from None
+    hint = limit_hint(limit_name) if limit_name else "(a fixed limit)"
+    too_big = LimitError if error is NetlistError else error
     try:
         info = os.fstat(fd)
         if not stat.S_ISREG(info.st_mode):
-            raise NetlistError("not a regular file (a folder, device, FIFO or socket); "
-                               "only plain netlist files are read", SourceLocation(shown))
+            raise error("not a regular file (a folder, device, FIFO or socket); "
+                        "only plain files are read", SourceLocation(shown))
         if info.st_size > max_bytes:
-            raise LimitError(f"file is {info.st_size} bytes, above the limit of {max_bytes} "
-                             "(raise ReaderOptions.max_file_bytes)", SourceLocation(shown))
+            raise too_big(f"file is {info.st_size} bytes, above the limit of {max_bytes} "
+                          + hint, SourceLocation(shown))
         with os.fdopen(os.dup(fd), "rb") as handle:
             data = handle.read(max_bytes + 1)
+    except OSError as exc:
+        raise error(f"cannot read file: {exc.strerror or exc}", SourceLocation(shown)) from None
     finally:
         os.close(fd)
     if len(data) > max_bytes:
-        raise LimitError(f"file is larger than the limit of {max_bytes} bytes "
-                         "(raise ReaderOptions.max_file_bytes)", SourceLocation(shown))
+        raise too_big(f"file is larger than the limit of {max_bytes} bytes " + hint,
+                      SourceLocation(shown))
+    return data
+
+
+def read_source(path: str, shown: str, max_bytes: int) -> SourceFile:
+    """Read and decode one regular file, refusing devices, FIFOs and big files."""
+    data = read_regular(path, shown, max_bytes)
     try:
         text = decode(data)
     except UnicodeDecodeError as exc:
@@ -177,12 +202,31 @@ def strip_comment(text: str) -> str:
 
 
 def logical_lines(source: SourceFile, first: int, max_length: int) -> list[LogicalLine]:
-    """The statements of `source`, from physical line index `first` (0-based)."""
+    """The statements of `source`, from physical line index `first` (0-based).
+
+    Continuation pieces are collected in a list and joined once per
+    statement, so a million `+` lines cost linear time; every length is
+    checked before any per-character work (comment stripping), so a 100 MB
+    line fails fast with a located LimitError.
+    """
     out: list[LogicalLine] = []
     current: LogicalLine | None = None
+    parts: list[str] = []       # text pieces of `current` not yet joined
     pieces: list | None = None
+    length = 0                  # length of `current` once joined
     append = out.append
     lines = source.lines
+
+    def too_long(number: int, column: int, raw: str, what: str) -> LimitError:
+        return LimitError(f"{what} is longer than {max_length} characters "
+                          + limit_hint("max_line_length"),
+                          SourceLocation(source.path, number, column), raw)
+
+    def close() -> None:
+        if current is not None and len(parts) > 1:
+            current.text = " ".join(parts)
+            current.pieces = pieces
+
     for index in range(first, len(lines)):
         raw = lines[index]
         text = raw.lstrip()
@@ -191,6 +235,11 @@ def logical_lines(source: SourceFile, first: int, max_length: int) -> list[Logic
         head = text[0]
         if head == "*":
             continue
+        column = len(raw) - len(text) + 1
+        if len(text) > max_length and len(text.rstrip()) > max_length:
+            # Checked before comment stripping: a line this long is refused
+            # whatever it holds (comment lines starting `*` were skipped above).
+            raise too_long(index + 1, column, raw, "line")
         if ";" in text or "$" in text or "//" in text:
             text = strip_comment(text)
             if not text:
@@ -198,7 +247,6 @@ def logical_lines(source: SourceFile, first: int, max_length: int) -> list[Logic
             head = text[0]
         else:
             text = text.rstrip()
-        column = len(raw) - len(raw.lstrip()) + 1
         if head == "+":
             if current is None:
                 raise NetlistError("continuation line (`+`) with no statement before it",
@@ -209,19 +257,19 @@ def logical_lines(source: SourceFile, first: int, max_length: int) -> list[Logic
                 continue
             if pieces is None:
                 pieces = [(0, current.line, current.column)]
-            offset = len(current.text) + 1
+            offset = length + 1
             pieces.append((offset, index + 1, column + 1 + len(body) - len(stripped)))
-            current.text = current.text + " " + stripped
-            current.pieces = pieces
-            if len(current.text) > max_length:
-                raise current.error(f"statement is longer than {max_length} characters "
-                                    "(raise ReaderOptions.max_line_length)", cls=LimitError)
+            parts.append(stripped)
+            length = offset + len(stripped)
+            if length > max_length:
+                raise too_long(current.line, current.column, physical_line(source, current.line),
+                               "statement (with its `+` continuation lines)")
             continue
-        if len(text) > max_length:
-            raise LimitError(f"line is longer than {max_length} characters "
-                             "(raise ReaderOptions.max_line_length)",
-                             SourceLocation(source.path, index + 1, column), raw)
+        close()
         current = LogicalLine(text, index + 1, column, None, source)
+        parts = [text]
         pieces = None
+        length = len(text)
         append(current)
+    close()
     return out

@@ -28,7 +28,8 @@ from .errors import LimitError, NetlistError, SourceLocation
 from .expressions import Expression, ExpressionError, compile_expression, evaluate
 from .fastpath import fast_directive, fast_element
 from .grammar import DIRECTIVE_RULES, Assign, Call, parse_directive, parse_element
-from .lines import LogicalLine, SourceFile, logical_lines, read_source, source_from_text
+from .lines import (LogicalLine, SourceFile, limit_hint, logical_lines, read_source,
+                    source_from_text)
 from .netlist import Diagnostic, Element, ModelCard, Netlist, SkippedDirective, Value
 from .values import parse_value
 
@@ -56,7 +57,7 @@ class ReaderOptions:
 
     max_include_depth: int = 16
     max_subckt_depth: int = 32
-    max_elements: int = 5_000_000
+    max_elements: int = 1_000_000
     max_file_bytes: int = 256 * 1024 * 1024
     max_line_length: int = 100_000
     max_expression_depth: int = 64
@@ -163,6 +164,9 @@ class _Reader:
         self.include_stack: list[str] = []
         self.sources: dict[str, SourceFile] = {}
         self.all_defs: list[_Def] = []
+        self.included: dict[tuple, SourceLocation] = {}   # (file, section, definition) -> where
+        self.logical: dict[str, list[LogicalLine]] = {}   # statements of each file read
+        self.statements = 0
 
     # ------------------------------------------------------------ loading
 
@@ -243,9 +247,12 @@ class _Reader:
             if keyword not in _SKIPPED_DIRECTIVES:
                 self.warn(f"unknown directive .{keyword} skipped", line)
             return
-        record = fast_directive(line.text, keyword)
-        if record is None or record[0] != line.text.split(None, 1)[0][1:].lower():
-            record = parse_directive(line, keyword)
+        record = line.record
+        if record is None:
+            record = fast_directive(line.text, keyword)
+            if record is None or record[0] != line.text.split(None, 1)[0][1:].lower():
+                record = parse_directive(line, keyword)
+            line.record = record
         _, args, assigns = record
         handler = getattr(self, "d_" + keyword)
         handler(line, args, assigns)
@@ -275,8 +282,8 @@ class _Reader:
         self.all_defs.append(definition)
         if self.depth_of(definition) > self.options.max_subckt_depth:
             raise line.error(f"subcircuit definitions nest deeper than "
-                             f"{self.options.max_subckt_depth} (raise "
-                             "ReaderOptions.max_subckt_depth)", cls=LimitError)
+                             f"{self.options.max_subckt_depth} "
+                             + limit_hint("max_subckt_depth"), cls=LimitError)
         self.current = definition
 
     @staticmethod
@@ -343,7 +350,13 @@ class _Reader:
             raise line.error(f"include cycle: {chain}")
         if len(self.include_stack) > self.options.max_include_depth:
             raise line.error(f"includes nest deeper than {self.options.max_include_depth} "
-                             "(raise ReaderOptions.max_include_depth)", cls=LimitError)
+                             + limit_hint("max_include_depth"), cls=LimitError)
+        once = (real, section.casefold() if section else None, id(self.current))
+        if once in self.included:
+            self.warn(f"{shown} was already included here (at {self.included[once]}); "
+                      "included once only", line)
+            return
+        self.included[once] = line.location()
         source = self.sources.get(real)
         if source is None:
             try:
@@ -357,7 +370,11 @@ class _Reader:
             self.files.append(shown)
         self.include_stack.append(real)
         try:
-            lines = logical_lines(source, 0, self.options.max_line_length)
+            lines = self.logical.get(real)
+            if lines is None:
+                lines = self.logical[real] = logical_lines(source, 0,
+                                                           self.options.max_line_length)
+            self.count_statements(len(lines), line)
             try:
                 self.walk(lines, section)
             except NetlistError as exc:
@@ -366,6 +383,17 @@ class _Reader:
                 raise
         finally:
             self.include_stack.pop()
+
+    def count_statements(self, count: int, line: LogicalLine) -> None:
+        """Statements read from included files, a file read again counting again:
+        an include bomb (files including files many times over) stops at the
+        element limit, at the `.include` line that crossed it."""
+        self.statements += count
+        limit = self.options.max_elements
+        if self.statements > limit:
+            message = (f"more than {limit} statements read (included files counted each time "
+                       "they are read) " + limit_hint("max_elements"))
+            raise line.error(message, cls=LimitError)
 
     def resolve(self, line: LogicalLine, raw: str) -> tuple[str, str]:
         """Real and shown path of an include; refuse paths leaving the sandbox."""
@@ -419,9 +447,12 @@ class _Reader:
                 return
             raise line.error(f"unknown element letter {text[0]!r} (a statement starts with "
                              "an element letter, `.`, `*` or `+`)")
-        record = fast_element(text)
+        record = line.record
         if record is None:
-            record = parse_element(line)
+            record = fast_element(text)
+            if record is None:
+                record = parse_element(line)
+            line.record = record
         designator, items, assigns = record
         self.current.body.append(self.interpret(letter, designator, items, assigns, line))
 
@@ -670,9 +701,50 @@ class _Flattener:
         self.limit = reader.options.max_elements
 
     def run(self) -> list[Element]:
+        self.check_size()
         scope = self.evaluate_group(self.reader.top.params, {}, {})
         self.expand(self.reader.top, scope, "", "", (), {}, 0, [])
         return self.elements
+
+    # ------------------------------------------------------------ size
+
+    def size(self, definition: _Def, sizes: dict, depth: int) -> int:
+        """Elements `definition` flattens to (recursion and too-deep nesting count 0:
+        expansion reports those with their own messages)."""
+        known = sizes.get(id(definition))
+        if known is not None:
+            return known
+        if depth > self.options.max_subckt_depth:
+            return 0
+        sizes[id(definition)] = 0  # a recursive reference counts nothing
+        total = 0
+        for spec in definition.body:
+            total += self.spec_size(definition, spec, sizes, depth)
+        sizes[id(definition)] = total
+        return total
+
+    def spec_size(self, parent: _Def, spec: _Spec, sizes: dict, depth: int) -> int:
+        if spec.kind != "X":
+            return 1
+        child = self.lookup(parent, spec.model.casefold())
+        if child is None or self.keep(spec.model):
+            return 1
+        return 1 + self.size(child, sizes, depth + 1)
+
+    def check_size(self) -> None:
+        """Refuse, before building anything, a hierarchy that flattens past the limit
+        (ten levels of ten instances is 10**10 elements: count, never build them)."""
+        sizes: dict[int, int] = {}
+        top = self.reader.top
+        total = 0
+        for spec in top.body:
+            total += self.spec_size(top, spec, sizes, 0)
+            if total > self.limit:
+                detail = (f" ({spec.designator} alone expands to "
+                          f"{self.spec_size(top, spec, sizes, 0)})" if spec.kind == "X" else "")
+                raise spec.line.error(f"more than {self.limit} elements after flattening, "
+                                      f"counting subcircuit instances{detail} "
+                                      + limit_hint("max_elements"), cls=LimitError)
 
     # ------------------------------------------------------------ params
 
@@ -830,7 +902,7 @@ class _Flattener:
         self.elements.append(element)
         if len(self.elements) > self.limit:
             raise spec.line.error(f"more than {self.limit} elements after flattening "
-                                  "(raise ReaderOptions.max_elements)", cls=LimitError)
+                                  + limit_hint("max_elements"), cls=LimitError)
 
     def lookup(self, definition: _Def, key: str) -> _Def | None:
         while definition is not None:
@@ -909,7 +981,7 @@ class _Flattener:
     def limit_error(self, definition: _Def) -> Exception:
         line = definition.line or definition.body[-1].line
         return line.error(f"more than {self.limit} elements after flattening "
-                          "(raise ReaderOptions.max_elements)", cls=LimitError)
+                          + limit_hint("max_elements"), cls=LimitError)
 
     def resolve_q(self, spec: _Spec) -> None:
         """Split a Q line's tokens into 3-5 nodes and the model (first time only)."""
@@ -954,8 +1026,8 @@ class _Flattener:
             raise spec.line.error(f"subcircuit recursion: {chain}")
         if depth >= self.options.max_subckt_depth:
             raise spec.line.error(f"subcircuit instances nest deeper than "
-                                  f"{self.options.max_subckt_depth} (raise "
-                                  "ReaderOptions.max_subckt_depth)", cls=LimitError)
+                                  f"{self.options.max_subckt_depth} "
+                                  + limit_hint("max_subckt_depth"), cls=LimitError)
         if len(nets) != len(definition.ports):
             raise spec.line.error(
                 f"{designator} connects {len(nets)} node(s) but subcircuit {definition.name} "
@@ -968,7 +1040,7 @@ class _Flattener:
             child_ports[port_key] = net
         if len(self.elements) > self.limit:
             raise spec.line.error(f"more than {self.limit} elements after flattening "
-                                  "(raise ReaderOptions.max_elements)", cls=LimitError)
+                                  + limit_hint("max_elements"), cls=LimitError)
         child_scope = self.instance_scope(definition, spec, scope)
         self.seen_instance(spec, designator, dkey)
         stack.append(definition)
@@ -1093,7 +1165,7 @@ def read_netlist_text(text: str, path: str = "<text>", *,
     options = options or ReaderOptions()
     if len(text) > options.max_file_bytes:
         raise LimitError(f"text is longer than {options.max_file_bytes} characters "
-                         "(raise ReaderOptions.max_file_bytes)", SourceLocation(path))
+                         + limit_hint("max_file_bytes"), SourceLocation(path))
     source = source_from_text(text, path)
     folder = os.getcwd() if path.startswith("<") else os.path.dirname(os.path.abspath(path))
     reader = _Reader(options, keep_as_part, _roots(folder, options))

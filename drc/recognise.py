@@ -173,6 +173,8 @@ def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
 
     resting: set[str] = set()
     for other in path.contacts:
+        if other.form not in ("SPST-NC", "SPDT"):
+            continue  # only a contact closed at rest joins the circuit
         for throw in _throws(other, nets):
             if throw.closed_when == "released" and throw.a != throw.b:
                 raw_resistors.append(Resistor(other.designator, throw.a, throw.b,

@@ -37,12 +37,17 @@ def check(result: StageResult, ctx: RuleContext):
         return
     rx = stage.receiver
     what = "nothing between the contact and the pin" if stage.kind == "direct" else "only a pull resistor"
+    severity = None
     if rx.edge_sensitive:
         effect = f"; {rx.ref} is edge-sensitive ({rx.function}), so every bounce counts as an edge"
+    elif stage.contact.static:
+        # A configuration switch (DIP) read while idle does not need debouncing: say so quietly.
+        effect = "; fine if it is only read as configuration while idle, not polled for changes"
+        severity = "note"
     else:
         effect = "; the input reads every bounce"
     yield ctx.stage_finding(
-        result, measured=None, limit=None,
+        result, measured=None, limit=None, severity=severity,
         message=f"{contact_name(result)} reaches {receiver_name(result)} with {what}{effect}",
         fix=(f"add a series resistor and capacitor at {rx.ref} into a Schmitt-trigger input, an SPDT "
              f"latch, or declare firmware debounce for {rx.ref}"))
