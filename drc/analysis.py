@@ -1,7 +1,9 @@
 """Analysis of one recognised stage: levels, edges and currents, worst-case.
 
 `analyse_stage` turns a Stage and its receiver's electrical data into the
-StageResult the rules read. It compiles the stage circuit once, then asks the
+StageResult the rules read; `analyse_stages` does the same for many stages,
+solving those that share a circuit structure as one numpy batch
+(physics.batch), which is how a board's thousands of stages are analysed. It compiles the stage circuit once, then asks the
 physics package for steady levels in each actuator state (nominal, and at the
 vertex closest to the threshold the level must clear), for both edges'
 time-to-threshold at nominal and at the fastest and slowest corners, and for
@@ -14,13 +16,13 @@ before the edge too, so one edge is one linear problem).
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
 from .electrical import ReceiverElectrical
-from .physics.corners import ENUMERATE_MAX, Box, corner_dict, make_box, vertices, worst_vertex
+from .physics.corners import ENUMERATE_MAX, Box, corner_dict, make_box, sign_search, vertices, worst_vertex
 from .physics.mna import DcBatch, cap_voltages, dc_solve, node_voltage
 from .physics.model import THRESHOLD, LinearModel, compile_circuit
 from .physics.transient import EdgeSolution, edge_batch, sample, settle_diodes, solve_edge
@@ -46,8 +48,54 @@ class EdgeSetup:
     box: Box
 
 
+def analyse_stages(stages: Sequence[Stage],
+                   rx_for: Callable[[Stage], ReceiverElectrical] | Sequence[ReceiverElectrical]
+                   ) -> list[StageResult]:
+    """StageResults of many stages, in their order (each as `analyse_stage` gives it).
+
+    rx_for: the receiver data of each stage, as a function of the stage or a
+    sequence aligned with `stages`. Stages of one circuit structure (values
+    aside) with closed-form edges are solved together in one batch; the rest
+    one by one.
+    """
+    from .physics.batch import analyse_group, batchable, structure_key, template
+    stages = list(stages)
+    rxs = [rx_for(s) for s in stages] if callable(rx_for) else list(rx_for)
+    if len(rxs) != len(stages):
+        raise ValueError("rx_for must give one receiver per stage")
+    out: list[StageResult | None] = [None] * len(stages)
+    groups: dict[tuple, list[int]] = {}
+    for i, st in enumerate(stages):
+        groups.setdefault(structure_key(st.circuit), []).append(i)
+    for key, idx in groups.items():
+        model = template(key, stages[idx[0]].circuit)
+        got = None
+        if batchable(model):
+            for lo in range(0, len(idx), _BATCH_STAGES):
+                chunk = idx[lo:lo + _BATCH_STAGES]
+                part = analyse_group(model, [stages[i] for i in chunk], [rxs[i] for i in chunk])
+                if part is None:
+                    got = None
+                    break
+                got = (got or []) + part
+        if got is None:
+            got = [_analyse_one(stages[i], rxs[i]) for i in idx]
+        for i, res in zip(idx, got):
+            out[i] = res
+    return out  # type: ignore[return-value]
+
+
+# Stages per batch: bounds the temporary arrays (rows = stages x 2**parameters).
+_BATCH_STAGES = 2048
+
+
 def analyse_stage(stage: Stage, rx: ReceiverElectrical) -> StageResult:
     """Levels per actuator state, both edges at nominal and worst corners, currents."""
+    return analyse_stages([stage], [rx])[0]
+
+
+def _analyse_one(stage: Stage, rx: ReceiverElectrical) -> StageResult:
+    """The per-stage path: any structure (several capacitors, diodes, many parameters)."""
     model = compile_circuit(stage.circuit)
     notes: list[str] = []
     levels: dict[str, LevelResult] = {}
@@ -71,7 +119,7 @@ def analyse_stage(stage: Stage, rx: ReceiverElectrical) -> StageResult:
         pull_current_a=max(pulls) if pulls else None,
         contact_current_a=min(contacts) if contacts else None,
         surge_peak_a=_surge_peak(model),
-        max_input_v=max_in, notes=tuple(notes),
+        max_input_v=max_in, receiver_electrical=rx, notes=tuple(notes),
     )
 
 
@@ -187,7 +235,8 @@ def _slope(x: float) -> float | None:
 def _edge(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup, notes: list[str]) -> EdgeResult:
     box = es.box
     typ = es.threshold[1]
-    if len(box.cols) <= ENUMERATE_MAX:
+    if len(box.cols) <= ENUMERATE_MAX and model.k <= 1 and not model.has_diodes:
+        # Closed form, vectorised: every vertex outright (one batched solve).
         V = vertices(box)
         nv = V.shape[0]
         P = np.vstack([box.nominal[None, :], V, V])
@@ -201,14 +250,31 @@ def _edge(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup, notes: list
         t_fast, t_slow = tf[i_f], ts[i_s]
         slope_slow = eb.slope[nv + 1 + i_s]
     else:
+        # Exact event-driven solves, one corner at a time: the direction of each
+        # parameter from sensitivities, then a local search over single flips
+        # (2n + 2 solves per corner instead of 2**n; corners.sign_search).
+        memo: dict[tuple, tuple[float, float]] = {}
+
         def run(P, vth):
-            return edge_batch(model, es.from_state, es.to_state, P, vth, es.direction)
-        e0 = run(box.nominal[None, :], typ)
-        nom = (e0.t[0], e0.slope[0], e0.start_v[0], e0.final_v[0])
-        row_f, bad_f = worst_vertex(box, lambda P: -np.where(np.isnan(t := run(P, es.inner_v).t), np.inf, t))
-        row_s, bad_s = worst_vertex(box, lambda P: np.where(np.isnan(t := run(P, es.outer_v).t), np.inf, t))
+            out_t = np.empty(P.shape[0]); out_s = np.empty(P.shape[0])
+            for i, row in enumerate(P):
+                key = (row.tobytes(), vth)
+                hit = memo.get(key)
+                if hit is None:
+                    sol = solve_edge(model, es.from_state, es.to_state, row, vth, es.direction)
+                    hit = (math.nan, math.nan) if sol.crossing_s is None else (sol.crossing_s, sol.slope_v_per_s)
+                    memo[key] = hit
+                    if key[1] == typ and row.tobytes() == box.nominal.tobytes():
+                        memo["nominal"] = (sol.start_v, sol.final_v)
+                out_t[i], out_s[i] = hit
+            return out_t, out_s
+        t0, s0 = run(box.nominal[None, :], typ)
+        start_v, final_v = memo["nominal"]
+        nom = (t0[0], s0[0], start_v, final_v)
+        row_f, bad_f = sign_search(box, lambda P: -np.where(np.isnan(t := run(P, es.inner_v)[0]), np.inf, t))
+        row_s, bad_s = sign_search(box, lambda P: np.where(np.isnan(t := run(P, es.outer_v)[0]), np.inf, t))
         t_fast, t_slow = -bad_f, bad_s
-        slope_slow = run(row_s[None, :], es.outer_v).slope[0]
+        slope_slow = run(row_s[None, :], es.outer_v)[1][0]
     return EdgeResult(
         edge=es.edge, direction="rising" if es.direction > 0 else "falling",
         start_v=float(nom[2]), final_v=float(nom[3]), threshold_v=typ,

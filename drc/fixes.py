@@ -18,7 +18,13 @@ interval nearest the present one and confirms it with a full run. Preference:
 fewest parts changed, then the smallest change (sum of |log ratio|). Two-part
 changes walk the first part's values nearest-first and stop as soon as that
 change alone exceeds the best total found. A stage gets at most
-`MAX_ANALYSES` analyses; when nothing passes the text says so.
+`budget` analyses (`FIX_BUDGET` in a board check, `MAX_ANALYSES` for forward
+design), and a stage whose edges need the exact event-driven solver (several
+capacitors, diodes: tens of milliseconds per analysis) gets
+1/`SLOW_ANALYSIS_COST` of that, so a check's time stays bounded: about
+0.2 s for a closed-form stage and 1 s for any other at worst. The bound is a
+count, not a clock, so the proposals are the same on every machine. When
+nothing passes within it the text says so.
 """
 
 from __future__ import annotations
@@ -36,6 +42,11 @@ from .units import format_quantity as fq
 FIXABLE = ("bounce-window", "slow-edge", "response-latency", "leakage-headroom",
            "pullup-waste", "resistance-range")
 MAX_ANALYSES = 300
+_analyses_run = [0]  # analyses run by this process's searches (for board budgets)
+# Board checks: a failing closed-form stage costs about 2 ms per analysis.
+FIX_BUDGET = 100
+# An analysis on the exact event-driven path costs about this many closed-form ones.
+SLOW_ANALYSIS_COST = 25
 # Values searched, as a ratio either side of the present value and absolute bounds.
 RESISTOR_SPAN, RESISTOR_BOUNDS = 1000.0, (10.0, 10e6)
 CAPACITOR_SPAN, CAPACITOR_BOUNDS = 1000.0, (1e-12, 10e-3)
@@ -99,7 +110,9 @@ class Evaluator:
                  budget: int = MAX_ANALYSES) -> None:
         self.stage, self.rx, self.limits = stage, rx, limits
         self.tolerated = tolerated  # rule ids that fire today and no value can change
-        self.budget = budget
+        from .physics.batch import batchable, structure_key, template
+        fast = batchable(template(structure_key(stage.circuit), stage.circuit))
+        self.budget = budget if fast else max(1, budget // SLOW_ANALYSIS_COST)
         self.count = 0
         self._cache: dict[tuple, tuple[frozenset[str], StageResult]] = {}
 
@@ -117,6 +130,7 @@ class Evaluator:
         from .analysis import analyse_stage
         from .checks import run_stage_rules
         self.count += 1
+        _analyses_run[0] += 1
         result = analyse_stage(with_values(self.stage, values), self.rx)
         if result.receiver_electrical is None:
             result = replace(result, receiver_electrical=self.rx)
@@ -132,12 +146,16 @@ def variables(stage: Stage, series: str) -> list[Variable]:
         if r.role in ("pull", "series") and r.ohms > 0:
             lo = max(RESISTOR_BOUNDS[0], r.ohms / RESISTOR_SPAN)
             hi = min(RESISTOR_BOUNDS[1], r.ohms * RESISTOR_SPAN)
+            if lo > hi:  # far outside the searched bounds (1M read as milliohms): no candidates
+                continue
             out.append(Variable(r.designator, r.ohms, tuple(eseries.values_between(series, lo, hi)), "Ω"))
     cap_series = capacitor_series(series)
     for c in stage.circuit.capacitors:
         if c.farads > 0:
             lo = max(CAPACITOR_BOUNDS[0], c.farads / CAPACITOR_SPAN)
             hi = min(CAPACITOR_BOUNDS[1], c.farads * CAPACITOR_SPAN)
+            if lo > hi:
+                continue
             out.append(Variable(c.designator, c.farads, tuple(eseries.values_between(cap_series, lo, hi)), "F"))
     return out
 
@@ -274,6 +292,55 @@ def search(stage: Stage, rx, limits: Mapping[str, float], series: str = "E24",
     return best, ev.count
 
 
+# Boards repeat one input design many times (a keypad): the search runs once per
+# distinct (structure, values, contact and receiver data, limits) and its answer is
+# renamed for every other stage of that kind. Bounded for long-lived processes.
+_MEMO: dict[tuple, tuple[tuple[tuple[int, float], ...] | None, StageResult | None, int]] = {}
+_MEMO_MAX = 4096
+
+
+def _memo_key(stage: Stage, rx, limits: Mapping[str, float], series: str, tolerated: set[str],
+              budget: int) -> tuple:
+    from .physics.batch import structure_key
+    c, k, r = stage.circuit, stage.contact, stage.receiver
+    return (
+        structure_key(c), stage.kind,
+        tuple((x.ohms, x.tol_minus, x.tol_plus) for x in c.resistors),
+        tuple((x.farads, x.tol_minus, x.tol_plus) for x in c.capacitors),
+        tuple((x.volts, x.tolerance) for x in c.rails),
+        (k.contact_class, k.form, k.bounce_s, k.wetting_a, k.rating_a, k.origin, k.closed_resistance),
+        (r.part_type, r.family, r.schmitt, r.edge_sensitive, r.function, r.supply_v, r.supply_tolerance,
+         r.internal_pull, r.firmware_debounce_s, r.dedicated_debounce),
+        rx, tuple(sorted(limits.items())), series, frozenset(tolerated), budget,
+    )
+
+
+def _search_memo(stage: Stage, rx, limits: Mapping[str, float], series: str, tolerated: set[str],
+                 budget: int) -> tuple[Solution | None, int]:
+    """`search`, answered from the memo when an identical stage was searched before."""
+    try:
+        key = _memo_key(stage, rx, limits, series, tolerated, budget)
+        hash(key)
+    except TypeError:  # an unhashable field somewhere: no memo, same answer
+        return search(stage, rx, limits, series, tolerated, budget)
+    vars_ = variables(stage, series)
+    hit = _MEMO.get(key)
+    if hit is None:
+        solution, count = search(stage, rx, limits, series, tolerated, budget)
+        names = [v.designator for v in vars_]
+        moves = None if solution is None else tuple((names.index(ch.designator), ch.new)
+                                                    for ch in solution.changes)
+        if len(_MEMO) >= _MEMO_MAX:
+            _MEMO.clear()
+        _MEMO[key] = (moves, None if solution is None else solution.result, count)
+        return solution, count
+    moves, res, count = hit
+    if moves is None:
+        return None, count
+    changes = tuple(Change(vars_[i].designator, vars_[i].present, new, vars_[i].unit) for i, new in moves)
+    return Solution(changes, res, count), count
+
+
 def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
                 edge: str | None = None) -> str:
     """The figure a rule checks, on a (fixed) result: "press 11.8 ms ≥ 10 ms at fastest corner".
@@ -328,7 +395,7 @@ def _plain_input_fix(result: StageResult) -> str | None:
 
 
 def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapping[str, float],
-                  series: str = "E24", budget: int = MAX_ANALYSES) -> dict[Finding, str]:
+                  series: str = "E24", budget: int = FIX_BUDGET) -> dict[Finding, str]:
     """Upgraded fix texts for this stage's value-related findings (others are left out).
 
     `findings` may hold findings of other stages; only this stage's are used.
@@ -346,7 +413,7 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
     from .checks import run_stage_rules
     present = {f.rule for f in run_stage_rules(result, limits)}
     tolerated = present - set(FIXABLE)
-    solution, count = search(stage, result.receiver_electrical, limits, series, tolerated, budget)
+    solution, count = _search_memo(stage, result.receiver_electrical, limits, series, tolerated, budget)
     out: dict[Finding, str] = {}
     if solution is None:
         names = ", ".join(v.designator for v in variables(stage, series)) or "the stage's parts"
@@ -358,4 +425,36 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
     change_text = ", ".join(c.text() for c in solution.changes)
     for f in mine:
         out[f] = f"{change_text} ({rule_figure(f.rule, solution.result, limits, _edge_of(f))})"
+    return out
+
+
+# A board check searches fixes for at most this many analyses in all (about 2 ms each
+# for closed-form stages): a board with hundreds of distinct failing stages gets
+# concrete values for the first ones, in board order, and the plain-words fix after.
+BOARD_FIX_BUDGET = 2000
+
+
+def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Finding],
+                        limits: Mapping[str, float], series: str = "E24",
+                        board_budget: int = BOARD_FIX_BUDGET) -> dict[int, str]:
+    """Fix texts for a whole board, keyed by id(finding); bounded by `board_budget` analyses.
+
+    Same texts as `propose_fixes` per stage, while the board's budget lasts
+    (a stage never gets more than `FIX_BUDGET`); deterministic, since the
+    bound counts analyses, not seconds.
+    """
+    by_stage: dict[tuple, list[Finding]] = {}
+    for f in findings:
+        if f.contact is not None and f.receiver is not None:
+            by_stage.setdefault((f.contact, f.receiver), []).append(f)
+    out: dict[int, str] = {}
+    left = board_budget
+    for result in results:
+        mine = by_stage.get((result.stage.contact.designator, result.stage.receiver.ref))
+        if not mine or left <= 0:
+            continue
+        before = _analyses_run[0]
+        for finding, text in propose_fixes(result, mine, limits, series, min(FIX_BUDGET, left)).items():
+            out[id(finding)] = text
+        left -= _analyses_run[0] - before
     return out

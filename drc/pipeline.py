@@ -113,23 +113,22 @@ def _reader_options(config: Config, options: CheckOptions):
 
 def analyse_board(board, config: Config) -> list[StageResult]:
     """Trace, recognise and analyse every input path of a classified board."""
-    from .analysis import analyse_stage
+    from .analysis import analyse_stages
     from .recognise import stages_for_board
     lib = library()
     cache: dict[tuple, object] = {}
-    results: list[StageResult] = []
-    for stage in stages_for_board(board, config):
+
+    def rx_for(stage):
         rec = stage.receiver
         cache_key = (rec.family, round(rec.supply_v, 6), rec.schmitt)
         rx = cache.get(cache_key)
         if rx is None:
             rx = lib.receiver_electrical(rec.family, rec.supply_v, rec.schmitt)
             cache[cache_key] = rx
-        result = analyse_stage(stage, rx)
-        if result.receiver_electrical is None:
-            result = replace(result, receiver_electrical=rx)
-        results.append(result)
-    return results
+        return rx
+
+    # One batch: stages of one circuit structure are solved together (physics.batch).
+    return analyse_stages(list(stages_for_board(board, config)), rx_for)
 
 
 def effective_limits(config: Config) -> dict[str, float]:

@@ -62,6 +62,59 @@ def node_voltage(model: LinearModel, v: np.ndarray, vfix: np.ndarray, code: int)
     return v[:, code] if code >= 0 else vfix[:, -1 - code]
 
 
+# Up to this many unknowns a stacked system is solved by unrolled elimination
+# over the stack (a few dozen whole-array operations), faster than LAPACK's
+# per-matrix calls for the hundreds of thousands of tiny systems a board has.
+_UNROLL_MAX = 6
+
+
+def _assemble_g(A: np.ndarray, g: np.ndarray) -> np.ndarray:
+    """Nodal matrices A^T diag(g) A as (n, n, N): one matrix product, stack last.
+
+    The stack runs along the last axis so each matrix entry is one contiguous
+    vector: the elimination below then works on whole vectors.
+    """
+    m, n = A.shape
+    W = (A[:, :, None] * A[:, None, :]).reshape(m, n * n)  # per-branch outer products
+    return (W.T @ g.T).reshape(n, n, g.shape[0])
+
+
+def spd_solve(GT: np.ndarray, R: np.ndarray) -> np.ndarray:
+    """Solve G X = R for stacks of symmetric positive definite G.
+
+    GT: (n, n, N) (stack last, as `_assemble_g` gives it); R: (N, n, r).
+    Returns X as (N, n, r). Nodal matrices of a network where every node
+    reaches a fixed node are SPD, so elimination needs no pivoting.
+    """
+    n = GT.shape[0]
+    if n > _UNROLL_MAX:
+        return np.linalg.solve(np.moveaxis(GT, 2, 0), R)
+    r = R.shape[2]
+    g = [[GT[i, j].copy() if j >= i else None for j in range(n)] for i in range(n)]
+    rr = [[np.ascontiguousarray(R[:, i, c]) for c in range(r)] for i in range(n)]
+    for j in range(n):
+        inv = 1.0 / g[j][j]
+        for i in range(j + 1, n):
+            f = g[j][i] * inv  # symmetric: G[i, j] == G[j, i]
+            for k in range(i, n):
+                g[i][k] -= f * g[j][k]
+            for c in range(r):
+                rr[i][c] -= f * rr[j][c]
+    X = np.empty(R.shape)
+    xs = [None] * n
+    for i in range(n - 1, -1, -1):
+        inv = 1.0 / g[i][i]
+        row = []
+        for c in range(r):
+            acc = rr[i][c]
+            for j in range(i + 1, n):
+                acc = acc - g[i][j] * xs[j][c]
+            row.append(acc * inv)
+            X[:, i, c] = row[c]
+        xs[i] = row
+    return X
+
+
 def _conductances(topo: Topology, P: np.ndarray) -> np.ndarray:
     g = np.tile(topo.g_fixed, (P.shape[0], 1))
     g[:, topo.res_cols] = 1.0 / P[:, topo.res_params]
@@ -79,13 +132,12 @@ def _dc_fixed(model: LinearModel, topo: Topology, P: np.ndarray):
     unit = np.zeros((N, n))
     idx = np.flatnonzero(topo.dc_nodes)
     if idx.size:
-        As = topo.A[:, idx]
-        G = np.matmul(As.T[None, :, :] * g[:, None, :], As)
+        G = _assemble_g(topo.A[:, idx], g)
         rhs = np.zeros((N, idx.size, 2))
         rhs[:, :, 0] = b[:, idx]
         if model.rx >= 0 and topo.dc_nodes[model.rx]:
             rhs[:, int(np.searchsorted(idx, model.rx)), 1] = 1.0
-        sol = np.linalg.solve(G, rhs)
+        sol = spd_solve(G, rhs)
         v0[:, idx] = sol[:, :, 0]
         unit[:, idx] = sol[:, :, 1]
     leak = P[:, model.leak_col]
@@ -199,21 +251,40 @@ def reduce_dynamic(model: LinearModel, topo: Topology, P: np.ndarray) -> Reduced
     Y = np.zeros((N, k, k)); h = np.zeros((N, k)); Mv = np.zeros((N, n, k))
     cv = np.full((N, n), np.nan)
     if ni + ki:
-        As = topo.A[:, idx]
-        K = np.zeros((N, ni + ki, ni + ki))
-        K[:, :ni, :ni] = np.matmul(As.T[None, :, :] * g[:, None, :], As)
+        G = _assemble_g(topo.A[:, idx], g)
         Acs = model.Ac[np.ix_(kidx, idx)]
-        K[:, :ni, ni:] = Acs.T
-        K[:, ni:, :ni] = Acs
-        Kinv = np.linalg.inv(K)
         afv = vfix @ model.Acf[kidx].T  # (N, ki) fixed part of each cap voltage
         bs = b[:, idx]
-        K_vb, K_vu = Kinv[:, :ni, :ni], Kinv[:, :ni, ni:]
-        K_ib, K_iu = Kinv[:, ni:, :ni], Kinv[:, ni:, ni:]
-        Mv[:, idx[:, None], kidx[None, :]] = K_vu
-        cv[:, idx] = np.einsum("Nij,Nj->Ni", K_vb, bs) - np.einsum("Nij,Nj->Ni", K_vu, afv)
-        Y[:, kidx[:, None], kidx[None, :]] = -K_iu
-        h[:, kidx] = np.einsum("Nij,Nj->Ni", K_ib, bs) - np.einsum("Nij,Nj->Ni", K_iu, afv)
+        if ni and np.array_equal(topo.dc_nodes, topo.tr_nodes):
+            # Every node has a DC path, so G is SPD: the bordered system
+            # [[G, B^T], [B, 0]] (B = Acs) inverts by its Schur complement
+            # S = -B G^-1 B^T (k x k) instead of a general inverse.
+            X = spd_solve(G, np.concatenate([bs[:, :, None], np.broadcast_to(Acs.T, (N, ni, ki))], axis=2))
+            x_b, X_u = X[:, :, 0], X[:, :, 1:]  # G^-1 b, G^-1 B^T
+            S = np.einsum("ki,Nij->Nkj", Acs, X_u)  # B G^-1 B^T = -S
+            Sinv = -np.linalg.inv(S) if ki > 1 else -1.0 / S
+            # Kinv = [[Gi + Gi B^T Si B Gi, -Gi B^T Si], [-Si B Gi, Si]] with Si = S^-1
+            K_vu = -np.einsum("Nik,Nkj->Nij", X_u, Sinv)
+            K_iu = Sinv
+            Bx = x_b @ Acs.T  # (N, ki): B G^-1 b
+            v_b = x_b + np.einsum("Nik,Nk->Ni", X_u, np.einsum("Nkj,Nj->Nk", Sinv, Bx))
+            i_b = -np.einsum("Nkj,Nj->Nk", Sinv, Bx)
+            Mv[:, idx[:, None], kidx[None, :]] = K_vu
+            cv[:, idx] = v_b - np.einsum("Nij,Nj->Ni", K_vu, afv)
+            Y[:, kidx[:, None], kidx[None, :]] = -K_iu
+            h[:, kidx] = i_b - np.einsum("Nij,Nj->Ni", K_iu, afv)
+        else:
+            K = np.zeros((N, ni + ki, ni + ki))
+            K[:, :ni, :ni] = np.moveaxis(G, 2, 0)
+            K[:, :ni, ni:] = Acs.T
+            K[:, ni:, :ni] = Acs
+            Kinv = np.linalg.inv(K)
+            K_vb, K_vu = Kinv[:, :ni, :ni], Kinv[:, :ni, ni:]
+            K_ib, K_iu = Kinv[:, ni:, :ni], Kinv[:, ni:, ni:]
+            Mv[:, idx[:, None], kidx[None, :]] = K_vu
+            cv[:, idx] = np.einsum("Nij,Nj->Ni", K_vb, bs) - np.einsum("Nij,Nj->Ni", K_vu, afv)
+            Y[:, kidx[:, None], kidx[None, :]] = -K_iu
+            h[:, kidx] = np.einsum("Nij,Nj->Ni", K_ib, bs) - np.einsum("Nij,Nj->Ni", K_iu, afv)
     nodes = topo.tr_nodes.copy()
     return Reduced(C=C, Y=Y, h=h, Mv=Mv, cv=cv, vfix=vfix, nodes=nodes)
 

@@ -318,6 +318,27 @@ def edge_batch(model: LinearModel, from_state: str, to_state: str, P: np.ndarray
 
 
 def _single_cap_batch(model, from_state, to_state, P, vth, direction) -> EdgeBatch | None:
+    parts = single_cap_parts(model, from_state, to_state, P)
+    return None if parts is None else single_cap_times(parts, vth, direction)
+
+
+@dataclass(frozen=True, slots=True)
+class SingleCapEdge:
+    """One capacitor, no diodes: v(t) = vinf + (v0p - vinf) exp(-t / tau), per row.
+
+    The threshold enters only at the end, so one set of these serves every
+    threshold (the fastest and the slowest corners share their parameter rows).
+    """
+
+    start: np.ndarray  # steady receiver level before the edge
+    v0p: np.ndarray  # receiver level just after the contact moves
+    vinf: np.ndarray  # the level the edge settles to
+    tau: np.ndarray
+    q: np.ndarray  # nan where the receiver has no path at all
+
+
+def single_cap_parts(model, from_state, to_state, P) -> SingleCapEdge | None:
+    """The closed-form edge at every row of P; None when it does not apply."""
     dc0 = dc_solve(model, from_state, P)
     start = dc0.rx_v
     red = reduce_dynamic(model, model.topology(to_state, ()), P)
@@ -333,13 +354,19 @@ def _single_cap_batch(model, from_state, to_state, P, vth, direction) -> EdgeBat
         tau = C / Y
         vinf = q + pgain * (h / Y)
         v0p = q + pgain * u0
+    return SingleCapEdge(start, v0p, vinf, tau, q)
+
+
+def single_cap_times(e: SingleCapEdge, vth, direction) -> EdgeBatch:
+    """Time to `vth` (per row) and the slope there; direction may be per row too."""
+    start, v0p, vinf, tau = e.start, e.v0p, e.vinf, e.tau
     with np.errstate(divide="ignore", invalid="ignore"):
         before = direction * (vth - start) > 0
         past0 = direction * (v0p - vth) >= 0
         reach = direction * (vinf - vth) > 0
         t = np.where(past0, 0.0, tau * np.log((vinf - v0p) / (vinf - vth)))
         slope = np.where(past0, np.inf, np.abs(vinf - vth) / tau)
-    bad = ~before | (~past0 & ~reach) | np.isnan(q)
+    bad = ~before | (~past0 & ~reach) | np.isnan(e.q)
     t[bad] = np.nan; slope[bad] = np.nan
     return EdgeBatch(t, slope, start, vinf)
 
