@@ -480,12 +480,15 @@ def _part_pin_pull(ctx: _Context, name: str, element: Element, spec,
         return None
     found = _family_pull_range(ctx, family)
     if found is None:
-        # One note per part, not per pin.
-        note = f"{name}: its inputs have internal pull resistors of unknown value " \
-               f"(family {family} gives no range); taken as absent"
+        # The part data says the pin is pulled but gives no value: assume the usual
+        # on-chip range from rules/limits.toml, and say so once per part.
+        found = (ctx.library.limit("unknown_internal_pull_min"),
+                 ctx.library.limit("unknown_internal_pull_max"))
+        note = (f"{name}: its inputs have internal pull resistors of unknown value (family "
+                f"{family} gives no range); assumed {found[0] / 1e3:g}-{found[1] / 1e3:g} kΩ, "
+                f"verify against the part's data")
         if not any(d.message == note for d in ctx.board.diagnostics):
             ctx.board.diagnostics.append(Diagnostic(note, element.location))
-        return None
     return InternalPull(direction, found[0], found[1])
 
 

@@ -151,6 +151,9 @@ def run_check(args) -> int:
             progress.stop()
         if executor is not None:
             executor.shutdown(cancel_futures=True)
+    # Nothing a board was read from (config found by discovery, included files) may be overwritten.
+    inputs += [b.config_path for b in run.boards if b.config_path]
+    inputs += [f for b in run.boards for f in b.files]
     if args.write_baseline:
         from dataclasses import replace
         from .baseline import write_baseline

@@ -57,6 +57,8 @@ class BoardCheck:
     config: Config | None = None
     waiver_outcome: object | None = None
     annotation_notes: tuple = ()
+    files: tuple[str, ...] = ()
+    reader_diagnostics: tuple = ()
 
 
 def library():
@@ -148,18 +150,13 @@ def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
 
 
 def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[Finding]:
-    """Upgrade the plain-words fix of each stage finding to concrete standard values."""
-    from .fixes import propose_fixes
-    by_stage: dict[tuple, list[Finding]] = {}
-    for f in findings:
-        if f.contact is not None and f.receiver is not None:
-            by_stage.setdefault((f.contact, f.receiver), []).append(f)
-    fixed: dict[int, str] = {}
-    for result in results:
-        stage_findings = by_stage.get((result.stage.contact.designator, result.stage.receiver.ref))
-        if stage_findings:
-            for finding, text in propose_fixes(result, stage_findings, limits, series).items():
-                fixed[id(finding)] = text
+    """Upgrade the plain-words fix of each stage finding to concrete standard values.
+
+    The search is bounded per stage and per board by a count of analyses
+    (drc/fixes.py), so the result is the same on every machine.
+    """
+    from .fixes import propose_board_fixes
+    fixed = propose_board_fixes(results, findings, limits, series)
     return [replace(f, fix=fixed[id(f)]) if id(f) in fixed else f for f in findings]
 
 
@@ -200,7 +197,8 @@ def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> 
         waiver_outcome = apply_waivers(findings, config.waivers, path, options.today or date.today())
         findings = list(waiver_outcome.findings)
     return BoardCheck(path=path, board=board, results=results, findings=findings, config=config,
-                      waiver_outcome=waiver_outcome, annotation_notes=notes)
+                      waiver_outcome=waiver_outcome, annotation_notes=notes,
+                      files=tuple(netlist.files), reader_diagnostics=tuple(netlist.diagnostics))
 
 
 def read_board(path: str, config: Config, options: CheckOptions):
@@ -227,10 +225,13 @@ def board_report(check: BoardCheck):
     from .report.model import BoardReport
     board = check.board
     kinds = Counter(r.stage.kind for r in check.results)
-    diagnostics = tuple(str(d.location) + ": " + d.message for d in getattr(board, "diagnostics", ()))
+    seen: dict[str, None] = {}
+    for d in (*check.reader_diagnostics, *getattr(board, "diagnostics", ())):
+        seen.setdefault(f"{d.location}: {d.message}")
     return BoardReport(path=check.path, stages=tuple(check.results), findings=tuple(check.findings),
                        contacts=len(board.contacts), stage_kinds=dict(kinds),
-                       diagnostics=diagnostics, config_path=check.config.path if check.config else None)
+                       diagnostics=tuple(seen), config_path=check.config.path if check.config else None,
+                       files=check.files)
 
 
 @dataclass(frozen=True)

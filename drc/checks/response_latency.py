@@ -41,6 +41,12 @@ def check(result: StageResult, ctx: RuleContext):
         if edge is None or not target_level_defined(result, edge):
             continue
         th = f"{threshold_name(result, edge)} {fq(edge.threshold_slowest_v, 'V')}"
+        rising = edge.direction == "rising"
+        if edge.slowest_s is None and (edge.start_v >= edge.threshold_slowest_v if rising
+                                       else edge.start_v <= edge.threshold_slowest_v):
+            # The level never left the far side of the threshold: there is no edge to be
+            # late; the steady level's own rule (leakage-headroom) reports the cause.
+            continue
         if edge.slowest_s is None:
             yield ctx.stage_finding(
                 result, parts=timing_parts(result), measured=None, limit=figure(limit, "s"),

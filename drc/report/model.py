@@ -70,6 +70,7 @@ class BoardReport:
     diagnostics: tuple[str, ...] = ()
     config_path: str | None = None
     error: str | None = None
+    files: tuple[str, ...] = ()  # every file the netlist was read from (includes too)
 
     def __post_init__(self) -> None:
         # Frozen record: normalise once here so every format sees the same order.

@@ -107,10 +107,19 @@ def test_slow_edge_silent_on_schmitt_or_without_capacitor():
 # response-latency -----------------------------------------------------------------
 
 def test_latency_fires_over_limit_and_when_never_reached():
-    res = result(edges={"press": edge("press", 0.05, 0.3), "release": edge("release", 0.05, None, "rising")})
+    # The release edge starts low and settles at 0.5 V, short of the 0.9 V threshold.
+    res = result(edges={"press": edge("press", 0.05, 0.3),
+                        "release": edge("release", 0.05, None, "rising", start_v=0.0, final_v=0.5)})
     found = fired(res, "response-latency")
     assert len(found) == 2 and all(f.severity == "warning" for f in found)
     assert "300 ms" in found[0].message and "never reaches" in found[1].message
+
+
+def test_latency_silent_when_the_level_never_left_the_far_side():
+    # A rising edge that starts above its threshold is no edge: the level rule reports the cause.
+    res = result(edges={"press": edge("press", 0.02, 0.05),
+                        "release": edge("release", None, None, "rising", start_v=2.6, final_v=5.0)})
+    assert fired(res, "response-latency") == []
 
 
 def test_latency_silent_under_limit_and_for_floating_states():
