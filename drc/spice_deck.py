@@ -33,32 +33,39 @@ def _fmt(x: float) -> str:
 
 
 def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner="nominal", press_at: float = 1e-3,
-               hold: float | None = None) -> str:
+               hold: float | None = None, edges: tuple[str, ...] = EDGE_STATES) -> str:
     """An ngspice deck of `stage` measuring `t_press` and `t_release`.
 
     corner: "nominal" (each edge with its own typical threshold and the
     midpoint of its leakage range) or a {parameter: value} mapping such as
     EdgeResult.corner_slowest (its "threshold" and "leakage" then apply to
     both edges). hold: time between press and release; by default long
-    enough for both edges to settle.
+    enough for both edges to settle. edges: the edges to measure; the time
+    step follows only their time constants, so a deck for one fast edge of a
+    stage whose other edge is slow stays accurate.
     """
     model = compile_circuit(stage.circuit)
     circuit = stage.circuit
     setups = {e: edge_setup(model, rx, e) for e in EDGE_STATES}
     rows = {e: corner_row(model, setups[e], corner) for e in EDGE_STATES}
-    taus: list[float] = []
+    edge_taus: dict[str, list[float]] = {}
     for e, es in setups.items():
         row, vth = rows[e]
-        taus += list(solve_edge(model, es.from_state, es.to_state, row, vth, es.direction, full=True).time_constants)
-    taus = [t for t in taus if math.isfinite(t) and t > 0]
+        found = solve_edge(model, es.from_state, es.to_state, row, vth, es.direction, full=True).time_constants
+        edge_taus[e] = [t for t in found if math.isfinite(t) and t > 0]
+    taus = edge_taus["press"] + edge_taus["release"]
+    measured_taus = [t for e in edges for t in edge_taus[e]]
     settle = _SETTLE_TAUS * max(taus) if taus else 1e-6
     hold = hold if hold is not None else 2.0 * settle
     release_at = press_at + hold
     leak_switch = press_at + 0.5 * hold  # pressed state re-settles with the release edge's leakage
-    t_stop = release_at + settle
+    if "release" in edges:
+        t_stop = release_at + settle
+    else:  # the released state is the DC operating point: only the press edge must settle
+        t_stop = press_at + _SETTLE_TAUS * max(edge_taus["press"] or [1e-6])
     # Max step tau/50 keeps trapezoidal integration within 0.01 % (spice-dialect.md);
     # with time constants far apart the cap on the step count wins (said in the deck).
-    t_max = min(taus) / 50.0 if taus else t_stop / 1000.0
+    t_max = min(measured_taus) / 50.0 if measured_taus else t_stop / 1000.0
     capped = t_stop / t_max > _MAX_POINTS
     t_max = max(t_max, t_stop / _MAX_POINTS)
 
@@ -113,6 +120,8 @@ def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner="nominal", press_
     lines.append(f".tran {_fmt(t_max)} {_fmt(t_stop)} 0 {_fmt(t_max)}")
     node = f"v({names[circuit.receiver_node]})"
     for e, name in zip(EDGE_STATES, MEASUREMENTS):
+        if e not in edges:
+            continue
         es = setups[e]
         vth = rows[e][1]
         ctl_dir = "RISE" if e == "press" else "FALL"
