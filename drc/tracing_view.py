@@ -11,6 +11,7 @@ from rich import box
 from rich.table import Table
 from rich.text import Text
 
+from .graph import signal_path
 from .units import format_quantity as fq
 
 
@@ -78,11 +79,18 @@ def print_trace(console, check, results) -> None:
                       f"{fq(contact.bounce_s, 's')} ({contact.location})", highlight=False)
         kind = "Schmitt" if receiver.schmitt else "plain"
         extra = ", edge-sensitive" if receiver.edge_sensitive else ""
-        console.print(f"receiver {receiver.ref}: {receiver.part_type} {receiver.function} input, "
+        part_type = receiver.part_type
+        if part_type[:1].isdigit() and not receiver.family.startswith("4000"):
+            part_type = "'" + part_type  # the 74-series function number: '14, '74
+        console.print(f"receiver {receiver.ref}: {part_type} {receiver.function} input, "
                       f"{receiver.family} {kind}{extra}, VCC {fq(receiver.supply_v, 'V')}", highlight=False)
         if receiver.firmware_debounce_s:
             console.print(f"firmware debounce: {fq(receiver.firmware_debounce_s, 's')}")
         console.print(f"nets: {', '.join(stage.nets)}", highlight=False)
+        path = signal_path(stage)
+        if path:
+            console.print(f"signal path: {contact.designator} ─ " + " ─ ".join(path) +
+                          f" ─ {receiver.ref}", highlight=False)
         console.print(_parts_table(stage))
         console.print(_levels_table(result))
         if result.edges:
