@@ -98,10 +98,6 @@ def _render(fmt: str, run, quiet: bool) -> str:
 
 def _print_text(run, console, quiet: bool) -> None:
     from .report.text import render_folder_summary, render_text
-    for board in run.boards:
-        if board.error:
-            console.print(f"[bold red]not checked[/]: {board.path} (the error is on standard error)",
-                          highlight=False)
     render_text(run, console, quiet=quiet)
     if len(run.boards) > 1:
         render_folder_summary(run, console)

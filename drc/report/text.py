@@ -131,13 +131,14 @@ def render_text(run: RunReport, console: Console, *, quiet: bool = False) -> Non
 
 def render_folder_summary(run: RunReport, console: Console) -> None:
     """A table of the boards of a multi-board run: contacts, stages, errors, warnings, worst margin."""
-    table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, pad_edge=False, collapse_padding=True,
+                  header_style="bold")
     table.add_column("board", overflow="fold")
-    table.add_column("contacts", justify="right")
-    table.add_column("stages", justify="right")
-    table.add_column("errors", justify="right")
-    table.add_column("warnings", justify="right")
-    table.add_column("worst margin", justify="right")
+    table.add_column("contacts", justify="right", no_wrap=True)
+    table.add_column("stages", justify="right", no_wrap=True)
+    table.add_column("errors", justify="right", no_wrap=True)
+    table.add_column("warnings", justify="right", no_wrap=True)
+    table.add_column("margin", justify="right", no_wrap=True, min_width=7)  # the worst DC level margin
     for board in run.boards:
         if board.error:
             table.add_row(board.path, "-", "-", Text("not checked", style="bold red"), "-", "-")
