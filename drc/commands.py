@@ -89,11 +89,17 @@ def _render(fmt: str, run, quiet: bool) -> str:
     if fmt == "html":
         from .report.html import render_html
         return render_html(run)
+    return _plain_text(run, quiet, width=100)
+
+
+def _plain_text(run, quiet: bool, width: int) -> str:
+    """The text report without colour, lines stripped of rich's cell padding."""
     from io import StringIO
     from rich.console import Console
     buffer = StringIO()
-    _print_text(run, Console(file=buffer, width=100, force_terminal=False, color_system=None), quiet)
-    return buffer.getvalue()
+    _print_text(run, Console(file=buffer, width=width, force_terminal=False, color_system=None,
+                             highlight=False), quiet)
+    return "".join(line.rstrip() + "\n" for line in buffer.getvalue().splitlines())
 
 
 def _print_text(run, console, quiet: bool) -> None:
@@ -164,7 +170,11 @@ def run_check(args) -> int:
         write_atomic(file, _render(fmt, run, args.quiet), inputs=inputs)
     if args.format == "text":
         from rich.console import Console
-        _print_text(run, Console(highlight=False), args.quiet)
+        console = Console(highlight=False)
+        if console.is_terminal:
+            _print_text(run, console, args.quiet)
+        else:  # a pipe or a CI log: plain lines, no trailing padding
+            sys.stdout.write(_plain_text(run, args.quiet, console.width))
     else:
         sys.stdout.write(_render(args.format, run, args.quiet))
         sys.stdout.flush()
