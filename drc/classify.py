@@ -19,8 +19,9 @@ names keep the spelling of their first appearance in the netlist.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from fnmatch import fnmatchcase
+from itertools import chain
 from typing import Any, Iterable
 
 from .board import Board, Contact, InternalPull, Part, PartPin, Rail, Receiver
@@ -82,14 +83,16 @@ def classify(netlist: Netlist, library: Any, config: Config, *,
 def _classify(netlist: Netlist, library: Any, config: Config,
               default_bounce_s: float | None) -> Board:
     board = Board(path=netlist.path, netlist=netlist, config_path=config.path)
-    names, first_use = _net_spellings(netlist)
+    names = _net_spellings(netlist)
     board.rails = _rails(netlist, config, names, board.diagnostics)
-    _rail_name_diagnostics(names, first_use, board.rails, board.diagnostics)
+    _rail_name_diagnostics(netlist, names, board.rails, board.diagnostics)
     bounce_default = default_bounce_s if default_bounce_s is not None else config.default_bounce_s
     ctx = _Context(library, config, board, names, bounce_default)
     unknown: dict[str, SourceLocation] = {}
+    never = _NEVER_CONTACT
     for element in netlist.elements:
-        _classify_element(ctx, element, unknown)
+        if element.kind not in never:  # most of a board: passives need no call
+            _classify_element(ctx, element, unknown)
     for name, location in unknown.items():
         board.diagnostics.append(Diagnostic(
             f"subcircuit {name} is not a known logic part or contact type; its "
@@ -100,23 +103,34 @@ def _classify(netlist: Netlist, library: Any, config: Config,
 
 # ---------------------------------------------------------------- nets, rails
 
-def _net_spellings(netlist: Netlist) -> tuple[dict[str, str], dict[str, Element]]:
-    """key(net) -> the net's spelling at its first appearance, and that element."""
+def _net_spellings(netlist: Netlist) -> dict[str, str]:
+    """key(net) -> the net's spelling at its first appearance."""
     names: dict[str, str] = {key(GROUND): GROUND}
-    first_use: dict[str, Element] = {}
-    seen: set[str] = set()  # spellings already handled: skips most casefolds
+    # Every spelling once, in order of first appearance: dict.fromkeys over the
+    # chained node tuples runs in C, so the Python loop below sees each net
+    # spelling once instead of every pin of the board.
+    spellings = dict.fromkeys(chain.from_iterable(
+        [e.nodes for e in netlist.elements if e.kind != "K"]))
+    for node in spellings:
+        k = node.casefold()
+        if k not in names:
+            names[k] = node
+    return names
+
+
+def _first_uses(netlist: Netlist, wanted: set[str]) -> dict[str, Element]:
+    """key(net) -> the first element on it, for the few nets in `wanted`."""
+    found: dict[str, Element] = {}
     for element in netlist.elements:
         if element.kind == "K":
             continue
         for node in element.nodes:
-            if node in seen:
-                continue
-            seen.add(node)
             k = node.casefold()
-            if k not in names:
-                names[k] = node
-                first_use[k] = element
-    return names, first_use
+            if k in wanted and k not in found:
+                found[k] = element
+        if len(found) == len(wanted):
+            break
+    return found
 
 
 def _tolerance_param(element: Element) -> float | None:
@@ -188,13 +202,18 @@ def _rails(netlist: Netlist, config: Config, names: dict[str, str],
     return rails
 
 
-def _rail_name_diagnostics(names: dict[str, str], first_use: dict[str, Element],
-                           rails: dict[str, Rail], diagnostics: list[Diagnostic]) -> None:
-    for k, net in names.items():
-        if k in rails or k == key(GROUND) or not looks_like_rail(net):
-            continue
+def _rail_name_diagnostics(netlist: Netlist, names: dict[str, str], rails: dict[str, Rail],
+                           diagnostics: list[Diagnostic]) -> None:
+    ground = key(GROUND)
+    # Every rail-like name has a V in it (see _RAIL_NAME): a cheap test first.
+    loose = [k for k, net in names.items()
+             if "v" in k and k not in rails and k != ground and looks_like_rail(net)]
+    if not loose:
+        return
+    first_use = _first_uses(netlist, set(loose))
+    for k in loose:
         diagnostics.append(Diagnostic(
-            f"net {net} is named like a supply rail but no source or "
+            f"net {names[k]} is named like a supply rail but no source or "
             f"config gives its voltage; give it in the config's rails",
             first_use[k].location))
 
@@ -209,6 +228,7 @@ class _Context:
     names: dict[str, str]
     bounce_default: float | None
     defined: frozenset[str] | None = None
+    notes: set[str] = field(default_factory=set)  # once-per-board diagnostics given
 
     def is_defined_subcircuit(self, name: str) -> bool:
         if self.defined is None:
@@ -487,7 +507,9 @@ def _part_pin_pull(ctx: _Context, name: str, element: Element, spec,
         note = (f"{name}: its inputs have internal pull resistors of unknown value (family "
                 f"{family} gives no range); assumed {found[0] / 1e3:g}-{found[1] / 1e3:g} kΩ, "
                 f"verify against the part's data")
-        if not any(d.message == note for d in ctx.board.diagnostics):
+        # A set of the notes given: a board has hundreds of such parts.
+        if note not in ctx.notes:
+            ctx.notes.add(note)
             ctx.board.diagnostics.append(Diagnostic(note, element.location))
     return InternalPull(direction, found[0], found[1])
 

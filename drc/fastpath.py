@@ -37,6 +37,28 @@ def fast_element(text: str) -> tuple | None:
     return (words[0], tuple(words[1:]), ())
 
 
+# A whole physical line that is nothing but plain words: the grammar's NAME
+# without `*` anywhere, separated by blanks, ending in optional blanks, and no
+# word starting with an inline-comment marker (`;`, `$`, `//`). Such a line
+# starting at column 1 is its own logical line (when no `+` line continues
+# it) and `str.split` gives the grammar's record. One regular expression per
+# line, in C, instead of a character scan and a check per word.
+_PLAIN_WORD = r"(?![;$]|//)[^\s=(),{}'\"*]+(?:\([^\s=(),{}'\"*]*\)[^\s=(),{}'\"*]*)*"
+PLAIN_LINE = re.compile(rf"{_PLAIN_WORD}(?:\s+{_PLAIN_WORD})*\s*")
+
+
+def plain_words(raw: str) -> list[str] | None:
+    """The words of physical line `raw` when it is a plain statement the grammar
+    would read as just those words (see PLAIN_LINE), else None.
+
+    `raw` must start with its first character (no indentation); the caller
+    has made sure no `+` line continues it.
+    """
+    if PLAIN_LINE.fullmatch(raw) is None:
+        return None
+    return raw.split()
+
+
 # Directives whose plain form is a list of words in the grammar (words_line,
 # and subckt_line without parameters).
 FAST_DIRECTIVES = frozenset({"include", "inc", "lib", "endl", "global", "ends", "end", "subckt"})

@@ -104,7 +104,14 @@ def with_values(stage: Stage, values: Mapping[str, float]) -> Stage:
 
 
 class Evaluator:
-    """Analyses a stage with values replaced and runs the stage rules; cached and budgeted."""
+    """Analyses a stage with values replaced and runs the stage rules; cached and budgeted.
+
+    Speed: analysing one stage alone costs about as much as analysing a
+    dozen of one structure together (physics.batch), so `prefetch` analyses
+    the values a search is about to ask for in one batch. A prefetched
+    analysis counts against the budget only when `fired` asks for it, so the
+    search, its answer and its count are those of one analysis at a time.
+    """
 
     def __init__(self, stage: Stage, rx, limits: Mapping[str, float], tolerated: set[str],
                  budget: int = MAX_ANALYSES) -> None:
@@ -112,13 +119,36 @@ class Evaluator:
         self.tolerated = tolerated  # rule ids that fire today and no value can change
         from .physics.batch import batchable, structure_key, template
         fast = batchable(template(structure_key(stage.circuit), stage.circuit))
+        self.fast = fast  # closed-form edges: batches pay off (the exact path runs one by one)
         self.budget = budget if fast else max(1, budget // SLOW_ANALYSIS_COST)
         self.count = 0
         self._cache: dict[tuple, tuple[frozenset[str], StageResult]] = {}
+        self._pending: dict[tuple, StageResult] = {}  # analysed ahead, not asked for yet
 
     @property
     def exhausted(self) -> bool:
         return self.count >= self.budget
+
+    def known(self, values: Mapping[str, float]) -> bool:
+        """Whether `values` was analysed already (asked for or prefetched)."""
+        key = tuple(sorted(values.items()))
+        return key in self._cache or key in self._pending
+
+    def prefetch(self, many: Sequence[Mapping[str, float]]) -> None:
+        """Analyse these value sets together, ahead of `fired` (closed-form stages only)."""
+        if not self.fast:
+            return
+        todo: dict[tuple, Mapping[str, float]] = {}
+        for values in many:
+            key = tuple(sorted(values.items()))
+            if key not in self._cache and key not in self._pending:
+                todo.setdefault(key, values)
+        if len(todo) < 2:
+            return
+        from .analysis import analyse_stages
+        results = analyse_stages([with_values(self.stage, v) for v in todo.values()],
+                                 [self.rx] * len(todo))
+        self._pending.update(zip(todo, results))
 
     def fired(self, values: Mapping[str, float]) -> tuple[frozenset[str], StageResult] | None:
         """Rule ids that fire (tolerated ones removed), or None when out of budget."""
@@ -127,16 +157,73 @@ class Evaluator:
             return self._cache[key]
         if self.exhausted:
             return None
-        from .analysis import analyse_stage
         from .checks import run_stage_rules
         self.count += 1
         _analyses_run[0] += 1
-        result = analyse_stage(with_values(self.stage, values), self.rx)
+        result = self._pending.pop(key, None)
+        if result is None:
+            from .analysis import analyse_stage
+            result = analyse_stage(with_values(self.stage, values), self.rx)
         if result.receiver_electrical is None:
             result = replace(result, receiver_electrical=self.rx)
         ids = frozenset(f.rule for f in run_stage_rules(result, self.limits)) - self.tolerated
         self._cache[key] = (ids, result)
         return self._cache[key]
+
+
+# Prefetch shape: the first levels of a bisection over an unknown stretch of
+# candidates, or the whole stretch once it is this short (measured on the
+# archive benchmark: small batches win, as a batch's cost grows with its size).
+_PREFETCH_DEPTH = 2
+_PREFETCH_FILL = 8
+
+
+def _bisection_points(a: int, b: int, depth: int, out: list[int]) -> None:
+    """The midpoints `_boundary` may visit in (a, b), `depth` levels deep."""
+    if depth == 0 or b - a <= 1:
+        return
+    mid = (a + b) // 2
+    out.append(mid)
+    _bisection_points(a, mid, depth - 1, out)
+    _bisection_points(mid, b, depth - 1, out)
+
+
+def _prefetch_for(ev: Evaluator, var: Variable, fixed: Mapping[str, float], i: int) -> None:
+    """Before asking for candidate i: analyse it with its likely successors in one batch.
+
+    Around i lies a stretch of candidates not analysed yet; a search goes on
+    inside it (bisection) or next to i (the nearest passing value), so the
+    batch is the stretch's bisection points, or all of it when short, plus
+    both ends of the list. Only an order of analyses is guessed: the answers
+    and the budget count are the same as without it.
+    """
+    cand = var.candidates
+    n = len(cand)
+
+    def values(j: int) -> dict[str, float]:
+        return {**fixed, var.designator: cand[j]}
+
+    if not ev.fast or ev.known(values(i)):
+        return
+    lo = i - 1
+    while lo >= 0 and not ev.known(values(lo)):
+        lo -= 1
+    hi = i + 1
+    while hi < n and not ev.known(values(hi)):
+        hi += 1
+    if hi - lo - 1 <= _PREFETCH_FILL:
+        picks = list(range(lo + 1, hi))
+    else:
+        # Both ends, the probes of a rule failing at both ends, the neighbours of
+        # the present value, and the first bisection points.
+        here = min(range(n), key=lambda j: abs(math.log(cand[j] / var.present)))
+        picks = [i, 0, n - 1, n // 2, n // 4, 3 * n // 4]
+        picks += [j for j in range(here - 2, here + 3) if 0 <= j < n]
+        _bisection_points(max(lo, 0), min(hi, n - 1), _PREFETCH_DEPTH, picks)
+    # No more than the budget could still ask for (with room for a few misses).
+    room = 2 * (ev.budget - ev.count) + 2
+    picks = list(dict.fromkeys(picks))[:room]
+    ev.prefetch([values(j) for j in picks])
 
 
 def variables(stage: Stage, series: str) -> list[Variable]:
@@ -171,6 +258,7 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
         return None
 
     def verdict(i: int):
+        _prefetch_for(ev, var, fixed, i)
         got = ev.fired({**fixed, var.designator: cand[i]})
         return None if got is None else got[0]
 
@@ -179,7 +267,9 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
     if lo_fired is None or hi_fired is None:
         return None
     first, last = 0, n - 1
-    for rule_id in lo_fired | hi_fired:
+    # Sorted: a set's order changes with the process's string hashing, and with a
+    # budget the order of the bisections decides what is found.
+    for rule_id in sorted(lo_fired | hi_fired):
         if rule_id in lo_fired and rule_id in hi_fired:
             # Fails at both ends: passes, if anywhere, on an inner interval. Probe for
             # one passing point (the present value first), then bisect each side.
@@ -218,7 +308,7 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
     got = verdict(here)
     if got is None:
         return None
-    for rule_id in got - lo_fired - hi_fired:
+    for rule_id in sorted(got - lo_fired - hi_fired):
         below = _boundary(verdict, rule_id, 0, here, passes_high=False)
         above = _boundary(verdict, rule_id, here, n - 1, passes_high=True)
         if below is None or above is None:
@@ -228,6 +318,7 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
     indices = sorted({i for a, b in regions for i in range(a, b + 1)},
                      key=lambda i: (abs(math.log(cand[i] / var.present)), cand[i]))
     for i in indices[:4]:  # the nearest passing value; a few neighbours if a verdict was not monotonic
+        _prefetch_for(ev, var, fixed, i)
         got = ev.fired({**fixed, var.designator: cand[i]})
         if got is None:
             return None
@@ -318,11 +409,17 @@ def _memo_key(stage: Stage, rx, limits: Mapping[str, float], series: str, tolera
 def _search_memo(stage: Stage, rx, limits: Mapping[str, float], series: str, tolerated: set[str],
                  budget: int) -> tuple[Solution | None, int]:
     """`search`, answered from the memo when an identical stage was searched before."""
+    return _search_memo_keyed(stage, rx, limits, series, tolerated, budget)[:2]
+
+
+def _search_memo_keyed(stage: Stage, rx, limits: Mapping[str, float], series: str,
+                       tolerated: set[str], budget: int) -> tuple[Solution | None, int, tuple | None]:
+    """`_search_memo`, and the memo key (None when the stage has no memo key)."""
     try:
         key = _memo_key(stage, rx, limits, series, tolerated, budget)
         hash(key)
     except TypeError:  # an unhashable field somewhere: no memo, same answer
-        return search(stage, rx, limits, series, tolerated, budget)
+        return (*search(stage, rx, limits, series, tolerated, budget), None)
     vars_ = variables(stage, series)
     hit = _MEMO.get(key)
     if hit is None:
@@ -333,12 +430,12 @@ def _search_memo(stage: Stage, rx, limits: Mapping[str, float], series: str, tol
         if len(_MEMO) >= _MEMO_MAX:
             _MEMO.clear()
         _MEMO[key] = (moves, None if solution is None else solution.result, count)
-        return solution, count
+        return solution, count, key
     moves, res, count = hit
     if moves is None:
-        return None, count
+        return None, count, key
     changes = tuple(Change(vars_[i].designator, vars_[i].present, new, vars_[i].unit) for i, new in moves)
-    return Solution(changes, res, count), count
+    return Solution(changes, res, count), count, key
 
 
 def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
@@ -400,20 +497,36 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
 
     `findings` may hold findings of other stages; only this stage's are used.
     """
+    return _propose(result, findings, limits, series, budget, None)[0]
+
+
+def _propose(result: StageResult, findings: Sequence[Finding], limits: Mapping[str, float],
+             series: str, budget: int, searched: set | None) -> tuple[dict[Finding, str], int]:
+    """propose_fixes, and the analyses its search costs the board's budget.
+
+    searched: memo keys this board searched already; a repeat costs nothing,
+    a search first done for another board costs what it cost there, so a
+    board's fixes are the same in a fresh process and in a long-lived worker.
+    """
     stage = result.stage
     mine = [f for f in findings if f.rule in FIXABLE and f.contact == stage.contact.designator
             and f.receiver == stage.receiver.ref]
     if not mine or result.receiver_electrical is None:
-        return {}
+        return {}, 0
     series = series.upper()
     if any(f.rule == "slow-edge" for f in mine):
         text = _plain_input_fix(result)
         if text:
-            return {f: text for f in mine}
+            return {f: text for f in mine}, 0
     from .checks import run_stage_rules
     present = {f.rule for f in run_stage_rules(result, limits)}
     tolerated = present - set(FIXABLE)
-    solution, count = _search_memo(stage, result.receiver_electrical, limits, series, tolerated, budget)
+    solution, count, key = _search_memo_keyed(stage, result.receiver_electrical, limits, series,
+                                              tolerated, budget)
+    charged = count
+    if searched is not None and key is not None:
+        charged = 0 if key in searched else count
+        searched.add(key)
     out: dict[Finding, str] = {}
     if solution is None:
         names = ", ".join(v.designator for v in variables(stage, series)) or "the stage's parts"
@@ -421,11 +534,11 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
                   f"({count} analyses tried)")
         for f in mine:
             out[f] = f"{f.fix}; {honest}" if f.fix else honest
-        return out
+        return out, charged
     change_text = ", ".join(c.text() for c in solution.changes)
     for f in mine:
         out[f] = f"{change_text} ({rule_figure(f.rule, solution.result, limits, _edge_of(f))})"
-    return out
+    return out, charged
 
 
 # A board check searches fixes for at most this many analyses in all (about 2 ms each
@@ -449,12 +562,15 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
             by_stage.setdefault((f.contact, f.receiver), []).append(f)
     out: dict[int, str] = {}
     left = board_budget
+    searched: set = set()
     for result in results:
         mine = by_stage.get((result.stage.contact.designator, result.stage.receiver.ref))
         if not mine or left <= 0:
             continue
-        before = _analyses_run[0]
-        for finding, text in propose_fixes(result, mine, limits, series, min(FIX_BUDGET, left)).items():
+        texts, charged = _propose(result, mine, limits, series, min(FIX_BUDGET, left), searched)
+        for finding, text in texts.items():
             out[id(finding)] = text
-        left -= _analyses_run[0] - before
+        # Charged as the search cost when first run (the memo may answer it here
+        # from another board): the budget, hence the texts, depend on this board alone.
+        left -= charged
     return out

@@ -16,18 +16,48 @@ from __future__ import annotations
 
 import codecs
 import os
+import re
 import stat
-from dataclasses import dataclass
 
 from .errors import LimitError, NetlistError, SourceLocation
 
 
-@dataclass(frozen=True, slots=True)
 class SourceFile:
-    """One input file: the name shown in locations and its physical lines."""
+    """One input file: the name shown in locations and its text.
 
-    path: str
-    lines: list[str]
+    `text` has its line endings normalised to LF; `lines` (the physical
+    lines) is split from it on first use and kept, so a file that is only
+    streamed through once never holds a second copy of itself as a list.
+    Either `lines` or `text` may be given.
+    """
+
+    __slots__ = ("path", "_lines", "_text")
+
+    def __init__(self, path: str, lines: list[str] | None = None, text: str | None = None) -> None:
+        self.path = path
+        self._lines = lines
+        self._text = text
+
+    @property
+    def lines(self) -> list[str]:
+        lines = self._lines
+        if lines is None:
+            lines = self._lines = (self._text or "").split("\n")
+        return lines
+
+    @property
+    def text(self) -> str:
+        text = self._text
+        if text is None:
+            text = self._text = "\n".join(self._lines or ())
+        return text
+
+    def line(self, number: int) -> str:
+        """Physical line `number` (1-based), or "" outside the file."""
+        return physical_line(self, number)
+
+    def __repr__(self) -> str:
+        return f"SourceFile({self.path!r})"
 
 
 class LogicalLine:
@@ -100,11 +130,16 @@ def decode(data: bytes) -> str:
         return data.decode("latin-1")
 
 
-def split_lines(text: str) -> list[str]:
-    """Physical lines on any mix of CRLF, CR and LF endings."""
+def normalise_newlines(text: str) -> str:
+    """`text` with every CRLF and CR line ending turned into LF."""
     if "\r" in text:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
-    return text.split("\n")
+    return text
+
+
+def split_lines(text: str) -> list[str]:
+    """Physical lines on any mix of CRLF, CR and LF endings."""
+    return normalise_newlines(text).split("\n")
 
 
 def check_nul(source: SourceFile) -> None:
@@ -162,14 +197,13 @@ def read_source(path: str, shown: str, max_bytes: int) -> SourceFile:
     except UnicodeDecodeError as exc:
         raise NetlistError(f"file has a UTF-16 byte-order mark but is not valid UTF-16 "
                            f"({exc.reason})", SourceLocation(shown)) from None
-    source = SourceFile(shown, split_lines(text))
-    if "\x00" in text:
-        check_nul(source)
-    return source
+    del data  # the bytes are not needed once decoded (a large file's peak memory)
+    return source_from_text(text, shown)
 
 
 def source_from_text(text: str, shown: str) -> SourceFile:
-    source = SourceFile(shown, split_lines(text))
+    """A SourceFile for `text` (line endings normalised; physical lines split on demand)."""
+    source = SourceFile(shown, None, normalise_newlines(text))
     if "\x00" in text:
         check_nul(source)
     return source
@@ -201,8 +235,11 @@ def strip_comment(text: str) -> str:
     return text.rstrip()
 
 
-def logical_lines(source: SourceFile, first: int, max_length: int) -> list[LogicalLine]:
-    """The statements of `source`, from physical line index `first` (0-based).
+def logical_lines(source: SourceFile, first: int, max_length: int, stop: int | None = None,
+                  lines: list[str] | None = None) -> list[LogicalLine]:
+    """The statements of `source`, from physical line index `first` (0-based)
+    up to index `stop` (excluded; default the end). `lines` are the file's
+    physical lines when the caller already split them.
 
     Continuation pieces are collected in a list and joined once per
     statement, so a million `+` lines cost linear time; every length is
@@ -215,7 +252,10 @@ def logical_lines(source: SourceFile, first: int, max_length: int) -> list[Logic
     pieces: list | None = None
     length = 0                  # length of `current` once joined
     append = out.append
-    lines = source.lines
+    if lines is None:
+        lines = source.lines
+    if stop is None:
+        stop = len(lines)
 
     def too_long(number: int, column: int, raw: str, what: str) -> LimitError:
         return LimitError(f"{what} is longer than {max_length} characters "
@@ -227,7 +267,7 @@ def logical_lines(source: SourceFile, first: int, max_length: int) -> list[Logic
             current.text = " ".join(parts)
             current.pieces = pieces
 
-    for index in range(first, len(lines)):
+    for index in range(first, stop):
         raw = lines[index]
         text = raw.lstrip()
         if not text:
@@ -273,3 +313,71 @@ def logical_lines(source: SourceFile, first: int, max_length: int) -> list[Logic
         append(current)
     close()
     return out
+
+
+def _comment_only(text: str) -> bool:
+    """True when `text` (left-stripped, non-empty) is all inline comment."""
+    return text[0] in ";$" or text.startswith("//")
+
+
+def continuation_zones(lines: list[str], first: int, text: str) -> list[tuple[int, int]]:
+    """The physical line ranges (first index, last index) that hold a statement
+    continued by `+` lines: from the statement's first line to its last `+` line.
+
+    Everything outside these ranges is one statement per physical line, so
+    the reader can take those lines one at a time. Found with one regular
+    expression over the whole `text` (the file's text, LF endings, the same
+    text `lines` was split from): a file without `+` lines costs one scan.
+    """
+    zones: list[tuple[int, int]] = []
+    index = 0
+    last = 0
+    count = text.count
+    for match in _CONTINUATION.finditer(text):
+        position = match.start()
+        index += count("\n", last, position)
+        last = position
+        if index < first:
+            continue
+        if zones and zones[-1][1] >= index:
+            continue
+        owner = index - 1
+        floor = zones[-1][1] if zones else first - 1
+        while owner > floor:
+            stripped = lines[owner].lstrip()
+            if stripped and stripped[0] not in "*+" and not _comment_only(stripped):
+                break
+            owner -= 1
+        if zones and owner <= floor:
+            zones[-1] = (zones[-1][0], index)   # continues the statement of the last zone
+        else:
+            zones.append((max(owner, first), index))
+    return zones
+
+
+# A physical line whose first non-blank character is `+` (a continuation).
+_CONTINUATION = re.compile(r"^[^\S\n]*\+", re.M)
+
+
+def statement_at(source: SourceFile, raw: str, index: int, max_length: int) -> LogicalLine | None:
+    """The one-line statement `raw` on physical line index `index` (0-based), or
+    None for a blank or comment line: `logical_lines` for a line that neither
+    continues nor is continued (see `continuation_zones`)."""
+    text = raw.lstrip()
+    if not text or text[0] == "*":
+        return None
+    column = len(raw) - len(text) + 1
+    if len(text) > max_length and len(text.rstrip()) > max_length:
+        raise LimitError(f"line is longer than {max_length} characters "
+                         + limit_hint("max_line_length"),
+                         SourceLocation(source.path, index + 1, column), raw)
+    if ";" in text or "$" in text or "//" in text:
+        text = strip_comment(text)
+        if not text:
+            return None
+    else:
+        text = text.rstrip()
+    if text[0] == "+":
+        raise NetlistError("continuation line (`+`) with no statement before it",
+                           SourceLocation(source.path, index + 1, column), raw)
+    return LogicalLine(text, index + 1, column, None, source)

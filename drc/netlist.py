@@ -46,7 +46,29 @@ class Value:
         return self.spice_si is None or self.spice_si != self.si
 
 
-@dataclass(slots=True)
+class _NoParams(dict):
+    """The one shared, read-only, empty parameter mapping of elements without
+    parameters (most of them): a dict per element would cost 64 bytes each."""
+
+    __slots__ = ()
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("Element.params is shared when empty; build a new dict to change it")
+
+    __setitem__ = __delitem__ = setdefault = update = pop = popitem = clear = _refuse  # type: ignore
+    __ior__ = _refuse  # type: ignore
+
+    def __reduce__(self):
+        return (_no_params, ())
+
+
+NO_PARAMS: dict = _NoParams()
+
+
+def _no_params() -> dict:
+    return NO_PARAMS
+
+
 class Element:
     """One flattened circuit element.
 
@@ -54,19 +76,82 @@ class Element:
     nodes: net names after flattening (ground is "0").
     value: the main value (R, C, L, a DC source's voltage), or None.
     model: model name (D, Q, M, J, S, W) or subcircuit name (X).
-    params: instance parameters as written (`k=v`), values evaluated where numeric.
+    location: where the element's statement starts.
+    params: instance parameters as written (`k=v`), values evaluated where numeric
+      (one shared read-only empty mapping when there are none).
+    text: the statement as read (after continuation joining and comment removal).
     instance_path: the X instances this element was expanded through, outermost first.
+
+    A plain slotted class rather than a dataclass so that a million elements
+    stay small: the reader may pass `location` as a bare line number with the
+    `origin` file (column 1) and leave `text` as None; both are then built
+    from the file on first use. Equality compares the fields as a dataclass
+    would.
     """
 
-    designator: str
-    kind: str
-    nodes: tuple[str, ...]
-    value: Value | None
-    model: str | None
-    location: SourceLocation
-    params: dict[str, float | str] = field(default_factory=dict)
-    text: str = ""
-    instance_path: tuple[str, ...] = ()
+    __slots__ = ("designator", "kind", "nodes", "value", "model", "_where", "params",
+                 "_text", "instance_path", "_origin")
+
+    def __init__(self, designator: str, kind: str, nodes: tuple[str, ...],
+                 value: Value | None, model: str | None, location: SourceLocation | int,
+                 params: dict[str, float | str] = NO_PARAMS, text: str | None = "",
+                 instance_path: tuple[str, ...] = (), origin=None) -> None:
+        self.designator = designator
+        self.kind = kind
+        self.nodes = nodes
+        self.value = value
+        self.model = model
+        self._where = location
+        self.params = params
+        self._text = text
+        self.instance_path = instance_path
+        self._origin = origin
+
+    @property
+    def location(self) -> SourceLocation:
+        where = self._where
+        if where.__class__ is int:
+            return SourceLocation(self._origin.path, where, 1)
+        return where
+
+    @location.setter
+    def location(self, value: SourceLocation) -> None:
+        self._where = value
+
+    @property
+    def text(self) -> str:
+        text = self._text
+        if text is None:
+            text = self._origin.line(self._where).rstrip()
+        return text
+
+    @text.setter
+    def text(self, value: str) -> None:
+        self._text = value
+
+    def _fields(self) -> tuple:
+        return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
+                self.params, self.text, self.instance_path)
+
+    def __eq__(self, other: object) -> bool:
+        if other.__class__ is not self.__class__:
+            return NotImplemented
+        return self._fields() == other._fields()  # type: ignore[attr-defined]
+
+    __hash__ = None  # type: ignore[assignment]  # mutable, as the dataclass was
+
+    def __repr__(self) -> str:
+        names = ("designator", "kind", "nodes", "value", "model", "location", "params", "text",
+                 "instance_path")
+        inner = ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields()))
+        return f"Element({inner})"
+
+    def __getstate__(self):
+        return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
+                dict(self.params) if self.params else NO_PARAMS, self.text, self.instance_path)
+
+    def __setstate__(self, state) -> None:
+        Element.__init__(self, *state)
 
 
 @dataclass(frozen=True, slots=True)

@@ -251,13 +251,22 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
     Top-level and picklable, so a process pool or a cluster executor can run it.
     """
     from .report.model import BoardReport
-    try:
-        check = check_board_full(path, options)
-    except DrcError as exc:
-        return BoardOutcome(BoardReport(path=str(path), error=exc.render()), failed=True)
-    notes = tuple(n.message for n in check.annotation_notes)
-    waivers = tuple(check.config.waivers) if check.config else ()
-    return BoardOutcome(board_report(check), notes, waivers, check.waiver_outcome)
+    from .trace import collection_paused
+    # The collector stays paused until the report is built: with a large
+    # netlist alive, a full collection set off by the report's allocations
+    # would walk every element of it (the records hold no cycles).
+    with collection_paused():
+        try:
+            check = check_board_full(path, options)
+        except DrcError as exc:
+            return BoardOutcome(BoardReport(path=str(path), error=exc.render()), failed=True)
+        notes = tuple(n.message for n in check.annotation_notes)
+        waivers = tuple(check.config.waivers) if check.config else ()
+        outcome = BoardOutcome(board_report(check), notes, waivers, check.waiver_outcome)
+        # The netlist and board go now, by reference counting: the first collection
+        # after the pause then walks only the report, not every element.
+        del check
+    return outcome
 
 
 def check_text(text: str, path: str = "<example>", config: Config | None = None,

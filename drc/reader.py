@@ -22,15 +22,16 @@ import os
 import re
 from contextlib import contextmanager
 from dataclasses import dataclass
+from operator import itemgetter
 from typing import Callable
 
 from .errors import LimitError, NetlistError, SourceLocation
 from .expressions import Expression, ExpressionError, compile_expression, evaluate
-from .fastpath import fast_directive, fast_element
+from .fastpath import PLAIN_LINE, fast_directive, fast_element
 from .grammar import DIRECTIVE_RULES, Assign, Call, parse_directive, parse_element
-from .lines import (LogicalLine, SourceFile, limit_hint, logical_lines, read_source,
-                    source_from_text)
-from .netlist import Diagnostic, Element, ModelCard, Netlist, SkippedDirective, Value
+from .lines import (LogicalLine, SourceFile, continuation_zones, limit_hint, logical_lines,
+                    read_source, source_from_text, statement_at)
+from .netlist import NO_PARAMS, Diagnostic, Element, ModelCard, Netlist, SkippedDirective, Value
 from .values import parse_value
 
 GROUND_NAMES = frozenset({"0", "gnd"})
@@ -92,6 +93,38 @@ class _Spec:
         self.location = SourceLocation(line.source.path, line.line, line.column)
         self.extra = extra
         self.plan = None
+
+
+class _Plain(tuple):
+    """A plain two-node R, C, L or S line read by the top file's fast loop:
+    `(designator, kind, nodes, value, model, line number, source)`.
+
+    A tuple rather than a `_Spec`: nothing about it changes during flattening,
+    and its statement (`line`) is rebuilt from the file only when an error
+    has to point at it.
+    """
+
+    __slots__ = ()
+
+    designator = property(itemgetter(0))
+    kind = property(itemgetter(1))
+    nodes = property(itemgetter(2))
+    model = property(itemgetter(4))
+
+    @property
+    def location(self) -> SourceLocation:
+        return SourceLocation(self[6].path, self[5], 1)
+
+    @property
+    def line(self) -> LogicalLine:
+        source, number = self[6], self[5]
+        return LogicalLine(source.line(number).rstrip(), number, 1, None, source)
+
+
+_new_tuple = tuple.__new__
+# Letters of the lines the fast loop reads itself, and the kind each stands for.
+_PLAIN_KINDS = {"R": "R", "r": "R", "C": "C", "c": "C", "L": "L", "l": "L", "S": "S", "s": "S",
+                "X": "X", "x": "X"}
 
 
 class _Def:
@@ -167,19 +200,130 @@ class _Reader:
         self.included: dict[tuple, SourceLocation] = {}   # (file, section, definition) -> where
         self.logical: dict[str, list[LogicalLine]] = {}   # statements of each file read
         self.statements = 0
+        self.spellings: dict[str, str] = {}  # node names of plain lines, one string each
 
     # ------------------------------------------------------------ loading
 
     def load_top(self, source: SourceFile, real: str | None) -> None:
         if source.path not in self.files:
             self.files.append(source.path)
-        self.title = source.lines[0].strip() if source.lines else ""
+        # The physical lines, split once here and not kept on `source`: the
+        # fast loop lets go of each line once read (peak memory of big files).
+        lines = source.text.split("\n")
+        self.title = lines[0].strip()
         if real:
             self.include_stack.append(real)
-        self.walk(logical_lines(source, 1, self.options.max_line_length), None)
+        self.fast_walk(source, lines)
         if self.current is not self.top:
             line = self.current.line
             raise line.error(f"missing .ends for .subckt {self.current.name}")
+
+    def fast_walk(self, source: SourceFile, lines: list[str]) -> None:
+        """Read the top file's statements straight from its physical lines.
+
+        The common line of a board export (`R12 Net-3 +5V 4k7`: a plain line
+        at column 1, two nodes and a number, or a contact with an optional
+        part name) becomes a `_Plain` record with one regular expression
+        (drc/fastpath.py PLAIN_LINE, proven against the grammar), one split
+        and cached value lookups: no LogicalLine, no grammar, no `_Spec`.
+        Every other line takes the general path: continued statements (found
+        in bulk by `continuation_zones`), comments, directives, other element
+        letters. A block directive (`.control`, a `.lib` section) or content
+        after `.end` hands the rest of the file to `walk`, which handles them.
+        """
+        max_length = self.options.max_line_length
+        zones = continuation_zones(lines, 1, source.text)
+        zone_index = 0
+        next_zone = zones[0][0] if zones else -1
+        count = len(lines)
+        plain = PLAIN_LINE.fullmatch
+        kinds = _PLAIN_KINDS
+        values: dict[str, Value | bool] = {}   # value text -> Value, False if not a number
+        models: dict[str, str] = {}           # part name as written -> first-seen spelling
+        spelled = self.spellings.setdefault   # node as written -> one shared string per spelling
+        new = _new_tuple
+        append = self.current.body.append
+        index = 1
+        while index < count:
+            if index == next_zone:
+                start, stop = zones[zone_index]
+                zone_index += 1
+                next_zone = zones[zone_index][0] if zone_index < len(zones) else -1
+                for line in logical_lines(source, start, max_length, stop + 1, lines):
+                    how = self.statement(line)
+                    if how:
+                        return self.hand_over(source, lines, start if how == 1 else stop + 1)
+                append = self.current.body.append
+                index = stop + 1
+                continue
+            raw = lines[index]
+            lines[index] = None   # type: ignore[call-overload]  # let the text go once read
+            index += 1
+            if not raw:
+                continue
+            kind = kinds.get(raw[0])
+            if kind is not None and len(raw) <= max_length and plain(raw) is not None:
+                words = raw.split()
+                n = len(words)
+                if kind == "X":
+                    if n > 1 and not any(w.casefold() == "params:" for w in words):
+                        line = LogicalLine(raw.rstrip(), index, 1, None, source)
+                        line.record = (words[0], tuple(words[1:]), ())
+                        self.element(line)
+                        continue
+                elif kind == "S":
+                    if n == 3:
+                        append(new(_Plain, (words[0], "S", (spelled(words[1], words[1]),
+                                                            spelled(words[2], words[2])),
+                                            None, None, index, source)))
+                        continue
+                    if n == 4:
+                        written = words[3]
+                        model = models.get(written)
+                        if model is None:
+                            model = models[written] = self.name(written)
+                        append(new(_Plain, (words[0], "S", (spelled(words[1], words[1]),
+                                                            spelled(words[2], words[2])),
+                                            None, model, index, source)))
+                        continue
+                elif n == 4:
+                    text = words[3]
+                    value = values.get(text)
+                    if value is None:
+                        value = values[text] = _number(text) or False
+                    if value is not False:
+                        append(new(_Plain, (words[0], kind, (spelled(words[1], words[1]),
+                                                            spelled(words[2], words[2])),
+                                            value, None, index, source)))
+                        continue
+            elif raw[0] == "*":
+                continue
+            line = statement_at(source, raw, index - 1, max_length)
+            if line is None:
+                continue
+            how = self.statement(line)
+            if how:
+                lines[index - 1] = raw
+                return self.hand_over(source, lines, index - 1 if how == 1 else index)
+            append = self.current.body.append
+
+    def statement(self, line: LogicalLine) -> int:
+        """One top-file statement for `fast_walk`: 0 when done, 1 when it must be
+        read by `walk` (a block directive), 2 when done but what follows must
+        be (it was `.end`)."""
+        text = line.text
+        if text[0] != ".":
+            self.element(line)
+            return 0
+        keyword = text[1:].split(None, 1)[0].lower() if len(text) > 1 else ""
+        if keyword == "control" or (keyword == "lib" and len(text.split()) == 2):
+            return 1
+        self.directive(line, keyword)
+        return 2 if self.end_seen is not None else 0
+
+    def hand_over(self, source: SourceFile, lines: list, index: int) -> None:
+        """Read the rest of the top file, from physical line index `index`, with `walk`."""
+        self.walk(logical_lines(source, index, self.options.max_line_length, None, lines), None)
 
     def walk(self, lines: list[LogicalLine], section: str | None) -> None:
         """Process statements; with `section`, only those in `.lib section`."""
@@ -696,12 +840,15 @@ class _Flattener:
         self.elements: list[Element] = []
         self.seen: dict[str, _Spec] = {}
         self.canon: dict[str, str] = {}
+        self.top_nets: dict[str, str] = {}   # top-level node as written -> flat net
+        self.net_keys: dict[str, str] = {}   # node as written -> case-folded key
         self.globals = reader.globals
         self.keep_cache: dict[str, bool] = {}
         self.limit = reader.options.max_elements
 
     def run(self) -> list[Element]:
         self.check_size()
+        self.reader.spellings.clear()   # the records hold the strings; the index is done
         scope = self.evaluate_group(self.reader.top.params, {}, {})
         self.expand(self.reader.top, scope, "", "", (), {}, 0, [])
         return self.elements
@@ -845,7 +992,7 @@ class _Flattener:
 
     def params(self, spec: _Spec, scope: dict) -> dict:
         if not spec.params:
-            return {}
+            return NO_PARAMS
         out = {}
         for key, value in spec.params.items():
             if isinstance(value, Expression):
@@ -894,6 +1041,7 @@ class _Flattener:
     # ------------------------------------------------------------ expansion
 
     def add(self, spec: _Spec, designator: str, dkey: str, element: Element) -> None:
+        dkey = designator_key(designator)
         first = self.seen.get(dkey)
         if first is not None:
             raise spec.line.error(f"duplicate designator {designator} (first at "
@@ -930,7 +1078,38 @@ class _Flattener:
         seen = self.seen
         elements = self.elements
         append = elements.append
-        for spec in definition.body:
+        top_nets = self.top_nets
+        body = definition.body
+        # The top level is expanded once: its records are let go as they are
+        # used, so the plain lines and the elements are not all held at once.
+        consume = len(body) - 1 if definition.line is None else 0
+        for position, spec in enumerate(body):
+            if position < consume:
+                body[position] = None
+            if spec.__class__ is _Plain:
+                # A plain two-node line (most of a board): inlined, no plan.
+                designator, kind, (name_a, name_b), value, model, number, source = spec
+                if prefix:
+                    designator = prefix + designator
+                    net_a = self.local_net(name_a, prefix, pkey, ports)
+                    net_b = self.local_net(name_b, prefix, pkey, ports)
+                else:
+                    net_a = top_nets.get(name_a)
+                    if net_a is None:
+                        net_a = self.top_net(name_a)
+                    net_b = top_nets.get(name_b)
+                    if net_b is None:
+                        net_b = self.top_net(name_b)
+                dkey = designator_key(designator)
+                first = seen.get(dkey)
+                if first is not None:
+                    raise spec.line.error(f"duplicate designator {designator} (first at "
+                                          f"{first.location})")
+                element = Element(designator, kind, (net_a, net_b), value, model, number,
+                                  NO_PARAMS, None, path, source)
+                seen[dkey] = element
+                append(element)
+                continue
             kind = spec.kind
             designator = prefix + spec.designator
             dkey = pkey + spec.dkey
@@ -938,11 +1117,12 @@ class _Flattener:
                 self.instance(definition, spec, scope, prefix, pkey, path, ports, depth, stack,
                               designator, dkey)
                 continue
-            first = seen.get(dkey)
+            skey = designator_key(designator)
+            first = seen.get(skey)
             if first is not None:
                 raise spec.line.error(f"duplicate designator {designator} (first at "
                                       f"{first.location})")
-            seen[dkey] = spec
+            seen[skey] = spec
             if kind == "Q":
                 self.resolve_q(spec)
             plan = spec.plan
@@ -967,8 +1147,9 @@ class _Flattener:
             value = spec.value
             if value is not None and value.__class__ is not Value:
                 value = self.value(spec, scope)
-            params = self.params(spec, scope) if spec.params else {}
+            params = self.params(spec, scope) if spec.params else NO_PARAMS
             if spec.extra is not None:
+                params = dict(params)
                 if kind == "K":
                     params["inductors"] = tuple(prefix + name for name in spec.extra)
                 elif kind in "FHW":
@@ -977,6 +1158,38 @@ class _Flattener:
                            spec.location, params, spec.line.text, path))
         if len(elements) > self.limit:
             raise self.limit_error(definition)
+
+    def top_net(self, name: str) -> str:
+        """The flat net of top-level node `name`, remembered per spelling."""
+        key = name.casefold()
+        if key in GROUND_NAMES:
+            net = "0"
+        else:
+            net = self.canon.get(key)
+            if net is None:
+                net = self.canon[key] = name
+        self.top_nets[name] = net
+        return net
+
+    def local_net(self, name: str, prefix: str, pkey: str, ports: dict) -> str:
+        """The flat net of node `name` of a plain line inside an instance."""
+        key = self.net_keys.get(name)
+        if key is None:
+            key = self.net_keys[name] = name.casefold()
+        if key in GROUND_NAMES:
+            return "0"
+        if key in self.globals:
+            net = self.canon.get(key)
+            if net is None:
+                net = self.canon[key] = name
+            return net
+        net = ports.get(key)
+        if net is None:
+            full_key = pkey + key
+            net = self.canon.get(full_key)
+            if net is None:
+                net = self.canon[full_key] = prefix + name
+        return net
 
     def limit_error(self, definition: _Def) -> Exception:
         line = definition.line or definition.body[-1].line
@@ -1013,7 +1226,7 @@ class _Flattener:
         key = spec.model.casefold()
         definition = self.lookup(parent, key)
         if definition is None or self.keep(spec.model):
-            params = {}
+            params = {} if spec.params else NO_PARAMS
             for pkey_, (_, raw) in spec.params.items():
                 params[pkey_] = self.instance_value(spec, raw, scope)[0] \
                     if (raw[:1] in "{'" or _number(raw) is not None) else raw
@@ -1050,6 +1263,7 @@ class _Flattener:
 
     def seen_instance(self, spec: _Spec, designator: str, dkey: str) -> None:
         """Instance names share the designator space of elements (ngspice does too)."""
+        dkey = designator_key(designator)
         first = self.seen.get(dkey)
         if first is not None:
             raise spec.line.error(f"duplicate designator {designator} (first at "
@@ -1091,6 +1305,19 @@ class _Flattener:
 
 
 # ---------------------------------------------------------------- helpers
+
+_ASCII_UPPER = str.maketrans("abcdefghijklmnopqrstuvwxyz", "ABCDEFGHIJKLMNOPQRSTUVWXYZ")
+
+
+def designator_key(text: str) -> str:
+    """The key the duplicate-designator check files `text` under: the case-folded
+    text with its ASCII letters upper-cased (the same identity as `key()`,
+    character by character), so the usual upper-case designator is its own
+    key and a million of them need no second string."""
+    if text.isascii():
+        upper = text.upper()
+        return text if upper == text else upper
+    return text.casefold().translate(_ASCII_UPPER)
 
 
 def _number(text) -> Value | None:

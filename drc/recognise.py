@@ -36,8 +36,18 @@ _DIGITS = re.compile(r"(\d+)")
 
 def natural_key(text: str) -> tuple:
     """Sort key that puts SW2 before SW10."""
-    return tuple(int(part) if part.isdigit() else part.casefold()
-                 for part in _DIGITS.split(text))
+    found = _NATURAL.get(text)
+    if found is None:
+        found = tuple(int(part) if part.isdigit() else part.casefold()
+                      for part in _DIGITS.split(text))
+        if len(_NATURAL) > 100_000:  # a bound for long-lived processes
+            _NATURAL.clear()
+        _NATURAL[text] = found
+    return found
+
+
+# Designators and part names recur in every stage's sort and parts list.
+_NATURAL: dict[str, tuple] = {}
 
 
 def stages_for_board(board: Board, config: Config) -> list[Stage]:

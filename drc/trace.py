@@ -151,19 +151,19 @@ def build_index(board: Board) -> TraceIndex:
 
 def _build_index(board: Board) -> TraceIndex:
     elements = board.netlist.elements
-    passives: dict[str, list[int]] = {}
     kinds = PASSIVE_KINDS
-    for index, element in enumerate(elements):
-        if element.kind in kinds:
-            for node in element.nodes:
-                # Inline casefold (= netlist.key) and plain dict: this loop
-                # sees every passive of the board.
-                k = node.casefold()
-                found = passives.get(k)
-                if found is None:
-                    passives[k] = [index]
-                else:
-                    found.append(index)
+    # Every passive pin of the board passes here: group by spelling first (a
+    # comprehension and a defaultdict, no casefold per pin), then fold each
+    # spelling once. Lists stay in element order (merged spellings re-sorted).
+    by_spelling: defaultdict[str, list[int]] = defaultdict(list)
+    for node, index in [(node, index) for index, element in enumerate(elements)
+                        if element.kind in kinds for node in element.nodes]:
+        by_spelling[node].append(index)
+    passives: dict[str, list[int]] = {}
+    for spelled, indices in by_spelling.items():
+        k = spelled.casefold()
+        found = passives.get(k)
+        passives[k] = indices if found is None else sorted(found + indices)
     # Spellings: the reader keeps one spelling per net, so any occurrence
     # names it; board objects first, element nodes as regions are walked.
     names: dict[str, str] = {key(GROUND): GROUND}

@@ -82,10 +82,31 @@ def run_stage_rules(result: StageResult, limits: Mapping[str, float],
                     selected_ids: Iterable[str] | None = None, board=None,
                     severities: Mapping[str, str] | None = None) -> list[Finding]:
     """The stage rules alone on one result (what the fix solver re-runs)."""
-    rules = _selected(selected_ids, kind="stage")
-    contexts = _contexts(rules, getattr(board, "path", "") or "", limits, severities,
-                         locations_of(board) if board is not None else {})
+    if board is None and not severities:
+        contexts = _bare_contexts(limits, selected_ids)
+    else:
+        rules = _selected(selected_ids, kind="stage")
+        contexts = _contexts(rules, getattr(board, "path", "") or "", limits, severities,
+                             locations_of(board) if board is not None else {})
     out: list[Finding] = []
     for r, ctx in contexts:
         out.extend(r.check(result, ctx))
     return out
+
+
+# The fix search re-runs the stage rules thousands of times with one limits
+# mapping and no board: their contexts are built once. Keyed by the mapping's
+# identity (each context holds the mapping and its rule, so the ids stay theirs
+# while cached) and by the rules registered.
+_BARE: dict[tuple, list[tuple[Rule, RuleContext]]] = {}
+
+
+def _bare_contexts(limits: Mapping[str, float], selected_ids) -> list[tuple[Rule, RuleContext]]:
+    selected = None if selected_ids is None else tuple(sorted(selected_ids))
+    memo = (id(limits), selected, tuple(id(r) for r in registered_rules()))
+    found = _BARE.get(memo)
+    if found is None:
+        if len(_BARE) > 64:
+            _BARE.clear()
+        found = _BARE[memo] = _contexts(_selected(selected_ids, kind="stage"), "", limits, None, {})
+    return found

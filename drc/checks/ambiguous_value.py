@@ -5,8 +5,7 @@ from __future__ import annotations
 import re
 
 from ..ruledoc import RuleDoc
-from ..units import format_quantity as fq
-from .context import RuleContext, figure
+from .context import RuleContext, figure, quantity_text as fq
 from .examples import debounced_stage, netlist
 from .registry import rule
 
@@ -62,13 +61,19 @@ def _is_code(text: str) -> bool:
 @rule(DOC, kind="board")
 def check(board, ctx: RuleContext):
     reported: set = set()
+    # A board writes a few dozen distinct values many thousand times: classify each once.
+    seen: dict[tuple[str, str], str | None] = {}
     for element in board.netlist.elements:
-        if element.kind not in ("R", "C") or element.value is None:
+        kind = element.kind
+        if (kind != "R" and kind != "C") or element.value is None:
             continue
         text = element.value.text
         if text.isdigit() or not text:
             continue  # a bare number is never ambiguous: the common case stays cheap
-        problem = classify_value_text(element.kind, text)
+        memo = (kind, text)
+        problem = seen.get(memo, _UNSEEN)
+        if problem is _UNSEEN:
+            problem = seen[memo] = classify_value_text(kind, text)
         if problem is None:
             continue
         # A subcircuit expanded many times repeats one written value: report the text once.
@@ -76,6 +81,9 @@ def check(board, ctx: RuleContext):
             continue
         reported.add(element.location)
         yield _finding(ctx, element, problem)
+
+
+_UNSEEN = object()
 
 
 def _finding(ctx: RuleContext, element, problem: str):

@@ -4,9 +4,8 @@ from __future__ import annotations
 
 from ..results import EDGES, StageResult
 from ..ruledoc import RuleDoc
-from ..units import format_quantity as fq
 from .common import RC_KINDS, contact_name, threshold_name, timing_parts, timing_text
-from .context import RuleContext, figure
+from .context import RuleContext, figure, quantity_text as fq
 from .examples import debounced_stage, netlist
 from .registry import rule
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from ..results import EdgeResult, StageResult
 from ..stage import Capacitor, Resistor
-from ..units import format_quantity as fq
+from .context import quantity_text as fq
 
 # Stage kinds whose debouncing happens somewhere other than an RC at the pin.
 DEBOUNCED_ELSEWHERE = ("latch", "firmware", "dedicated")

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from operator import attrgetter
 
 from ..errors import LibraryError, SourceLocation
 from ..findings import Figure, Finding
@@ -21,23 +22,93 @@ from ..units import format_quantity
 
 def figure(value: float, unit: str) -> Figure:
     """A Figure with its display text ("11.8 ms", "4.7 kΩ")."""
-    return Figure(value=float(value), unit=unit, text=format_quantity(value, unit))
+    value = float(value)
+    memo = (value, unit)
+    found = _FIGURES.get(memo) if value else None  # 0.0 and -0.0 are equal keys
+    if found is None:
+        found = Figure(value=value, unit=unit, text=quantity_text(value, unit))
+        if value:
+            if len(_FIGURES) > 50_000:  # a bound for long-lived processes
+                _FIGURES.clear()
+            _FIGURES[memo] = found
+    return found
 
 
-def locations_of(board) -> dict[str, SourceLocation]:
+def quantity_text(value: float, unit: str) -> str:
+    """units.format_quantity, remembered: part values and limits recur in every stage."""
+    memo = (value.__class__, value, unit)
+    try:
+        return _TEXTS[memo]
+    except KeyError:
+        pass
+    except TypeError:  # an unhashable value: format it as it is
+        return format_quantity(value, unit)
+    text = format_quantity(value, unit)
+    if len(_TEXTS) > 50_000:  # a bound for long-lived processes
+        _TEXTS.clear()
+    _TEXTS[memo] = text
+    return text
+
+
+_TEXTS: dict[tuple, str] = {}
+# Limits and standard values recur across stages and boards; a Figure is frozen.
+_FIGURES: dict[tuple[float, str], Figure] = {}
+
+
+_DESIGNATOR = attrgetter("designator")
+
+
+class Locations(Mapping):
+    """Designator key -> netlist location, for every element and part of a board.
+
+    Elements are indexed by designator (the first of a duplicate wins) and
+    their location made only when a finding asks for it: a board has a
+    hundred thousand elements and a few thousand findings.
+    """
+
+    __slots__ = ("_elements", "_others")
+
+    def __init__(self, elements, others: dict[str, SourceLocation]) -> None:
+        backwards = elements[::-1]  # later duplicates first, so the first one wins
+        self._elements = dict(zip(map(str.casefold, map(_DESIGNATOR, backwards)), backwards))
+        self._others = others
+
+    def get(self, k, default=None):
+        element = self._elements.get(k)
+        if element is not None:
+            return element.location
+        return self._others.get(k, default)
+
+    def __getitem__(self, k) -> SourceLocation:
+        found = self.get(k, _MISSING)
+        if found is _MISSING:
+            raise KeyError(k)
+        return found
+
+    def __iter__(self):
+        yield from self._elements
+        yield from (k for k in self._others if k not in self._elements)
+
+    def __len__(self) -> int:
+        return len(self._elements) + sum(1 for k in self._others if k not in self._elements)
+
+
+_MISSING = object()
+
+
+def locations_of(board) -> Mapping[str, SourceLocation]:
     """Designator key -> netlist location, for every element and part of a board."""
     if board is None:
         return {}
-    out: dict[str, SourceLocation] = {}
-    netlist = getattr(board, "netlist", None)
-    if netlist is not None:
-        for element in netlist.elements:
-            out.setdefault(key(element.designator), element.location)
+    others: dict[str, SourceLocation] = {}
     for part in getattr(board, "parts", {}).values():
-        out.setdefault(key(part.designator), part.location)
+        others.setdefault(key(part.designator), part.location)
     for contact in getattr(board, "contacts", ()):
-        out.setdefault(key(contact.designator), contact.location)
-    return out
+        others.setdefault(key(contact.designator), contact.location)
+    netlist = getattr(board, "netlist", None)
+    if netlist is None:
+        return others
+    return Locations(netlist.elements, others)
 
 
 @dataclass(slots=True)
@@ -53,7 +124,7 @@ class RuleContext:
     board_name: str
     limits: Mapping[str, float]
     severity_override: str | None = None
-    locations: dict[str, SourceLocation] = field(default_factory=dict)
+    locations: Mapping[str, SourceLocation] = field(default_factory=dict)
 
     def limit(self, limit_key: str) -> float:
         """The limit `limit_key`; a missing key is a library bug, said plainly."""

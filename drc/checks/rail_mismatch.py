@@ -4,9 +4,8 @@ from __future__ import annotations
 
 from ..results import StageResult
 from ..ruledoc import RuleDoc
-from ..units import format_quantity as fq
 from .common import contact_name, pull_resistors
-from .context import RuleContext, figure
+from .context import RuleContext, figure, quantity_text as fq
 from .examples import netlist
 from .registry import rule
 

@@ -4,9 +4,8 @@ from __future__ import annotations
 
 from ..results import EDGES, StageResult
 from ..ruledoc import RuleDoc
-from ..units import format_quantity as fq
 from .common import DEBOUNCED_ELSEWHERE, contact_name, is_schmitt, timing_parts
-from .context import RuleContext, figure
+from .context import RuleContext, figure, quantity_text as fq
 from .examples import debounced_stage, netlist
 from .registry import rule
 

@@ -44,22 +44,21 @@ def structure_key(circuit: StageCircuit) -> tuple:
     rails = [r for r in circuit.rails if r.net != GROUND]
     fixed = (GROUND,) + tuple(r.net for r in rails)
     fixed_index = {net: i for i, net in enumerate(fixed)}
-    free_index: dict[str, int] = {}
+    # One table of codes: free nets 0, 1, ... in node order; fixed nets -1, -2, ...
+    # (computed for every stage of a board: lookups, not calls).
+    code = {net: -1 - i for net, i in fixed_index.items()}
+    free = 0
     for net in circuit.nodes():
         if net not in fixed_index:
-            free_index[net] = len(free_index)
-
-    def code(net: str) -> int:
-        i = free_index.get(net)
-        return i if i is not None else -1 - fixed_index[net]
-
+            code[net] = free
+            free += 1
     return (
-        len(free_index), len(fixed),
-        tuple((code(r.a), code(r.b), r.role) for r in circuit.resistors),
-        tuple((code(c.a), code(c.b)) for c in circuit.capacitors),
-        tuple((code(d.anode), code(d.cathode), d.forward_v, d.on_ohms) for d in circuit.diodes),
-        tuple((code(t.a), code(t.b), t.closed_when, t.closed_ohms) for t in circuit.throws),
-        code(circuit.receiver_node),
+        free, len(fixed),
+        tuple((code[r.a], code[r.b], r.role) for r in circuit.resistors),
+        tuple((code[c.a], code[c.b]) for c in circuit.capacitors),
+        tuple((code[d.anode], code[d.cathode], d.forward_v, d.on_ohms) for d in circuit.diodes),
+        tuple((code[t.a], code[t.b], t.closed_when, t.closed_ohms) for t in circuit.throws),
+        code[circuit.receiver_node],
     )
 
 
@@ -253,17 +252,27 @@ def _edges(g: _Group, edge: str, lv: dict, rx: dict):
     ar = np.arange(m)
     t_fast = tf[ar, i_f]; t_slow = ts[ar, i_s]
     slope_slow = s_s[ar, 1 + i_s]
+    # Plain Python floats once per group (tolist), not a numpy scalar per figure:
+    # the same values, at a fraction of the cost over thousands of stages.
+    cols = [rising, start, final, typ, inner, outer, t_f[:, 0], t_fast, t_slow, s_f[:, 0], slope_slow]
+    rows = list(zip(*(c.tolist() for c in cols)))
+    fast_rows = V[ar, i_f].tolist()
+    slow_rows = V[ar, i_s].tolist()
+
     def build(j: int, names: tuple[str, ...]) -> EdgeResult:
-        t0 = float(t_f[j, 0])
+        up, v0, v1, vt, vin, vout, t0, tfast, tslow, s0, sslow = rows[j]
+        fastest = dict(zip(names, fast_rows[j]))  # as corners.corner_dict
+        fastest[THRESHOLD] = vin
+        slowest = dict(zip(names, slow_rows[j]))
+        slowest[THRESHOLD] = vout
         return EdgeResult(
-            edge=edge, direction="rising" if rising[j] else "falling",
-            start_v=float(start[j]), final_v=float(final[j]), threshold_v=float(typ[j]),
-            threshold_fastest_v=float(inner[j]), threshold_slowest_v=float(outer[j]),
-            nominal_s=_none(t0), fastest_s=_none(float(t_fast[j])), slowest_s=_none(float(t_slow[j])),
-            slope_v_per_s=_slope(float(s_f[j, 0])) if not math.isnan(t0) else None,
-            slowest_slope_v_per_s=_slope(float(slope_slow[j])) if math.isfinite(t_slow[j]) else None,
-            corner_fastest=corner_dict(names, V[j, i_f[j]], {THRESHOLD: float(inner[j])}),
-            corner_slowest=corner_dict(names, V[j, i_s[j]], {THRESHOLD: float(outer[j])}),
+            edge=edge, direction="rising" if up else "falling",
+            start_v=v0, final_v=v1, threshold_v=vt,
+            threshold_fastest_v=vin, threshold_slowest_v=vout,
+            nominal_s=_none(t0), fastest_s=_none(tfast), slowest_s=_none(tslow),
+            slope_v_per_s=_slope(s0) if not math.isnan(t0) else None,
+            slowest_slope_v_per_s=_slope(sslow) if math.isfinite(tslow) else None,
+            corner_fastest=fastest, corner_slowest=slowest,
         )
     return build
 
@@ -328,29 +337,46 @@ def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverEle
             return None
         builders[edge] = got
     surge = _surge(g)
+    surge_l = surge.tolist() if surge is not None else None
+    # Plain Python values per distinct row, once (tolist): same figures, no numpy scalars.
+    plain = {s: _plain_levels(lv[s]) for s in ("released", "pressed")}
+    states = [s for s in ("released", "pressed") if not lv[s]["undefined"]]
+    notes_t = tuple(notes)
+    built: dict[int, tuple] = {}
     out = []
     for i, st in enumerate(stages):
         j = int(inverse[i])
-        levels = {}
-        for s in ("released", "pressed"):
-            d = lv[s]
-            if d["undefined"]:
-                levels[s] = LevelResult(s, "undefined", None, None, None, None, None, None)
-            else:
-                levels[s] = LevelResult(
-                    s, "high" if d["high"][j] else "low", float(d["nominal_v"][j]), float(d["worst_v"][j]),
-                    float(d["required"][j]), float(d["margin"][j]), float(d["thevenin_v"][j]),
-                    float(d["thevenin_ohms"][j]))
-        defined = [lv[s] for s in ("released", "pressed") if not lv[s]["undefined"]]
-        max_in = max((float(d["max_v"][j]) for d in defined), default=None)
-        pulls = [float(d["pull_a"][j]) for d in defined if math.isfinite(d["pull_a"][j])]
-        contacts = [float(lv[s]["contact_a"][j]) for s in ("released", "pressed")
-                    if lv[s]["contact_a"] is not None]
+        shared = built.get(j)
+        if shared is None:
+            levels = {}
+            for s in ("released", "pressed"):
+                d = plain[s]
+                if d is None:
+                    levels[s] = LevelResult(s, "undefined", None, None, None, None, None, None)
+                else:
+                    levels[s] = LevelResult(
+                        s, "high" if d["high"][j] else "low", d["nominal_v"][j], d["worst_v"][j],
+                        d["required"][j], d["margin"][j], d["thevenin_v"][j], d["thevenin_ohms"][j])
+            max_in = max((plain[s]["max_v"][j] for s in states), default=None)
+            pulls = [plain[s]["pull_a"][j] for s in states if math.isfinite(plain[s]["pull_a"][j])]
+            contacts = [float(lv[s]["contact_a"][j]) for s in ("released", "pressed")
+                        if lv[s]["contact_a"] is not None]
+            shared = built[j] = (levels, max(pulls) if pulls else None,
+                                 min(contacts) if contacts else None,
+                                 surge_l[j] if surge_l is not None else None, max_in)
+        levels, pull, contact, surge_j, max_in = shared
         out.append(StageResult(
-            stage=st, levels=levels, edges={e: build(j, names[i]) for e, build in builders.items()},
-            pull_current_a=max(pulls) if pulls else None,
-            contact_current_a=min(contacts) if contacts else None,
-            surge_peak_a=float(surge[j]) if surge is not None else None,
-            max_input_v=max_in, receiver_electrical=rxs[i], notes=tuple(notes),
+            stage=st, levels=dict(levels), edges={e: build(j, names[i]) for e, build in builders.items()},
+            pull_current_a=pull, contact_current_a=contact, surge_peak_a=surge_j,
+            max_input_v=max_in, receiver_electrical=rxs[i], notes=notes_t,
         ))
     return out
+
+
+def _plain_levels(d: dict) -> dict | None:
+    """One state's level arrays as Python lists (None for an undefined state)."""
+    if d["undefined"]:
+        return None
+    keys = ("high", "nominal_v", "worst_v", "required", "margin", "thevenin_v", "thevenin_ohms",
+            "max_v", "pull_a")
+    return {k: d[k].tolist() for k in keys}

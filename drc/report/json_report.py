@@ -26,9 +26,20 @@ def number(value: float | None) -> float | None:
     if value is None or isinstance(value, bool):
         return None
     value = float(value)
+    found = _ROUNDED.get(value)
+    if found is not None and value:  # 0.0 and -0.0 are one key: keep each one's sign
+        return found
     if not math.isfinite(value):
         return None
-    return float(f"{value:.9g}")
+    found = float(f"{value:.9g}")
+    if len(_ROUNDED) > 200_000:  # a bound for long-lived processes
+        _ROUNDED.clear()
+    _ROUNDED[value] = found
+    return found
+
+
+# Corner values, thresholds and rails recur across thousands of stages: round each once.
+_ROUNDED: dict[float, float] = {}
 
 
 def location_json(location: SourceLocation | None) -> dict | None:
@@ -156,6 +167,178 @@ def report_document(run: RunReport) -> dict:
 
 
 def render_json(run: RunReport) -> str:
-    """The JSON report text: sorted keys, two-space indent, UTF-8 characters kept, final newline."""
-    return json.dumps(report_document(run), indent=2, sort_keys=True, ensure_ascii=False,
-                      allow_nan=False) + "\n"
+    """The JSON report text: sorted keys, two-space indent, UTF-8 characters kept, final newline.
+
+    Byte-identical to json.dumps(doc, indent=2, sort_keys=True, ensure_ascii=False,
+    allow_nan=False) (tests/gate/test_json_report.py checks it); written by
+    dump_indented because the standard library's indenting encoder is pure
+    Python generators, three times slower on a report of thousands of stages.
+    """
+    from ..trace import collection_paused
+    with collection_paused():  # many small dicts, no cycles: no collections needed
+        return dump_indented(report_document(run)) + "\n"
+
+
+_escape = json.encoder.encode_basestring  # the C string escaper when available
+_float_repr = float.__repr__
+_int_repr = int.__repr__
+_KEYS: dict[str, str] = {}
+
+
+def _key(key) -> str:
+    text = _KEYS.get(key) if type(key) is str else None
+    if text is None:
+        text = _escape(_key_text(key)) + ": "
+        if type(key) is str:
+            _KEYS[key] = text
+    return text
+
+
+def _key_text(key) -> str:
+    """A non-string key as json.dumps writes it."""
+    if isinstance(key, str):
+        return key
+    if isinstance(key, float):
+        return _float_text(key)
+    if key is True:
+        return "true"
+    if key is False:
+        return "false"
+    if key is None:
+        return "null"
+    if isinstance(key, int):
+        return _int_repr(key)
+    raise TypeError(f"keys must be str, int, float, bool or None, not {type(key).__name__}")
+
+
+def _float_text(value: float) -> str:
+    if value != value or value in (math.inf, -math.inf):
+        raise ValueError("Out of range float values are not JSON compliant: " + repr(value))
+    return _float_repr(value)
+
+
+def _scalar(value) -> str:
+    """json's order of checks, for subclasses (numpy floats, IntEnum...)."""
+    if isinstance(value, str):
+        return _escape(value)
+    if value is None:
+        return "null"
+    if value is True:
+        return "true"
+    if value is False:
+        return "false"
+    if isinstance(value, int):
+        return _int_repr(value)
+    if isinstance(value, float):
+        return _float_text(value)
+    raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
+
+
+_CONTAINERS = frozenset((dict, list, tuple))
+_LEAF_ENCODERS: dict[str, object] = {}
+
+
+def _leaf_encoder(inner: str):
+    """An encoder for a container of scalars at one depth: the C encoder when
+    there is one (compact, with the newline and indent as its item separator),
+    else the standard library's own Python one."""
+    encoder = _LEAF_ENCODERS.get(inner)
+    if encoder is None:
+        make = json.encoder.c_make_encoder
+        if make is not None:
+            encoder = make(None, _no_default, _escape, None, ": ", "," + inner, True, False, False)
+        else:
+            plain = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
+                                     separators=("," + inner, ": "))
+            encoder = (lambda value, _level: plain.iterencode(value))
+        _LEAF_ENCODERS[inner] = encoder
+    return encoder
+
+
+def _no_default(value):
+    raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
+
+
+def dump_indented(value) -> str:
+    """`value` as json.dumps(indent=2, sort_keys=True, ensure_ascii=False, allow_nan=False)."""
+    out: list[str] = []
+    _dump(value, "\n", out)
+    return "".join(out)  # one copy of the text, whatever the nesting
+
+
+def _dump(value, indent: str, out: list[str]) -> None:
+    append = out.append
+    kind = type(value)
+    if kind is dict:
+        if not value:
+            append("{}")
+            return
+        inner = indent + "  "
+        if _CONTAINERS.isdisjoint(map(type, value.values())) and type(next(iter(value))) is str:
+            # Only scalars: one call of the C encoder, the indent as its item separator.
+            text = "".join(_leaf_encoder(inner)(value, 0))
+            append("{" + inner)
+            append(text[1:-1])
+            append(indent + "}")
+            return
+        keys = _KEYS
+        head = "{" + inner
+        separator = "," + inner
+        for k, v in sorted(value.items()):
+            key = keys.get(k) if type(k) is str else None
+            if key is None:
+                key = _key(k)
+            kind = type(v)
+            # Scalars inline: a call per value would be most of the cost of a report.
+            if kind is str:
+                append(head + key + _escape(v))
+            elif kind is float:
+                text = _float_repr(v)
+                if text[-1] > "9":
+                    _float_text(v)  # raises on inf and nan, as json does
+                append(head + key + text)
+            elif v is None:
+                append(head + key + "null")
+            else:
+                append(head + key)
+                _dump(v, inner, out)
+            head = separator
+        append(indent + "}")
+        return
+    if kind is list or kind is tuple:
+        if not value:
+            append("[]")
+            return
+        inner = indent + "  "
+        if _CONTAINERS.isdisjoint(map(type, value)):
+            text = "".join(_leaf_encoder(inner)(value, 0))
+            append("[" + inner)
+            append(text[1:-1])
+            append(indent + "]")
+            return
+        head = "[" + inner
+        separator = "," + inner
+        for v in value:
+            append(head)
+            _dump(v, inner, out)
+            head = separator
+        append(indent + "]")
+        return
+    if kind is str:
+        append(_escape(value))
+    elif kind is float:
+        append(_float_text(value))
+    elif value is None:
+        append("null")
+    elif value is True:
+        append("true")
+    elif value is False:
+        append("false")
+    elif kind is int:
+        append(_int_repr(value))
+    elif isinstance(value, dict):
+        _dump(dict(value), indent, out)
+    elif isinstance(value, (list, tuple)):
+        _dump(list(value), indent, out)
+    else:
+        append(_scalar(value))

@@ -31,9 +31,19 @@ _DIGITS = re.compile(r"(\d+)")
 def natural_key(text: str | None) -> tuple:
     """"SW2" before "SW10"; case-insensitive, then exact text to stay total."""
     text = text or ""
-    parts = tuple((0, int(p), "") if p.isdigit() else (1, 0, p.casefold())
-                  for p in _DIGITS.split(text) if p)
-    return parts, text
+    found = _NATURAL.get(text)
+    if found is None:
+        parts = tuple((0, int(p), "") if p.isdigit() else (1, 0, p.casefold())
+                      for p in _DIGITS.split(text) if p)
+        found = (parts, text)
+        if len(_NATURAL) > 100_000:  # a bound for long-lived processes
+            _NATURAL.clear()
+        _NATURAL[text] = found
+    return found
+
+
+# Designators, refs and board paths recur in every finding of a board: split each once.
+_NATURAL: dict[str, tuple] = {}
 
 
 def _figure_key(figure) -> tuple:

@@ -34,7 +34,7 @@ def _start(folder, *args):
 @pytest.mark.skipif(os.name != "posix", reason="sends SIGINT")
 def test_ctrl_c_exits_130_with_one_line_and_keeps_the_old_report(tmp_path):
     board = tmp_path / "big.cir"
-    board.write_text(large_board(3000))
+    board.write_text(large_board(30000))  # far more than 2 s of work, even on a fast machine
     report = tmp_path / "report.json"
     report.write_text(OLD_REPORT)
     before = board.read_bytes()

@@ -75,3 +75,68 @@ def test_fast_path_takes_exported_names_and_declines_calls():
     assert fast_element("R1 a b {x}") is None
     assert fast_element("X1 a b sub w=1") is None
     assert fast_element("B1 a 0 v") is None
+
+
+# ---- the top file's fast loop (drc/reader.py fast_walk, drc/fastpath.py PLAIN_LINE) ----
+
+from drc.fastpath import plain_words  # noqa: E402
+from drc.lines import logical_lines, strip_comment  # noqa: E402
+
+
+@settings(max_examples=400, deadline=None)
+@given(element_lines(), st.sampled_from(["", " ", "\t", "  "]))
+def test_plain_line_is_its_own_statement_and_the_grammars_record(text, trailing):
+    """A physical line PLAIN_LINE accepts is unchanged by comment removal and
+    reads, by the grammar, as exactly its words."""
+    raw = text + trailing
+    words = plain_words(raw)
+    if words is None or raw[0] not in "RCLSXrclsx":   # the letters fast_walk reads itself
+        return
+    assert strip_comment(raw) == raw.rstrip()
+    assert parse_element(_line(raw.rstrip())) == (words[0], tuple(words[1:]), ())
+
+
+_STATEMENT_LINES = st.sampled_from([
+    "R1 a b 4k7", "r2 A B 1k", "C1 a 0 100n", "L1 b gnd 1u", "S1 a b", "SW2 a B TACTILE",
+    "R3 Net-(SW1-Pad2) /x/y 2R2", "X1 a b sub", "XU1 a b part", "V1 a 0 DC 5", "R4 a b 1k ; note",
+    "R5 a b", "+ 10k", "  + c", "* comment", "", "   ", "; only a comment", "R6 a b {1k}",
+    "  R7 a b 1k", "R8 a b 1k model", "C2 a", "+ 0 1n $ x", ".subckt sub p q", ".ends",
+    ".global A", ".param x=1", "R1 c d 1", "K1 L1 L2 0.5", "R9 a b 1k\t", "R10 a b notanumber",
+    ".end", "R11 x y 5",
+])
+
+
+def _generic_read(text):
+    from drc import reader as module
+
+    def walk_all(self, source, lines):
+        self.walk(logical_lines(source, 1, self.options.max_line_length), None)
+
+    fast = module._Reader.fast_walk
+    module._Reader.fast_walk = walk_all
+    try:
+        return _outcome(text)
+    finally:
+        module._Reader.fast_walk = fast
+
+
+def _outcome(text):
+    from drc.errors import DrcError
+    from drc.reader import read_netlist_text
+    try:
+        netlist = read_netlist_text(text, "<prop>")
+    except DrcError as exc:
+        return ("error", type(exc).__name__, exc.render())
+    return ([(e.designator, e.kind, e.nodes, e.value, e.model, e.location, dict(e.params),
+              e.text, e.instance_path) for e in netlist.elements],
+            [(d.message, d.location) for d in netlist.diagnostics], netlist.title)
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(_STATEMENT_LINES, max_size=14), st.sampled_from(["\n", "\r\n"]))
+def test_fast_loop_reads_like_the_general_walk(lines, newline):
+    """The top file's fast loop (plain lines, bulk continuation zones, hand-over
+    to `walk`) gives the same netlist, or the same error, as reading every
+    statement through the general walk (drc/lines.py logical_lines)."""
+    text = newline.join(["title"] + lines)
+    assert _outcome(text) == _generic_read(text)
