@@ -28,7 +28,7 @@ from .board import Board, Contact, InternalPull, Part, PartPin, Rail, Receiver
 from .config_model import Config, ContactConfig, McuConfig, PartConfig
 from .errors import ConfigError, SourceLocation
 from .netlist import GROUND, Diagnostic, Element, Netlist, key
-from .trace import collection_paused
+from .gcpause import collection_paused
 
 FORMS = ("SPST-NO", "SPST-NC", "SPDT")
 DEFAULT_CONTACT_CLASS = "tactile"

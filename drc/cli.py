@@ -10,9 +10,7 @@ so that `drc --version` and a small check start fast.
 from __future__ import annotations
 
 import argparse
-import os
 import sys
-from pathlib import Path
 
 from . import __version__
 from .errors import DrcError, UsageError

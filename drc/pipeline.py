@@ -8,7 +8,6 @@ prints: the command line and the Python API both call these functions.
 
 from __future__ import annotations
 
-import gc
 from collections import Counter
 from concurrent.futures import Executor
 from dataclasses import dataclass, field, replace
@@ -17,6 +16,7 @@ from pathlib import Path
 from typing import Iterable
 
 from .config_model import Config
+from .gcpause import collection_paused
 from .errors import DrcError
 from .findings import Finding
 from .results import StageResult
@@ -211,14 +211,9 @@ def check_board_full(path: str | Path, options: CheckOptions = CheckOptions()) -
     """Read and check one netlist file (errors propagate as DrcError)."""
     path = str(path)
     config = find_config(path, options)
-    gc_was_enabled = gc.isenabled()
-    gc.disable()  # the pipeline allocates many small records and frees few
-    try:
+    with collection_paused():  # the pipeline allocates many small records and frees few
         netlist = read_board(path, config, options)
         return check_netlist(netlist, config, options, path)
-    finally:
-        if gc_was_enabled:
-            gc.enable()
 
 
 def board_report(check: BoardCheck):
@@ -251,7 +246,7 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
     Top-level and picklable, so a process pool or a cluster executor can run it.
     """
     from .report.model import BoardReport
-    from .trace import collection_paused
+    from .gcpause import collection_paused
     # The collector stays paused until the report is built: with a large
     # netlist alive, a full collection set off by the report's allocations
     # would walk every element of it (the records hold no cycles).
@@ -301,7 +296,7 @@ def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *
     executor); None runs in this process. progress: called once per board.
     """
     from .checks import all_rules
-    from .report.model import BaselineInfo, RunReport
+    from .report.model import RunReport
     from .waivers import combine_notes
     files = [str(f) for f in board_files(paths)]
     if executor is None:

@@ -17,14 +17,13 @@ first-seen spelling. X instances of undefined subcircuits, or of names the
 
 from __future__ import annotations
 
-import gc
 import os
 import re
-from contextlib import contextmanager
 from dataclasses import dataclass
 from operator import itemgetter
 from typing import Callable
 
+from .gcpause import collection_paused
 from .errors import LimitError, NetlistError, SourceLocation
 from .expressions import Expression, ExpressionError, compile_expression, evaluate
 from .fastpath import PLAIN_LINE, fast_directive, fast_element
@@ -1355,19 +1354,6 @@ def _finish(reader: _Reader, path: str) -> Netlist:
     return netlist
 
 
-@contextmanager
-def _no_gc():
-    """Pause the cyclic garbage collector: reading builds many small objects
-    and no cycles, and the collector's passes cost a third of the time."""
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()
-
-
 def read_netlist(path, *, options: ReaderOptions | None = None,
                  keep_as_part: Callable[[str], bool] | None = None) -> Netlist:
     """Read, include and flatten the netlist at `path`.
@@ -1379,7 +1365,7 @@ def read_netlist(path, *, options: ReaderOptions | None = None,
     real = os.path.realpath(shown)
     source = read_source(shown, shown, options.max_file_bytes)
     reader = _Reader(options, keep_as_part, _roots(os.path.dirname(real), options))
-    with _no_gc():
+    with collection_paused():
         reader.load_top(source, real)
         return _finish(reader, shown)
 
@@ -1398,6 +1384,6 @@ def read_netlist_text(text: str, path: str = "<text>", *,
     reader = _Reader(options, keep_as_part, _roots(folder, options))
     real = None if path.startswith("<") else os.path.join(os.path.realpath(folder),
                                                            os.path.basename(path))
-    with _no_gc():
+    with collection_paused():
         reader.load_top(source, real)
         return _finish(reader, path)

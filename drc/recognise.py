@@ -28,7 +28,8 @@ from .config_model import Config
 from .errors import NetlistError
 from .netlist import GROUND, Element, key
 from .stage import Capacitor, Diode, RailSource, Resistor, Stage, StageCircuit, Throw
-from .trace import InputPath, TraceIndex, build_index, collection_paused, trace_paths
+from .gcpause import collection_paused
+from .trace import InputPath, TraceIndex, build_index, trace_paths
 from .classify import parse_tolerance
 
 _DIGITS = re.compile(r"(\d+)")

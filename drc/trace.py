@@ -15,36 +15,16 @@ pass. No graph of every pin is built.
 
 from __future__ import annotations
 
-import gc
 from collections import defaultdict
-from contextlib import contextmanager
 from dataclasses import dataclass, field
-from typing import Iterator
 
 from .board import Board, Contact, Receiver
+from .gcpause import collection_paused
 from .netlist import GROUND, Element, key
 
 # Element letters the walk crosses: resistors, capacitors, inductors and
 # ferrite beads, diodes.
 PASSIVE_KINDS = frozenset("RCLD")
-
-
-@contextmanager
-def collection_paused() -> Iterator[None]:
-    """Pause the cyclic garbage collector while building many long-lived records.
-
-    Why: a 100k-element netlist keeps several hundred thousand objects alive;
-    every full collection triggered by our allocations walks all of them, and
-    measured on such a board that tripled the time of tracing. The records
-    built here hold no reference cycles, so nothing is lost by deferring.
-    """
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()
 
 
 @dataclass(frozen=True, slots=True)

@@ -24,7 +24,7 @@ import numpy as np
 from ..electrical import ReceiverElectrical
 from ..results import EdgeResult, LevelResult, StageResult
 from ..stage import Stage, StageCircuit
-from .corners import ENUMERATE_MAX, _bits, corner_dict
+from .corners import ENUMERATE_MAX, _bits
 from .mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from .model import GROUND, LEAKAGE, THRESHOLD, LinearModel, compile_circuit, rail_param
 from .transient import single_cap_parts, single_cap_times
@@ -316,7 +316,6 @@ def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverEle
     p = len(names[0])
     g = _Group(model, [stages[i] for i in first], [rxs[i] for i in first], [names[i] for i in first],
                uniq[:, :p].copy(), uniq[:, p:2 * p].copy(), uniq[:, 2 * p:3 * p].copy())
-    m = g.m
     # The steady-level search leaves capacitors out; more columns go per stage.
     dc_cols = np.flatnonzero(np.any(g.hi != g.lo, axis=0))
     if len([c for c in dc_cols if c not in _cap_cols(model)]) + 1 > ENUMERATE_MAX:

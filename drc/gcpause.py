@@ -1,0 +1,26 @@
+"""Pausing Python's cyclic garbage collector while the pipeline builds records.
+
+A 100k-element board keeps several hundred thousand small objects alive;
+every full collection triggered by our allocations walks all of them, which
+measured on such a board tripled the time of tracing and cost a third of the
+reader's time. The records the pipeline builds hold no reference cycles, so
+nothing is lost by deferring collection to the end of a step.
+"""
+
+from __future__ import annotations
+
+import gc
+from collections.abc import Iterator
+from contextlib import contextmanager
+
+
+@contextmanager
+def collection_paused() -> Iterator[None]:
+    """Disable the collector inside the block; restore its previous state after."""
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
