@@ -54,6 +54,11 @@ def check(result: StageResult, ctx: RuleContext):
             measured=figure(rate, "s/V"), limit=figure(limit, "s/V"),
             message=(f"{name} edge from {contact_name(result)} crosses the threshold of plain input "
                      f"{stage.receiver.ref} ({rx.family}) at {fq(rate, 's/V')}, "
-                     f"{rate / limit:.3g}× the {fq(limit, 's/V')} transition limit"),
+                     f"{_times(rate / limit)} the {fq(limit, 's/V')} transition limit"),
             fix=(f"feed {stage.receiver.ref} from a Schmitt-trigger input (e.g. the family's '14) "
                  f"after the RC; no RC value passes a plain {rx.family} input"))
+
+
+def _times(ratio: float) -> str:
+    """"7,470×" rather than "7.47e+03×": a reviewer reads the size at a glance."""
+    return f"{ratio:,.0f}×" if ratio >= 100 else f"{ratio:.3g}×"

@@ -82,13 +82,23 @@ def board_summary(board: BoardReport) -> str:
     return text
 
 
+def _shown_path(path: str) -> str:
+    """A path relative to the working folder when it lies below it, else as given."""
+    import os
+    try:
+        relative = os.path.relpath(path)
+    except ValueError:  # another drive
+        return path
+    return path if relative.startswith("..") else relative
+
+
 def _board_block(board: BoardReport, console: Console, quiet: bool) -> None:
     shown = [f for f in board.active() if not quiet or f.severity == "error"]
     if quiet and not shown and not board.error:
         return
     header = Text(board.path, style="bold")
     if board.config_path:
-        header.append(f"  (config: {board.config_path})", style="dim")
+        header.append(f"  (config: {_shown_path(board.config_path)})", style="dim")
     console.print(header)
     if board.error:
         console.print(Text.assemble(("  error", "bold red"), f": cannot check: {board.error}"))
