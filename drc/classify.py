@@ -19,7 +19,7 @@ names keep the spelling of their first appearance in the netlist.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields, replace
 from fnmatch import fnmatchcase
 from itertools import chain
 from typing import Any, Iterable
@@ -263,21 +263,23 @@ def _classify_element(ctx: _Context, element: Element,
             _add_contacts(ctx, element, element.nodes, None, settings, "config")
 
 
-def _contact_settings(entries: Iterable[ContactConfig], element: Element) -> ContactConfig | None:
-    """The merged config for a designator: later matching entries win per field."""
-    merged: ContactConfig | None = None
+def _merged_settings(entries, element: Element):
+    """The config entries matching a designator, merged: later entries win field by field."""
+    merged = None
     for entry in entries:
         if not matches(entry.pattern, element):
             continue
         if merged is None:
             merged = entry
         else:
-            merged = ContactConfig(
-                entry.pattern,
-                entry.contact_class or merged.contact_class,
-                entry.bounce_s if entry.bounce_s is not None else merged.bounce_s,
-                entry.form or merged.form)
+            changes = {f.name: getattr(entry, f.name) for f in fields(entry)
+                       if f.name != "pattern" and getattr(entry, f.name) is not None}
+            merged = replace(merged, pattern=entry.pattern, **changes)
     return merged
+
+
+def _contact_settings(entries: Iterable[ContactConfig], element: Element) -> ContactConfig | None:
+    return _merged_settings(entries, element)
 
 
 def _classify_s(ctx: _Context, element: Element) -> None:
@@ -336,16 +338,7 @@ def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocati
 
 
 def _part_settings(entries: Iterable[PartConfig], element: Element) -> PartConfig | None:
-    merged: PartConfig | None = None
-    for entry in entries:
-        if not matches(entry.pattern, element):
-            continue
-        if merged is None:
-            merged = entry
-        else:
-            merged = PartConfig(entry.pattern, entry.part_number or merged.part_number,
-                                entry.family or merged.family)
-    return merged
+    return _merged_settings(entries, element)
 
 
 # ---------------------------------------------------------------- contacts

@@ -246,7 +246,6 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
     Top-level and picklable, so a process pool or a cluster executor can run it.
     """
     from .report.model import BoardReport
-    from .gcpause import collection_paused
     # The collector stays paused until the report is built: with a large
     # netlist alive, a full collection set off by the report's allocations
     # would walk every element of it (the records hold no cycles).
