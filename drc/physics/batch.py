@@ -26,7 +26,7 @@ from ..results import EdgeResult, LevelResult, StageResult
 from ..stage import Stage, StageCircuit
 from .corners import ENUMERATE_MAX, _bits
 from .mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
-from .model import GROUND, LEAKAGE, THRESHOLD, LinearModel, compile_circuit, rail_param
+from .model import GROUND, THRESHOLD, LinearModel, compile_circuit, param_table
 from .transient import single_cap_parts, single_cap_times
 
 EDGE_STATES = {"press": ("released", "pressed"), "release": ("pressed", "released")}
@@ -76,26 +76,6 @@ def template(key: tuple, circuit: StageCircuit) -> LinearModel:
 def batchable(model: LinearModel) -> bool:
     """Whether a structure has the closed-form edges this module batches."""
     return model.k <= 1 and not model.has_diodes and model.rx >= 0
-
-
-def param_table(circuit: StageCircuit) -> tuple[tuple[str, ...], list[float], list[float], list[float]]:
-    """(names, nominal, lo, hi) in `compile_circuit`'s column order, as plain lists."""
-    names: list[str] = []
-    nom: list[float] = []
-    lo: list[float] = []
-    hi: list[float] = []
-    for r in circuit.resistors:
-        names.append(r.designator); nom.append(r.ohms)
-        lo.append(r.ohms * (1 - r.tol_minus)); hi.append(r.ohms * (1 + r.tol_plus))
-    for c in circuit.capacitors:
-        names.append(c.designator); nom.append(c.farads)
-        lo.append(c.farads * (1 - c.tol_minus)); hi.append(c.farads * (1 + c.tol_plus))
-    for r in circuit.rails:
-        if r.net != GROUND:
-            names.append(rail_param(r.net)); nom.append(r.volts)
-            lo.append(r.volts * (1 - r.tolerance)); hi.append(r.volts * (1 + r.tolerance))
-    names.append(LEAKAGE); nom.append(0.0); lo.append(0.0); hi.append(0.0)
-    return tuple(names), nom, lo, hi
 
 
 @dataclass

@@ -119,6 +119,27 @@ class LinearModel:
         return {name: i for i, name in enumerate(self.free)}
 
 
+def param_table(circuit: StageCircuit) -> tuple[tuple[str, ...], list[float], list[float], list[float]]:
+    """(names, nominal, lo, hi) of every parameter, in the model's column order:
+    resistors, capacitors, rails (not ground), then the leakage (set per edge)."""
+    names: list[str] = []
+    nom: list[float] = []
+    lo: list[float] = []
+    hi: list[float] = []
+    for r in circuit.resistors:
+        names.append(r.designator); nom.append(r.ohms)
+        lo.append(r.ohms * (1 - r.tol_minus)); hi.append(r.ohms * (1 + r.tol_plus))
+    for c in circuit.capacitors:
+        names.append(c.designator); nom.append(c.farads)
+        lo.append(c.farads * (1 - c.tol_minus)); hi.append(c.farads * (1 + c.tol_plus))
+    for r in circuit.rails:
+        if r.net != GROUND:
+            names.append(rail_param(r.net)); nom.append(r.volts)
+            lo.append(r.volts * (1 - r.tolerance)); hi.append(r.volts * (1 + r.tolerance))
+    names.append(LEAKAGE); nom.append(0.0); lo.append(0.0); hi.append(0.0)
+    return tuple(names), nom, lo, hi
+
+
 def compile_circuit(circuit: StageCircuit) -> LinearModel:
     """Turn a stage circuit into index arrays and a parameter table."""
     rails = [r for r in circuit.rails if r.net != GROUND]
@@ -129,20 +150,7 @@ def compile_circuit(circuit: StageCircuit) -> LinearModel:
     def code(net: str) -> int:
         return free_index[net] if net in free_index else -1 - fixed.index(net)
 
-    names: list[str] = []
-    nominal: list[float] = []
-    lo: list[float] = []
-    hi: list[float] = []
-    for r in circuit.resistors:
-        names.append(r.designator); nominal.append(r.ohms)
-        lo.append(r.ohms * (1 - r.tol_minus)); hi.append(r.ohms * (1 + r.tol_plus))
-    for c in circuit.capacitors:
-        names.append(c.designator); nominal.append(c.farads)
-        lo.append(c.farads * (1 - c.tol_minus)); hi.append(c.farads * (1 + c.tol_plus))
-    for r in rails:
-        names.append(rail_param(r.net)); nominal.append(r.volts)
-        lo.append(r.volts * (1 - r.tolerance)); hi.append(r.volts * (1 + r.tolerance))
-    names.append(LEAKAGE); nominal.append(0.0); lo.append(0.0); hi.append(0.0)
+    names, nominal, lo, hi = param_table(circuit)
     p = len(names)
     n_r = len(circuit.resistors)
 
