@@ -226,7 +226,18 @@ def board_report(check: BoardCheck):
     return BoardReport(path=check.path, stages=tuple(check.results), findings=tuple(check.findings),
                        contacts=len(board.contacts), stage_kinds=dict(kinds),
                        diagnostics=tuple(seen), config_path=check.config.path if check.config else None,
-                       files=check.files)
+                       files=check.files, inventory=inventory(board))
+
+
+def inventory(board):
+    """Parts by element letter, nets, rails and flattened instances of a classified board."""
+    from .report.model import Inventory
+    elements = board.netlist.elements
+    leaves = {e.instance_path for e in elements if e.instance_path}
+    instances = {path[:i + 1] for path in leaves for i in range(len(path))}
+    return Inventory(parts=dict(Counter(e.kind for e in elements)), nets=len(board.netlist.nets()),
+                     rails={r.net: r.voltage for r in board.rails.values()},
+                     instances=len(instances))
 
 
 @dataclass(frozen=True)

@@ -141,6 +141,7 @@ def board_json(board: BoardReport) -> dict:
         "contacts": board.contacts,
         "stage_kinds": dict(board.stage_kinds),
         "diagnostics": list(board.diagnostics),
+        "inventory": board.inventory.as_json() if board.inventory is not None else None,
         "stages": [stage_json(s) for s in board.stages],
         "findings": [finding_json(f) for f in board.findings],
         "summary": board.counts(),

@@ -69,6 +69,31 @@ def stage_sort_key(result: StageResult) -> tuple:
 
 
 @dataclass(frozen=True, slots=True)
+class Inventory:
+    """What a board's netlist holds after flattening.
+
+    parts: element count per element letter (X instances left as parts count
+    under "X"); rails: net -> nominal volts; instances: subcircuit instances
+    that were flattened.
+    """
+
+    parts: dict[str, int]
+    nets: int
+    rails: dict[str, float]
+    instances: int
+
+    def as_json(self) -> dict:
+        return {"parts": dict(sorted(self.parts.items())), "nets": self.nets,
+                "rails": dict(sorted(self.rails.items())), "instances": self.instances}
+
+    def text(self) -> str:
+        parts = ", ".join(f"{kind} {n}" for kind, n in sorted(self.parts.items()))
+        rails = ", ".join(f"{net} {volts:g} V" for net, volts in sorted(self.rails.items())) or "none"
+        return (f"{sum(self.parts.values())} parts ({parts}), {self.nets} nets, rails {rails}, "
+                f"{self.instances} subcircuit instances")
+
+
+@dataclass(frozen=True, slots=True)
 class BoardReport:
     """One board's results. error: why the board could not be checked (then no stages)."""
 
@@ -81,6 +106,7 @@ class BoardReport:
     config_path: str | None = None
     error: str | None = None
     files: tuple[str, ...] = ()  # every file the netlist was read from (includes too)
+    inventory: Inventory | None = None  # what the netlist holds (None when it was not read)
 
     def __post_init__(self) -> None:
         # Frozen record: normalise once here so every format sees the same order.

@@ -102,6 +102,8 @@ def _board_block(board: BoardReport, console: Console, quiet: bool) -> None:
     console.print(header)
     if board.error:
         console.print(Text.assemble(("  error", "bold red"), f": cannot check: {board.error}"))
+    if not quiet and board.inventory is not None:
+        console.print(Text("  " + board.inventory.text(), style="dim"))
     if not quiet:
         for diagnostic in board.diagnostics:
             console.print(Text.assemble(("  warning", "yellow"), f": {diagnostic}"))

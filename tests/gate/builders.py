@@ -10,7 +10,7 @@ from __future__ import annotations
 from drc.board import Contact, Receiver
 from drc.errors import SourceLocation
 from drc.findings import Figure, Finding
-from drc.report.model import BoardReport, RunReport
+from drc.report.model import Inventory, BoardReport, RunReport
 from drc.results import EdgeResult, LevelResult, StageResult
 from drc.ruledoc import RuleDoc
 from drc.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit, Throw
@@ -103,7 +103,10 @@ def board_report(board: str = BOARD, findings: list[Finding] | None = None, **kw
                        findings=sample_findings(board) if findings is None else findings,
                        contacts=kw.pop("contacts", 3), stage_kinds=kw.pop("stage_kinds", {"rc-schmitt": 2}),
                        diagnostics=kw.pop("diagnostics", ["line 20: .tran directive ignored"]),
-                       config_path=kw.pop("config_path", "drc.toml"), error=kw.pop("error", None))
+                       config_path=kw.pop("config_path", "drc.toml"), error=kw.pop("error", None),
+                       inventory=kw.pop("inventory", None if kw.get("error") else Inventory(
+                           parts={"R": 4, "C": 2, "S": 2, "V": 1, "X": 1}, nets=7,
+                           rails={"vcc": 5.0}, instances=0)))
 
 
 def run_report(boards: list[BoardReport] | None = None, **kw) -> RunReport:

@@ -75,6 +75,7 @@ def written_tables(document: dict) -> dict[str, set[str]]:
         "Report": set(document),
         "Tool": set(document["tool"]),
         "Board": set(board),
+        "Inventory": set(board["inventory"]),
         "Stage": set(stage),
         "Edge": set(stage["edges"]["press"]),
         "Level": set(stage["levels"]["pressed"]),
