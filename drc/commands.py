@@ -7,11 +7,31 @@ and each command imports only what it needs.
 from __future__ import annotations
 
 import sys
+from contextlib import contextmanager
 from datetime import date
 from pathlib import Path
 
 from .cli import EXIT_ERROR, EXIT_OK, FORMATS, _ids, _quantity
 from .errors import UsageError
+
+
+# ------------------------------------------------------------------ output
+
+@contextmanager
+def stdout_console():
+    """A rich Console for standard output: colour on a terminal; on a pipe or CI
+    log, plain lines without the cells' trailing padding."""
+    from io import StringIO
+    from rich.console import Console
+    console = Console(highlight=False)
+    if console.is_terminal:
+        yield console
+        return
+    buffer = StringIO()
+    yield Console(file=buffer, width=console.width, force_terminal=False, color_system=None,
+                  highlight=False)
+    sys.stdout.write("".join(line.rstrip() + "\n" for line in buffer.getvalue().splitlines()))
+    sys.stdout.flush()
 
 
 # ------------------------------------------------------------------ check
@@ -169,12 +189,8 @@ def run_check(args) -> int:
     for fmt, file in outputs:
         write_atomic(file, _render(fmt, run, args.quiet), inputs=inputs)
     if args.format == "text":
-        from rich.console import Console
-        console = Console(highlight=False)
-        if console.is_terminal:
+        with stdout_console() as console:
             _print_text(run, console, args.quiet)
-        else:  # a pipe or a CI log: plain lines, no trailing padding
-            sys.stdout.write(_plain_text(run, args.quiet, console.width))
     else:
         sys.stdout.write(_render(args.format, run, args.quiet))
         sys.stdout.flush()
@@ -186,7 +202,6 @@ def run_check(args) -> int:
 # ------------------------------------------------------------------ rules
 
 def run_rules(args) -> int:
-    from rich.console import Console
     from rich.table import Table
     from rich import box
     from .checks import all_rules
@@ -196,9 +211,9 @@ def run_rules(args) -> int:
     table.add_column("checks", overflow="fold")
     for rule in all_rules():
         table.add_row(rule.id, rule.severity, rule.doc.title)
-    console = Console(highlight=False)
-    console.print(table)
-    console.print("`drc explain ID` prints one rule in full.")
+    with stdout_console() as console:
+        console.print(table)
+        console.print("`drc explain ID` prints one rule in full.")
     return EXIT_OK
 
 
@@ -249,13 +264,13 @@ def _no_match(check, ref: str) -> UsageError:
 
 
 def run_trace(args) -> int:
-    from rich.console import Console
     from .tracing_view import print_trace
     check = _board_stages(args.board, args.config, args.bounce)
     results = matching_results(check.results, args.ref)
     if not results:
         raise _no_match(check, args.ref)
-    print_trace(Console(highlight=False), check, results)
+    with stdout_console() as console:
+        print_trace(console, check, results)
     return EXIT_OK
 
 
@@ -278,18 +293,16 @@ def run_simulate(args) -> int:
     if args.format == "json":
         sys.stdout.write(json.dumps(simulation_json(sim), indent=2, sort_keys=True) + "\n")
     else:
-        from rich.console import Console
-        console = Console(highlight=False)
-        if len(results) > 1:
-            console.print(f"{args.ref} has {len(results)} stages; simulating {result.stage.name}")
-        render_simulation_text(sim, console)
+        with stdout_console() as console:
+            if len(results) > 1:
+                console.print(f"{args.ref} has {len(results)} stages; simulating {result.stage.name}")
+            render_simulation_text(sim, console)
     return EXIT_OK
 
 
 # ------------------------------------------------------------------ design
 
 def run_design(args) -> int:
-    from rich.console import Console
     from .design import design_stage
     from .library import load_library
     lib = load_library()
@@ -316,10 +329,10 @@ def run_design(args) -> int:
                               topology="pull-down" if args.pull_down else "pull-up")
     except (ValueError, KeyError) as exc:
         raise UsageError(f"drc design: {exc}") from None
-    console = Console(highlight=False)
-    for line in result.lines():
-        console.print(line, markup=False)
-    if args.netlist:
-        console.print(result.netlist_fragment(), markup=False)
-    console.print("Guidance from models and typical data: verify on the real board.", style="dim")
+    with stdout_console() as console:
+        for line in result.lines():
+            console.print(line, markup=False)
+        if args.netlist:
+            console.print(result.netlist_fragment(), markup=False)
+        console.print("Guidance from models and typical data: verify on the real board.", style="dim")
     return EXIT_OK if result.ok else 1
