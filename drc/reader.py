@@ -271,16 +271,13 @@ class _Reader:
                         self.element(line)
                         continue
                 elif kind == "S":
-                    if n == 3:
-                        append(new(_Plain, (words[0], "S", (spelled(words[1], words[1]),
-                                                            spelled(words[2], words[2])),
-                                            None, None, index, source)))
-                        continue
-                    if n == 4:
-                        written = words[3]
-                        model = models.get(written)
-                        if model is None:
-                            model = models[written] = self.name(written)
+                    if n in (3, 4):  # a contact: two nodes and an optional part name
+                        model = None
+                        if n == 4:
+                            written = words[3]
+                            model = models.get(written)
+                            if model is None:
+                                model = models[written] = self.name(written)
                         append(new(_Plain, (words[0], "S", (spelled(words[1], words[1]),
                                                             spelled(words[2], words[2])),
                                             None, model, index, source)))
