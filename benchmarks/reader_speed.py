@@ -29,7 +29,7 @@ sys.path.insert(0, str(HERE))
 from generate import generate  # noqa: E402
 
 _DRC_RUN = ("import sys, time; t = time.perf_counter(); "
-            "from drc.reader import read_netlist; n = read_netlist(sys.argv[1]); "
+            "from drc.netlist.reader import read_netlist; n = read_netlist(sys.argv[1]); "
             "print(time.perf_counter() - t, len(n.elements))")
 
 

@@ -61,9 +61,9 @@ _ENV["PYTHONPYCACHEPREFIX"] = os.path.join(tempfile.gettempdir(), "drc-bench-pyc
 def warm_bytecode() -> None:
     """One untimed run that leaves the compiled modules in the cache prefix."""
     subprocess.run(drc_command() + ["--version"], capture_output=True, env=_ENV)
-    subprocess.run([sys.executable, "-c", "import drc.pipeline, drc.cli, drc.commands, drc.reader, "
-                    "drc.classify, drc.recognise, drc.analysis, drc.checks, drc.fixes, "
-                    "drc.report.json_report, drc.library"], capture_output=True, env=_ENV)
+    subprocess.run([sys.executable, "-c", "import drc.pipeline, drc.cli, drc.cli.commands, drc.netlist.reader, "
+                    "drc.board.classify, drc.board.recognise, drc.analysis.stage_analysis, drc.checks, "
+                    "drc.design.fixes, drc.report.json_report, drc.library.catalogue"], capture_output=True, env=_ENV)
 
 
 def drc_command() -> list[str]:
@@ -172,7 +172,7 @@ def time_archive(count: int, jobs: int, runs: int, tmp: Path, fixes: bool = True
 def stage_analysis(count: int) -> tuple[float, float]:
     """(seconds for `count` distinct stages, seconds for `count` repeated ones), in-process."""
     sys.path.insert(0, str(ROOT))
-    from drc.analysis import analyse_stages
+    from drc.analysis.stage_analysis import analyse_stages
     stages, rxs = stage_set(count)
     analyse_stages(stages[:50], rxs[:50])  # warm caches and imports
     start = time.perf_counter()
@@ -187,12 +187,12 @@ def stage_analysis(count: int) -> tuple[float, float]:
 
 def stage_set(count: int, seed: int = 5):
     """`count` stages of the generated board's kinds, each with its own random values."""
-    from drc.classify import classify
-    from drc.config_model import Config
-    from drc.fixes import with_values
+    from drc.board.classify import classify
+    from drc.config.settings import Config
+    from drc.design.fixes import with_values
     from drc.pipeline import library
-    from drc.reader import read_netlist_text
-    from drc.recognise import stages_for_board
+    from drc.netlist.reader import read_netlist_text
+    from drc.board.recognise import stages_for_board
     lib = library()
     text = generate(2000, seed, contacts=40)
     netlist = read_netlist_text(text, "<bench>", keep_as_part=lib.is_known_subcircuit)

@@ -14,7 +14,7 @@ import tempfile
 from collections.abc import Iterable
 from pathlib import Path
 
-from .errors import UsageError
+from drc.errors import UsageError
 
 
 def _same_file(a: Path, b: Path) -> bool:

@@ -15,11 +15,11 @@ from datetime import date
 from pathlib import Path
 from typing import Iterable
 
-from .config_model import Config
-from .gcpause import collection_paused
-from .errors import DrcError
-from .findings import Finding
-from .results import StageResult
+from drc.config.settings import Config
+from drc.cli.gcpause import collection_paused
+from drc.errors import DrcError
+from drc.checks.findings import Finding
+from drc.analysis.results import StageResult
 
 NETLIST_SUFFIXES = (".cir", ".sp", ".spice", ".net", ".ckt")
 
@@ -62,12 +62,12 @@ class BoardCheck:
 
 
 def library():
-    from .library import load_library
+    from drc.library.catalogue import load_library
     return load_library()
 
 
 def rule_ids() -> list[str]:
-    from .checks import all_rules
+    from drc.checks import all_rules
     return [r.id for r in all_rules()]
 
 
@@ -78,7 +78,7 @@ def _limit_keys() -> dict[str, str]:
 
 def load_config_file(path: str | Path) -> Config:
     """Load a config, checking names against the rule catalogue and the library."""
-    from . import config as loader
+    from drc.config import loading as loader
     lib = library()
     config = loader.load_config(path, rule_ids=rule_ids(), limit_keys=_limit_keys(),
                                 contact_classes=tuple(lib.contact_classes),
@@ -96,7 +96,7 @@ def _family_names(lib) -> tuple[str, ...]:
 
 
 def find_config(board_path: str | None, options: CheckOptions) -> Config:
-    from . import config as loader
+    from drc.config import loading as loader
     if options.config_path:
         return load_config_file(options.config_path)
     if board_path and not board_path.startswith("<"):
@@ -107,7 +107,7 @@ def find_config(board_path: str | None, options: CheckOptions) -> Config:
 
 
 def _reader_options(config: Config, options: CheckOptions):
-    from .reader import ReaderOptions
+    from drc.netlist.reader import ReaderOptions
     folders = tuple(options.include_folders) + tuple(config.include_folders)
     kwargs = dict(options.reader_limits)
     return ReaderOptions(include_folders=folders, **kwargs) if (folders or kwargs) else None
@@ -115,8 +115,8 @@ def _reader_options(config: Config, options: CheckOptions):
 
 def analyse_board(board, config: Config) -> list[StageResult]:
     """Trace, recognise and analyse every input path of a classified board."""
-    from .analysis import analyse_stages
-    from .recognise import stages_for_board
+    from drc.analysis.stage_analysis import analyse_stages
+    from drc.board.recognise import stages_for_board
     lib = library()
     cache: dict[tuple, object] = {}
 
@@ -140,8 +140,8 @@ def effective_limits(config: Config) -> dict[str, float]:
 
 
 def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
-    from .errors import UsageError
-    from .selection import resolve_selection
+    from drc.errors import UsageError
+    from drc.gate.selection import resolve_selection
     ids = rule_ids()
     # Command-line ids are usage errors; the config's were checked when it loaded.
     resolve_selection(ids, options.select, options.ignore, where="command line", error=UsageError)
@@ -155,7 +155,7 @@ def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[F
     The search is bounded per stage and per board by a count of analyses
     (drc/fixes.py), so the result is the same on every machine.
     """
-    from .fixes import propose_board_fixes
+    from drc.design.fixes import propose_board_fixes
     fixed = propose_board_fixes(results, findings, limits, series)
     return [replace(f, fix=fixed[id(f)]) if id(f) in fixed else f for f in findings]
 
@@ -169,10 +169,10 @@ def _apply_debounce_annotations(board, debounces: dict[str, float]) -> None:
 
 def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> BoardCheck:
     """Classify, analyse and check one read netlist; annotations and waivers applied."""
-    from .annotations import read_annotations
-    from .checks import run_rules
-    from .classify import classify
-    from .waivers import apply_annotations, apply_waivers
+    from drc.netlist.annotations import read_annotations
+    from drc.checks import run_rules
+    from drc.board.classify import classify
+    from drc.gate.waivers import apply_annotations, apply_waivers
     lib = library()
     annotations = read_annotations(netlist.files) if netlist.files else None
     if annotations and annotations.contacts:
@@ -202,7 +202,7 @@ def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> 
 
 
 def read_board(path: str, config: Config, options: CheckOptions):
-    from .reader import read_netlist
+    from drc.netlist.reader import read_netlist
     return read_netlist(path, options=_reader_options(config, options),
                         keep_as_part=library().is_known_subcircuit)
 
@@ -217,7 +217,7 @@ def check_board_full(path: str | Path, options: CheckOptions = CheckOptions()) -
 
 
 def board_report(check: BoardCheck):
-    from .report.model import BoardReport
+    from drc.report.run_report import BoardReport
     board = check.board
     kinds = Counter(r.stage.kind for r in check.results)
     seen: dict[str, None] = {}
@@ -231,7 +231,7 @@ def board_report(check: BoardCheck):
 
 def inventory(board):
     """Parts by element letter, nets, rails and flattened instances of a classified board."""
-    from .report.model import Inventory
+    from drc.report.run_report import Inventory
     elements = board.netlist.elements
     leaves = {e.instance_path for e in elements if e.instance_path}
     instances = {path[:i + 1] for path in leaves for i in range(len(path))}
@@ -256,7 +256,7 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
 
     Top-level and picklable, so a process pool or a cluster executor can run it.
     """
-    from .report.model import BoardReport
+    from drc.report.run_report import BoardReport
     # The collector stays paused until the report is built: with a large
     # netlist alive, a full collection set off by the report's allocations
     # would walk every element of it (the records hold no cycles).
@@ -277,7 +277,7 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
 def check_text(text: str, path: str = "<example>", config: Config | None = None,
                options: CheckOptions = CheckOptions(propose_fixes=False)):
     """Check netlist text; returns (board, results, findings). For tests and the API."""
-    from .reader import read_netlist_text
+    from drc.netlist.reader import read_netlist_text
     netlist = read_netlist_text(text, path, keep_as_part=library().is_known_subcircuit)
     check = check_netlist(netlist, config or Config(), options, path)
     return check.board, check.results, check.findings
@@ -305,9 +305,9 @@ def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *
     executor: any concurrent.futures.Executor (a process pool, a cluster's
     executor); None runs in this process. progress: called once per board.
     """
-    from .checks import all_rules
-    from .report.model import RunReport
-    from .waivers import combine_notes
+    from drc.checks import all_rules
+    from drc.report.run_report import RunReport
+    from drc.gate.waivers import combine_notes
     files = [str(f) for f in board_files(paths)]
     if executor is None:
         outcomes = []
@@ -340,8 +340,8 @@ def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *
 
 
 def _apply_baseline(reports, baseline_path: str):
-    from .baseline import apply_baseline, load_baseline
-    from .report.model import BaselineInfo
+    from drc.gate.baseline import apply_baseline, load_baseline
+    from drc.report.run_report import BaselineInfo
     baseline = load_baseline(baseline_path)
     out, fixed, matched, new = [], [], 0, 0
     for report in reports:

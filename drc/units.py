@@ -19,7 +19,7 @@ import math
 import re
 from functools import cache
 
-from .errors import ConfigError
+from drc.errors import ConfigError
 
 # The pint reference unit each dimension must be compatible with, and the
 # example shown when the text is not such a quantity.

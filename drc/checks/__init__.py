@@ -12,13 +12,13 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 
-from ..findings import Finding
-from ..results import StageResult
-from .context import RuleContext, locations_of
-from .registry import Rule, registered_rules, rule
+from drc.checks.findings import Finding
+from drc.analysis.results import StageResult
+from drc.checks.context import RuleContext, locations_of
+from drc.checks.registry import Rule, registered_rules, rule
 
 # Built-in rules, imported in catalogue order (registration order = catalogue order).
-from . import (  # noqa: E402,F401  (imported for their registration)
+from drc.checks import (  # noqa: E402,F401  (imported for their registration)
     undebounced_input, floating_input, bounce_window, slow_edge, response_latency,
     leakage_headroom, pullup_waste, resistance_range, contact_wetting, contact_surge,
     rail_mismatch, ambiguous_value,

@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import re
 
-from ..ruledoc import RuleDoc
-from .context import RuleContext, figure, quantity_text as fq
-from .examples import debounced_stage, netlist
-from .registry import rule
+from drc.checks.ruledoc import RuleDoc
+from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.examples import debounced_stage, netlist
+from drc.checks.registry import rule
 
 DOC = RuleDoc(
     id="ambiguous-value",

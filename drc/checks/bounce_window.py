@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-from ..results import EDGES, StageResult
-from ..ruledoc import RuleDoc
-from .common import RC_KINDS, contact_name, threshold_name, timing_parts, timing_text
-from .context import RuleContext, figure, quantity_text as fq
-from .examples import debounced_stage, netlist
-from .registry import rule
+from drc.analysis.results import EDGES, StageResult
+from drc.checks.ruledoc import RuleDoc
+from drc.checks.common import RC_KINDS, contact_name, threshold_name, timing_parts, timing_text
+from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.examples import debounced_stage, netlist
+from drc.checks.registry import rule
 
 MARGIN = "bounce_margin"
 

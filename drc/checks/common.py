@@ -7,9 +7,9 @@ format what a StageResult already holds; they compute nothing new.
 
 from __future__ import annotations
 
-from ..results import EdgeResult, StageResult
-from ..stage import Capacitor, Resistor
-from .context import quantity_text as fq
+from drc.analysis.results import EdgeResult, StageResult
+from drc.board.stage import Capacitor, Resistor
+from drc.checks.context import quantity_text as fq
 
 # Stage kinds whose debouncing happens somewhere other than an RC at the pin.
 DEBOUNCED_ELSEWHERE = ("latch", "firmware", "dedicated")

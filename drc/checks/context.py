@@ -13,11 +13,11 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from operator import attrgetter
 
-from ..errors import LibraryError, SourceLocation
-from ..findings import Figure, Finding
-from ..netlist import key
-from ..results import StageResult
-from ..units import format_quantity
+from drc.errors import LibraryError, SourceLocation
+from drc.checks.findings import Figure, Finding
+from drc.netlist.elements import key
+from drc.analysis.results import StageResult
+from drc.units import format_quantity
 
 
 def figure(value: float, unit: str) -> Figure:

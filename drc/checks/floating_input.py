@@ -2,12 +2,12 @@
 
 from __future__ import annotations
 
-from ..results import StageResult
-from ..ruledoc import RuleDoc
-from .common import contact_name, receiver_name
-from .context import RuleContext
-from .examples import debounced_stage, netlist
-from .registry import rule
+from drc.analysis.results import StageResult
+from drc.checks.ruledoc import RuleDoc
+from drc.checks.common import contact_name, receiver_name
+from drc.checks.context import RuleContext
+from drc.checks.examples import debounced_stage, netlist
+from drc.checks.registry import rule
 
 DOC = RuleDoc(
     id="floating-input",

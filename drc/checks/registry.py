@@ -13,8 +13,8 @@ from __future__ import annotations
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 
-from ..findings import SEVERITIES
-from ..ruledoc import RuleDoc
+from drc.checks.findings import SEVERITIES
+from drc.checks.ruledoc import RuleDoc
 
 RULE_KINDS = ("stage", "board")
 

@@ -4,6 +4,6 @@ Every format reads the same `RunReport` (report.model) and computes nothing;
 each renderer is in its own module and imports only what it needs.
 """
 
-from .model import CAUTION, BaselineInfo, BoardReport, RunReport
+from drc.report.run_report import CAUTION, BaselineInfo, BoardReport, RunReport
 
 __all__ = ["CAUTION", "BaselineInfo", "BoardReport", "RunReport"]

@@ -16,12 +16,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from .. import __version__
-from ..findings import SEVERITY_RANK, Finding
-from ..results import EDGES, StageResult
-from ..units import format_quantity
-from .model import BoardReport, RunReport
-from .text import board_summary, figure_text, where_text
+from drc import __version__
+from drc.checks.findings import SEVERITY_RANK, Finding
+from drc.analysis.results import EDGES, StageResult
+from drc.units import format_quantity
+from drc.report.run_report import BoardReport, RunReport
+from drc.report.text import board_summary, figure_text, where_text
 
 TEMPLATES = Path(__file__).with_name("templates")
 _CORNERS = ("fastest", "nominal", "slowest")
@@ -106,7 +106,7 @@ def _thresholds_text(result: StageResult) -> str:
 
 
 def _stage_view(result: StageResult, anchor: str, findings: list[Finding], svg_cache: dict) -> dict:
-    from .plots import crossing_summary, stage_plot_data, stage_plot_svg
+    from drc.report.plots import crossing_summary, stage_plot_data, stage_plot_svg
 
     stage = result.stage
     plot = stage_plot_data(result)

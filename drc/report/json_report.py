@@ -12,11 +12,11 @@ from __future__ import annotations
 import json
 import math
 
-from .. import __version__
-from ..errors import SourceLocation
-from ..findings import Figure, Finding
-from ..results import EdgeResult, LevelResult, StageResult
-from .model import BoardReport, RunReport
+from drc import __version__
+from drc.errors import SourceLocation
+from drc.checks.findings import Figure, Finding
+from drc.analysis.results import EdgeResult, LevelResult, StageResult
+from drc.report.run_report import BoardReport, RunReport
 
 REPORT_FORMAT = "drc-report/1"
 
@@ -175,7 +175,7 @@ def render_json(run: RunReport) -> str:
     dump_indented because the standard library's indenting encoder is pure
     Python generators, three times slower on a report of thousands of stages.
     """
-    from ..trace import collection_paused
+    from drc.board.trace import collection_paused
     with collection_paused():  # many small dicts, no cycles: no collections needed
         return dump_indented(report_document(run)) + "\n"
 

@@ -21,9 +21,9 @@ from __future__ import annotations
 
 import xml.etree.ElementTree as ET
 
-from ..findings import Finding
-from ..selection import severity_at_least
-from .model import BoardReport, RunReport, natural_key
+from drc.checks.findings import Finding
+from drc.gate.selection import severity_at_least
+from drc.report.run_report import BoardReport, RunReport, natural_key
 
 ARROW = "→"
 

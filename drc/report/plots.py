@@ -19,8 +19,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..results import EDGES, StageResult
-from ..units import format_quantity
+from drc.analysis.results import EDGES, StageResult
+from drc.units import format_quantity
 
 CORNERS = ("nominal", "fastest", "slowest")
 COLOURS = {"nominal": "#1d3557", "fastest": "#d1495b", "slowest": "#2a9d8f"}
@@ -79,8 +79,8 @@ def _corner_argument(edge_result, corner: str):
 
 
 def _edge_plot(result: StageResult, edge: str) -> EdgePlot:
-    from ..analysis import edge_solution
-    from ..physics.transient import sample  # what edge_waveform samples with
+    from drc.analysis.stage_analysis import edge_solution
+    from drc.analysis.physics.transient import sample  # what edge_waveform samples with
 
     edge_result = result.edges.get(edge)
     if edge_result is None:

@@ -20,13 +20,13 @@ import re
 from pathlib import Path
 from urllib.parse import quote
 
-from .. import __version__
-from ..baseline import board_key
-from ..errors import SourceLocation
-from ..findings import Finding
-from ..ruledoc import RuleDoc
-from .json_report import figure_json
-from .model import RunReport
+from drc import __version__
+from drc.gate.baseline import board_key
+from drc.errors import SourceLocation
+from drc.checks.findings import Finding
+from drc.checks.ruledoc import RuleDoc
+from drc.report.json_report import figure_json
+from drc.report.run_report import RunReport
 
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 FINGERPRINT_KEY = "drcFinding/v1"

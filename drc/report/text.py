@@ -17,9 +17,9 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from ..findings import Finding
-from ..units import format_quantity
-from .model import CAUTION_SHORT, BoardReport, RunReport
+from drc.checks.findings import Finding
+from drc.units import format_quantity
+from drc.report.run_report import CAUTION_SHORT, BoardReport, RunReport
 
 SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "note": "cyan"}
 ARROW = "→"

@@ -52,12 +52,12 @@ def test_check_finds_every_generated_stage_and_json_parses(board):
 
 
 def test_batched_analysis_equals_one_by_one(board):
-    from drc.analysis import analyse_stage, analyse_stages
-    from drc.classify import classify
-    from drc.config_model import Config
+    from drc.analysis.stage_analysis import analyse_stage, analyse_stages
+    from drc.board.classify import classify
+    from drc.config.settings import Config
     from drc.pipeline import library
-    from drc.reader import read_netlist
-    from drc.recognise import stages_for_board
+    from drc.netlist.reader import read_netlist
+    from drc.board.recognise import stages_for_board
     lib = library()
     config = Config()
     netlist = read_netlist(str(board), keep_as_part=lib.is_known_subcircuit)

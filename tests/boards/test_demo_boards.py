@@ -57,7 +57,7 @@ def test_every_stage_kind_and_rule_is_exercised():
         kinds.update(r.stage.kind for r in report.stages)
         rules.update(f.rule for f in report.findings)
         clean += not report.findings
-    from drc.stage import STAGE_KINDS
+    from drc.board.stage import STAGE_KINDS
     assert set(STAGE_KINDS) <= kinds, set(STAGE_KINDS) - kinds
     assert {r.id for r in all_rules()} <= rules, {r.id for r in all_rules()} - rules
     assert clean >= 1

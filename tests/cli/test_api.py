@@ -14,7 +14,7 @@ import pytest
 import drc
 from drc.report.json_report import render_json
 
-from .helpers import ROOT
+from tests.cli.helpers import ROOT
 
 BOARDS = ROOT / "boards" / "lx24"
 OPTIONS = drc.CheckOptions(propose_fixes=False)

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import pytest
 
-from .helpers import CLEAN, ERROR, WARNING_ONLY, drc
+from tests.cli.helpers import CLEAN, ERROR, WARNING_ONLY, drc
 
 
 @pytest.fixture

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from .helpers import CLEAN, ERROR, ROOT
+from tests.cli.helpers import CLEAN, ERROR, ROOT
 
 pytestmark = pytest.mark.slow
 

@@ -16,7 +16,7 @@ from pathlib import Path
 
 import pytest
 
-from .helpers import ROOT
+from tests.cli.helpers import ROOT
 
 pytestmark = pytest.mark.slow
 

@@ -53,7 +53,7 @@ def main() -> int:
         import drc.units  # noqa: F401
         from drc.errors import DrcError
         from drc.pipeline import load_config_file
-        from drc.reader import ReaderOptions, read_netlist
+        from drc.netlist.reader import ReaderOptions, read_netlist
 
     scratch = Path(tempfile.mkdtemp(prefix="drc-fuzz-"))
     (scratch / "lib.inc").write_text(".lib fast\nR1 a b 1k\n.endl\n.subckt S a b\nR1 a b 1\n.ends\n")

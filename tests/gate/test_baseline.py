@@ -9,11 +9,11 @@ from dataclasses import replace
 
 import pytest
 
-from drc.baseline import apply_baseline, load_baseline, write_baseline
+from drc.gate.baseline import apply_baseline, load_baseline, write_baseline
 from drc.errors import ConfigError, SourceLocation, UsageError
-from drc.selection import exit_status
+from drc.gate.selection import exit_status
 
-from .builders import board_report, finding, run_report, sample_findings
+from tests.gate.builders import board_report, finding, run_report, sample_findings
 
 
 def shifted(f, lines=12):

@@ -10,9 +10,9 @@ from dataclasses import replace
 import pytest
 
 from drc.errors import ConfigError, UsageError
-from drc.selection import exit_status, resolve_selection, severity_at_least
+from drc.gate.selection import exit_status, resolve_selection, severity_at_least
 
-from .builders import RULE_IDS, finding
+from tests.gate.builders import RULE_IDS, finding
 
 ALL = set(RULE_IDS)
 

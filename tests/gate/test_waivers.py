@@ -8,11 +8,11 @@ designators, not lines.
 
 from datetime import date
 
-from drc.config_model import Waiver
+from drc.config.settings import Waiver
 from drc.errors import SourceLocation
-from drc.waivers import apply_annotations, apply_waivers, combine_notes
+from drc.gate.waivers import apply_annotations, apply_waivers, combine_notes
 
-from .builders import BOARD, finding
+from tests.gate.builders import BOARD, finding
 
 TODAY = date(2025, 3, 1)
 

@@ -18,11 +18,11 @@ from pathlib import Path
 
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from drc.annotations import parse_annotations
-from drc.baseline import apply_baseline, load_baseline
+from drc.netlist.annotations import parse_annotations
+from drc.gate.baseline import apply_baseline, load_baseline
 from drc.errors import DrcError
 from drc.pipeline import CheckOptions, check_board_full, load_config_file
-from drc.reader import ReaderOptions
+from drc.netlist.reader import ReaderOptions
 
 SETTINGS = settings(max_examples=120, deadline=None, derandomize=True,
                     suppress_health_check=[HealthCheck.function_scoped_fixture,

@@ -5,8 +5,8 @@ from __future__ import annotations
 import pytest
 
 from drc.errors import LimitError
-from drc.lines import SourceFile, logical_lines
-from drc.reader import ReaderOptions, read_netlist
+from drc.netlist.lines import SourceFile, logical_lines
+from drc.netlist.reader import ReaderOptions, read_netlist
 
 
 def test_a_file_included_twice_into_one_definition_is_read_once(tmp_path):

@@ -1,6 +1,6 @@
 import pytest
 
-from drc.library import Library, load_library
+from drc.library.catalogue import Library, load_library
 
 
 @pytest.fixture(scope="session")

@@ -76,6 +76,6 @@ def test_families_of_the_brief_are_present(library):
 
 
 def test_library_loads_once_per_folder(library):
-    from drc.library import load_library
+    from drc.library.catalogue import load_library
     assert load_library() is library
     assert load_library(data_folder("rules")) is library

@@ -6,7 +6,7 @@ import pytest
 
 from drc.datafiles import data_folder
 from drc.errors import LibraryError
-from drc.library import load_library
+from drc.library.catalogue import load_library
 
 
 @pytest.fixture

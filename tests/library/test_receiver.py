@@ -6,8 +6,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from drc.electrical import ReceiverElectrical
-from drc.library import AbsMaxInput, SupplyOutOfRange, UnknownFamily, load_library
+from drc.analysis.receiver import ReceiverElectrical
+from drc.library.catalogue import AbsMaxInput, SupplyOutOfRange, UnknownFamily, load_library
 
 
 def lerp(x, x0, y0, x1, y1):

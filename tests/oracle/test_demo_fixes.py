@@ -17,10 +17,10 @@ from pathlib import Path
 
 import pytest
 
-from drc.analysis import analyse_stage
-from drc.fixes import with_values
+from drc.analysis.stage_analysis import analyse_stage
+from drc.design.fixes import with_values
 from drc.pipeline import CheckOptions, check_board_full, effective_limits
-from drc.spice_deck import MEASUREMENTS, stage_deck
+from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
 from drc.units import parse_quantity
 from tests.support.ngspice import measure
 

@@ -18,7 +18,7 @@ from pathlib import Path
 import pytest
 
 from drc.pipeline import CheckOptions, check_board_full
-from drc.spice_deck import MEASUREMENTS, stage_deck
+from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
 from tests.support.ngspice import measure
 
 pytestmark = pytest.mark.ngspice

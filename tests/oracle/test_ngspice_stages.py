@@ -7,10 +7,10 @@ DESIGN.md section 10 sets the agreement: within 0.5 % on both edges.
 
 import pytest
 
-from drc.analysis import analyse_stage
-from drc.spice_deck import MEASUREMENTS, stage_deck
-from drc.stage import Capacitor, Diode, RailSource, Resistor, Throw
-from tests.physics.builders import pullup_c_at_pin, pullup_series_rc, receiver_electrical, stage
+from drc.analysis.stage_analysis import analyse_stage
+from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
+from drc.board.stage import Capacitor, Diode, RailSource, Resistor, Throw
+from tests.analysis.builders import pullup_c_at_pin, pullup_series_rc, receiver_electrical, stage
 from tests.support.ngspice import measure
 
 pytestmark = pytest.mark.ngspice

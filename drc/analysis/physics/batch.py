@@ -1,0 +1,361 @@
+"""Many stages of one structure analysed as one numpy batch.
+
+A board has thousands of input paths but only a handful of circuit shapes
+(pull-up + series R + C into a Schmitt pin, say). Stages whose circuits
+differ only in values share a `structure_key`; one template model is compiled
+per key (and cached), each stage contributes its parameter rows, and every
+steady level, every vertex of every tolerance box and both edges of all of
+them are solved in a few stacked linear solves instead of a few hundred small
+ones per stage. This covers the closed-form stages (at most one capacitor
+branch, no diodes, receiver on a free node, at most ENUMERATE_MAX varying
+parameters), which is where the corners are enumerated outright; the
+analysis sends every other stage down its per-stage path. The figures are
+those of the per-stage computation: the same vertices, in the same order, so
+the same corners win ties.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from drc.analysis.receiver import ReceiverElectrical
+from drc.analysis.results import EdgeResult, LevelResult, StageResult
+from drc.board.stage import Stage, StageCircuit
+from drc.analysis.physics.corners import ENUMERATE_MAX, _bits
+from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
+from drc.analysis.physics.compiled import GROUND, THRESHOLD, LinearModel, compile_circuit, param_table
+from drc.analysis.physics.transient import single_cap_parts, single_cap_times
+
+EDGE_STATES = {"press": ("released", "pressed"), "release": ("pressed", "released")}
+PULL_ROLES = ("pull", "internal-pull")
+_OTHER = {"released": "pressed", "pressed": "released"}
+_TEMPLATES: dict[tuple, LinearModel] = {}
+
+
+def structure_key(circuit: StageCircuit) -> tuple:
+    """Everything `compile_circuit` derives its arrays from, except the values.
+
+    Two circuits with the same key compile to the same incidence matrices,
+    parameter layout and topologies; only their parameter rows differ.
+    """
+    rails = [r for r in circuit.rails if r.net != GROUND]
+    fixed = (GROUND,) + tuple(r.net for r in rails)
+    fixed_index = {net: i for i, net in enumerate(fixed)}
+    # One table of codes: free nets 0, 1, ... in node order; fixed nets -1, -2, ...
+    # (computed for every stage of a board: lookups, not calls).
+    code = {net: -1 - i for net, i in fixed_index.items()}
+    free = 0
+    for net in circuit.nodes():
+        if net not in fixed_index:
+            code[net] = free
+            free += 1
+    return (
+        free, len(fixed),
+        tuple((code[r.a], code[r.b], r.role) for r in circuit.resistors),
+        tuple((code[c.a], code[c.b]) for c in circuit.capacitors),
+        tuple((code[d.anode], code[d.cathode], d.forward_v, d.on_ohms) for d in circuit.diodes),
+        tuple((code[t.a], code[t.b], t.closed_when, t.closed_ohms) for t in circuit.throws),
+        code[circuit.receiver_node],
+    )
+
+
+def template(key: tuple, circuit: StageCircuit) -> LinearModel:
+    """The compiled model of a structure (values of the first circuit seen; never read)."""
+    model = _TEMPLATES.get(key)
+    if model is None:
+        if len(_TEMPLATES) > 512:  # a bound for long-lived processes; shapes are few
+            _TEMPLATES.clear()
+        model = compile_circuit(circuit)
+        _TEMPLATES[key] = model
+    return model
+
+
+def batchable(model: LinearModel) -> bool:
+    """Whether a structure has the closed-form edges this module batches."""
+    return model.k <= 1 and not model.has_diodes and model.rx >= 0
+
+
+@dataclass
+class _Group:
+    """The stacked values of m stages of one structure."""
+
+    model: LinearModel
+    stages: list[Stage]
+    rxs: list[ReceiverElectrical]
+    names: list[tuple[str, ...]]
+    nom: np.ndarray  # (m, p)
+    lo: np.ndarray
+    hi: np.ndarray
+
+    @property
+    def m(self) -> int:
+        return len(self.stages)
+
+
+def _rx_arrays(rxs: list[ReceiverElectrical]) -> dict[str, np.ndarray]:
+    return {
+        "vcc": np.array([r.vcc for r in rxs]),
+        "leak_high": np.array([r.leak_high_a for r in rxs], dtype=float).reshape(-1, 2),
+        "leak_low": np.array([r.leak_low_a for r in rxs], dtype=float).reshape(-1, 2),
+        "rising": np.array([r.rising_threshold for r in rxs], dtype=float).reshape(-1, 3),
+        "falling": np.array([r.falling_threshold for r in rxs], dtype=float).reshape(-1, 3),
+        "high_req": np.array([r.high_required_v for r in rxs], dtype=float),
+        "low_req": np.array([r.low_required_v for r in rxs], dtype=float),
+    }
+
+
+def _with_leak(nom, lo, hi, col, leak):
+    """make_box over rows: the leakage range (m, 2) filled in, nominal its midpoint."""
+    nom = nom.copy(); lo = lo.copy(); hi = hi.copy()
+    lo[:, col] = leak.min(axis=1)
+    hi[:, col] = leak.max(axis=1)
+    nom[:, col] = 0.5 * (lo[:, col] + hi[:, col])
+    return nom, lo, hi
+
+
+def _vertex_rows(nom, lo, hi, exclude=()) -> tuple[np.ndarray, tuple[int, ...]]:
+    """(m, 2**u, p) vertices over the columns varying in any row (u = their count).
+
+    A column fixed in one stage but varying in another gives that stage
+    duplicate vertices; the first of each duplicate pair comes first in the
+    order, so argmin/argmax pick the vertex the per-stage enumeration picks.
+    """
+    varying = np.flatnonzero(np.any(hi != lo, axis=0))
+    cols = tuple(int(i) for i in varying if int(i) not in exclude)
+    bits = _bits(len(cols))
+    V = np.repeat(nom[:, None, :], bits.shape[0], axis=1)
+    if cols:
+        c = list(cols)
+        V[:, :, c] = lo[:, None, c] + bits[None, :, :] * (hi[:, None, c] - lo[:, None, c])
+    return V, cols
+
+
+def _nan_low(x):
+    return np.where(np.isnan(x), -np.inf, x)
+
+
+def _levels(g: _Group, state: str, rx: dict) -> dict:
+    """Steady levels of one actuator state for every stage of the group."""
+    model, m, L = g.model, g.m, g.model.leak_col
+    nom_h = g.nom.copy(); nom_l = g.nom.copy()
+    # as make_box: the midpoint is 0.5 * (lo + hi) of the ordered range
+    nom_h[:, L] = 0.5 * (rx["leak_high"].min(axis=1) + rx["leak_high"].max(axis=1))
+    nom_l[:, L] = 0.5 * (rx["leak_low"].min(axis=1) + rx["leak_low"].max(axis=1))
+    both = dc_solve(model, state, np.vstack([nom_h, nom_l]))
+    closed = [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
+    if bool(both.floating[0]):  # structural: the same for every stage of the group
+        out = {"undefined": True, "contact_a": None}
+        if closed:
+            nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, np.zeros((m, 2)))
+            V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model))
+            dc = dc_solve(model, state, V.reshape(-1, V.shape[2]))
+            vals = -np.min(np.abs(dc.i_throw[:, closed]), axis=1).reshape(m, -1)
+            out["contact_a"] = -vals.max(axis=1)
+        return out
+    high = both.rx_v[:m] > rx["vcc"] / 2
+    pick = lambda a: np.where(high, a[:m], a[m:])  # noqa: E731
+    leak = np.where(high[:, None], rx["leak_high"], rx["leak_low"])
+    nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, leak)
+    V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model))
+    nv = V.shape[1]
+    dc = dc_solve(model, state, V.reshape(-1, V.shape[2]))
+    rx_v = dc.rx_v.reshape(m, nv)
+    sign = np.where(high, -1.0, 1.0)
+    worst_v = (_nan_low(sign[:, None] * rx_v).max(axis=1)) * sign
+    max_v = _nan_low(rx_v).max(axis=1)
+    pcols = [i for i, r in enumerate(model.circuit.resistors) if r.role in PULL_ROLES]
+    if pcols:
+        pull = np.max(np.abs(dc.i_res[:, pcols]), axis=1).reshape(m, nv).max(axis=1)
+    else:
+        pull = np.full(m, -np.inf)
+    contact = None
+    if closed:
+        contact = -(-np.min(np.abs(dc.i_throw[:, closed]), axis=1)).reshape(m, nv).max(axis=1)
+    required = np.where(high, rx["high_req"], rx["low_req"])
+    margin = np.where(high, worst_v - required, required - worst_v)
+    return {"undefined": False, "high": high, "nominal_v": pick(both.rx_v),
+            "thevenin_v": pick(both.thevenin_v), "thevenin_ohms": pick(both.thevenin_ohms),
+            "worst_v": worst_v, "required": required, "margin": margin,
+            "max_v": max_v, "pull_a": pull, "contact_a": contact}
+
+
+def _cap_cols(model: LinearModel) -> tuple[int, ...]:
+    n_r = len(model.circuit.resistors)
+    return tuple(range(n_r, n_r + len(model.circuit.capacitors)))
+
+
+def _none(x: float) -> float | None:
+    return None if x is None or not math.isfinite(x) else float(x)
+
+
+def _slope(x: float) -> float | None:
+    return None if x is None or math.isnan(x) else float(x)
+
+
+def _edges(g: _Group, edge: str, lv: dict, rx: dict):
+    """One edge for every row: a builder (row, names) -> EdgeResult, or None
+    when the closed form does not apply."""
+    model, m, L = g.model, g.m, g.model.leak_col
+    a, b = EDGE_STATES[edge]
+    va, vb = lv[a]["nominal_v"], lv[b]["nominal_v"]
+    rising = np.where(vb != va, vb > va, lv[b]["high"])
+    thr = np.where(rising[:, None], rx["rising"], rx["falling"])
+    leak = np.where(rising[:, None], rx["leak_high"], rx["leak_low"])
+    nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, leak)
+    inner = np.where(rising, thr[:, 0], thr[:, 2])
+    outer = np.where(rising, thr[:, 2], thr[:, 0])
+    typ = thr[:, 1]
+    V, cols = _vertex_rows(nom, lo, hi)
+    if len(cols) > ENUMERATE_MAX:
+        return None
+    nv = V.shape[1]
+    rows = np.concatenate([nom[:, None, :], V], axis=1)  # (m, 1 + nv, p)
+    P = rows.reshape(-1, rows.shape[2])
+    parts = single_cap_parts(model, a, b, P)
+    if parts is None:
+        return None
+    direction = np.repeat(np.where(rising, 1.0, -1.0), nv + 1)
+    vth_f = np.repeat(inner, nv + 1); vth_f[::nv + 1] = typ
+    vth_s = np.repeat(outer, nv + 1)
+    ef = single_cap_times(parts, vth_f, direction)
+    es = single_cap_times(parts, vth_s, direction)
+    t_f = ef.t.reshape(m, nv + 1); t_s = es.t.reshape(m, nv + 1)
+    s_f = ef.slope.reshape(m, nv + 1); s_s = es.slope.reshape(m, nv + 1)
+    start = parts.start.reshape(m, nv + 1)[:, 0]
+    final = parts.vinf.reshape(m, nv + 1)[:, 0]
+    tf = np.where(np.isnan(t_f[:, 1:]), np.inf, t_f[:, 1:])
+    ts = np.where(np.isnan(t_s[:, 1:]), np.inf, t_s[:, 1:])
+    i_f = np.argmin(tf, axis=1); i_s = np.argmax(ts, axis=1)
+    ar = np.arange(m)
+    t_fast = tf[ar, i_f]; t_slow = ts[ar, i_s]
+    slope_slow = s_s[ar, 1 + i_s]
+    # Plain Python floats once per group (tolist), not a numpy scalar per figure:
+    # the same values, at a fraction of the cost over thousands of stages.
+    cols = [rising, start, final, typ, inner, outer, t_f[:, 0], t_fast, t_slow, s_f[:, 0], slope_slow]
+    rows = list(zip(*(c.tolist() for c in cols)))
+    fast_rows = V[ar, i_f].tolist()
+    slow_rows = V[ar, i_s].tolist()
+
+    def build(j: int, names: tuple[str, ...]) -> EdgeResult:
+        up, v0, v1, vt, vin, vout, t0, tfast, tslow, s0, sslow = rows[j]
+        fastest = dict(zip(names, fast_rows[j]))  # as corners.corner_dict
+        fastest[THRESHOLD] = vin
+        slowest = dict(zip(names, slow_rows[j]))
+        slowest[THRESHOLD] = vout
+        return EdgeResult(
+            edge=edge, direction="rising" if up else "falling",
+            start_v=v0, final_v=v1, threshold_v=vt,
+            threshold_fastest_v=vin, threshold_slowest_v=vout,
+            nominal_s=_none(t0), fastest_s=_none(tfast), slowest_s=_none(tslow),
+            slope_v_per_s=_slope(s0) if not math.isnan(t0) else None,
+            slowest_slope_v_per_s=_slope(sslow) if math.isfinite(tslow) else None,
+            corner_fastest=fastest, corner_slowest=slowest,
+        )
+    return build
+
+
+def _surge(g: _Group) -> np.ndarray | None:
+    """Peak closing current per stage (see analysis._surge_peak), or None if no throw has one."""
+    model = g.model
+    row = g.lo.copy()
+    rp = model.rail_params
+    row[:, rp] = g.hi[:, rp]
+    row[:, model.leak_col] = 0.0
+    peaks = []
+    for t in model.circuit.throws:
+        ends = {n for n in (t.a, t.b) if n in model.free}
+        if not any(c.a in ends or c.b in ends for c in model.circuit.capacitors):
+            continue
+        dc0 = dc_solve(model, _OTHER[t.closed_when], row)
+        u0 = cap_voltages(model, dc0)
+        red = reduce_dynamic(model, model.topology(t.closed_when, ()), row)
+        v = red.cv + np.einsum("Nnk,Nk->Nn", red.Mv, u0)
+        va = node_voltage(model, v, red.vfix, model.node_code(t.a))
+        vb = node_voltage(model, v, red.vfix, model.node_code(t.b))
+        peaks.append(np.abs(va - vb) / t.closed_ohms)
+    return np.max(np.vstack(peaks), axis=0) if peaks else None
+
+
+def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverElectrical]) -> list[StageResult] | None:
+    """StageResults of stages sharing `model`'s structure; None if the batch does not apply."""
+    names, nom, lo, hi = [], [], [], []
+    for st in stages:
+        n_, a_, b_, c_ = param_table(st.circuit)
+        names.append(n_); nom.append(a_); lo.append(b_); hi.append(c_)
+    # Stages repeat (a keypad is one design many times): solve each distinct
+    # set of values and receiver data once.
+    rx_ids: dict[ReceiverElectrical, int] = {}
+    rx_col = [rx_ids.setdefault(r, len(rx_ids)) for r in rxs]
+    table = np.column_stack([np.array(nom, dtype=float), np.array(lo, dtype=float),
+                             np.array(hi, dtype=float), np.array(rx_col, dtype=float)])
+    uniq, first, inverse = np.unique(table, axis=0, return_index=True, return_inverse=True)
+    inverse = inverse.ravel()
+    p = len(names[0])
+    g = _Group(model, [stages[i] for i in first], [rxs[i] for i in first], [names[i] for i in first],
+               uniq[:, :p].copy(), uniq[:, p:2 * p].copy(), uniq[:, 2 * p:3 * p].copy())
+    # The steady-level search leaves capacitors out; more columns go per stage.
+    dc_cols = np.flatnonzero(np.any(g.hi != g.lo, axis=0))
+    if len([c for c in dc_cols if c not in _cap_cols(model)]) + 1 > ENUMERATE_MAX:
+        return None
+    rx = _rx_arrays(g.rxs)
+    lv = {s: _levels(g, s, rx) for s in ("released", "pressed")}
+    notes: list[str] = []
+    for s in ("released", "pressed"):
+        if lv[s]["undefined"]:
+            notes.append(f"{s}: the receiver has no DC path to a rail or ground")
+    builders = {}
+    for edge, (a, b) in EDGE_STATES.items():
+        if lv[a]["undefined"] or lv[b]["undefined"]:
+            notes.append(f"{edge}: not timed, a level is undefined")
+            continue
+        got = _edges(g, edge, lv, rx)
+        if got is None:
+            return None
+        builders[edge] = got
+    surge = _surge(g)
+    surge_l = surge.tolist() if surge is not None else None
+    # Plain Python values per distinct row, once (tolist): same figures, no numpy scalars.
+    plain = {s: _plain_levels(lv[s]) for s in ("released", "pressed")}
+    states = [s for s in ("released", "pressed") if not lv[s]["undefined"]]
+    notes_t = tuple(notes)
+    built: dict[int, tuple] = {}
+    out = []
+    for i, st in enumerate(stages):
+        j = int(inverse[i])
+        shared = built.get(j)
+        if shared is None:
+            levels = {}
+            for s in ("released", "pressed"):
+                d = plain[s]
+                if d is None:
+                    levels[s] = LevelResult(s, "undefined", None, None, None, None, None, None)
+                else:
+                    levels[s] = LevelResult(
+                        s, "high" if d["high"][j] else "low", d["nominal_v"][j], d["worst_v"][j],
+                        d["required"][j], d["margin"][j], d["thevenin_v"][j], d["thevenin_ohms"][j])
+            max_in = max((plain[s]["max_v"][j] for s in states), default=None)
+            pulls = [plain[s]["pull_a"][j] for s in states if math.isfinite(plain[s]["pull_a"][j])]
+            contacts = [float(lv[s]["contact_a"][j]) for s in ("released", "pressed")
+                        if lv[s]["contact_a"] is not None]
+            shared = built[j] = (levels, max(pulls) if pulls else None,
+                                 min(contacts) if contacts else None,
+                                 surge_l[j] if surge_l is not None else None, max_in)
+        levels, pull, contact, surge_j, max_in = shared
+        out.append(StageResult(
+            stage=st, levels=dict(levels), edges={e: build(j, names[i]) for e, build in builders.items()},
+            pull_current_a=pull, contact_current_a=contact, surge_peak_a=surge_j,
+            max_input_v=max_in, receiver_electrical=rxs[i], notes=notes_t,
+        ))
+    return out
+
+
+def _plain_levels(d: dict) -> dict | None:
+    """One state's level arrays as Python lists (None for an undefined state)."""
+    if d["undefined"]:
+        return None
+    keys = ("high", "nominal_v", "worst_v", "required", "margin", "thevenin_v", "thevenin_ohms",
+            "max_v", "pull_a")
+    return {k: d[k].tolist() for k in keys}

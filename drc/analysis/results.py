@@ -1,0 +1,90 @@
+"""What the analysis computes for one stage: levels, edges, currents.
+
+All figures in SI units (V, s, A, Ω). Times are None when the threshold is
+never reached (the steady level does not cross it): a result, not an error.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from drc.analysis.receiver import ReceiverElectrical
+from drc.board.stage import Stage
+
+ACTUATOR_STATES = ("released", "pressed")
+EDGES = ("press", "release")
+
+
+@dataclass(frozen=True, slots=True)
+class LevelResult:
+    """The steady level at the receiver in one actuator state.
+
+    logic: the level the receiver should read ("high", "low") or "undefined"
+    when no DC path sets it (floating). worst_v is the steady voltage at the
+    corner (tolerances, rail, leakage) that brings it closest to the
+    threshold it must clear; required_v is that worst-case threshold (VIH min
+    or VT+ max for high, VIL max or VT- min for low); margin_v =
+    worst_v - required_v for high, required_v - worst_v for low.
+    """
+
+    state: str
+    logic: str
+    nominal_v: float | None
+    worst_v: float | None
+    required_v: float | None
+    margin_v: float | None
+    thevenin_v: float | None
+    thevenin_ohms: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class EdgeResult:
+    """One edge at the receiver: press (released -> pressed) or release.
+
+    threshold_v is the nominal threshold the edge must cross; the fastest and
+    slowest corners use their own thresholds (inner and outer limits).
+    slope_v_per_s: |dV/dt| at the threshold crossing, nominal corner.
+    slowest_slope_v_per_s: |dV/dt| at the crossing, slowest corner (slow-edge).
+    corner_fastest / corner_slowest: the parameter values of those corners,
+    keyed by designator or name ("R2", "C1", "rail:+5V", "threshold", "leakage").
+    """
+
+    edge: str
+    direction: str  # "rising" or "falling"
+    start_v: float
+    final_v: float
+    threshold_v: float
+    threshold_fastest_v: float
+    threshold_slowest_v: float
+    nominal_s: float | None
+    fastest_s: float | None
+    slowest_s: float | None
+    slope_v_per_s: float | None
+    slowest_slope_v_per_s: float | None
+    corner_fastest: dict[str, float] = field(default_factory=dict)
+    corner_slowest: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass(frozen=True, slots=True)
+class StageResult:
+    """Everything the rules read about one stage.
+
+    pull_current_a: largest current through the pull resistor(s) while the
+    contact is held in its current-drawing state (rail max, R min).
+    contact_current_a: smallest steady current through the closed contact
+    (rail min, R max); None for a contact that carries none.
+    surge_peak_a: peak current when the contact closes onto a charged
+    capacitor (cap voltage / resistance between them), None if no capacitor
+    discharges through the contact.
+    max_input_v: highest steady voltage the receiver pin can see.
+    """
+
+    stage: Stage
+    levels: dict[str, LevelResult]
+    edges: dict[str, EdgeResult]
+    pull_current_a: float | None
+    contact_current_a: float | None
+    surge_peak_a: float | None
+    max_input_v: float | None
+    receiver_electrical: ReceiverElectrical | None = None  # what the analysis used
+    notes: tuple[str, ...] = ()

@@ -1,0 +1,117 @@
+"""The board: a netlist classified into rails, contacts, receivers and parts.
+
+Classification turns designators and subcircuit names into engineering roles
+using the library under rules/ and the board's config. Everything here is
+plain data; the functions that build it live in `classify`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from drc.errors import SourceLocation
+from drc.netlist.elements import Diagnostic, Netlist
+
+
+@dataclass(frozen=True, slots=True)
+class Rail:
+    """A net held at a DC voltage. tolerance is a fraction (0.05 = ±5 %)."""
+
+    net: str
+    voltage: float
+    tolerance: float
+    source: str  # designator of the source, or "config"
+
+
+@dataclass(frozen=True, slots=True)
+class Contact:
+    """One mechanical switching element.
+
+    terminals: nets, common first for a changeover (SPDT: common, NC, NO);
+    for SPST the two nets. form: "SPST-NO", "SPST-NC" or "SPDT".
+    wetting_a / rating_a: the class's minimum wetting current and contact
+    rating (None where the class sets none).
+    """
+
+    designator: str
+    contact_class: str
+    form: str
+    terminals: tuple[str, ...]
+    bounce_s: float
+    wetting_a: float | None
+    rating_a: float | None
+    location: SourceLocation
+    origin: str  # "element", "subcircuit", "config" or "annotation"
+    closed_resistance: float = 0.1
+    static: bool = False  # read as configuration (e.g. DIP), not as events
+
+
+@dataclass(frozen=True, slots=True)
+class InternalPull:
+    """A pull resistor inside a receiver pin (microcontroller GPIO)."""
+
+    direction: str  # "up" or "down"
+    r_min: float
+    r_max: float
+
+
+@dataclass(frozen=True, slots=True)
+class Receiver:
+    """One logic input pin of a part.
+
+    pin is counted from 1 in the instance line's node order.
+    supply_v is the receiver's VCC (nominal) and supply_tolerance a fraction.
+    function names the pin's role in its part ("data", "clock", "clear", ...).
+    """
+
+    part: str
+    pin: int
+    net: str
+    part_type: str
+    family: str
+    schmitt: bool
+    edge_sensitive: bool
+    function: str
+    supply_v: float
+    supply_tolerance: float
+    location: SourceLocation
+    internal_pull: InternalPull | None = None
+    firmware_debounce_s: float | None = None
+    dedicated_debounce: bool = False
+    gate: str | None = None  # which gate/section of the part the pin belongs to
+
+    @property
+    def ref(self) -> str:
+        return f"{self.part}:{self.pin}"
+
+
+@dataclass(frozen=True, slots=True)
+class PartPin:
+    number: int
+    net: str
+    role: str  # "input", "output", "supply", "ground", "nc"
+    name: str
+
+
+@dataclass(frozen=True, slots=True)
+class Part:
+    """A logic part (X instance recognised by the library or the config)."""
+
+    designator: str
+    part_type: str  # the generic entry, e.g. "14"
+    part_number: str  # as written, e.g. "SN74HC14N"
+    family: str
+    pins: tuple[PartPin, ...]
+    location: SourceLocation
+
+
+@dataclass(slots=True)
+class Board:
+    path: str
+    netlist: Netlist
+    rails: dict[str, Rail] = field(default_factory=dict)  # key(net) -> Rail
+    contacts: list[Contact] = field(default_factory=list)
+    receivers: list[Receiver] = field(default_factory=list)
+    parts: dict[str, Part] = field(default_factory=dict)  # key(designator) -> Part
+    diagnostics: list[Diagnostic] = field(default_factory=list)
+    config_path: str | None = None

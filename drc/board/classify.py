@@ -1,0 +1,580 @@
+"""Classify a read netlist into a Board: rails, contacts, parts and receivers.
+
+Roles come from three places, strongest first: the board's config (rails,
+contact classes per designator glob, part numbers per designator, and
+microcontroller pins), the library under rules/ (subcircuit names that are
+contact types or generic logic part numbers, and their pinouts), and the
+netlist itself (DC sources to ground make rails). Nothing is guessed: a net
+named like a rail with no voltage, or a subcircuit nobody knows, becomes a
+Diagnostic on the Board and is left out of the checks.
+
+Naming: an X instance's leading `X` is dropped from the designator a person
+sees when a letter follows it (`XU1` -> part `U1`, `XSW20` -> contact
+`SW20`); config globs match either spelling. A multi-pole switch pack with
+2N terminals gives N contacts `SW3.1` ... `SW3.N`; pole k joins terminal k and
+terminal 2N+1-k, the numbering of a DIP package (pin 1 faces pin 2N). Net
+names keep the spelling of their first appearance in the netlist.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field, fields, replace
+from fnmatch import fnmatchcase
+from itertools import chain
+from typing import Any, Iterable
+
+from drc.board.board import Board, Contact, InternalPull, Part, PartPin, Rail, Receiver
+from drc.config.settings import Config, ContactConfig, McuConfig, PartConfig
+from drc.errors import ConfigError, SourceLocation
+from drc.netlist.elements import GROUND, Diagnostic, Element, Netlist, key
+from drc.cli.gcpause import collection_paused
+
+FORMS = ("SPST-NO", "SPST-NC", "SPDT")
+DEFAULT_CONTACT_CLASS = "tactile"
+
+# Nets that people name after a supply: +5V, 5V, 3V3, +3.3V, 5V0, -12V,
+# VCC, VDD, VCC_IO, VDDA, V+. VSS and VEE are left out: VSS is usually
+# ground and VEE a negative rail given by a source anyway.
+_RAIL_NAME = re.compile(
+    r"^(?:[+-]?\d+(?:[.,]\d+)?V\d*|[+-]?\d+V\d+|\+?V(?:CC|DD)\w*|V\+|\+V\w*)$",
+    re.IGNORECASE,
+)
+
+# Element letters that are never contacts, even when a config glob names them.
+_NEVER_CONTACT = frozenset("RCLDVI")
+
+
+def looks_like_rail(net: str) -> bool:
+    """True for net names people give to supplies (`+5V`, `3V3`, `VCC`...)."""
+    return bool(_RAIL_NAME.match(net))
+
+
+def display_designator(element: Element) -> str:
+    """The designator a person sees: an X instance without its leading `X`."""
+    name = element.designator
+    if element.kind != "X":
+        return name
+    head, sep, last = name.rpartition("/")
+    if len(last) > 1 and last[0] in "xX" and last[1].isalpha():
+        last = last[1:]
+    return f"{head}{sep}{last}"
+
+
+def matches(pattern: str, element: Element) -> bool:
+    """Case-insensitive glob match on the designator, with or without its X."""
+    p = pattern.casefold()
+    names = {element.designator.casefold(), display_designator(element).casefold()}
+    return any(fnmatchcase(n, p) for n in names)
+
+
+def classify(netlist: Netlist, library: Any, config: Config, *,
+             default_bounce_s: float | None = None) -> Board:
+    """Turn a flat netlist into a Board using the library and the config.
+
+    default_bounce_s is the command line's bounce figure: it wins over the
+    class default and the config's `default_bounce_s`, and loses to a
+    per-contact bounce from config.
+    """
+    with collection_paused():
+        return _classify(netlist, library, config, default_bounce_s)
+
+
+def _classify(netlist: Netlist, library: Any, config: Config,
+              default_bounce_s: float | None) -> Board:
+    board = Board(path=netlist.path, netlist=netlist, config_path=config.path)
+    names = _net_spellings(netlist)
+    board.rails = _rails(netlist, config, names, board.diagnostics)
+    _rail_name_diagnostics(netlist, names, board.rails, board.diagnostics)
+    bounce_default = default_bounce_s if default_bounce_s is not None else config.default_bounce_s
+    ctx = _Context(library, config, board, names, bounce_default)
+    unknown: dict[str, SourceLocation] = {}
+    never = _NEVER_CONTACT
+    for element in netlist.elements:
+        if element.kind not in never:  # most of a board: passives need no call
+            _classify_element(ctx, element, unknown)
+    for name, location in unknown.items():
+        board.diagnostics.append(Diagnostic(
+            f"subcircuit {name} is not a known logic part or contact type; its "
+            f"instances are not checked (name it in rules/ or map it in the config)",
+            location))
+    return board
+
+
+# ---------------------------------------------------------------- nets, rails
+
+def _net_spellings(netlist: Netlist) -> dict[str, str]:
+    """key(net) -> the net's spelling at its first appearance."""
+    names: dict[str, str] = {key(GROUND): GROUND}
+    # Every spelling once, in order of first appearance: dict.fromkeys over the
+    # chained node tuples runs in C, so the Python loop below sees each net
+    # spelling once instead of every pin of the board.
+    spellings = dict.fromkeys(chain.from_iterable(
+        [e.nodes for e in netlist.elements if e.kind != "K"]))
+    for node in spellings:
+        k = node.casefold()
+        if k not in names:
+            names[k] = node
+    return names
+
+
+def _first_uses(netlist: Netlist, wanted: set[str]) -> dict[str, Element]:
+    """key(net) -> the first element on it, for the few nets in `wanted`."""
+    found: dict[str, Element] = {}
+    for element in netlist.elements:
+        if element.kind == "K":
+            continue
+        for node in element.nodes:
+            k = node.casefold()
+            if k in wanted and k not in found:
+                found[k] = element
+        if len(found) == len(wanted):
+            break
+    return found
+
+
+def _tolerance_param(element: Element) -> float | None:
+    """A `tol=` instance parameter as a fraction: `1%`, `0.01`, or `1` (percent)."""
+    for name in ("tol", "tolerance"):
+        if name in element.params:
+            return parse_tolerance(element.params[name])
+    return None
+
+
+def parse_tolerance(raw: float | str) -> float | None:
+    """`5%` -> 0.05; 0.05 -> 0.05; 5 -> 0.05 (a bare number >= 1 is percent)."""
+    if isinstance(raw, str):
+        text = raw.strip()
+        try:
+            if text.endswith("%"):
+                return float(text[:-1]) / 100.0
+            raw = float(text)
+        except ValueError:
+            return None
+    value = float(raw)
+    if value < 0:
+        return None
+    return value / 100.0 if value >= 1 else value
+
+
+def _rails(netlist: Netlist, config: Config, names: dict[str, str],
+           diagnostics: list[Diagnostic]) -> dict[str, Rail]:
+    """Rails from DC sources (chained through sources on rails) and config."""
+    configured = {key(r.net): r for r in config.rails}
+    rails: dict[str, Rail] = {}
+    fixed = {key(GROUND): 0.0}
+    sources = [e for e in netlist.elements
+               if e.kind == "V" and e.value is not None and len(e.nodes) == 2]
+    # A source between a rail and another net makes that net a rail too; the
+    # loop ends when a pass adds nothing (each pass adds at least one net).
+    pending = sources
+    while pending:
+        left = []
+        for source in pending:
+            plus, minus = (key(n) for n in source.nodes)
+            volts = source.value.si
+            if minus in fixed and plus not in fixed:
+                net, voltage = plus, fixed[minus] + volts
+            elif plus in fixed and minus not in fixed:
+                net, voltage = minus, fixed[plus] - volts
+            else:
+                left.append(source)
+                continue
+            fixed[net] = voltage
+            cfg = configured.get(net)
+            tol = _tolerance_param(source)
+            if tol is None:
+                tol = cfg.tolerance if cfg is not None else config.tolerances.rail
+            if cfg is not None and abs(cfg.voltage - voltage) > 1e-9 * max(1.0, abs(voltage)):
+                diagnostics.append(Diagnostic(
+                    f"config gives rail {cfg.net} {cfg.voltage:g} V but source "
+                    f"{source.designator} holds it at {voltage:g} V; the source wins",
+                    source.location))
+            rails[net] = Rail(names.get(net, source.nodes[0]), voltage, tol, source.designator)
+        if len(left) == len(pending):
+            break
+        pending = left
+    for net, cfg in configured.items():
+        # A config shared by several boards may name nets this board lacks.
+        if net in rails or net == key(GROUND) or net not in names:
+            continue
+        rails[net] = Rail(names[net], cfg.voltage, cfg.tolerance, "config")
+    return rails
+
+
+def _rail_name_diagnostics(netlist: Netlist, names: dict[str, str], rails: dict[str, Rail],
+                           diagnostics: list[Diagnostic]) -> None:
+    ground = key(GROUND)
+    # Every rail-like name has a V in it (see _RAIL_NAME): a cheap test first.
+    loose = [k for k, net in names.items()
+             if "v" in k and k not in rails and k != ground and looks_like_rail(net)]
+    if not loose:
+        return
+    first_use = _first_uses(netlist, set(loose))
+    for k in loose:
+        diagnostics.append(Diagnostic(
+            f"net {names[k]} is named like a supply rail but no source or "
+            f"config gives its voltage; give it in the config's rails",
+            first_use[k].location))
+
+
+# ---------------------------------------------------------------- elements
+
+@dataclass
+class _Context:
+    library: Any
+    config: Config
+    board: Board
+    names: dict[str, str]
+    bounce_default: float | None
+    defined: frozenset[str] | None = None
+    notes: set[str] = field(default_factory=set)  # once-per-board diagnostics given
+
+    def is_defined_subcircuit(self, name: str) -> bool:
+        if self.defined is None:
+            self.defined = frozenset(key(n) for n in self.board.netlist.subcircuit_names)
+        return key(name) in self.defined
+
+    def net(self, node: str) -> str:
+        return self.names.get(key(node), node)
+
+    def closed_resistance(self) -> float | None:
+        """A closed contact's resistance: config limit, else rules/limits.toml."""
+        name = "contact_closed_resistance"
+        if name in self.config.limits:
+            return self.config.limits[name]
+        limit = getattr(self.library, "limits", {}).get(name)
+        return limit.value if limit is not None else None
+
+    def config_location(self) -> SourceLocation:
+        return SourceLocation(self.config.path or "<config>")
+
+
+def _classify_element(ctx: _Context, element: Element,
+                      unknown: dict[str, SourceLocation]) -> None:
+    kind = element.kind
+    if kind == "S":
+        _classify_s(ctx, element)
+    elif kind == "X":
+        _classify_x(ctx, element, unknown)
+    elif kind not in _NEVER_CONTACT and len(element.nodes) >= 2:
+        settings = _contact_settings(ctx.config.contacts, element)
+        if settings is not None:
+            _add_contacts(ctx, element, element.nodes, None, settings, "config")
+
+
+def _merged_settings(entries, element: Element):
+    """The config entries matching a designator, merged: later entries win field by field."""
+    merged = None
+    for entry in entries:
+        if not matches(entry.pattern, element):
+            continue
+        if merged is None:
+            merged = entry
+        else:
+            changes = {f.name: getattr(entry, f.name) for f in fields(entry)
+                       if f.name != "pattern" and getattr(entry, f.name) is not None}
+            merged = replace(merged, pattern=entry.pattern, **changes)
+    return merged
+
+
+def _contact_settings(entries: Iterable[ContactConfig], element: Element) -> ContactConfig | None:
+    return _merged_settings(entries, element)
+
+
+def _classify_s(ctx: _Context, element: Element) -> None:
+    settings = _contact_settings(ctx.config.contacts, element)
+    if len(element.nodes) in (2, 3):
+        # Our contact line: two terminals, or three for a changeover (common first).
+        match = (ctx.library.contact_class_for(element.model, len(element.nodes))
+                 if element.model else None)
+        if element.model and match is None and (settings is None or not settings.contact_class):
+            ctx.board.diagnostics.append(Diagnostic(
+                f"{element.designator}: contact type {element.model} is not in the "
+                f"library; taken as class {DEFAULT_CONTACT_CLASS}", element.location))
+        _add_contacts(ctx, element, element.nodes, match, settings, "element")
+    elif settings is not None:
+        # A SPICE switch (nodes: switch+, switch-, control+, control-) the config
+        # declares to be a real contact: its first two nodes are the contact.
+        _add_contacts(ctx, element, element.nodes[:2], None, settings, "config")
+
+
+def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocation]) -> None:
+    config = ctx.config
+    lib = ctx.library
+    for mcu in config.mcus:
+        if matches(mcu.part, element):
+            _add_mcu(ctx, element, mcu)
+            return
+    part_cfg = _part_settings(config.parts, element)
+    if part_cfg is not None and part_cfg.part_number:
+        resolved = lib.resolve_part(part_cfg.part_number)
+        if resolved is None:
+            raise ConfigError(
+                f"part {part_cfg.part_number} (given for {display_designator(element)}) "
+                f"is not a part number the library knows", ctx.config_location())
+        _add_part(ctx, element, resolved, part_cfg.family)
+        return
+    model = element.model or ""
+    settings = _contact_settings(config.contacts, element)
+    match = lib.contact_class_for(model, len(element.nodes)) if model else None
+    if match is not None:
+        if ctx.is_defined_subcircuit(model):
+            ctx.board.diagnostics.append(Diagnostic(
+                f"{display_designator(element)}: subcircuit {model} is defined in the "
+                f"netlist but its name matches contact class "
+                f"{match.contact_class.name}; taken as a contact, its contents unread",
+                element.location))
+        _add_contacts(ctx, element, element.nodes, match, settings, "subcircuit")
+        return
+    resolved = lib.resolve_part(model) if model else None
+    if resolved is not None:
+        _add_part(ctx, element, resolved, part_cfg.family if part_cfg else None)
+        return
+    if settings is not None:
+        _add_contacts(ctx, element, element.nodes, None, settings, "config")
+        return
+    unknown.setdefault(model or element.designator, element.location)
+
+
+def _part_settings(entries: Iterable[PartConfig], element: Element) -> PartConfig | None:
+    return _merged_settings(entries, element)
+
+
+# ---------------------------------------------------------------- contacts
+
+def _contact_class(ctx: _Context, name: str, element: Element):
+    classes = ctx.library.contact_classes
+    found = classes.get(name) or classes.get(name.casefold())
+    if found is None:
+        for cname, cls in classes.items():
+            if cname.casefold() == name.casefold():
+                return cls
+        raise ConfigError(
+            f"contact class {name!r} (for {element.designator}) is unknown; known "
+            f"classes: {', '.join(sorted(classes))}", ctx.config_location())
+    return found
+
+
+def _normal_form(text: str | None) -> str | None:
+    if text is None:
+        return None
+    form = text.strip().upper().replace("_", "-")
+    return {"NO": "SPST-NO", "NC": "SPST-NC", "SPST": "SPST-NO"}.get(form, form)
+
+
+def _add_contacts(ctx: _Context, element: Element, nodes: tuple[str, ...], match,
+                  settings: ContactConfig | None, origin: str) -> None:
+    """Add one contact per pole of the element, named after its designator."""
+    if settings is not None and settings.contact_class:
+        cls = _contact_class(ctx, settings.contact_class, element)
+    elif match is not None:
+        cls = match.contact_class
+    else:
+        cls = _contact_class(ctx, DEFAULT_CONTACT_CLASS, element)
+    config_form = _normal_form(settings.form if settings else None)
+    if config_form is not None and config_form not in FORMS:
+        raise ConfigError(f"contact form {settings.form!r} for {element.designator} is not "
+                          f"one of {', '.join(FORMS)}", ctx.config_location())
+    wanted = config_form or _normal_form(match.form if match else None) \
+        or _normal_form(getattr(cls, "default_form", None)) or "SPST-NO"
+    poles = _poles(nodes, wanted, config_form is not None)
+    if poles is None:
+        ctx.board.diagnostics.append(Diagnostic(
+            f"{element.designator}: a contact with {len(nodes)} terminals cannot be "
+            f"split into poles; not checked", element.location))
+        return
+    if config_form == "SPDT" and len(nodes) == 2:
+        ctx.board.diagnostics.append(Diagnostic(
+            f"{element.designator}: configured SPDT but has two terminals; taken as SPST-NO",
+            element.location))
+    bounce = _bounce(settings, ctx.bounce_default, cls)
+    name = display_designator(element)
+    closed = getattr(cls, "closed_ohms", None)
+    if closed is None:
+        closed = ctx.closed_resistance()
+    for index, (form, terminals) in enumerate(poles, start=1):
+        designator = name if len(poles) == 1 else f"{name}.{index}"
+        extra = {"closed_resistance": closed} if closed is not None else {}
+        ctx.board.contacts.append(Contact(
+            designator=designator, contact_class=cls.name, form=form,
+            terminals=tuple(ctx.net(n) for n in terminals), bounce_s=bounce,
+            wetting_a=getattr(cls, "wetting_a", None), rating_a=getattr(cls, "rating_a", None),
+            location=element.location, origin=origin, static=getattr(cls, "static", False), **extra))
+
+
+def _poles(nodes: tuple[str, ...], form: str, form_configured: bool):
+    """Split terminals into (form, terminals) poles; None when no split fits.
+
+    2 terminals: one SPST pole (an SPDT form falls back to SPST-NO).
+    3 terminals: one SPDT pole, common first (an SPST form on three
+    terminals cannot say which two it joins, so SPDT wins).
+    2N terminals (N > 1): N SPST poles, pole k across terminals k and 2N+1-k;
+    3N terminals with form SPDT: N changeover poles (common, NC, NO) in order.
+    """
+    n = len(nodes)
+    if n == 2:
+        return [(form if form != "SPDT" else "SPST-NO", nodes)]
+    if n == 3:
+        return [("SPDT", nodes)]
+    if form == "SPDT" and n % 3 == 0:
+        return [("SPDT", nodes[i:i + 3]) for i in range(0, n, 3)]
+    if n % 2 == 0:
+        spst = form if form != "SPDT" else "SPST-NO"
+        return [(spst, (nodes[k], nodes[n - 1 - k])) for k in range(n // 2)]
+    return None
+
+
+def _bounce(settings: ContactConfig | None, default: float | None, cls) -> float:
+    if settings is not None and settings.bounce_s is not None:
+        return settings.bounce_s
+    if default is not None:
+        return default
+    return cls.bounce_s
+
+
+# ---------------------------------------------------------------- parts
+
+def _family_name(ctx: _Context, name: str, what: str) -> str:
+    """Validate a family name the config gives; return the library's spelling."""
+    try:
+        family = ctx.library.family(name)
+    except KeyError:
+        raise ConfigError(f"logic family {name!r} (for {what}) is not in the library",
+                          ctx.config_location()) from None
+    return getattr(family, "name", name)
+
+
+def _add_part(ctx: _Context, element: Element, resolved, family_override: str | None) -> None:
+    part_type = resolved.part_type
+    name = display_designator(element)
+    family = _family_name(ctx, family_override, name) if family_override else resolved.family
+    if len(element.nodes) != part_type.pin_count:
+        ctx.board.diagnostics.append(Diagnostic(
+            f"{name}: {element.model} has {part_type.pin_count} pins but the instance "
+            f"connects {len(element.nodes)}; not checked", element.location))
+        return
+    pins = tuple(
+        PartPin(number, ctx.net(element.nodes[number - 1]), spec.role, spec.name)
+        for number, spec in sorted(part_type.pins.items()))
+    ctx.board.parts[key(name)] = Part(name, part_type.name, resolved.part_number or element.model,
+                                      family, pins, element.location)
+    supply = _supply_rail(ctx, pins)
+    if supply is None:
+        ctx.board.diagnostics.append(Diagnostic(
+            f"{name}: its supply pin is not on a rail with a known voltage; its "
+            f"inputs are not checked", element.location))
+        return
+    for number, spec in sorted(part_type.pins.items()):
+        if spec.role != "input":
+            continue
+        pull = _part_pin_pull(ctx, name, element, spec, family)
+        ctx.board.receivers.append(Receiver(
+            part=name, pin=number, net=ctx.net(element.nodes[number - 1]),
+            part_type=part_type.name, family=family, schmitt=bool(spec.schmitt),
+            edge_sensitive=bool(spec.edge_sensitive), function=spec.function or "data",
+            supply_v=supply.voltage, supply_tolerance=supply.tolerance,
+            location=element.location, internal_pull=pull,
+            dedicated_debounce=bool(part_type.debounces), gate=spec.gate))
+
+
+def _family_pull_range(ctx: _Context, family: str) -> tuple[float, float] | None:
+    try:
+        return getattr(ctx.library.family(family), "internal_pull_ohms", None)
+    except KeyError:
+        return None
+
+
+def _part_pin_pull(ctx: _Context, name: str, element: Element, spec,
+                   family: str) -> InternalPull | None:
+    """A pin the part data says is pulled inside, with the family's resistor range."""
+    direction = getattr(spec, "internal_pull", None)
+    if not direction:
+        return None
+    found = _family_pull_range(ctx, family)
+    if found is None:
+        # The part data says the pin is pulled but gives no value: assume the usual
+        # on-chip range from rules/limits.toml, and say so once per part.
+        found = (ctx.library.limit("unknown_internal_pull_min"),
+                 ctx.library.limit("unknown_internal_pull_max"))
+        note = (f"{name}: its inputs have internal pull resistors of unknown value (family "
+                f"{family} gives no range); assumed {found[0] / 1e3:g}-{found[1] / 1e3:g} kΩ, "
+                f"verify against the part's data")
+        # A set of the notes given: a board has hundreds of such parts.
+        if note not in ctx.notes:
+            ctx.notes.add(note)
+            ctx.board.diagnostics.append(Diagnostic(note, element.location))
+    return InternalPull(direction, found[0], found[1])
+
+
+def _supply_rail(ctx: _Context, pins: Iterable[PartPin]) -> Rail | None:
+    for pin in pins:
+        if pin.role == "supply":
+            rail = ctx.board.rails.get(key(pin.net))
+            if rail is not None and rail.voltage > 0:
+                return rail
+    return None
+
+
+def _add_mcu(ctx: _Context, element: Element, mcu: McuConfig) -> None:
+    """A microcontroller: only the pins the config describes are known."""
+    name = display_designator(element)
+    nodes = element.nodes
+
+    def net_of(pin: int) -> str:
+        if not 1 <= pin <= len(nodes):
+            raise ConfigError(f"{name} has pins 1..{len(nodes)}; the config names pin {pin}",
+                              ctx.config_location())
+        return ctx.net(nodes[pin - 1])
+
+    supply_rail = next((ctx.board.rails[key(net_of(p))] for p in mcu.supply_pins
+                        if key(net_of(p)) in ctx.board.rails), None)
+    pins = [PartPin(p, net_of(p), "supply", "VDD") for p in mcu.supply_pins]
+    pins += [PartPin(p, net_of(p), "ground", "VSS") for p in mcu.ground_pins]
+    family_default = _family_name(ctx, mcu.family, name) if mcu.family else None
+    for pin in mcu.pins:
+        net = net_of(pin.pin)
+        pins.append(PartPin(pin.pin, net, "input", f"P{pin.pin}"))
+        family = _family_name(ctx, pin.family, f"{name} pin {pin.pin}") if pin.family \
+            else family_default
+        supply_v = pin.supply_v or mcu.supply_v or (supply_rail.voltage if supply_rail else None)
+        if family is None or supply_v is None:
+            ctx.board.diagnostics.append(Diagnostic(
+                f"{name} pin {pin.pin}: the config gives no "
+                f"{'family' if family is None else 'supply voltage'}; not checked",
+                element.location))
+            continue
+        tolerance = supply_rail.tolerance if supply_rail else ctx.config.tolerances.rail
+        ctx.board.receivers.append(Receiver(
+            part=name, pin=pin.pin, net=net, part_type="mcu", family=family,
+            schmitt=pin.schmitt, edge_sensitive=pin.edge_sensitive, function="gpio",
+            supply_v=supply_v, supply_tolerance=tolerance, location=element.location,
+            internal_pull=_internal_pull(ctx, name, pin, family),
+            firmware_debounce_s=pin.debounce_s))
+    ctx.board.parts[key(name)] = Part(name, "mcu", element.model or "", family_default or "",
+                                      tuple(sorted(pins, key=lambda p: p.number)),
+                                      element.location)
+
+
+def _internal_pull(ctx: _Context, name: str, pin, family: str) -> InternalPull | None:
+    if not pin.pull:
+        return None
+    direction = pin.pull.strip().lower()
+    if direction not in ("up", "down"):
+        raise ConfigError(f"{name} pin {pin.pin}: pull must be \"up\" or \"down\", "
+                          f"not {pin.pull!r}", ctx.config_location())
+    low, high = pin.pull_min_ohms, pin.pull_max_ohms
+    if low is None and high is None:
+        # No range in the config: the family's typical range, if rules/ has one.
+        found = _family_pull_range(ctx, family)
+        if found is None:
+            raise ConfigError(f"{name} pin {pin.pin}: pull = {direction} needs pull-min "
+                              f"and pull-max (family {family} gives no range)",
+                              ctx.config_location())
+        low, high = found
+    low = high if low is None else low
+    high = low if high is None else high
+    if not 0 < low <= high:
+        raise ConfigError(f"{name} pin {pin.pin}: internal pull range {low:g}..{high:g} "
+                          f"ohm is not a positive range", ctx.config_location())
+    return InternalPull(direction, low, high)

@@ -1,0 +1,430 @@
+"""Recognise an input path as a stage and reduce it to its small circuit.
+
+The circuit keeps every passive part of the path's region: resistors with
+their role (pull to a rail or ground, series between contact and receiver,
+the pin's internal pull, other), capacitors, diodes as piecewise-linear
+parts, the rails touched, and the contact's throws. Inductors (ferrite
+beads) and zero-ohm resistors are shorts: their nets are merged, keeping
+ground, then a rail, then the receiver's net as the surviving name. Other
+contacts in the region rest in their released state (an NC throw is a
+closed contact resistance, an NO throw is open): the stage describes this
+contact being operated alone.
+
+The kind, first match wins: dedicated (the receiver's part debounces),
+firmware (an MCU pin with a declared debounce), latch (a changeover whose
+two throws reach two cross-coupled gates), rc-schmitt / rc (a capacitor
+charged through a resistance, into a Schmitt / plain input), pull-only (a
+pull resistor, internal or external, and no such capacitor), direct.
+"""
+
+from __future__ import annotations
+
+import re
+from collections import deque
+from functools import cache
+
+from drc.board.board import Board, Contact, Rail, Receiver
+from drc.config.settings import Config
+from drc.errors import NetlistError
+from drc.netlist.elements import GROUND, Element, key
+from drc.board.stage import Capacitor, Diode, RailSource, Resistor, Stage, StageCircuit, Throw
+from drc.cli.gcpause import collection_paused
+from drc.board.trace import InputPath, TraceIndex, build_index, trace_paths
+from drc.board.classify import parse_tolerance
+
+_DIGITS = re.compile(r"(\d+)")
+
+
+def natural_key(text: str) -> tuple:
+    """Sort key that puts SW2 before SW10."""
+    found = _NATURAL.get(text)
+    if found is None:
+        found = tuple(int(part) if part.isdigit() else part.casefold()
+                      for part in _DIGITS.split(text))
+        if len(_NATURAL) > 100_000:  # a bound for long-lived processes
+            _NATURAL.clear()
+        _NATURAL[text] = found
+    return found
+
+
+# Designators and part names recur in every stage's sort and parts list.
+_NATURAL: dict[str, tuple] = {}
+
+
+def stages_for_board(board: Board, config: Config) -> list[Stage]:
+    """Every stage of the board, by contact designator then receiver."""
+    with collection_paused():
+        index = build_index(board)
+        diode = _DiodeDefaults(config)
+        stages = [_recognise(path, board, config, index, diode)
+                  for path in trace_paths(board, index)]
+    stages.sort(key=lambda s: (natural_key(s.contact.designator),
+                               natural_key(s.receiver.part), s.receiver.pin))
+    return stages
+
+
+def recognise(path: InputPath, board: Board, config: Config) -> Stage:
+    """The stage one input path forms, with its reduced circuit."""
+    index = path.index or build_index(board)
+    return _recognise(path, board, config, index, _DiodeDefaults(config))
+
+
+# ---------------------------------------------------------------- defaults
+
+class _DiodeDefaults:
+    """(forward_v, on_ohms) of the piecewise-linear diode from rules/limits.toml
+    and the config's limits; read only when a path has a diode."""
+
+    def __init__(self, config: Config) -> None:
+        self.config = config
+        self.value: tuple[float, float] | None = None
+
+    def get(self) -> tuple[float, float]:
+        if self.value is None:
+            limits = dict(_library_limits())
+            limits.update(self.config.limits)
+            self.value = (limits["diode_forward_voltage"], limits["diode_on_resistance"])
+        return self.value
+
+
+@cache
+def _library_limits() -> tuple[tuple[str, float], ...]:
+    from drc.library.catalogue import load_library
+    return tuple((k, v.value) for k, v in load_library().limits.items())
+
+
+def _tolerance(element: Element, default: float) -> float:
+    for name in ("tol", "tolerance"):
+        if name in element.params:
+            value = parse_tolerance(element.params[name])
+            if value is None:
+                raise NetlistError(f"{element.designator}: tolerance "
+                                   f"{element.params[name]!r} is not a number or a percentage",
+                                   element.location, element.text or None)
+            return value
+    return default
+
+
+# ---------------------------------------------------------------- nets
+
+class _Nets:
+    """Canonical net names for one path, with shorted nets merged."""
+
+    def __init__(self, index: TraceIndex, board: Board, receiver_net: str) -> None:
+        self.index = index
+        self.rails = board.rails
+        self.receiver = key(receiver_net)
+        self.parent: dict[str, str] = {}
+
+    def _rank(self, k: str) -> tuple:
+        # The surviving name of merged nets: ground, a rail, the receiver's net.
+        return (k != key(GROUND), k not in self.rails, k != self.receiver, k)
+
+    def find(self, k: str) -> str:
+        root = k
+        while self.parent.get(root, root) != root:
+            root = self.parent[root]
+        while self.parent.get(k, k) != root:
+            self.parent[k], k = root, self.parent[k]
+        return root
+
+    def short(self, a: str, b: str) -> None:
+        ra, rb = self.find(key(a)), self.find(key(b))
+        if ra != rb:
+            keep, drop = sorted((ra, rb), key=self._rank)
+            self.parent[drop] = keep
+
+    def name(self, net: str) -> str:
+        root = self.find(key(net))
+        return GROUND if root == key(GROUND) else self.index.names.get(root, net)
+
+    def rail(self, name: str) -> Rail | None:
+        return self.rails.get(name.casefold())
+
+
+def _is_short(element: Element) -> bool:
+    if element.kind == "L":
+        return True
+    return element.kind == "R" and element.value is not None and element.value.si == 0
+
+
+# ---------------------------------------------------------------- building
+
+def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
+               diode_defaults: _DiodeDefaults) -> Stage:
+    contact, receiver = path.contact, path.receiver
+    nets = _Nets(index, board, receiver.net)
+    for element in path.elements:
+        if _is_short(element) and len(element.nodes) == 2:
+            nets.short(*element.nodes)
+    receiver_node = nets.name(receiver.net)
+
+    raw_resistors: list[Resistor] = []
+    capacitors: list[Capacitor] = []
+    diodes: list[Diode] = []
+    parts: list[str] = []
+    for element in path.elements:
+        parts.append(element.designator)
+        if _is_short(element):
+            continue
+        a, b = (nets.name(n) for n in element.nodes[:2])
+        if element.kind in "RC" and element.value is None:
+            raise NetlistError(f"{element.designator} has no value", element.location,
+                               element.text or None)
+        if a == b:
+            continue  # both ends on one net: carries nothing
+        if element.kind == "R":
+            tol = _tolerance(element, config.tolerances.resistor)
+            raw_resistors.append(Resistor(element.designator, a, b, element.value.si, tol, tol))
+        elif element.kind == "C":
+            tol = _tolerance(element, config.tolerances.capacitor)
+            capacitors.append(Capacitor(element.designator, a, b, element.value.si, tol, tol))
+        elif element.kind == "D":
+            diodes.append(Diode(element.designator, a, b, *diode_defaults.get()))
+
+    resting: set[str] = set()
+    for other in path.contacts:
+        if other.form not in ("SPST-NC", "SPDT"):
+            continue  # only a contact closed at rest joins the circuit
+        for throw in _throws(other, nets):
+            if throw.closed_when == "released" and throw.a != throw.b:
+                raw_resistors.append(Resistor(other.designator, throw.a, throw.b,
+                                              other.closed_resistance, 0.0, 0.0))
+                parts.append(other.designator)
+                resting.add(other.designator)
+
+    rails_used: dict[str, RailSource] = {}
+    internal = _internal_pull(receiver, receiver_node, board, nets, rails_used)
+    throws = _throws(contact, nets)
+    resistors = _with_roles(raw_resistors, throws, receiver_node, nets)
+    # A resting contact is neither a pull nor a series resistor for the rules.
+    resistors = [r if r.designator not in resting else
+                 Resistor(r.designator, r.a, r.b, r.ohms, r.tol_minus, r.tol_plus, "other")
+                 for r in resistors]
+    if internal is not None:
+        resistors.append(internal)
+        parts.append(internal.designator)
+
+    for net in _circuit_nets(resistors, capacitors, diodes, throws):
+        rail = nets.rail(net)
+        if rail is not None and net not in rails_used:
+            rails_used[net] = RailSource(net, rail.voltage, rail.tolerance)
+    circuit = StageCircuit(
+        resistors=tuple(resistors), capacitors=tuple(capacitors), diodes=tuple(diodes),
+        rails=tuple(rails_used[n] for n in sorted(rails_used, key=natural_key)),
+        throws=throws, receiver_node=receiver_node)
+    kind = _kind(path, circuit, nets, index)
+    return Stage(contact=contact, receiver=receiver, kind=kind,
+                 parts=tuple(sorted(dict.fromkeys(parts), key=natural_key)),
+                 circuit=circuit, nets=circuit.nodes())
+
+
+def _throws(contact: Contact, nets: _Nets) -> tuple[Throw, ...]:
+    """The contact's switched paths: which terminals join in which state."""
+    t = [nets.name(n) for n in contact.terminals]
+    ohms = contact.closed_resistance
+    if contact.form == "SPDT" and len(t) >= 3:
+        return (Throw(t[0], t[1], "released", ohms), Throw(t[0], t[2], "pressed", ohms))
+    state = "released" if contact.form == "SPST-NC" else "pressed"
+    return (Throw(t[0], t[1], state, ohms),)
+
+
+def _internal_pull(receiver: Receiver, node: str, board: Board, nets: _Nets,
+                   rails_used: dict[str, RailSource]) -> Resistor | None:
+    """The MCU pin's own pull resistor: nominal at mid-range, tolerance covering it."""
+    pull = receiver.internal_pull
+    if pull is None:
+        return None
+    nominal = (pull.r_min + pull.r_max) / 2
+    spread = (pull.r_max - pull.r_min) / 2 / nominal
+    if pull.direction == "down":
+        end = GROUND
+    else:
+        end = _supply_net(receiver, board, nets)
+        if end is None:
+            end = f"{receiver.part}:VDD"  # no rail net: a node of the pin's own supply
+        rail = nets.rail(end)
+        rails_used[end] = RailSource(end, rail.voltage if rail else receiver.supply_v,
+                                     rail.tolerance if rail else receiver.supply_tolerance)
+    return Resistor(f"{receiver.part}:{receiver.pin}/pull", end, node, nominal,
+                    spread, spread, "internal-pull")
+
+
+def _supply_net(receiver: Receiver, board: Board, nets: _Nets) -> str | None:
+    """The rail the receiver's part is supplied from, by its supply pins or voltage."""
+    part = board.parts.get(key(receiver.part))
+    if part is not None:
+        for pin in part.pins:
+            if pin.role == "supply" and key(pin.net) in board.rails:
+                rail = board.rails[key(pin.net)]
+                if abs(rail.voltage - receiver.supply_v) <= 1e-9 * max(1.0, rail.voltage):
+                    return nets.name(pin.net)
+    matching = [r for r in board.rails.values()
+                if abs(r.voltage - receiver.supply_v) <= 1e-9 * max(1.0, r.voltage)]
+    if matching:
+        return nets.name(min(matching, key=lambda r: natural_key(r.net)).net)
+    return None
+
+
+def _circuit_nets(resistors, capacitors, diodes, throws) -> list[str]:
+    out: dict[str, None] = {}
+    for r in resistors:
+        out.setdefault(r.a); out.setdefault(r.b)
+    for c in capacitors:
+        out.setdefault(c.a); out.setdefault(c.b)
+    for d in diodes:
+        out.setdefault(d.anode); out.setdefault(d.cathode)
+    for t in throws:
+        out.setdefault(t.a); out.setdefault(t.b)
+    return list(out)
+
+
+# ---------------------------------------------------------------- roles
+
+def _with_roles(resistors: list[Resistor], throws: tuple[Throw, ...], receiver_node: str,
+                nets: _Nets) -> list[Resistor]:
+    """Pull: one end held (rail or ground), one free. Series: on a route from the
+    contact's terminals to the receiver. Other: the rest."""
+    held_memo: dict[str, bool] = {}
+
+    def held(n: str) -> bool:
+        found = held_memo.get(n)
+        if found is None:
+            found = held_memo[n] = n == GROUND or nets.rail(n) is not None
+        return found
+
+    # Conducting links between free nets, the contact's own throws left out.
+    links: dict[str, list[tuple[int, str]]] = {}
+    for i, r in enumerate(resistors):
+        if not held(r.a) and not held(r.b):
+            links.setdefault(r.a, []).append((i, r.b))
+            links.setdefault(r.b, []).append((i, r.a))
+    starts = {n for t in throws for n in (t.a, t.b) if not held(n)}
+
+    def reaches(sources, target: str, avoid: str) -> bool:
+        seen = {s for s in sources if s != avoid}
+        queue = deque(seen)
+        while queue:
+            n = queue.popleft()
+            if n == target:
+                return True
+            for _, m in links.get(n, ()):
+                if m != avoid and m not in seen:
+                    seen.add(m)
+                    queue.append(m)
+        return False
+
+    out: list[Resistor] = []
+    for r in resistors:
+        if held(r.a) != held(r.b):
+            role = "pull"
+        elif held(r.a):
+            role = "other"
+        elif ((reaches(starts, r.a, r.b) and reaches((r.b,), receiver_node, r.a))
+              or (reaches(starts, r.b, r.a) and reaches((r.a,), receiver_node, r.b))):
+            role = "series"
+        else:
+            role = "other"
+        out.append(Resistor(r.designator, r.a, r.b, r.ohms, r.tol_minus, r.tol_plus, role))
+    return out
+
+
+# ---------------------------------------------------------------- kinds
+
+def _kind(path: InputPath, circuit: StageCircuit, nets: _Nets, index: TraceIndex) -> str:
+    receiver = path.receiver
+    if receiver.dedicated_debounce:
+        return "dedicated"
+    if receiver.firmware_debounce_s is not None and receiver.firmware_debounce_s > 0:
+        return "firmware"
+    if _is_latch(path, index):
+        return "latch"
+    if _charged_capacitor(circuit, nets):
+        return "rc-schmitt" if receiver.schmitt else "rc"
+    if any(r.role in ("pull", "internal-pull") for r in circuit.resistors):
+        return "pull-only"
+    return "direct"
+
+
+def _charged_capacitor(circuit: StageCircuit, nets: _Nets) -> bool:
+    """A capacitor with a free end on a net some resistor reaches."""
+    resistive = {n for r in circuit.resistors for n in (r.a, r.b)}
+    for c in circuit.capacitors:
+        for end in (c.a, c.b):
+            if end != GROUND and nets.rail(end) is None and end in resistive:
+                return True
+    return False
+
+
+def _side(path: InputPath, start: str, index: TraceIndex) -> set[str]:
+    """Net keys reachable from one throw terminal without crossing the contact
+    itself, a rail, ground or a capacitor."""
+    if index.is_boundary(start):
+        return {key(start)}
+    links: dict[str, list[str]] = {}
+    for element in path.elements:
+        if element.kind == "C" or len(element.nodes) < 2:
+            continue
+        a, b = key(element.nodes[0]), key(element.nodes[1])
+        links.setdefault(a, []).append(b)
+        links.setdefault(b, []).append(a)
+    for other in path.contacts:
+        ks = [key(t) for t in other.terminals]
+        for a in ks:
+            for b in ks:
+                if a != b:
+                    links.setdefault(a, []).append(b)
+    seen = {key(start)}
+    queue = deque(seen)
+    while queue:
+        n = queue.popleft()
+        for m in links.get(n, ()):
+            if m not in seen:
+                seen.add(m)
+                if not (m in index.stops or m in index.driven):
+                    queue.append(m)
+    return seen
+
+
+def _is_latch(path: InputPath, index: TraceIndex) -> bool:
+    """A changeover whose NC and NO throws reach inputs of two gates, each
+    gate's output feeding an input of the other (a cross-coupled pair)."""
+    contact, receiver = path.contact, path.receiver
+    if contact.form != "SPDT" or len(contact.terminals) < 3 or receiver.gate is None:
+        return False
+    nc_side = _side(path, contact.terminals[1], index)
+    no_side = _side(path, contact.terminals[2], index)
+    here = key(receiver.net)
+    if here in nc_side and here not in no_side:
+        other_side = no_side
+    elif here in no_side and here not in nc_side:
+        other_side = nc_side
+    else:
+        return False
+    mine = (key(receiver.part), receiver.gate)
+    for other in path.reached:
+        theirs = (key(other.part), other.gate)
+        if other.gate is None or theirs == mine or key(other.net) not in other_side:
+            continue
+        if _feeds(index, mine[0], theirs) and _feeds(index, theirs[0], mine):
+            return True
+    return False
+
+
+def _feeds(index: TraceIndex, part_key: str, gate: tuple[str, str]) -> bool:
+    """Does an output of part `part_key` drive an input of (part, gate)?
+
+    The part data names the gate of input pins only (Receiver.gate), so the
+    driving output is known by part, not by gate: in one package a chain
+    through a third gate would also pass this test.
+    """
+    part = index.board.parts.get(part_key)
+    if part is None:
+        return False
+    for pin in part.pins:
+        if pin.role != "output":
+            continue
+        for r in index.receivers_at.get(key(pin.net), ()):
+            if (key(r.part), r.gate) == gate:
+                return True
+    return False

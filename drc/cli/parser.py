@@ -1,0 +1,162 @@
+"""The `drc` command line: check boards, explain rules, trace a stage, design one.
+
+Exit status: 0 nothing at or above the fail level; 1 findings at or above
+it; 2 bad input, bad config or usage (and any internal error); 130 when
+interrupted. Errors are one located message, never a traceback (unless
+--traceback asks for it). Heavy modules are imported inside the commands
+so that `drc --version` and a small check start fast.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from drc import __version__
+from drc.errors import DrcError, UsageError
+
+FORMATS = ("text", "json", "sarif", "junit", "html")
+LEVELS = ("error", "warning", "note")
+EXIT_OK, EXIT_FINDINGS, EXIT_ERROR, EXIT_INTERRUPTED = 0, 1, 2, 130
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse, but a usage error is our UsageError (exit 2, one message)."""
+
+    def error(self, message: str):  # noqa: D401 - argparse's name
+        raise UsageError(f"{self.prog}: {message} (see `{self.prog} --help`)")
+
+
+def _ids(values: list[str] | None) -> tuple[str, ...]:
+    out: list[str] = []
+    for v in values or ():
+        out.extend(x.strip() for x in v.split(",") if x.strip())
+    return tuple(out)
+
+
+def _quantity(text: str, dimension: str, option: str) -> float:
+    """A command-line quantity: "5ms", "10 kΩ"; R and C also in SPICE form ("4.7k", "470n")."""
+    from drc.errors import ConfigError
+    from drc.units import parse_quantity
+    try:
+        return parse_quantity(text, dimension, option)
+    except ConfigError as exc:
+        if dimension in ("resistance", "capacitance"):
+            from drc.netlist.values import parse_value
+            value = parse_value(text.strip())
+            if value is not None and value.si > 0:
+                return value.si
+        message = exc.message
+        if message.startswith(option + ":"):
+            message = message[len(option) + 1:].strip()
+        raise UsageError(f"{option}: {message}") from None
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="drc", description="Design-rule checker for the switch inputs of boards, "
+                                             "read from SPICE-style netlists.")
+    parser.add_argument("--version", action="version", version=f"drc {__version__}")
+    parser.add_argument("--traceback", action="store_true",
+                        help="on an internal error, show the Python traceback")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    check = sub.add_parser("check", help="check boards (files or folders)")
+    check.add_argument("paths", nargs="+", metavar="PATH")
+    check.add_argument("--format", choices=FORMATS, default="text",
+                       help="what to print on standard output (default: text)")
+    check.add_argument("--output", "-o", action="append", default=[], metavar="FORMAT:FILE",
+                       help="also write FORMAT to FILE (repeatable), e.g. sarif:drc.sarif")
+    check.add_argument("--fail-level", choices=LEVELS, default=None,
+                       help="lowest severity that fails the run (default: the config's, else error)")
+    check.add_argument("--report-only", action="store_true", help="report findings but always exit 0 "
+                       "unless the input is bad")
+    check.add_argument("--select", action="append", metavar="IDS", help="only these rule ids (comma list)")
+    check.add_argument("--ignore", action="append", metavar="IDS", help="skip these rule ids (comma list)")
+    check.add_argument("--config", metavar="FILE", help="config file (default: drc.toml or "
+                       "pyproject.toml [tool.drc] found upward from each board)")
+    check.add_argument("--bounce", metavar="TIME", help="default bounce for contacts, e.g. 5ms")
+    check.add_argument("--baseline", metavar="FILE", help="fail only on findings not in this baseline")
+    check.add_argument("--write-baseline", metavar="FILE", help="record this run's findings as a baseline")
+    check.add_argument("--jobs", "-j", type=int, default=1, metavar="N", help="boards checked in parallel")
+    check.add_argument("--quiet", "-q", action="store_true", help="only errors and the summary")
+    check.add_argument("--eseries", metavar="SERIES", help="series for proposed values (E12, E24, E96...)")
+    check.add_argument("--no-fixes", action="store_true", help="skip the search for standard-value fixes")
+    check.add_argument("--include-folder", action="append", default=[], metavar="DIR",
+                       help="a folder .include/.lib may read from (besides the board's own)")
+    check.add_argument("--as-of", metavar="YYYY-MM-DD", help="the date waivers expire against (default today)")
+    for name, help_text in (("max-elements", "flattened element count"),
+                            ("max-include-depth", "include nesting"),
+                            ("max-subckt-depth", "subcircuit nesting"),
+                            ("max-file-bytes", "size of one netlist file"),
+                            ("max-line-length", "length of one logical line"),
+                            ("max-expression-depth", "expression nesting"),
+                            ("max-expression-work", "expression size")):
+        check.add_argument(f"--{name}", type=int, metavar="N", help=f"raise the limit on {help_text}")
+
+    sub.add_parser("rules", help="list the rule catalogue")
+    explain = sub.add_parser("explain", help="print one rule's documentation")
+    explain.add_argument("rule_id", metavar="ID")
+
+    trace = sub.add_parser("trace", help="one contact's or receiver pin's paths, stages, levels and times")
+    trace.add_argument("board", metavar="BOARD")
+    trace.add_argument("ref", metavar="REF", help="a contact designator, a part, or PART:PIN")
+    trace.add_argument("--config", metavar="FILE")
+    trace.add_argument("--bounce", metavar="TIME")
+
+    design = sub.add_parser("design", help="propose standard R and C values for a debounced input")
+    design.add_argument("--rail", required=True, metavar="VOLTAGE", help="e.g. 5V or 3.3V")
+    design.add_argument("--family", required=True, help="logic family, e.g. HC, LVC, 4000B, MCU-3V3")
+    design.add_argument("--plain", action="store_true", help="the input has no Schmitt trigger")
+    design.add_argument("--contact", metavar="CLASS", help="contact class (sets the bounce), e.g. tactile")
+    design.add_argument("--bounce", metavar="TIME", help="bounce time (default: the contact class's)")
+    design.add_argument("--latency", default="100 ms", metavar="TIME", help="latency limit (default 100 ms)")
+    design.add_argument("--series", default="E24", help="E-series for the resistors (default E24)")
+    design.add_argument("--capacitor", metavar="C", help="hold the capacitor at this value")
+    design.add_argument("--resistor", metavar="R", help="hold the pull resistor at this value")
+    design.add_argument("--pull-down", action="store_true", help="contact to the rail, pull-down resistor")
+    design.add_argument("--netlist", action="store_true", help="print the stage as a netlist fragment")
+
+    simulate = sub.add_parser("simulate", help="inject random contact chatter into one stage")
+    simulate.add_argument("board", metavar="BOARD")
+    simulate.add_argument("ref", metavar="REF", help="a contact designator or PART:PIN")
+    simulate.add_argument("--trials", type=int, default=1000)
+    simulate.add_argument("--seed", type=int, default=0)
+    simulate.add_argument("--format", choices=("text", "json"), default="text")
+    simulate.add_argument("--spice", metavar="FILE", help="write an ngspice deck of one chatter trial")
+    simulate.add_argument("--config", metavar="FILE")
+    simulate.add_argument("--bounce", metavar="TIME")
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = sys.argv[1:] if argv is None else argv
+    show_traceback = "--traceback" in argv
+    try:
+        args = build_parser().parse_args(argv)
+        if args.command is None:
+            build_parser().print_help()
+            return EXIT_ERROR
+        from drc.cli import commands
+        return getattr(commands, f"run_{args.command}")(args)
+    except DrcError as exc:
+        _stderr(exc.render())
+        return EXIT_ERROR
+    except KeyboardInterrupt:
+        _stderr("drc: interrupted")
+        return EXIT_INTERRUPTED
+    except BrokenPipeError:
+        return EXIT_ERROR
+    except Exception as exc:  # an internal error: one line unless asked for the traceback
+        if show_traceback:
+            raise
+        _stderr(f"drc: internal error: {type(exc).__name__}: {exc} (rerun with --traceback for details)")
+        return EXIT_ERROR
+
+
+def _stderr(text: str) -> None:
+    try:
+        sys.stderr.write(text.rstrip("\n") + "\n")
+        sys.stderr.flush()
+    except Exception:
+        pass
+

@@ -1,0 +1,1 @@
+"""Standard-value design: forward design of a new stage and fixes for failing ones."""

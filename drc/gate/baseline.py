@@ -1,0 +1,194 @@
+"""Baselines: the findings accepted at a point in time, so that only new ones fail.
+
+A baseline file is JSON ("format": "drc-baseline/1") listing, per finding,
+the board, the rule, the contact, the receiver and the passive parts: the
+finding's identity, never its line numbers, so the baseline survives edits
+that shift lines. Board paths are stored relative to the baseline file's
+folder, so the same baseline works from any working directory. Applying a
+baseline marks matching findings with suppression "baseline" (each entry
+matches at most one finding, so a second identical finding is new) and
+returns the entries that matched nothing: findings that have been fixed.
+"""
+
+from __future__ import annotations
+
+import codecs
+import json
+import os
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, replace
+from pathlib import Path, PurePath
+from typing import TYPE_CHECKING, Any
+
+from drc.atomic import write_atomic
+from drc.errors import ConfigError, SourceLocation
+from drc.netlist.lines import read_regular
+from drc.checks.findings import SEVERITIES, Finding
+
+if TYPE_CHECKING:
+    from drc.report.run_report import RunReport
+
+BASELINE_FORMAT = "drc-baseline/1"
+# A baseline of a large audit is megabytes; a fixed cap keeps a wrong path cheap.
+MAX_BASELINE_BYTES = 256 * 1024 * 1024
+_ENTRY_KEYS = ("board", "rule", "contact", "receiver", "parts", "severity", "message")
+
+
+@dataclass(frozen=True, slots=True)
+class BaselineEntry:
+    board: str  # posix path relative to the baseline's folder (or as given)
+    rule: str
+    contact: str | None
+    receiver: str | None
+    parts: tuple[str, ...]
+    severity: str
+    message: str
+
+    def identity(self) -> tuple:
+        """The same tuple as Finding.identity()."""
+        return (self.rule, self.contact or "", self.receiver or "", tuple(sorted(self.parts)))
+
+    def as_json(self) -> dict:
+        return {"board": self.board, "rule": self.rule, "contact": self.contact,
+                "receiver": self.receiver, "parts": sorted(self.parts),
+                "severity": self.severity, "message": self.message}
+
+
+@dataclass(frozen=True, slots=True)
+class Baseline:
+    path: str
+    root: str  # folder the board paths are relative to
+    entries: tuple[BaselineEntry, ...]
+
+
+def board_key(board: str, root: str | os.PathLike | None) -> str:
+    """A board path as a baseline stores it: posix, relative to `root` when possible."""
+    if root is not None:
+        try:
+            board = os.path.relpath(Path(board).resolve(), Path(root).resolve())
+        except ValueError:  # another drive on Windows: keep the absolute path
+            board = str(Path(board).resolve())
+    return PurePath(board).as_posix().removeprefix("./")
+
+
+def _entry(finding: Finding, root: str | os.PathLike | None) -> BaselineEntry:
+    return BaselineEntry(board_key(finding.board, root), finding.rule, finding.contact,
+                         finding.receiver, tuple(sorted(finding.parts)), finding.severity,
+                         finding.message)
+
+
+def _sort_key(entry: BaselineEntry) -> tuple:
+    return (entry.board, entry.identity(), entry.severity, entry.message)
+
+
+def baseline_entries(findings: Iterable[Finding], root: str | os.PathLike | None = None
+                     ) -> tuple[BaselineEntry, ...]:
+    """Entries for the findings to accept: all except those a waiver or annotation covers."""
+    chosen = [_entry(f, root) for f in findings if f.suppression in (None, "baseline")]
+    return tuple(sorted(chosen, key=_sort_key))
+
+
+def baseline_document(run: "RunReport", root: str | os.PathLike | None = None) -> dict:
+    """The JSON document of a baseline accepting every unwaived finding of `run`."""
+    findings = [f for board in run.boards for f in board.findings]
+    return {"format": BASELINE_FORMAT,
+            "entries": [e.as_json() for e in baseline_entries(findings, root)]}
+
+
+def write_baseline(path: str | os.PathLike, run: "RunReport",
+                   inputs: Iterable[str | os.PathLike] = ()) -> None:
+    """Write the baseline of `run` to `path` atomically (never over an input file)."""
+    document = baseline_document(run, Path(path).parent)
+    text = json.dumps(document, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
+    write_atomic(path, text, inputs)
+
+
+def _bad(path: str, message: str, line: int = 0, column: int = 0) -> ConfigError:
+    return ConfigError(f"baseline: {message}", SourceLocation(path, line, column))
+
+
+def _optional_str(value: Any, path: str, where: str) -> str | None:
+    if value is None or isinstance(value, str):
+        return value
+    raise _bad(path, f"{where}: expected a string or null, got {type(value).__name__}")
+
+
+def load_baseline(path: str | os.PathLike) -> Baseline:
+    """Read a baseline file; a malformed one is a located ConfigError."""
+    name = os.fspath(path)
+    try:
+        data = read_regular(name, name, MAX_BASELINE_BYTES, ConfigError, None)
+    except ConfigError as exc:
+        raise _bad(name, f"cannot read the file: {exc.message}") from None
+    try:
+        text = data.decode("utf-16") if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)) \
+            else data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        before = data[:exc.start]
+        raise _bad(name, f"not UTF-8 text ({exc.reason})", before.count(b"\n") + 1,
+                   exc.start - (before.rfind(b"\n") + 1) + 1) from None
+    try:
+        document = json.loads(text)
+    except RecursionError:
+        raise _bad(name, "not valid JSON: arrays or objects nest too deeply") from None
+    except json.JSONDecodeError as exc:
+        raise ConfigError(f"baseline: not valid JSON: {exc.msg}",
+                          SourceLocation(name, exc.lineno, exc.colno),
+                          text.splitlines()[exc.lineno - 1] if exc.lineno <= len(text.splitlines()) else None
+                          ) from None
+    if not isinstance(document, dict) or document.get("format") != BASELINE_FORMAT:
+        found = document.get("format") if isinstance(document, dict) else None
+        raise _bad(name, f"expected \"format\": \"{BASELINE_FORMAT}\", found {found!r}; "
+                         f"write a new one with the baseline option")
+    raw_entries = document.get("entries")
+    if not isinstance(raw_entries, list):
+        raise _bad(name, "\"entries\" must be a list")
+    entries = []
+    for i, raw in enumerate(raw_entries):
+        where = f"entries[{i}]"
+        if not isinstance(raw, dict):
+            raise _bad(name, f"{where}: expected an object")
+        missing = [k for k in ("board", "rule", "parts") if k not in raw]
+        if missing:
+            raise _bad(name, f"{where}: missing {', '.join(missing)}")
+        unknown = sorted(set(raw) - set(_ENTRY_KEYS))
+        if unknown:
+            raise _bad(name, f"{where}: unknown key {unknown[0]!r}")
+        if not isinstance(raw["board"], str) or not isinstance(raw["rule"], str):
+            raise _bad(name, f"{where}: board and rule must be strings")
+        parts = raw["parts"]
+        if not isinstance(parts, list) or not all(isinstance(p, str) for p in parts):
+            raise _bad(name, f"{where}.parts: expected a list of designators")
+        severity = raw.get("severity", "error")
+        if severity not in SEVERITIES:
+            raise _bad(name, f"{where}.severity: expected one of {', '.join(SEVERITIES)}")
+        entries.append(BaselineEntry(
+            raw["board"], raw["rule"], _optional_str(raw.get("contact"), name, where + ".contact"),
+            _optional_str(raw.get("receiver"), name, where + ".receiver"), tuple(sorted(parts)),
+            severity, _optional_str(raw.get("message"), name, where + ".message") or ""))
+    return Baseline(name, str(Path(path).parent), tuple(entries))
+
+
+def apply_baseline(findings: Sequence[Finding], baseline: Baseline, board: str
+                   ) -> tuple[tuple[Finding, ...], tuple[BaselineEntry, ...]]:
+    """Mark the findings of `board` that the baseline accepts; return them and the fixed entries.
+
+    Each baseline entry accepts one finding with the same board, rule,
+    contact, receiver and parts. Findings already waived or annotated are
+    left alone. Fixed: this board's entries that matched no finding.
+    """
+    key = board_key(board, baseline.root)
+    pool: dict[tuple, list[BaselineEntry]] = {}
+    for entry in baseline.entries:
+        if entry.board == key:
+            pool.setdefault(entry.identity(), []).append(entry)
+    out = []
+    for finding in findings:
+        matches = pool.get(finding.identity())
+        if finding.suppression is None and matches:
+            matches.pop()
+            finding = replace(finding, suppression="baseline",
+                              justification=f"accepted in baseline {baseline.path}")
+        out.append(finding)
+    fixed = tuple(sorted((e for rest in pool.values() for e in rest), key=_sort_key))
+    return tuple(out), fixed

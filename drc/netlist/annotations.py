@@ -1,0 +1,148 @@
+"""Annotations: instructions to drc written as comments inside the netlist.
+
+A schematic tool exports comments verbatim, so a designer can keep a
+contact's class, a pin's firmware debounce or an accepted finding next to
+the part it concerns. The form is a full-line comment starting `*@drc`:
+
+    *@drc contact SW4 class=toggle bounce=20ms form=SPST-NO
+    *@drc debounce U9:12 20ms
+    *@drc waive pullup-waste SW12 R20 : door sensor needs the wetting current
+
+- `contact PATTERN key=value...`: class, bounce and form for contacts whose
+  designator matches the glob PATTERN (like a [[contacts]] config entry;
+  an annotation wins over the config file).
+- `debounce PART:PIN TIME`: the receiver pin is debounced in firmware for TIME.
+- `waive RULE PART... : REASON`: accept findings of RULE that involve every
+  listed part (globs); the reason after the colon is required.
+
+Ordinary SPICE tools read these lines as comments. Errors name the file,
+line and column.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+
+from drc.config.settings import ContactConfig
+from drc.errors import ConfigError, DrcError, SourceLocation
+from drc.netlist.lines import decode, read_regular, split_lines
+
+MARK = "*@drc"
+# The reader already refused files above its own limit; this only bounds a re-read.
+MAX_ANNOTATED_BYTES = 1 << 31
+_REASON = re.compile(r":(?=\s|$)")
+
+
+def _split_reason(body: str) -> tuple[str, str, str]:
+    parts = _REASON.split(body, maxsplit=1)
+    return (parts[0], ":", parts[1]) if len(parts) == 2 else (body, "", "")
+
+
+@dataclass(frozen=True, slots=True)
+class AnnotationWaiver:
+    rule: str
+    parts: tuple[str, ...]
+    reason: str
+    location: SourceLocation
+
+
+@dataclass(slots=True)
+class Annotations:
+    contacts: list[ContactConfig] = field(default_factory=list)
+    debounces: dict[str, float] = field(default_factory=dict)  # "U9:12" (case-folded) -> seconds
+    waivers: list[AnnotationWaiver] = field(default_factory=list)
+
+    def __bool__(self) -> bool:
+        return bool(self.contacts or self.debounces or self.waivers)
+
+
+def _error(message: str, file: str, line_no: int, column: int, line: str) -> ConfigError:
+    return ConfigError(message, SourceLocation(file, line_no, column), line)
+
+
+def _time(text: str, where: str, make_error) -> float:
+    from drc.units import parse_quantity
+    try:
+        return parse_quantity(text, "time", where)
+    except ConfigError as exc:
+        raise make_error(exc.message) from None
+
+
+def _contact(words: list[str], make_error) -> ContactConfig:
+    if not words:
+        raise make_error("`contact` needs a designator pattern, e.g. `*@drc contact SW4 class=toggle`")
+    settings: dict[str, str] = {}
+    for word in words[1:]:
+        name, sep, value = word.partition("=")
+        if not sep or name.lower() not in ("class", "bounce", "form"):
+            raise make_error(f"unknown contact setting {word!r}: expected class=, bounce= or form=")
+        settings[name.lower()] = value
+    bounce = _time(settings["bounce"], "bounce", make_error) if "bounce" in settings else None
+    form = settings.get("form")
+    if form is not None and form.upper() not in ("SPST-NO", "SPST-NC", "SPDT"):
+        raise make_error(f"unknown contact form {form!r}: expected SPST-NO, SPST-NC or SPDT")
+    return ContactConfig(pattern=words[0], contact_class=settings.get("class"), bounce_s=bounce,
+                         form=form.upper() if form else None)
+
+
+def parse_annotations(text: str, file: str) -> Annotations:
+    """Every `*@drc` line of one file's text."""
+    found = Annotations()
+    if MARK not in text:
+        return found
+    # The reader's own line splitting (CR, LF, CRLF only), so line numbers agree
+    # with its locations even when the text holds form feeds or U+2028.
+    for line_no, line in enumerate(split_lines(text), start=1):
+        stripped = line.lstrip()
+        if not stripped.startswith(MARK):
+            continue
+        column = len(line) - len(stripped) + 1
+
+        def make_error(message: str, _n=line_no, _c=column, _l=line) -> ConfigError:
+            return _error(f"annotation: {message}", file, _n, _c, _l)
+
+        body = stripped[len(MARK):]
+        # The reason follows a colon that ends a word ("SW1 R2 : why"); a pin
+        # reference such as U9:12 has no blank after its colon.
+        body, _, reason = _split_reason(body)
+        words = body.split()
+        if not words:
+            raise make_error("empty annotation; expected contact, debounce or waive")
+        verb, rest = words[0].lower(), words[1:]
+        if verb == "contact":
+            found.contacts.append(_contact(rest, make_error))
+        elif verb == "debounce":
+            if len(rest) != 2 or ":" not in rest[0]:
+                raise make_error("expected `*@drc debounce PART:PIN TIME`, e.g. `*@drc debounce U9:12 20ms`")
+            found.debounces[rest[0].casefold()] = _time(rest[1], "debounce", make_error)
+        elif verb == "waive":
+            if len(rest) < 2:
+                raise make_error("expected `*@drc waive RULE PART... : reason`")
+            if not reason.strip():
+                raise make_error("a waiver needs a reason after a colon: `*@drc waive RULE PART : why`")
+            found.waivers.append(AnnotationWaiver(rest[0], tuple(rest[1:]), reason.strip(),
+                                                  SourceLocation(file, line_no, column)))
+        else:
+            raise make_error(f"unknown annotation {verb!r}; expected contact, debounce or waive")
+    return found
+
+
+def read_annotations(files: tuple[str, ...]) -> Annotations:
+    """Annotations of every file a netlist was read from (includes too)."""
+    merged = Annotations()
+    for file in files:
+        try:
+            # Same guards and decoding as the reader (regular files only, BOMs,
+            # Latin-1 fallback): the file was read once already, so this only
+            # fails if it changed under us, and then it is simply skipped.
+            text = decode(read_regular(file, file, MAX_ANNOTATED_BYTES))
+        except (DrcError, UnicodeDecodeError):
+            continue
+        if MARK not in text:
+            continue
+        one = parse_annotations(text, file)
+        merged.contacts.extend(one.contacts)
+        merged.debounces.update(one.debounces)
+        merged.waivers.extend(one.waivers)
+    return merged

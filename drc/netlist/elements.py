@@ -1,0 +1,203 @@
+"""The circuit model a netlist is read into.
+
+A `Netlist` is flat: subcircuits are expanded, designators and local nets of
+an instance are joined with `/` (`XK1/R1`, `XK1/key`), ground is the net "0".
+An X instance whose subcircuit is not defined in the netlist, or that the
+parts/contacts library recognises, stays an element of kind "X": a part with
+its instance's nets as pins, in instance-line order.
+
+Names keep the case they were written in; comparisons are case-insensitive,
+so lookups use `key()`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from drc.errors import SourceLocation
+
+GROUND = "0"
+
+
+def key(name: str) -> str:
+    """Case-insensitive identity of a designator, net or model name."""
+    return name.casefold()
+
+
+@dataclass(frozen=True, slots=True)
+class Value:
+    """A numeric value as a person meant it, plus how SPICE3 would read it.
+
+    `si` is the value in SI units as read by SPICE rules, except that the
+    letter-and-digit code (`4k7`, `2R2`, `0R1`, `1M5`, `4n7`) is read as a
+    person means it (4700, 2.2, 0.1, 1.5e6, 4.7e-9). A plain `1M` stays
+    milli, as SPICE reads it; the ambiguous-value rule says so. `spice_si` is
+    what ngspice's default mode reads from the same text (`4k7` -> 4000), or
+    None where SPICE would not read a number. `text` is the text as
+    written, so rules can warn where the two readings differ.
+    """
+
+    si: float
+    text: str
+    spice_si: float | None = None
+
+    @property
+    def differs_from_spice(self) -> bool:
+        return self.spice_si is None or self.spice_si != self.si
+
+
+class _NoParams(dict):
+    """The one shared, read-only, empty parameter mapping of elements without
+    parameters (most of them): a dict per element would cost 64 bytes each."""
+
+    __slots__ = ()
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("Element.params is shared when empty; build a new dict to change it")
+
+    __setitem__ = __delitem__ = setdefault = update = pop = popitem = clear = _refuse  # type: ignore
+    __ior__ = _refuse  # type: ignore
+
+    def __reduce__(self):
+        return (_no_params, ())
+
+
+NO_PARAMS: dict = _NoParams()
+
+
+def _no_params() -> dict:
+    return NO_PARAMS
+
+
+class Element:
+    """One flattened circuit element.
+
+    kind: the upper-case element letter (R C L K D Q M J V I E F G H S W B T X).
+    nodes: net names after flattening (ground is "0").
+    value: the main value (R, C, L, a DC source's voltage), or None.
+    model: model name (D, Q, M, J, S, W) or subcircuit name (X).
+    location: where the element's statement starts.
+    params: instance parameters as written (`k=v`), values evaluated where numeric
+      (one shared read-only empty mapping when there are none).
+    text: the statement as read (after continuation joining and comment removal).
+    instance_path: the X instances this element was expanded through, outermost first.
+
+    A plain slotted class rather than a dataclass so that a million elements
+    stay small: the reader may pass `location` as a bare line number with the
+    `origin` file (column 1) and leave `text` as None; both are then built
+    from the file on first use. Equality compares the fields as a dataclass
+    would.
+    """
+
+    __slots__ = ("designator", "kind", "nodes", "value", "model", "_where", "params",
+                 "_text", "instance_path", "_origin")
+
+    def __init__(self, designator: str, kind: str, nodes: tuple[str, ...],
+                 value: Value | None, model: str | None, location: SourceLocation | int,
+                 params: dict[str, float | str] = NO_PARAMS, text: str | None = "",
+                 instance_path: tuple[str, ...] = (), origin=None) -> None:
+        self.designator = designator
+        self.kind = kind
+        self.nodes = nodes
+        self.value = value
+        self.model = model
+        self._where = location
+        self.params = params
+        self._text = text
+        self.instance_path = instance_path
+        self._origin = origin
+
+    @property
+    def location(self) -> SourceLocation:
+        where = self._where
+        if where.__class__ is int:
+            return SourceLocation(self._origin.path, where, 1)
+        return where
+
+    @location.setter
+    def location(self, value: SourceLocation) -> None:
+        self._where = value
+
+    @property
+    def text(self) -> str:
+        text = self._text
+        if text is None:
+            text = self._origin.line(self._where).rstrip()
+        return text
+
+    @text.setter
+    def text(self, value: str) -> None:
+        self._text = value
+
+    def _fields(self) -> tuple:
+        return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
+                self.params, self.text, self.instance_path)
+
+    def __eq__(self, other: object) -> bool:
+        if other.__class__ is not self.__class__:
+            return NotImplemented
+        return self._fields() == other._fields()  # type: ignore[attr-defined]
+
+    __hash__ = None  # type: ignore[assignment]  # mutable, as the dataclass was
+
+    def __repr__(self) -> str:
+        names = ("designator", "kind", "nodes", "value", "model", "location", "params", "text",
+                 "instance_path")
+        inner = ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields()))
+        return f"Element({inner})"
+
+    def __getstate__(self):
+        return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
+                dict(self.params) if self.params else NO_PARAMS, self.text, self.instance_path)
+
+    def __setstate__(self, state) -> None:
+        Element.__init__(self, *state)
+
+
+@dataclass(frozen=True, slots=True)
+class Diagnostic:
+    """A warning about the netlist that does not stop reading it."""
+
+    message: str
+    location: SourceLocation
+
+
+@dataclass(frozen=True, slots=True)
+class ModelCard:
+    name: str
+    type: str
+    params: dict[str, float | str]
+    location: SourceLocation
+
+
+@dataclass(frozen=True, slots=True)
+class SkippedDirective:
+    """A recorded but unused directive (.tran, .option, a .control block...)."""
+
+    name: str
+    text: str
+    location: SourceLocation
+
+
+@dataclass(slots=True)
+class Netlist:
+    path: str
+    title: str
+    elements: list[Element] = field(default_factory=list)
+    models: dict[str, ModelCard] = field(default_factory=dict)
+    global_nets: tuple[str, ...] = ()
+    subcircuit_names: tuple[str, ...] = ()
+    diagnostics: list[Diagnostic] = field(default_factory=list)
+    skipped: list[SkippedDirective] = field(default_factory=list)
+    files: tuple[str, ...] = ()
+
+    def nets(self) -> set[str]:
+        """Every distinct net, ground included when used."""
+        out: set[str] = set()
+        for element in self.elements:
+            if element.kind != "K":
+                out.update(element.nodes)
+        return out
+
+    def by_designator(self) -> dict[str, Element]:
+        return {key(e.designator): e for e in self.elements}

@@ -1,0 +1,181 @@
+"""What every report format renders: the boards of a run, their stages and findings.
+
+Reports never compute; they format these records. The records sort their
+contents on construction (stages by contact then receiver, findings by a
+total key over every field) so that every format is deterministic: the same
+boards in any order give byte-identical output.
+"""
+
+from __future__ import annotations
+
+import re
+from collections import Counter
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+
+from drc.gate.baseline import BaselineEntry
+from drc.checks.findings import SEVERITIES, SEVERITY_RANK, Finding
+from drc.analysis.results import StageResult
+from drc.checks.ruledoc import RuleDoc
+
+CAUTION = ("Design guidance from models and typical data: verify on the real board and "
+           "against the parts' own data, and follow the applicable standards and licensed "
+           "engineering practice. Safety functions (emergency stops, interlocks) need "
+           "safety-rated design, which this tool does not assess.")
+CAUTION_SHORT = ("Guidance from models and typical data: verify on the real board; safety "
+                 "functions need safety-rated design this tool does not assess.")
+
+_DIGITS = re.compile(r"(\d+)")
+
+
+def natural_key(text: str | None) -> tuple:
+    """"SW2" before "SW10"; case-insensitive, then exact text to stay total."""
+    text = text or ""
+    found = _NATURAL.get(text)
+    if found is None:
+        parts = tuple((0, int(p), "") if p.isdigit() else (1, 0, p.casefold())
+                      for p in _DIGITS.split(text) if p)
+        found = (parts, text)
+        if len(_NATURAL) > 100_000:  # a bound for long-lived processes
+            _NATURAL.clear()
+        _NATURAL[text] = found
+    return found
+
+
+# Designators, refs and board paths recur in every finding of a board: split each once.
+_NATURAL: dict[str, tuple] = {}
+
+
+def _figure_key(figure) -> tuple:
+    return (0, 0.0, "", "") if figure is None else (1, figure.value, figure.unit, figure.text)
+
+
+def finding_sort_key(finding: Finding) -> tuple:
+    """Findings in reading order: by contact, receiver, rule, then every other field."""
+    location = finding.location
+    return (natural_key(finding.board), natural_key(finding.contact), natural_key(finding.receiver),
+            finding.rule, tuple(natural_key(p) for p in finding.parts),
+            -SEVERITY_RANK.get(finding.severity, 0), finding.message, finding.fix,
+            _figure_key(finding.measured), _figure_key(finding.limit), finding.nets,
+            (location.file, location.line, location.column) if location else ("", 0, 0),
+            tuple((r.file, r.line, r.column) for r in finding.related),
+            finding.suppression or "", finding.justification or "")
+
+
+def stage_sort_key(result: StageResult) -> tuple:
+    stage = result.stage
+    return (natural_key(stage.contact.designator), natural_key(stage.receiver.part),
+            stage.receiver.pin, stage.kind, stage.parts)
+
+
+@dataclass(frozen=True, slots=True)
+class Inventory:
+    """What a board's netlist holds after flattening.
+
+    parts: element count per element letter (X instances left as parts count
+    under "X"); rails: net -> nominal volts; instances: subcircuit instances
+    that were flattened.
+    """
+
+    parts: dict[str, int]
+    nets: int
+    rails: dict[str, float]
+    instances: int
+
+    def as_json(self) -> dict:
+        return {"parts": dict(sorted(self.parts.items())), "nets": self.nets,
+                "rails": dict(sorted(self.rails.items())), "instances": self.instances}
+
+    def text(self) -> str:
+        parts = ", ".join(f"{kind} {n}" for kind, n in sorted(self.parts.items()))
+        rails = ", ".join(f"{net} {volts:g} V" for net, volts in sorted(self.rails.items())) or "none"
+        return (f"{sum(self.parts.values())} parts ({parts}), {self.nets} nets, rails {rails}, "
+                f"{self.instances} subcircuit instances")
+
+
+@dataclass(frozen=True, slots=True)
+class BoardReport:
+    """One board's results. error: why the board could not be checked (then no stages)."""
+
+    path: str
+    stages: tuple[StageResult, ...] = ()
+    findings: tuple[Finding, ...] = ()
+    contacts: int = 0
+    stage_kinds: dict[str, int] = field(default_factory=dict)
+    diagnostics: tuple[str, ...] = ()
+    config_path: str | None = None
+    error: str | None = None
+    files: tuple[str, ...] = ()  # every file the netlist was read from (includes too)
+    inventory: Inventory | None = None  # what the netlist holds (None when it was not read)
+
+    def __post_init__(self) -> None:
+        # Frozen record: normalise once here so every format sees the same order.
+        object.__setattr__(self, "stages", tuple(sorted(self.stages, key=stage_sort_key)))
+        object.__setattr__(self, "findings", tuple(sorted(self.findings, key=finding_sort_key)))
+        object.__setattr__(self, "stage_kinds", dict(sorted(self.stage_kinds.items())))
+        object.__setattr__(self, "diagnostics", tuple(self.diagnostics))
+
+    def active(self) -> tuple[Finding, ...]:
+        """Findings no waiver, annotation or baseline suppresses."""
+        return tuple(f for f in self.findings if f.suppression is None)
+
+    def counts(self) -> dict[str, int]:
+        """Active findings per severity (every severity present), plus "suppressed"."""
+        counter = Counter(f.severity for f in self.active())
+        out = {severity: counter.get(severity, 0) for severity in SEVERITIES}
+        out["suppressed"] = sum(1 for f in self.findings if f.suppression is not None)
+        return out
+
+    def worst_margin_v(self) -> float | None:
+        """The smallest DC level margin over all stages (negative: fails), None if none."""
+        margins = [level.margin_v for result in self.stages for level in result.levels.values()
+                   if level.margin_v is not None]
+        return min(margins) if margins else None
+
+
+@dataclass(frozen=True, slots=True)
+class BaselineInfo:
+    path: str
+    matched: int  # findings the baseline accepted
+    new: int  # active findings not in the baseline
+    written: bool = False  # the run wrote this baseline instead of applying it
+
+
+@dataclass(frozen=True, slots=True)
+class RunReport:
+    """A whole run: boards (sorted by path), the rule catalogue and the gate settings.
+
+    waiver_notes: expired, stale and unused-annotation messages.
+    fixed: baseline entries no finding matched any more.
+    """
+
+    boards: tuple[BoardReport, ...]
+    rule_docs: tuple[RuleDoc, ...] = ()
+    fail_level: str = "error"
+    waiver_notes: tuple[str, ...] = ()
+    baseline: BaselineInfo | None = None
+    fixed: tuple[BaselineEntry, ...] = ()
+    caution: str = CAUTION
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "boards", tuple(sorted(self.boards, key=lambda b: natural_key(b.path))))
+        object.__setattr__(self, "rule_docs", tuple(sorted(self.rule_docs, key=lambda d: d.id)))
+        object.__setattr__(self, "waiver_notes", tuple(sorted(self.waiver_notes)))
+        object.__setattr__(self, "fixed", tuple(sorted(
+            self.fixed, key=lambda e: (e.board, e.identity(), e.severity, e.message))))
+
+    def findings(self) -> Iterable[Finding]:
+        for board in self.boards:
+            yield from board.findings
+
+    def counts(self) -> dict[str, int]:
+        total = Counter()
+        for board in self.boards:
+            total.update(board.counts())
+        return {key: total.get(key, 0) for key in (*SEVERITIES, "suppressed")}
+
+    def rule_doc(self, rule_id: str) -> RuleDoc | None:
+        for doc in self.rule_docs:
+            if doc.id == rule_id:
+                return doc
+        return None

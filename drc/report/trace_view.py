@@ -1,0 +1,113 @@
+"""`drc trace`: one contact's or receiver's stages, laid out for a person.
+
+Shows the path (parts with values and roles), the stage kind, steady levels
+with their Thevenin equivalents and margins, and per edge the thresholds and
+times at the nominal, fastest and slowest corners. Formats; never computes.
+"""
+
+from __future__ import annotations
+
+from rich import box
+from rich.table import Table
+from rich.text import Text
+
+from drc.board.signal_graph import signal_path
+from drc.units import format_quantity as fq
+
+
+def _t(seconds: float | None) -> str:
+    return "never" if seconds is None else fq(seconds, "s")
+
+
+def _v(volts: float | None) -> str:
+    return "-" if volts is None else fq(volts, "V")
+
+
+def _parts_table(stage) -> Table:
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold", title_justify="left")
+    for column in ("part", "value", "tolerance", "between", "role"):
+        table.add_column(column, overflow="fold")
+    c = stage.circuit
+    for r in c.resistors:
+        table.add_row(r.designator, fq(r.ohms, "Ω"), f"-{r.tol_minus:.0%}/+{r.tol_plus:.0%}",
+                      f"{r.a} – {r.b}", r.role)
+    for cap in c.capacitors:
+        table.add_row(cap.designator, fq(cap.farads, "F"), f"-{cap.tol_minus:.0%}/+{cap.tol_plus:.0%}",
+                      f"{cap.a} – {cap.b}", "capacitor")
+    for d in c.diodes:
+        table.add_row(d.designator, f"Vf {fq(d.forward_v, 'V')}", "", f"{d.anode} → {d.cathode}", "diode")
+    for t in c.throws:
+        table.add_row(stage.contact.designator, fq(t.closed_ohms, "Ω"), "", f"{t.a} – {t.b}",
+                      f"closed when {t.closed_when}")
+    for s in c.rails:
+        table.add_row(f"rail {s.net}", fq(s.volts, "V"), f"±{s.tolerance:.0%}", "", "supply")
+    return table
+
+
+def _levels_table(result) -> Table:
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
+    for column in ("state", "reads", "nominal", "worst", "must clear", "margin", "Thevenin"):
+        table.add_column(column, overflow="fold")
+    for state, level in result.levels.items():
+        thevenin = (f"{_v(level.thevenin_v)} via {fq(level.thevenin_ohms, 'Ω')}"
+                    if level.thevenin_ohms is not None else "-")
+        margin = Text(_v(level.margin_v), style="red" if (level.margin_v or 0) < 0 else "")
+        table.add_row(state, level.logic, _v(level.nominal_v), _v(level.worst_v), _v(level.required_v),
+                      margin, thevenin)
+    return table
+
+
+def _edges_table(result) -> Table:
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
+    for column in ("edge", "direction", "threshold (nom / fast / slow)", "nominal", "fastest", "slowest"):
+        table.add_column(column, overflow="fold")
+    for name, edge in result.edges.items():
+        thresholds = f"{_v(edge.threshold_v)} / {_v(edge.threshold_fastest_v)} / {_v(edge.threshold_slowest_v)}"
+        table.add_row(name, edge.direction, thresholds, _t(edge.nominal_s), _t(edge.fastest_s),
+                      _t(edge.slowest_s))
+    return table
+
+
+def print_trace(console, check, results) -> None:
+    for result in results:
+        stage = result.stage
+        contact, receiver = stage.contact, stage.receiver
+        rx = result.receiver_electrical
+        console.rule(Text(stage.name, style="bold"))
+        console.print(f"stage: [bold]{stage.kind}[/]   parts: {', '.join(stage.parts) or 'none'}")
+        console.print(f"contact {contact.designator}: {contact.contact_class}, {contact.form}, bounce "
+                      f"{fq(contact.bounce_s, 's')} ({contact.location})", highlight=False)
+        kind = "Schmitt" if receiver.schmitt else "plain"
+        extra = ", edge-sensitive" if receiver.edge_sensitive else ""
+        part_type = receiver.part_type
+        if part_type[:1].isdigit() and not receiver.family.startswith("4000"):
+            part_type = "'" + part_type  # the 74-series function number: '14, '74
+        console.print(f"receiver {receiver.ref}: {part_type} {receiver.function} input, "
+                      f"{receiver.family} {kind}{extra}, VCC {fq(receiver.supply_v, 'V')}", highlight=False)
+        if receiver.firmware_debounce_s:
+            console.print(f"firmware debounce: {fq(receiver.firmware_debounce_s, 's')}")
+        console.print(f"nets: {', '.join(stage.nets)}", highlight=False)
+        path = signal_path(stage)
+        if path:
+            console.print(f"signal path: {contact.designator} ─ " + " ─ ".join(path) +
+                          f" ─ {receiver.ref}", highlight=False)
+        console.print(_parts_table(stage))
+        console.print(_levels_table(result))
+        if result.edges:
+            console.print(_edges_table(result))
+        currents = []
+        if result.pull_current_a is not None:
+            currents.append(f"pull current while held {fq(result.pull_current_a, 'A')}")
+        if result.contact_current_a is not None:
+            currents.append(f"closed-contact current {fq(result.contact_current_a, 'A')} (min)")
+        if result.surge_peak_a is not None:
+            currents.append(f"closing surge {fq(result.surge_peak_a, 'A')} (peak)")
+        if currents:
+            console.print("; ".join(currents), highlight=False)
+        if rx is not None:
+            console.print(f"thresholds used: rising {_v(rx.rising_threshold[0])}–{_v(rx.rising_threshold[2])}, "
+                          f"falling {_v(rx.falling_threshold[0])}–{_v(rx.falling_threshold[2])}, "
+                          f"VIH {_v(rx.vih_min)}, VIL {_v(rx.vil_max)}", highlight=False)
+        for note in result.notes:
+            console.print(f"note: {note}", style="dim")
+    console.print("Guidance from models and typical data: verify on the real board.", style="dim")

@@ -1,0 +1,1 @@
+"""Bounce injection: random contact chatter driven through one stage, and ngspice decks."""

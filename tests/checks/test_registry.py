@@ -1,0 +1,95 @@
+"""The rule catalogue: ids, severities, documentation, registration and selection."""
+
+from __future__ import annotations
+
+import tomllib
+
+import pytest
+
+from drc.checks import all_rules, get_rule, run_rules, run_stage_rules
+from drc.checks.registry import rule, unregister
+from drc.datafiles import rules_path
+from drc.errors import LibraryError
+from drc.checks.findings import SEVERITIES
+from drc.checks.ruledoc import RuleDoc
+
+from tests.checks.builders import LIMITS, result
+
+# The catalogue of DESIGN.md section 7, in its order, with its default severities.
+CATALOGUE = [
+    ("undebounced-input", "error"), ("floating-input", "error"), ("bounce-window", "error"),
+    ("slow-edge", "error"), ("response-latency", "warning"), ("leakage-headroom", "error"),
+    ("pullup-waste", "warning"), ("resistance-range", "note"), ("contact-wetting", "warning"),
+    ("contact-surge", "warning"), ("rail-mismatch", "error"), ("ambiguous-value", "warning"),
+]
+
+
+def test_catalogue_order_ids_and_severities():
+    built_in = [(r.id, r.severity) for r in all_rules()][:len(CATALOGUE)]
+    assert built_in == CATALOGUE
+
+
+@pytest.mark.parametrize("rule_id", [rid for rid, _ in CATALOGUE])
+def test_every_rule_documents_itself(rule_id):
+    doc = get_rule(rule_id).doc
+    assert "\n" not in doc.title and doc.title
+    for text in (doc.what, doc.why, doc.how, doc.fix):
+        assert len(text) > 30, f"{rule_id}: documentation section too short: {text!r}"
+    for example in (doc.failing_example, doc.passing_example):
+        assert example.rstrip().endswith(".end") and "XU1" in example
+        instance = next(line for line in example.splitlines() if line.startswith("XU1"))
+        # 14-pin instance: designator, 14 nets, subcircuit name
+        assert len(instance.split()) == 16, instance
+    assert doc.failing_example != doc.passing_example
+
+
+def test_limit_keys_exist_in_the_shipped_limits_file():
+    with open(rules_path("limits.toml"), "rb") as fh:
+        shipped = tomllib.load(fh)
+    for r in all_rules():
+        for key in r.limits:
+            assert key in shipped, f"{r.id} uses limit {key!r}, missing from rules/limits.toml"
+
+
+def test_an_outside_rule_pack_registers_the_same_way():
+    doc = RuleDoc(id="test-pack-always", title="fires on every stage", severity="note",
+                  what="w" * 40, why="w" * 40, how="w" * 40, fix="w" * 40,
+                  failing_example="", passing_example="")
+
+    @rule(doc, kind="stage")
+    def always(res, ctx):
+        yield ctx.stage_finding(res, measured=None, limit=None, message="m", fix="f")
+
+    try:
+        assert all_rules()[-1].id == "test-pack-always"
+        found = run_stage_rules(result(), LIMITS, selected_ids={"test-pack-always"})
+        assert [f.rule for f in found] == ["test-pack-always"] and found[0].severity == "note"
+        with pytest.raises(ValueError):
+            rule(doc)(lambda res, ctx: ())  # the same id twice is refused
+    finally:
+        unregister(["test-pack-always"])
+
+
+def test_unknown_kind_or_severity_is_refused():
+    doc = get_rule("bounce-window").doc
+    with pytest.raises(ValueError):
+        rule(doc, kind="netlist")
+    from dataclasses import replace
+    with pytest.raises(ValueError):
+        rule(replace(doc, id="x-bad", severity="fatal"))
+
+
+def test_selection_and_severity_override():
+    res = result(pull_a=5e-3)  # over the 1 mA budget
+    everything = run_rules(None, [res], LIMITS)
+    assert [f.rule for f in everything] == ["pullup-waste"]
+    assert run_rules(None, [res], LIMITS, selected_ids={"bounce-window"}) == []
+    overridden = run_rules(None, [res], LIMITS, severities={"pullup-waste": "error"})
+    assert overridden[0].severity == "error" and set(SEVERITIES) >= {overridden[0].severity}
+
+
+def test_a_missing_limit_is_a_clear_library_error():
+    limits = dict(LIMITS)
+    del limits["pull_current_budget"]
+    with pytest.raises(LibraryError, match="pull_current_budget"):
+        run_rules(None, [result()], limits)

@@ -1,0 +1,88 @@
+"""Standard-value fixes: proposed values are IEC 60063 members, pass, and are the smallest change."""
+
+from __future__ import annotations
+
+import eseries as oracle
+import pytest
+
+from drc.checks import run_stage_rules
+from drc.design.fixes import MAX_ANALYSES, propose_fixes, search, with_values
+
+from tests.checks.builders import LIMITS, analysed, hc, rc_stage
+
+SERIES = {"E12": oracle.E12, "E24": oracle.E24, "E96": oracle.E96}
+
+
+def oracle_member(series, value: float) -> bool:
+    # IEC 60063 tables via the eseries package
+    return any(abs(v - value) <= 1e-9 * value for v in oracle.erange(SERIES[series], value / 2, value * 2))
+
+
+def passes(stage, rx=None) -> bool:
+    return run_stage_rules(analysed(stage, rx), LIMITS) == []
+
+
+@pytest.mark.parametrize("series", ["E12", "E24", "E96"])
+def test_bounce_fix_is_a_passing_series_value_and_the_smallest_step(series):
+    stage = rc_stage(c1=100e-9)
+    res = analysed(stage)
+    findings = run_stage_rules(res, LIMITS)
+    assert {f.rule for f in findings} == {"bounce-window"}
+    solution, count = search(stage, res.receiver_electrical, LIMITS, series)
+    assert solution is not None and count <= MAX_ANALYSES
+    [change] = solution.changes
+    cap_series = "E12"  # capacitors come from E12 when resistors use E24 or finer
+    assert oracle_member(cap_series, change.new), change
+    assert passes(with_values(stage, {change.designator: change.new}))
+    # The next smaller E12 capacitor does not pass: the proposal is the smallest change of C1.
+    smaller = max(v for v in oracle.erange(oracle.E12, 1e-9, change.new) if v < change.new * 0.999)
+    assert not passes(with_values(stage, {"C1": smaller}))
+    text = propose_fixes(res, findings, LIMITS, series)
+    assert all("C1 100 nF → " in t and "at fastest corner" in t for t in text.values())
+
+
+def test_pullup_waste_fix_raises_the_pull_resistor_to_an_e24_value():
+    stage = rc_stage(r1=1e3)
+    res = analysed(stage)
+    solution, _ = search(stage, res.receiver_electrical, LIMITS, "E24")
+    [change] = solution.changes
+    assert change.designator == "R1" and change.new > 1e3 and oracle_member("E24", change.new)
+    assert passes(with_values(stage, {"R1": change.new}))
+    lower = max(v for v in oracle.erange(oracle.E24, 1e3, change.new) if v < change.new * 0.999)
+    assert not passes(with_values(stage, {"R1": lower}))
+
+
+def test_latency_fix_and_resistance_fix():
+    for kwargs in (dict(c1=4.7e-6), dict(r2=56e3, c1=680e-9)):
+        stage = rc_stage(**kwargs)
+        res = analysed(stage)
+        solution, _ = search(stage, res.receiver_electrical, LIMITS, "E24")
+        assert solution is not None, kwargs
+        values = {c.designator: c.new for c in solution.changes}
+        assert passes(with_values(stage, values))
+        for c in solution.changes:
+            assert oracle_member("E24" if c.unit == "Ω" else "E12", c.new)
+
+
+def test_plain_input_gets_an_honest_fix():
+    res = analysed(rc_stage(schmitt=False), hc(schmitt=False))
+    findings = run_stage_rules(res, LIMITS)
+    assert "slow-edge" in {f.rule for f in findings}
+    texts = propose_fixes(res, findings, LIMITS)
+    assert texts and all("no RC value passes a plain HC input" in t for t in texts.values())
+
+
+def test_no_fix_found_says_so():
+    # Everything out of the window at once: one or two changes cannot repair three parts.
+    stage = rc_stage(r1=82e3, r2=390e3, c1=100e-9)
+    res = analysed(stage)
+    findings = run_stage_rules(res, LIMITS)
+    texts = propose_fixes(res, findings, LIMITS, budget=60)
+    assert texts and all("passes every rule" in t and "no E24 value change" in t for t in texts.values())
+
+
+def test_findings_of_other_rules_or_stages_are_left_alone():
+    res = analysed(rc_stage(r2=None, c1=None))  # pull-only: undebounced-input only
+    findings = run_stage_rules(res, LIMITS)
+    assert {f.rule for f in findings} == {"undebounced-input"}
+    assert propose_fixes(res, findings, LIMITS) == {}

@@ -1,0 +1,54 @@
+"""Forward design: proposed stages pass every stage rule at worst case, in IEC 60063 values."""
+
+from __future__ import annotations
+
+import eseries as oracle
+import pytest
+
+from drc.checks import run_stage_rules
+from drc.design.forward import design_stage
+
+from tests.checks.builders import LIMITS, analysed, hc
+
+
+def member(series, value):
+    # IEC 60063 tables via the eseries package
+    return any(abs(v - value) <= 1e-9 * value for v in oracle.erange(series, value / 2, value * 2))
+
+
+@pytest.mark.parametrize("topology", ["pull-up", "pull-down"])
+@pytest.mark.parametrize("series,eseries_key", [("E24", oracle.E24), ("E96", oracle.E96)])
+def test_design_passes_and_uses_series_values(topology, series, eseries_key):
+    d = design_stage(5.0, "HC", True, 0.010, 0.100, series=series, topology=topology,
+                     rx=hc(), limits=LIMITS)
+    assert d.ok, d.reason
+    assert member(eseries_key, d.pull.ohms) and member(eseries_key, d.series_resistor.ohms)
+    assert member(oracle.E12, d.capacitor.farads)
+    # Independent re-check: analyse the proposed stage afresh and run every stage rule.
+    assert run_stage_rules(analysed(d.stage, hc()), LIMITS) == []
+    for e in d.edges:
+        assert e.fastest_s >= 0.010 and e.slowest_s <= 0.100
+        assert e.fastest_s <= e.nominal_s <= e.slowest_s
+    assert all(m.spare is not None and m.spare >= 0 for m in d.margins)
+
+
+def test_design_with_a_given_capacitor():
+    d = design_stage(5.0, "HC", True, 0.010, 0.100, capacitor=1e-6, rx=hc(), limits=LIMITS)
+    assert d.ok and d.capacitor.farads == pytest.approx(1e-6)
+
+
+def test_plain_input_design_is_refused_honestly():
+    d = design_stage(5.0, "HC", False, 0.010, 0.100, rx=hc(schmitt=False), limits=LIMITS, design_budget=50)
+    assert not d.ok and "Schmitt" in d.reason and "NOT PASSING" in d.netlist_fragment()
+
+
+def test_netlist_fragment_follows_our_conventions():
+    d = design_stage(5.0, "HC", True, 0.010, 0.100, rx=hc(), limits=LIMITS)
+    lines = d.netlist_fragment().splitlines()
+    assert lines[1] == "V1 vcc 0 DC 5"
+    assert lines[3] == "SW1 n1 0 TACTILE"
+    assert lines[2].startswith("R1 vcc n1 ") and lines[4].startswith("R2 n1 in ") and lines[5].startswith("C1 in 0 ")
+    from drc.netlist.values import parse_value
+    assert parse_value(lines[2].split()[3]).si == pytest.approx(d.pull.ohms)
+    assert parse_value(lines[5].split()[3]).si == pytest.approx(d.capacitor.farads)
+    assert not parse_value(lines[2].split()[3]).differs_from_spice

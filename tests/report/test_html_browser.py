@@ -1,0 +1,97 @@
+"""The HTML report in a real browser: headless Chromium (Debian package `chromium`).
+
+Chromium loads a demo-board report from a file with name resolution mapped
+to nowhere (so any attempt to fetch something from the network fails), prints
+the DOM it built (--dump-dom) and every console message (--enable-logging);
+the page has no script, so any console line means something went wrong. A
+control page that logs on purpose proves the console capture works. The
+same page is then photographed to docs/img/report.png.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import struct
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from drc.report.html import render_html
+from tests.report.html_demo import run_report
+
+ROOT = Path(__file__).resolve().parents[2]
+SCREENSHOT = ROOT / "docs" / "img" / "report.png"
+FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+         "--disable-component-update", "--disable-sync", "--no-first-run", "--hide-scrollbars",
+         "--host-resolver-rules=MAP * ~NOTFOUND"]
+_CONSOLE = re.compile(r":CONSOLE[:(]")
+
+
+def _browser() -> str:
+    for name in ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable"):
+        path = shutil.which(name)
+        if path:
+            return path
+    if os.environ.get("CI"):
+        pytest.fail("no Chromium: the CI setup must `apt-get install -y chromium`")
+    pytest.skip("no Chromium browser installed (Debian: apt-get install -y chromium)")
+
+
+def _run(browser: str, profile: Path, *args: str) -> subprocess.CompletedProcess:
+    profile.mkdir(parents=True, exist_ok=True)
+    return subprocess.run([browser, *FLAGS, f"--user-data-dir={profile}", *args], capture_output=True,
+                          text=True, timeout=120, cwd=profile)
+
+
+def _console_lines(stderr: str) -> list[str]:
+    return [line for line in stderr.splitlines() if _CONSOLE.search(line)]
+
+
+@pytest.fixture(scope="module")
+def page(tmp_path_factory) -> Path:
+    path = tmp_path_factory.mktemp("report") / "front_panel.html"
+    path.write_text(render_html(run_report("front_panel.cir")), encoding="utf-8")
+    return path
+
+
+def test_console_capture_works(tmp_path):
+    browser = _browser()
+    control = tmp_path / "control.html"
+    control.write_text('<!doctype html><meta charset="utf-8"><p>control</p>'
+                       '<script>console.error("drc-console-control")</script>', encoding="utf-8")
+    proc = _run(browser, tmp_path / "profile", "--enable-logging=stderr", "--v=0", "--dump-dom",
+                control.as_uri())
+    assert any("drc-console-control" in line for line in _console_lines(proc.stderr)), proc.stderr[-2000:]
+
+
+def test_report_loads_without_console_messages(page, tmp_path):
+    browser = _browser()
+    proc = _run(browser, tmp_path / "profile", "--enable-logging=stderr", "--v=0", "--dump-dom", page.as_uri())
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    assert _console_lines(proc.stderr) == []
+    dom = proc.stdout
+    # The DOM the browser built holds the report: the board, its table rows and the inline plots.
+    run = run_report("front_panel.cir")
+    board = run.boards[0]
+    assert 'id="board-0"' in dom
+    assert dom.count('<svg class="waveform"') == sum(1 for r in board.stages if r.edges)
+    assert len(re.findall(r'<tr class="row-', dom)) == len(board.stages)
+    assert "Engineering caution" in dom
+
+
+def test_screenshot(page, tmp_path):
+    browser = _browser()
+    SCREENSHOT.parent.mkdir(parents=True, exist_ok=True)
+    shot = tmp_path / "report.png"
+    proc = _run(browser, tmp_path / "profile", f"--screenshot={shot}", "--window-size=1200,2400", page.as_uri())
+    assert proc.returncode == 0 and shot.exists(), proc.stderr[-2000:]
+    data = shot.read_bytes()
+    # PNG signature and IHDR size (ISO/IEC 15948): the window we asked for.
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    width, height = struct.unpack(">II", data[16:24])
+    assert (width, height) == (1200, 2400)
+    shutil.copyfile(shot, SCREENSHOT)
+
