@@ -55,8 +55,8 @@ class _NoParams(dict):
     def _refuse(self, *args, **kwargs):
         raise TypeError("Element.params is shared when empty; build a new dict to change it")
 
-    __setitem__ = __delitem__ = setdefault = update = pop = popitem = clear = _refuse  # type: ignore
-    __ior__ = _refuse  # type: ignore
+    __setitem__ = __delitem__ = setdefault = update = pop = popitem = clear = _refuse
+    __ior__ = _refuse
 
     def __reduce__(self):
         return (_no_params, ())
@@ -110,7 +110,7 @@ class Element:
     @property
     def location(self) -> SourceLocation:
         where = self._where
-        if where.__class__ is int:
+        if isinstance(where, int):
             return SourceLocation(self._origin.path, where, 1)
         return where
 
@@ -134,16 +134,16 @@ class Element:
                 self.params, self.text, self.instance_path)
 
     def __eq__(self, other: object) -> bool:
-        if other.__class__ is not self.__class__:
+        if not isinstance(other, Element) or other.__class__ is not self.__class__:
             return NotImplemented
-        return self._fields() == other._fields()  # type: ignore[attr-defined]
+        return self._fields() == other._fields()
 
     __hash__ = None  # type: ignore[assignment]  # mutable, as the dataclass was
 
     def __repr__(self) -> str:
         names = ("designator", "kind", "nodes", "value", "model", "location", "params", "text",
                  "instance_path")
-        inner = ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields()))
+        inner = ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields(), strict=True))
         return f"Element({inner})"
 
     def __getstate__(self):

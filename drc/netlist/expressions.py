@@ -24,6 +24,7 @@ import math
 import re
 from dataclasses import dataclass
 
+from drc.errors import DrcError
 from drc.netlist.values import parse_value
 
 _TOKEN = re.compile(
@@ -40,15 +41,16 @@ _FUNCTIONS = {
 }
 
 
-class ExpressionError(Exception):
+class ExpressionError(DrcError):
     """A malformed or unevaluable expression; `offset` is 0-based in its text.
 
-    `limit` names the ReaderOptions field when a resource limit was hit.
+    `limit` names the ReaderOptions field when a resource limit was hit. It
+    has no location of its own: the reader turns it into a located
+    NetlistError at the token the expression came from.
     """
 
     def __init__(self, message: str, offset: int = 0, limit: str | None = None) -> None:
         super().__init__(message)
-        self.message = message
         self.offset = offset
         self.limit = limit
 

@@ -16,10 +16,9 @@ offending column.
 
 from __future__ import annotations
 
-import os
-from functools import lru_cache
 from typing import Any, NamedTuple
 
+from drc.caching import memoized
 from drc.datafiles import grammar_path
 from drc.netlist.lines import LogicalLine
 
@@ -97,7 +96,7 @@ def _transformer():
     return ToRecord()
 
 
-@lru_cache(maxsize=1)
+@memoized(1)
 def _parser():
     from lark import Lark
 
@@ -107,7 +106,7 @@ def _parser():
                 transformer=_transformer(), maybe_placeholders=False)
 
 
-def _message(text: str, offset: int, exc: Exception) -> str:
+def _message(text: str, offset: int) -> str:
     char = text[offset] if 0 <= offset < len(text) else ""
     if char == "*":
         return ("`*` starts a comment only as the first character of a line; "
@@ -128,19 +127,21 @@ def parse_with_grammar(line: LogicalLine, rule: str) -> tuple:
     from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken
 
     text = line.text
+    offset: int
     try:
         return _parser().parse(text, start=rule)
     except UnexpectedCharacters as exc:
-        offset = exc.pos_in_stream
+        offset = exc.pos_in_stream or 0
     except UnexpectedToken as exc:
-        offset = exc.token.start_pos if exc.token.start_pos is not None else len(text)
+        start = exc.token.start_pos
+        offset = start if start is not None else len(text)
         if exc.token.type == "$END":
             offset = len(text)
     except UnexpectedEOF:
         offset = len(text)
     except UnexpectedInput as exc:  # any other lark complaint
         offset = getattr(exc, "pos_in_stream", 0) or 0
-    raise line.error(_message(text, offset, None), min(offset, max(0, len(text) - 1)))
+    raise line.error(_message(text, offset), min(offset, max(0, len(text) - 1)))
 
 
 def parse_element(line: LogicalLine) -> tuple:

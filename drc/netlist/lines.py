@@ -76,7 +76,7 @@ class LogicalLine:
         self.column = column
         self.pieces = pieces
         self.source = source
-        self.record = None  # the parsed record, kept for a file that is included again
+        self.record: tuple | None = None  # the parsed record, kept for a file included again
 
     def position(self, offset: int) -> tuple[int, int]:
         """Physical (line, column) of character `offset` of `text`."""

@@ -8,13 +8,15 @@ Board exports also use the letter-and-digit code of IEC 60062 (`4k7`,
 ngspice's default mode reads `4k7` as 4000 (observed, see
 shared/reference/spice-dialect.md). `parse_value` returns a `Value` whose
 `si` is what a person means and whose `spice_si` is what ngspice reads.
-Results are cached per distinct text: boards repeat a few hundred values.
+Results are remembered per distinct text (drc.caching): boards repeat a few
+hundred values.
 """
 
 from __future__ import annotations
 
 import re
 
+from drc.caching import memoized
 from drc.netlist.elements import Value
 
 # SPICE scale suffixes (ngspice manual, table "Scale factors"); MEG and MIL
@@ -39,10 +41,6 @@ _CODE_SCALE = {
     "r": 0, "k": 3, "K": 3, "M": 6, "meg": 6, "g": 9, "t": 12,
     "m": -3, "u": -6, "µ": -6, "μ": -6, "n": -9, "p": -12,
 }
-
-_cache: dict[str, Value | None] = {}
-_CACHE_LIMIT = 100_000
-
 
 def spice_number(text: str) -> float | None:
     """The number ngspice's default mode reads from `text`, or None if none.
@@ -84,21 +82,14 @@ def _code_number(text: str) -> float | None:
     return float(f"{whole}.{fraction}e{scale}")
 
 
+@memoized(100_000)
 def parse_value(text: str) -> Value | None:
     """A `Value` for `text`, or None when `text` is not a number at all."""
-    try:
-        return _cache[text]
-    except KeyError:
-        pass
     spice = spice_number(text)
     if spice is None:
-        value = None
-    else:
-        code = _code_number(text)
-        value = Value(spice if code is None else code, text, spice)
-    if len(_cache) < _CACHE_LIMIT:
-        _cache[text] = value
-    return value
+        return None
+    code = _code_number(text)
+    return Value(spice if code is None else code, text, spice)
 
 
 def is_number(text: str) -> bool:

@@ -52,8 +52,8 @@ def main() -> int:
         import drc.config  # noqa: F401  (imported lazily by the pipeline: instrument it here)
         import drc.units  # noqa: F401
         from drc.errors import DrcError
-        from drc.pipeline import load_config_file
         from drc.netlist.reader import ReaderOptions, read_netlist
+        from drc.pipeline import load_config_file
 
     scratch = Path(tempfile.mkdtemp(prefix="drc-fuzz-"))
     (scratch / "lib.inc").write_text(".lib fast\nR1 a b 1k\n.endl\n.subckt S a b\nR1 a b 1\n.ends\n")

@@ -7,7 +7,8 @@ checked to be declined for a reason (they hold a character it leaves to the
 grammar, or a parenthesised word that is not a whole name).
 """
 
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from drc.netlist.fastpath import FAST_DIRECTIVES, fast_directive, fast_element
 from drc.netlist.grammar import parse_directive, parse_element
@@ -107,17 +108,17 @@ _STATEMENT_LINES = st.sampled_from([
 
 
 def _generic_read(text):
-    from drc.netlist import reader as module
+    from drc.netlist import loader as module
 
     def walk_all(self, source, lines):
         self.walk(logical_lines(source, 1, self.options.max_line_length), None)
 
-    fast = module._Reader.fast_walk
-    module._Reader.fast_walk = walk_all
+    fast = module.NetlistLoader.fast_walk
+    module.NetlistLoader.fast_walk = walk_all
     try:
         return _outcome(text)
     finally:
-        module._Reader.fast_walk = fast
+        module.NetlistLoader.fast_walk = fast
 
 
 def _outcome(text):

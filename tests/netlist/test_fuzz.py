@@ -6,7 +6,8 @@ valid corpus decks, read through the file entry point (decoding included).
 
 from pathlib import Path
 
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from drc.errors import DrcError
 from drc.netlist.reader import ReaderOptions, read_netlist, read_netlist_text

@@ -8,16 +8,14 @@ shared/reference/spice-dialect.md). Documented differences are tested as
 differences: parenthesised names and letter-digit values.
 """
 
-from pathlib import Path
 
 import pytest
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from drc.netlist.reader import read_netlist, read_netlist_text
-
-from tests.support.ngspice import run_deck
-
 from tests.netlist.conftest import CORPUS, ngspice_inventory, our_inventory
+from tests.support.ngspice import run_deck
 
 pytestmark = pytest.mark.ngspice
 
