@@ -146,11 +146,11 @@ class Element:
         inner = ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields(), strict=True))
         return f"Element({inner})"
 
-    def __getstate__(self):
+    def __getstate__(self) -> tuple:
         return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
                 dict(self.params) if self.params else NO_PARAMS, self.text, self.instance_path)
 
-    def __setstate__(self, state) -> None:
+    def __setstate__(self, state: tuple) -> None:
         Element.__init__(self, *state)
 
 

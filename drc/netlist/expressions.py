@@ -88,7 +88,7 @@ def _tokenize(text: str, max_work: int) -> list[tuple[str, str, int]]:
     return tokens
 
 
-class _Parser:
+class _ExpressionParser:
     def __init__(self, text: str, max_depth: int, max_work: int) -> None:
         self.tokens = _tokenize(text, max_work)
         self.i = 0
@@ -193,7 +193,7 @@ class _Parser:
 
 def compile_expression(text: str, *, max_depth: int = 64, max_work: int = 10_000) -> Expression:
     """Parse `text` (without braces or quotes) into an `Expression`."""
-    parser = _Parser(text, max_depth, max_work)
+    parser = _ExpressionParser(text, max_depth, max_work)
     try:
         tree = parser.expr(0)
     except RecursionError:

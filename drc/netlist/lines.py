@@ -70,7 +70,8 @@ class LogicalLine:
 
     __slots__ = ("text", "line", "column", "pieces", "source", "record")
 
-    def __init__(self, text: str, line: int, column: int, pieces, source: SourceFile) -> None:
+    def __init__(self, text: str, line: int, column: int,
+                 pieces: list[tuple[int, int, int]] | None, source: SourceFile) -> None:
         self.text = text
         self.line = line
         self.column = column

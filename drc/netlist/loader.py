@@ -82,9 +82,11 @@ class PlainLineReader:
         self.models: dict[str, str] = {}           # part name as written -> first-seen spelling
         spellings: dict[str, str] = {}
         self.spelled = spellings.setdefault        # node as written -> one shared string
-        self.readers: dict[str, Callable[[str, int], bool]] = {}
-        for letter, kind in _PLAIN_KINDS.items():
-            self.readers[letter] = {"X": self.instance, "S": self.contact}.get(kind, self.passive)
+        by_kind = {"R": self.passive, "C": self.passive, "L": self.passive, "S": self.contact,
+                   "X": self.instance}
+        # First character of a line -> the method reading it.
+        self.readers: dict[str, Callable[[str, int], bool]] = {
+            letter: by_kind[kind] for letter, kind in _PLAIN_KINDS.items()}
 
     def follow(self, definition: SubcircuitDefinition) -> None:
         """Add records to `definition` from now on (a `.subckt` opened or closed)."""
