@@ -3,12 +3,12 @@
 Most lines of a board export are plain: `R12 Net-3 +5V 4k7`, `SW3 a b
 TACTILE`, `XU1 a b 0 vcc 74HC14`. For these, the grammar's tokens are exactly
 the blank-separated words, so `str.split` gives the same record the lark
-grammar would (tests/reader/test_fastpath.py proves it with generated lines).
+grammar would (tests/netlist/test_fastpath.py proves it with generated lines).
 A line qualifies when it starts with one of the letters below, contains
 none of the characters that make the grammar do more than split words
 (`= , { } ' " *`), and every word holding a parenthesis is a whole name in
 the grammar's sense (`Net-(SW1-Pad2)`: balanced, nothing but name characters
-inside). Everything else goes to drc/grammar.py.
+inside). Everything else goes to drc/netlist/grammar.py.
 """
 
 from __future__ import annotations

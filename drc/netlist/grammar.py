@@ -3,7 +3,7 @@
 grammars/spice.lark is the authority on statement syntax; this module loads
 it once (lazily: lark is imported only when a line needs it), parses a
 statement with the LALR parser and an inline transformer, and returns plain
-tuples, the same records drc/fastpath.py builds for plain lines:
+tuples, the same records drc/netlist/fastpath.py builds for plain lines:
 
     element record:   (designator, items, assigns)
     directive record: (keyword, args, assigns)   keyword lower-case, no dot

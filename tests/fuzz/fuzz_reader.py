@@ -31,7 +31,7 @@ def _seeds(target: str) -> list[Path]:
     if target == "config":
         return sorted(REPO.glob("boards/**/drc.toml")) + sorted(
             REPO.glob("tests/hostile/corpus/*/drc.toml"))
-    return (sorted(REPO.glob("tests/reader/corpus/**/*.cir")) + sorted(REPO.glob("boards/**/*.cir"))
+    return (sorted(REPO.glob("tests/netlist/corpus/**/*.cir")) + sorted(REPO.glob("boards/**/*.cir"))
             + sorted(REPO.glob("tests/hostile/corpus/*/b.cir")))
 
 

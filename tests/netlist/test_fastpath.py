@@ -1,7 +1,7 @@
 """The line-level fast path returns exactly the grammar's record.
 
 Property test (hypothesis): for generated element and directive lines, when
-drc/fastpath.py accepts a line, grammars/spice.lark (via drc/grammar.py)
+drc/netlist/fastpath.py accepts a line, grammars/spice.lark (via drc/netlist/grammar.py)
 parses it to the identical record; lines the fast path declines are only
 checked to be declined for a reason (they hold a character it leaves to the
 grammar, or a parenthesised word that is not a whole name).
@@ -78,7 +78,7 @@ def test_fast_path_takes_exported_names_and_declines_calls():
     assert fast_element("B1 a 0 v") is None
 
 
-# ---- the top file's fast loop (drc/reader.py fast_walk, drc/fastpath.py PLAIN_LINE) ----
+# ---- the top file's fast loop (drc/netlist/loader.py fast_walk, drc/netlist/fastpath.py PLAIN_LINE) ----
 
 from drc.netlist.fastpath import plain_words  # noqa: E402
 from drc.netlist.lines import logical_lines, strip_comment  # noqa: E402
@@ -138,6 +138,6 @@ def _outcome(text):
 def test_fast_loop_reads_like_the_general_walk(lines, newline):
     """The top file's fast loop (plain lines, bulk continuation zones, hand-over
     to `walk`) gives the same netlist, or the same error, as reading every
-    statement through the general walk (drc/lines.py logical_lines)."""
+    statement through the general walk (drc/netlist/lines.py logical_lines)."""
     text = newline.join(["title"] + lines)
     assert _outcome(text) == _generic_read(text)

@@ -1,6 +1,6 @@
 """Inventory agreement with ngspice-39, the reference simulator.
 
-For every valid deck in tests/reader/corpus (except board_export.cir, which
+For every valid deck in tests/netlist/corpus (except board_export.cir, which
 uses our extensions) and for generated decks, the set of flattened elements
 and the number of distinct nodes must equal what ngspice reports with
 `listing expand` and `Circuit Equations` (recipe in
