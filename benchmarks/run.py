@@ -187,6 +187,7 @@ def stage_analysis(count: int) -> tuple[float, float]:
 
 def stage_set(count: int, seed: int = 5):
     """`count` stages of the generated board's kinds, each with its own random values."""
+    from drc.analysis.receiver import receiver_electrical
     from drc.board.classify import classify
     from drc.config.settings import Config
     from drc.design.fixes import with_values
@@ -210,7 +211,7 @@ def stage_set(count: int, seed: int = 5):
         rec = st.receiver
         key = (rec.family, rec.supply_v, rec.schmitt)
         if key not in cache:
-            cache[key] = lib.receiver_electrical(*key)
+            cache[key] = receiver_electrical(lib, *key)
         stages.append(st)
         rxs.append(cache[key])
     return stages, rxs

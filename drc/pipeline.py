@@ -115,6 +115,7 @@ def _reader_options(config: Config, options: CheckOptions):
 
 def analyse_board(board, config: Config) -> list[StageResult]:
     """Trace, recognise and analyse every input path of a classified board."""
+    from drc.analysis.receiver import receiver_electrical
     from drc.analysis.stage_analysis import analyse_stages
     from drc.board.recognise import stages_for_board
     lib = library()
@@ -125,7 +126,7 @@ def analyse_board(board, config: Config) -> list[StageResult]:
         cache_key = (rec.family, round(rec.supply_v, 6), rec.schmitt)
         rx = cache.get(cache_key)
         if rx is None:
-            rx = lib.receiver_electrical(rec.family, rec.supply_v, rec.schmitt)
+            rx = receiver_electrical(lib, rec.family, rec.supply_v, rec.schmitt)
             cache[cache_key] = rx
         return rx
 

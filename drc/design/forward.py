@@ -186,9 +186,10 @@ def design_stage(rail_v: float, family: str, schmitt: bool, bounce_s: float, lat
     eseries.decade_codes(series)  # an unknown series is a usage error below
     cap_series = capacitor_series(series)
     if rx is None or limits is None:
+        from drc.analysis.receiver import receiver_electrical
         from drc.library.catalogue import load_library
         lib = load_library()
-        rx = rx or lib.receiver_electrical(family, rail_v, schmitt)
+        rx = rx or receiver_electrical(lib, family, rail_v, schmitt)
         limits = limits if limits is not None else {k: v.value for k, v in lib.limits.items()}
     limits = {**limits, "latency_limit": latency_s}
     r_pull = eseries.nearest(series, resistor) if resistor else _start_pull(series, rail_v, limits)

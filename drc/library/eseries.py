@@ -12,7 +12,8 @@ float rounding; tests compare every table with the `eseries` package.
 from __future__ import annotations
 
 import math
-from functools import cache
+
+from drc.caching import memoized
 
 SERIES = ("E3", "E6", "E12", "E24", "E48", "E96", "E192")
 
@@ -29,7 +30,7 @@ def _check(name: str) -> str:
     return upper
 
 
-@cache
+@memoized(limit=16)
 def decade_codes(name: str) -> tuple[int, ...]:
     """The series' values in one decade as integers: E24 -> (10, 11, ..., 91), E96 -> (100, ..., 976)."""
     name = _check(name)
@@ -41,7 +42,7 @@ def decade_codes(name: str) -> tuple[int, ...]:
     return tuple(_E192_EXCEPTIONS.get(c, c) if n == 192 else c for c in codes)
 
 
-@cache
+@memoized(limit=16)
 def mantissas(name: str) -> tuple[float, ...]:
     """The series' values in [1, 10): E12 -> (1.0, 1.2, 1.5, ...)."""
     codes = decade_codes(name)

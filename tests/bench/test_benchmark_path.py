@@ -52,6 +52,7 @@ def test_check_finds_every_generated_stage_and_json_parses(board):
 
 
 def test_batched_analysis_equals_one_by_one(board):
+    from drc.analysis.receiver import receiver_electrical
     from drc.analysis.stage_analysis import analyse_stage, analyse_stages
     from drc.board.classify import classify
     from drc.config.settings import Config
@@ -65,6 +66,6 @@ def test_batched_analysis_equals_one_by_one(board):
                                    config))[:120]
 
     def rx(s):
-        return lib.receiver_electrical(s.receiver.family, s.receiver.supply_v, s.receiver.schmitt)
+        return receiver_electrical(lib, s.receiver.family, s.receiver.supply_v, s.receiver.schmitt)
 
     assert analyse_stages(stages, rx) == [analyse_stage(s, rx(s)) for s in stages]

@@ -6,7 +6,8 @@ import math
 
 import eseries as oracle
 import pytest
-from hypothesis import given, strategies as st
+from hypothesis import given
+from hypothesis import strategies as st
 
 from drc.library import eseries
 
@@ -33,7 +34,7 @@ def test_values_between_matches_erange(name):
     ours = eseries.values_between(name, 1.0, 1e6)
     theirs = list(oracle.erange(SERIES[name], 1.0, 1e6))
     assert len(ours) == len(theirs)
-    assert all(math.isclose(a, b, rel_tol=1e-9) for a, b in zip(ours, theirs))
+    assert all(math.isclose(a, b, rel_tol=1e-9) for a, b in zip(ours, theirs, strict=True))
 
 
 @pytest.mark.parametrize("name", list(SERIES))

@@ -2,7 +2,7 @@
 
 import pytest
 
-from drc.library.catalogue import Limit
+from drc.library.entries import Limit
 
 EXPECTED = {
     # key: (value, unit); all common practice, no source, unless the file says otherwise

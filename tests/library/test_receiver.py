@@ -6,8 +6,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from drc.analysis.receiver import ReceiverElectrical
-from drc.library.catalogue import AbsMaxInput, SupplyOutOfRange, UnknownFamily, load_library
+from drc.analysis.receiver import ReceiverElectrical, receiver_electrical, receiver_notes
+from drc.library.catalogue import load_library
+from drc.library.entries import AbsMaxInput, SupplyOutOfRange, UnknownFamily
 
 
 def lerp(x, x0, y0, x1, y1):
@@ -16,12 +17,12 @@ def lerp(x, x0, y0, x1, y1):
 
 def test_hc_levels_interpolate_linearly_between_jedec_points(library):
     # JESD7A, from memory: VIH 1.5 V at 2.0 V and 3.15 V at 4.5 V; VIL 0.5 / 1.35 V.
-    e = library.receiver_electrical("HC", 3.0, schmitt=False)
+    e = receiver_electrical(library, "HC", 3.0, schmitt=False)
     assert e.vih_min == pytest.approx(lerp(3.0, 2.0, 1.5, 4.5, 3.15))
     assert e.vil_max == pytest.approx(lerp(3.0, 2.0, 0.5, 4.5, 1.35))
     # Between 4.5 V and 6.0 V the points are 3.15/4.2 and 1.35/1.8: 0.7/0.3 VCC
     # at both ends, so 5.0 V gives the familiar 3.5 / 1.5 V (families.md Table 1).
-    e5 = library.receiver_electrical("HC", 5.0, schmitt=False)
+    e5 = receiver_electrical(library, "HC", 5.0, schmitt=False)
     assert e5.vih_min == pytest.approx(3.5)
     assert e5.vil_max == pytest.approx(1.5)
 
@@ -29,48 +30,48 @@ def test_hc_levels_interpolate_linearly_between_jedec_points(library):
 def test_hc_transition_limit_converts_rise_time(library):
     # JESD7A, from memory: tr <= 500 ns at 4.5 V; families.md note 3:
     # 500 ns / (0.8 x 4.5 V) = about 139 ns/V.
-    e = library.receiver_electrical("HC", 4.5, schmitt=False)
+    e = receiver_electrical(library, "HC", 4.5, schmitt=False)
     assert e.transition_limit_s_per_v == pytest.approx(500e-9 / (0.8 * 4.5))
     assert e.transition_limit_s_per_v == pytest.approx(139e-9, rel=0.01)
     # 1000 ns at 2.0 V and 400 ns at 6.0 V (JESD7A, from memory).
-    assert library.receiver_electrical("HC", 2.0, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "HC", 2.0, False).transition_limit_s_per_v == \
         pytest.approx(1000e-9 / 1.6)
-    assert library.receiver_electrical("HC", 6.0, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "HC", 6.0, False).transition_limit_s_per_v == \
         pytest.approx(400e-9 / 4.8)
     # Between table points the rise time interpolates, then converts at VCC.
     t5 = lerp(5.0, 4.5, 500e-9, 6.0, 400e-9)
-    assert library.receiver_electrical("HC", 5.0, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "HC", 5.0, False).transition_limit_s_per_v == \
         pytest.approx(t5 / (0.8 * 5.0))
 
 
 def test_slope_limits_and_band_gaps(library):
     # from memory, typical of the family: AHC 100 ns/V at 3.3 V, 20 ns/V at 5 V.
-    assert library.receiver_electrical("AHC", 3.3, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "AHC", 3.3, False).transition_limit_s_per_v == \
         pytest.approx(100e-9)
-    assert library.receiver_electrical("AHC", 5.0, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "AHC", 5.0, False).transition_limit_s_per_v == \
         pytest.approx(20e-9)
     # 4.0 V lies between the bands: the stricter neighbour applies.
-    assert library.receiver_electrical("AHC", 4.0, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "AHC", 4.0, False).transition_limit_s_per_v == \
         pytest.approx(20e-9)
     # from memory, typical of the family: AC 8 ns/V, LVC 10 ns/V.
-    assert library.receiver_electrical("AC", 5.0, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "AC", 5.0, False).transition_limit_s_per_v == \
         pytest.approx(8e-9)
-    assert library.receiver_electrical("LVC", 3.3, False).transition_limit_s_per_v == \
+    assert receiver_electrical(library, "LVC", 3.3, False).transition_limit_s_per_v == \
         pytest.approx(10e-9)
     # 4000B: no family-wide limit for gate inputs (from memory) -> None.
-    assert library.receiver_electrical("4000B", 5.0, False).transition_limit_s_per_v is None
+    assert receiver_electrical(library, "4000B", 5.0, False).transition_limit_s_per_v is None
 
 
 def test_schmitt_inputs_have_no_transition_limit(library):
-    assert library.receiver_electrical("HC", 4.5, schmitt=True).transition_limit_s_per_v is None
+    assert receiver_electrical(library, "HC", 4.5, schmitt=True).transition_limit_s_per_v is None
 
 
 def test_hc_schmitt_thresholds_at_table_points_and_between(library):
     # families.md Table 2 (HC14 class), from memory, typical of the family.
-    e = library.receiver_electrical("HC", 4.5, schmitt=True)
+    e = receiver_electrical(library, "HC", 4.5, schmitt=True)
     assert e.rising_threshold == pytest.approx((1.7, (1.7 + 3.15) / 2, 3.15))
     assert e.falling_threshold == pytest.approx((0.9, (0.9 + 2.0) / 2, 2.0))
-    e5 = library.receiver_electrical("HC", 5.0, schmitt=True)
+    e5 = receiver_electrical(library, "HC", 5.0, schmitt=True)
     assert e5.rising_threshold[0] == pytest.approx(lerp(5.0, 4.5, 1.7, 6.0, 2.1))
     assert e5.rising_threshold[2] == pytest.approx(lerp(5.0, 4.5, 3.15, 6.0, 4.2))
     assert e5.falling_threshold[0] == pytest.approx(lerp(5.0, 4.5, 0.9, 6.0, 1.2))
@@ -82,14 +83,14 @@ def test_hc_schmitt_thresholds_at_table_points_and_between(library):
 
 def test_ls_schmitt_typicals(library):
     # families.md Table 2 (LS14 at 5 V), from memory, typical of the family.
-    e = library.receiver_electrical("LS", 5.0, schmitt=True)
+    e = receiver_electrical(library, "LS", 5.0, schmitt=True)
     assert e.rising_threshold == pytest.approx((1.4, 1.6, 1.9))
     assert e.falling_threshold == pytest.approx((0.5, 0.8, 1.0))
 
 
 def test_4000b_schmitt_at_10_v(library):
     # families.md Table 2 (4093B/40106B at 10 V), from memory, typical of the family.
-    e = library.receiver_electrical("4000B", 10.0, schmitt=True)
+    e = receiver_electrical(library, "4000B", 10.0, schmitt=True)
     assert (e.rising_threshold[0], e.rising_threshold[2]) == pytest.approx((4.6, 7.1))
     assert (e.falling_threshold[0], e.falling_threshold[2]) == pytest.approx((2.5, 5.2))
 
@@ -97,15 +98,15 @@ def test_4000b_schmitt_at_10_v(library):
 def test_derived_schmitt_bounds_where_only_outer_limits_are_known(library):
     # families.md: VT+ in [VT-min + VHmin, VT+max], VT- in [VT-min, VT+max - VHmin].
     # AHC14 class at 4.5 V (from memory): VT+max 3.15, VT-min 1.35, VHmin 0.4.
-    e = library.receiver_electrical("AHC", 4.5, schmitt=True)
+    e = receiver_electrical(library, "AHC", 4.5, schmitt=True)
     assert e.rising_threshold[0] == pytest.approx(1.35 + 0.4)
     assert e.rising_threshold[2] == pytest.approx(3.15)
     assert e.falling_threshold[0] == pytest.approx(1.35)
     assert e.falling_threshold[2] == pytest.approx(3.15 - 0.4)
-    notes = library.receiver_notes("AHC", 4.5, schmitt=True)
+    notes = receiver_notes(library, "AHC", 4.5, schmitt=True)
     assert any("derived" in n for n in notes)
     # MCU pins (common practice, no source): 0.7 / 0.3 VDD, VH >= 0.05 VDD.
-    m = library.receiver_electrical("MCU-3V3", 3.3, schmitt=True)
+    m = receiver_electrical(library, "MCU-3V3", 3.3, schmitt=True)
     assert m.rising_threshold == pytest.approx((0.35 * 3.3, 0.525 * 3.3, 0.7 * 3.3))
     assert m.falling_threshold == pytest.approx((0.3 * 3.3, 0.475 * 3.3, 0.65 * 3.3))
 
@@ -114,41 +115,41 @@ def test_schmitt_part_of_a_family_without_schmitt_data_falls_back_to_the_band(li
     # Conservative fallback: VIL/VIH band, no hysteresis credited, and a note.
     for family, vcc in (("LVC", 3.3), ("AC", 5.0), ("4000UB", 5.0), ("ALS", 5.0)):
         assert not library.schmitt_data_known(family)
-        plain = library.receiver_electrical(family, vcc, schmitt=False)
-        e = library.receiver_electrical(family, vcc, schmitt=True)
+        plain = receiver_electrical(library, family, vcc, schmitt=False)
+        e = receiver_electrical(library, family, vcc, schmitt=True)
         assert e.schmitt is True
         assert e.rising_threshold == plain.rising_threshold
         assert e.falling_threshold == plain.rising_threshold
         assert e.transition_limit_s_per_v is None
         assert any("no Schmitt threshold data" in n
-                   for n in library.receiver_notes(family, vcc, schmitt=True))
-    assert library.receiver_notes("HC", 5.0, schmitt=True) == ()
+                   for n in receiver_notes(library, family, vcc, schmitt=True))
+    assert receiver_notes(library, "HC", 5.0, schmitt=True) == ()
 
 
 def test_leakage_is_current_into_the_pin(library):
     # common practice, no source: about 20 uA IIH into an LS input, about
     # -0.4 mA IIL out of it (families.md Table 1, from memory).
-    ls = library.receiver_electrical("LS", 5.0, schmitt=False)
+    ls = receiver_electrical(library, "LS", 5.0, schmitt=False)
     assert ls.leak_high_a == pytest.approx((0.0, 20e-6))
     assert ls.leak_low_a == pytest.approx((-0.4e-3, 0.0))
     # families.md note 4: |IIL| x R < VIL max gives R < 2 kohm for LS.
     assert ls.vil_max / abs(ls.leak_low_a[0]) == pytest.approx(2000.0)
     # CMOS: +-1 uA over temperature at both levels (JESD7A, from memory).
-    hc = library.receiver_electrical("HC", 5.0, schmitt=False)
+    hc = receiver_electrical(library, "HC", 5.0, schmitt=False)
     assert hc.leak_high_a == pytest.approx((-1e-6, 1e-6))
     assert hc.leak_low_a == pytest.approx((-1e-6, 1e-6))
 
 
 def test_abs_max_and_tolerance(library):
     # JESD7A, from memory: VCC + 0.5 V, not tolerant.
-    hc = library.receiver_electrical("HC", 5.0, False)
+    hc = receiver_electrical(library, "HC", 5.0, False)
     assert (hc.abs_max_input_v, hc.tolerant) == (pytest.approx(5.5), False)
     # from memory, typical of the family: LVC 6.5 V and AHC 7.0 V, 5 V tolerant.
-    lvc = library.receiver_electrical("LVC", 3.3, False)
+    lvc = receiver_electrical(library, "LVC", 3.3, False)
     assert (lvc.abs_max_input_v, lvc.tolerant) == (pytest.approx(6.5), True)
-    assert library.receiver_electrical("AHC", 3.3, False).abs_max_input_v == pytest.approx(7.0)
+    assert receiver_electrical(library, "AHC", 3.3, False).abs_max_input_v == pytest.approx(7.0)
     # JESD8C, from memory: min(VDD + 0.5 V, 4.6 V).
-    assert library.receiver_electrical("LVCMOS33", 3.3, False).abs_max_input_v == \
+    assert receiver_electrical(library, "LVCMOS33", 3.3, False).abs_max_input_v == \
         pytest.approx(3.8)
     assert AbsMaxInput(None, 0.5, 4.6).at(4.3) == pytest.approx(4.6)
     # 4000B: VDD + 0.5 V, +-10 mA clamp (from memory).
@@ -157,13 +158,13 @@ def test_abs_max_and_tolerance(library):
 
 def test_supply_outside_the_family_range_is_a_clear_error(library):
     with pytest.raises(SupplyOutOfRange) as info:
-        library.receiver_electrical("HC", 7.0, False)
+        receiver_electrical(library, "HC", 7.0, False)
     assert (info.value.family, info.value.vcc_min, info.value.vcc_max) == ("HC", 2.0, 6.0)
     assert "7 V" in str(info.value) and "HC" in str(info.value)
     with pytest.raises(SupplyOutOfRange):
-        library.receiver_electrical("LS", 3.3, False)
+        receiver_electrical(library, "LS", 3.3, False)
     # A VCC at the edge, reached by arithmetic, is inside.
-    library.receiver_electrical("LS", 5.0 * 1.05, False)
+    receiver_electrical(library, "LS", 5.0 * 1.05, False)
 
 
 def test_family_lookup_is_case_insensitive_and_reports_close_names(library):
@@ -176,7 +177,7 @@ def test_family_lookup_is_case_insensitive_and_reports_close_names(library):
     assert "HC" in info.value.matches or "HCT" in info.value.matches
     assert "HCX" in str(info.value)
     with pytest.raises(UnknownFamily):
-        library.receiver_electrical("NOPE", 5.0, False)
+        receiver_electrical(library, "NOPE", 5.0, False)
 
 
 def _families():
@@ -189,7 +190,7 @@ def test_every_family_gives_ordered_figures_across_its_supply(name, position, sc
     library = load_library()
     family = library.family(name)
     vcc = family.supply_min + position * (family.supply_max - family.supply_min)
-    e = library.receiver_electrical(name, vcc, schmitt)
+    e = receiver_electrical(library, name, vcc, schmitt)
     assert isinstance(e, ReceiverElectrical)
     for low, typ, high in (e.rising_threshold, e.falling_threshold):
         assert 0.0 < low <= typ <= high <= vcc + 1e-9

@@ -1,0 +1,405 @@
+"""Reading rules/*.toml into the library's records, refusing anything malformed.
+
+The rules files are shipped data, but a user may point drc at an edited
+copy, so every value is checked on the way in: types, units, ordering, and a
+`source` on every figure. A problem is a LibraryError naming the file, the
+dotted key and, found by a light scan since tomllib gives no positions, the
+line. `RulesFile` reads one file and turns its values into numbers and
+curves; the `parse_*` functions build one record each.
+"""
+
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from drc.errors import LibraryError, SourceLocation
+from drc.library.curves import EPS, Band, Bands, Curve, Fixed, Fraction, Table
+from drc.library.entries import (
+    FORMS,
+    ROLES,
+    AbsMaxInput,
+    ContactClass,
+    ContactForm,
+    Family,
+    Limit,
+    PartType,
+    PinRole,
+    PinSpec,
+    PullDirection,
+    SchmittData,
+    TransitionLimit,
+)
+
+
+class RulesFile:
+    """Reads one TOML file and raises LibraryError naming it (and a line where found)."""
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+        try:
+            self.text = path.read_text(encoding="utf-8")
+        except OSError as exc:
+            raise LibraryError(f"cannot read rules file: {exc.strerror}",
+                               SourceLocation(str(path))) from exc
+        try:
+            self.data = tomllib.loads(self.text)
+        except tomllib.TOMLDecodeError as exc:
+            found = re.search(r"line (\d+), column (\d+)", str(exc))
+            line, col = (int(found.group(1)), int(found.group(2))) if found else (0, 0)
+            raise LibraryError(f"malformed TOML: {exc}",
+                               SourceLocation(str(path), line, col)) from exc
+
+    def error(self, where: str, message: str) -> LibraryError:
+        """An error at `where` (a dotted key); located at the first line naming its last part."""
+        last = where.rsplit(".", 1)[-1].strip('"')
+        line = 0
+        for number, text in enumerate(self.text.splitlines(), 1):
+            if re.search(rf'(^|[\s\[."]){re.escape(last)}([\s\]."=]|$)', text):
+                line = number
+                break
+        return LibraryError(f"{where}: {message}", SourceLocation(str(self.path), line))
+
+    def table(self, value: Any, where: str) -> dict[str, Any]:
+        if not isinstance(value, dict):
+            raise self.error(where, "expected a table")
+        return value
+
+    def number(self, value: Any, where: str) -> float:
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise self.error(where, f"expected a number, got {value!r}")
+        return float(value)
+
+    def numbers(self, value: Any, where: str) -> tuple[float, ...]:
+        if not isinstance(value, list) or not value:
+            raise self.error(where, "expected a non-empty list of numbers")
+        return tuple(self.number(v, where) for v in value)
+
+    def source(self, table: dict[str, Any], where: str) -> str:
+        text = table.get("source")
+        if not isinstance(text, str) or not text.strip():
+            raise self.error(where, "every value needs a non-empty `source`")
+        return text
+
+    def curve(self, table: dict[str, Any], where: str, scale: float = 1.0) -> Curve:
+        """A curve from {value}, {fraction}, {vcc, value} or {bands}; values x scale."""
+        if "bands" in table:
+            return self._bands(table["bands"], where, scale)
+        if "fraction" in table:
+            return Fraction(self.number(table["fraction"], f"{where}.fraction"))
+        if "value" not in table:
+            raise self.error(where, "expected `value`, `fraction` or `bands`")
+        if "vcc" in table:
+            xs = self.numbers(table["vcc"], f"{where}.vcc")
+            ys = self.numbers(table["value"], f"{where}.value")
+            return self.tabulated(xs, ys, where, scale)
+        return Fixed(self.number(table["value"], f"{where}.value") * scale)
+
+    def _bands(self, items: Any, where: str, scale: float) -> Bands:
+        bands = []
+        for i, item in enumerate(items):
+            item = self.table(item, f"{where}.bands[{i}]")
+            inner = self.curve(item, f"{where}.bands[{i}]", scale)
+            if not isinstance(inner, (Fixed, Fraction)):
+                raise self.error(where, "a band holds a fixed value or a fraction")
+            lo = self.number(item.get("vcc_min"), f"{where}.bands[{i}].vcc_min")
+            hi = self.number(item.get("vcc_max"), f"{where}.bands[{i}].vcc_max")
+            if lo > hi:
+                raise self.error(where, f"band {i}: vcc_min above vcc_max")
+            bands.append(Band(lo, hi, inner))
+        return Bands(tuple(bands))
+
+    def tabulated(self, xs: tuple[float, ...], ys: tuple[float, ...], where: str,
+                  scale: float) -> Table:
+        """A table against VCC: as many values as VCC points, VCC positive and increasing."""
+        if len(xs) != len(ys):
+            raise self.error(where, "`vcc` and the values differ in length")
+        if any(b <= a for a, b in zip(xs, xs[1:], strict=False)) or xs[0] <= 0:
+            raise self.error(where, "`vcc` must be positive and increasing")
+        return Table(xs, tuple(y * scale for y in ys))
+
+
+# ------------------------------------------------------------------ families
+
+
+@dataclass(slots=True)
+class _FamilyTable:
+    """One [families.NAME] table being read: its quantities, each with its source."""
+
+    file: RulesFile
+    where: str
+    table: dict[str, Any]
+    sources: list[tuple[str, str]] = field(default_factory=list)
+
+    def quantity(self, key: str) -> dict[str, Any]:
+        """A required quantity table; its source is recorded."""
+        found = self.optional(key)
+        if found is None:
+            raise self.file.error(self.where, f"missing `{key}`")
+        return found
+
+    def optional(self, key: str) -> dict[str, Any] | None:
+        if key not in self.table:
+            return None
+        q = self.file.table(self.table[key], f"{self.where}.{key}")
+        self.sources.append((key, self.file.source(q, f"{self.where}.{key}")))
+        return q
+
+    def number(self, q: dict[str, Any], name: str, path: str) -> float:
+        return self.file.number(q.get(name), f"{self.where}.{path}")
+
+    def scalar(self, key: str, scale: float) -> float | None:
+        """An optional {value} quantity, x scale."""
+        q = self.optional(key)
+        return None if q is None else self.number(q, "value", key) * scale
+
+    def range(self, q: dict[str, Any], key: str, scale: float) -> tuple[float, float]:
+        """{min, max} x scale."""
+        return (self.number(q, "min", f"{key}.min") * scale,
+                self.number(q, "max", f"{key}.max") * scale)
+
+
+def parse_family(r: RulesFile, name: str, raw: Any) -> Family:
+    where = f"families.{name}"
+    ft = _FamilyTable(r, where, r.table(raw, where))
+    lo, hi = ft.range(ft.quantity("supply_v"), "supply_v", 1.0)
+    vih = r.curve(ft.quantity("vih_v"), f"{where}.vih_v")
+    vil = r.curve(ft.quantity("vil_v"), f"{where}.vil_v")
+    leak_high = _leakage(ft, "leak_high_ua")
+    leak_low = _leakage(ft, "leak_low_ua")
+    abs_max = _abs_max_input(ft)
+    tolerant = _tolerant(ft)
+    transition = _transition(ft)
+    pull = ft.optional("internal_pull_kohm")
+    internal_pull = None if pull is None else ft.range(pull, "internal_pull_kohm", 1e3)
+    schmitt = None
+    if "schmitt" in ft.table:
+        schmitt = parse_schmitt(r, f"{where}.schmitt", r.table(ft.table["schmitt"], f"{where}.schmitt"))
+        ft.sources.append(("schmitt", schmitt.source))
+    aliases = ft.table.get("aliases", [])
+    if not isinstance(aliases, list) or not all(isinstance(a, str) for a in aliases):
+        raise r.error(f"{where}.aliases", "expected a list of names")
+    family = Family(
+        name=name, title=str(ft.table.get("title", name)), aliases=tuple(aliases),
+        supply_min=lo, supply_max=hi, vih=vih, vil=vil,
+        leak_high_a=leak_high, leak_low_a=leak_low, abs_max_input=abs_max,
+        tolerant=tolerant, transition=transition, schmitt=schmitt,
+        clamp_current_a=ft.scalar("clamp_current_ma", 1e-3),
+        ttl_high_extra_supply_a=ft.scalar("ttl_high_extra_supply_ma", 1e-3),
+        internal_pull_ohms=internal_pull,
+        transition_note=ft.table.get("transition_note"),
+        sources=tuple(ft.sources),
+    )
+    check_family(r, family)
+    return family
+
+
+def _leakage(ft: _FamilyTable, key: str) -> tuple[float, float]:
+    low, high = ft.range(ft.quantity(key), key, 1e-6)
+    if low > high:
+        raise ft.file.error(f"{ft.where}.{key}", "min above max")
+    return (low, high)
+
+
+def _abs_max_input(ft: _FamilyTable) -> AbsMaxInput:
+    am = ft.quantity("abs_max_input_v")
+    where = f"{ft.where}.abs_max_input_v"
+    if "value" in am:
+        return AbsMaxInput(ft.file.number(am["value"], where), None, None)
+    if "vcc_plus" in am:
+        cap = ft.file.number(am["cap"], f"{where}.cap") if "cap" in am else None
+        return AbsMaxInput(None, ft.file.number(am["vcc_plus"], where), cap)
+    raise ft.file.error(where, "expected `value` or `vcc_plus`")
+
+
+def _tolerant(ft: _FamilyTable) -> bool:
+    value = ft.quantity("tolerant").get("value")
+    if not isinstance(value, bool):
+        raise ft.file.error(f"{ft.where}.tolerant", "expected value = true or false")
+    return value
+
+
+def _transition(ft: _FamilyTable) -> TransitionLimit | None:
+    rise = ft.optional("input_rise_time_ns")
+    slope = ft.optional("input_slope_ns_per_v")
+    if rise is not None and slope is not None:
+        raise ft.file.error(ft.where, "give input_rise_time_ns or input_slope_ns_per_v, not both")
+    if rise is not None:
+        return TransitionLimit("rise_time", ft.file.curve(rise, f"{ft.where}.input_rise_time_ns", 1e-9))
+    if slope is not None:
+        return TransitionLimit("slope", ft.file.curve(slope, f"{ft.where}.input_slope_ns_per_v", 1e-9))
+    return None
+
+
+_SCHMITT_KEYS = ("vt_plus_min", "vt_plus_typ", "vt_plus_max",
+                 "vt_minus_min", "vt_minus_typ", "vt_minus_max", "vh_min")
+
+
+def parse_schmitt(r: RulesFile, where: str, t: dict[str, Any]) -> SchmittData:
+    source = r.source(t, where)
+    fraction = t.get("scale") == "fraction"
+    vcc = r.numbers(t["vcc"], f"{where}.vcc") if "vcc" in t else None
+    curves: list[tuple[str, Curve]] = []
+    for key in _SCHMITT_KEYS:
+        if key not in t:
+            continue
+        raw = t[key]
+        if isinstance(raw, list):
+            if vcc is None:
+                raise r.error(f"{where}.{key}", "a list needs `vcc` in the schmitt table")
+            curve: Curve = r.tabulated(vcc, r.numbers(raw, f"{where}.{key}"), f"{where}.{key}", 1.0)
+        else:
+            number = r.number(raw, f"{where}.{key}")
+            curve = Fraction(number) if fraction else Fixed(number)
+        curves.append((key, curve))
+    have = {k for k, _ in curves}
+    for needed in ("vt_plus_max", "vt_minus_min"):
+        if needed not in have:
+            raise r.error(where, f"missing `{needed}`")
+    if not {"vt_plus_min", "vt_minus_max"} <= have and "vh_min" not in have:
+        raise r.error(where, "without vt_plus_min and vt_minus_max, `vh_min` is needed to derive them")
+    unknown = set(t) - set(_SCHMITT_KEYS) - {"source", "vcc", "scale"}
+    if unknown:
+        raise r.error(where, f"unknown keys {sorted(unknown)}")
+    return SchmittData(tuple(curves), source)
+
+
+def check_family(r: RulesFile, f: Family) -> None:
+    """Shipped-data sanity over the supply range: ordered levels and thresholds."""
+    where = f"families.{f.name}"
+    if not 0 < f.supply_min <= f.supply_max:
+        raise r.error(where, "supply range must be positive and ordered")
+    steps = 12
+    for i in range(steps + 1):
+        vcc = f.supply_min + (f.supply_max - f.supply_min) * i / steps
+        vil, vih = f.vil_at(vcc), f.vih_at(vcc)
+        if not 0 < vil < vih < vcc + EPS:
+            raise r.error(where, f"at VCC {vcc:g} V: expected 0 < VIL {vil:g} < VIH {vih:g} <= VCC")
+        s = f.schmitt_at(vcc)
+        if s is None:
+            continue
+        (pmin, ptyp, pmax), (mmin, mtyp, mmax) = s.vt_plus, s.vt_minus
+        if not (0 < pmin <= ptyp <= pmax <= vcc + EPS and 0 < mmin <= mtyp <= mmax
+                and mmin <= pmin and mmax <= pmax):
+            raise r.error(where, f"at VCC {vcc:g} V: Schmitt thresholds out of order "
+                                 f"(VT+ {s.vt_plus}, VT- {s.vt_minus})")
+
+
+# ------------------------------------------------------------------ parts
+
+
+def parse_part(r: RulesFile, name: str, raw: Any) -> PartType:
+    where = f'parts."{name}"'
+    t = r.table(raw, where)
+    source = r.source(t, where)
+    schmitt_default = t.get("schmitt_inputs", False)
+    series = t.get("series")
+    if series not in ("74", "4000"):
+        raise r.error(where, "series must be \"74\" or \"4000\"")
+    if not isinstance(t.get("debounces"), bool) or not isinstance(schmitt_default, bool):
+        raise r.error(where, "`debounces` and `schmitt_inputs` must be true or false")
+    pins: dict[int, PinSpec] = {}
+    for i, item in enumerate(t.get("pins", [])):
+        p = r.table(item, f"{where}.pins[{i}]")
+        number = p.get("n")
+        if not isinstance(number, int) or number < 1:
+            raise r.error(where, f"pin {i}: `n` must be a positive integer")
+        if number in pins:
+            raise r.error(where, f"pin {number} listed twice")
+        pins[number] = _parse_pin(r, where, number, p, schmitt_default)
+    if not pins or sorted(pins) != list(range(1, len(pins) + 1)):
+        raise r.error(where, "pins must be numbered 1..N with none missing")
+    families = t.get("families")
+    return PartType(
+        name=name, title=str(t.get("title", name)), series=series,
+        pin_count=len(pins), pins=dict(sorted(pins.items())),
+        debounces=t["debounces"], source=source,
+        aliases=tuple(t.get("aliases", ())),
+        families=None if families is None else tuple(families),
+    )
+
+
+def _parse_pin(r: RulesFile, where: str, number: int, p: dict[str, Any],
+               schmitt_default: bool) -> PinSpec:
+    role = p.get("role")
+    if role not in ROLES:
+        raise r.error(where, f"pin {number}: role must be one of {ROLES}")
+    pull = p.get("internal_pull")
+    if pull not in (None, "up", "down"):
+        raise r.error(where, f"pin {number}: internal_pull must be \"up\" or \"down\"")
+    return PinSpec(
+        number=number, name=str(p.get("name", number)), role=PinRole(role),
+        schmitt=bool(p.get("schmitt", schmitt_default and role == "input")),
+        edge_sensitive=bool(p.get("edge_sensitive", False)),
+        function=str(p.get("function", role)),
+        gate=None if p.get("gate") is None else str(p["gate"]),
+        active_low=bool(p.get("active_low", False)),
+        internal_pull=None if pull is None else PullDirection(pull),
+    )
+
+
+# ------------------------------------------------------------------ contacts
+
+
+def parse_contact(r: RulesFile, name: str, raw: Any) -> ContactClass:
+    where = f"classes.{name}"
+    t = r.table(raw, where)
+
+    def amount(key: str, scale: float) -> tuple[float | None, str | None]:
+        if key not in t:
+            return None, None
+        q = r.table(t[key], f"{where}.{key}")
+        return r.number(q.get("value"), f"{where}.{key}") * scale, r.source(q, f"{where}.{key}")
+
+    bounce, bounce_src = amount("bounce_ms", 1e-3)
+    if bounce is None or bounce_src is None:
+        raise r.error(where, "missing `bounce_ms`")
+    wetting, wetting_src = amount("wetting_ma", 1e-3)
+    rating, rating_src = amount("rating_ma", 1e-3)
+    static = _static(r, where, t)
+    form = t.get("default_form")
+    if form not in FORMS:
+        raise r.error(where, f"default_form must be one of {FORMS}")
+    patterns = t.get("patterns")
+    if not isinstance(patterns, list) or not patterns:
+        raise r.error(where, "expected a non-empty list of `patterns`")
+    return ContactClass(
+        name=name, title=str(t.get("title", name)), bounce_s=bounce,
+        wetting_a=wetting, rating_a=rating, default_form=ContactForm(form),
+        patterns=tuple(str(p).upper() for p in patterns),
+        bounce_source=bounce_src, wetting_source=wetting_src, rating_source=rating_src,
+        static=static,
+    )
+
+
+def _static(r: RulesFile, where: str, t: dict[str, Any]) -> bool:
+    if "static" not in t:
+        return False
+    q = r.table(t["static"], f"{where}.static")
+    if not isinstance(q.get("value"), bool):
+        raise r.error(f"{where}.static", "expected `value = true` or `value = false`")
+    r.source(q, f"{where}.static")
+    return q["value"]
+
+
+def parse_form_words(r: RulesFile) -> dict[str, frozenset[str]]:
+    """The [forms] table: the words in a contact's name that say its form."""
+    forms = r.table(r.data.get("forms"), "forms")
+    r.source(forms, "forms")
+    return {key: frozenset(str(w).upper() for w in forms.get(key, ()))
+            for key in ("spdt", "spst_nc", "spst_no")}
+
+
+# ------------------------------------------------------------------ limits
+
+
+def parse_limit(r: RulesFile, key: str, raw: Any) -> Limit:
+    t = r.table(raw, key)
+    for field_name in ("unit", "description"):
+        if not isinstance(t.get(field_name), str):
+            raise r.error(key, f"missing `{field_name}`")
+    return Limit(key, r.number(t.get("value"), f"{key}.value"), t["unit"],
+                 t["description"], r.source(t, key))
