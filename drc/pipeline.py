@@ -83,8 +83,7 @@ def load_config_file(path: str | Path) -> Config:
     config = loader.load_config(path, rule_ids=rule_ids(), limit_keys=_limit_keys(),
                                 contact_classes=tuple(lib.contact_classes),
                                 families=_family_names(lib))
-    config.limits = {k.replace("-", "_"): v for k, v in config.limits.items()}
-    return config
+    return replace(config, limits={k.replace("-", "_"): v for k, v in config.limits.items()})
 
 
 def _family_names(lib) -> tuple[str, ...]:

@@ -1,6 +1,6 @@
 """Loading and finding the board configuration (`drc.toml` or `[tool.drc]` in pyproject.toml).
 
-The loader turns TOML into the plain `Config` record of `config_model`,
+The loader turns TOML into the frozen `Config` record of `settings`,
 parsing every quantity with its unit at this edge and refusing anything it
 does not understand: an unknown key, a wrong type, a value without its unit
 or a rule id not in the catalogue is a ConfigError naming the file, the line
@@ -79,18 +79,27 @@ from __future__ import annotations
 
 import os
 import re
-from collections.abc import Iterable, Mapping
-from dataclasses import replace
+from collections.abc import Callable, Iterable, Mapping
+from dataclasses import dataclass, replace
 from datetime import date, datetime
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
-from drc.config.settings import (Config, ContactConfig, McuConfig, McuPinConfig, PartConfig,
-                           RailConfig, Tolerances, Waiver)
-from drc.errors import ConfigError, SourceLocation
-from drc.netlist.lines import read_regular
 from drc.checks.findings import SEVERITIES
+from drc.config.settings import (
+    Config,
+    ContactConfig,
+    McuConfig,
+    McuPinConfig,
+    PartConfig,
+    PullChoice,
+    RailConfig,
+    Tolerances,
+    Waiver,
+)
+from drc.errors import ConfigError, SourceLocation
 from drc.gate.selection import suggest, unknown_name_message
+from drc.netlist.lines import read_regular
 from drc.units import parse_any_quantity, parse_quantity
 
 CONFIG_NAME = "drc.toml"
@@ -160,7 +169,8 @@ def discover_config(board_path: str | os.PathLike) -> Path | None:
 # ---------------------------------------------------------------- positions
 
 _HEADER = re.compile(r"^\s*(\[\[|\[)\s*([^\]]+?)\s*\]\]?\s*(#.*)?$")
-_ASSIGN = re.compile(r"""^\s*((?:"[^"]*"|'[^']*'|[A-Za-z0-9_\-]+)(?:\s*\.\s*(?:"[^"]*"|'[^']*'|[A-Za-z0-9_\-]+))*)\s*=""")
+_KEY_PART = r"""(?:"[^"]*"|'[^']*'|[A-Za-z0-9_\-]+)"""
+_ASSIGN = re.compile(rf"^\s*({_KEY_PART}(?:\s*\.\s*{_KEY_PART})*)\s*=")
 
 
 def _split_dotted(text: str) -> list[str]:
@@ -221,7 +231,7 @@ def dotted(path: KeyPath) -> str:
 
 # ---------------------------------------------------------------- reading
 
-class _Reader:
+class _ConfigReader:
     """Typed access to one config table tree, with located errors."""
 
     def __init__(self, path: str, text: str, prefix: KeyPath) -> None:
@@ -321,7 +331,7 @@ def _type_name(value: Any) -> str:
 
 # ---------------------------------------------------------------- sections
 
-def _tolerances(r: _Reader, value: Any) -> Tolerances:
+def _tolerances(r: _ConfigReader, value: Any) -> Tolerances:
     table = r.table(value, ("tolerances",), _TOLERANCE_KEYS)
     defaults = Tolerances()
     return Tolerances(**{
@@ -330,7 +340,7 @@ def _tolerances(r: _Reader, value: Any) -> Tolerances:
         for key in _TOLERANCE_KEYS})
 
 
-def _rails(r: _Reader, value: Any, tolerances: Tolerances) -> tuple[RailConfig, ...]:
+def _rails(r: _ConfigReader, value: Any, tolerances: Tolerances) -> tuple[RailConfig, ...]:
     out: list[RailConfig] = []
     seen: set[str] = set()
     for i, t in enumerate(r.tables(value, ("rails",), _RAIL_KEYS)):
@@ -346,7 +356,7 @@ def _rails(r: _Reader, value: Any, tolerances: Tolerances) -> tuple[RailConfig, 
     return tuple(out)
 
 
-def _contacts(r: _Reader, value: Any, classes: tuple[str, ...] | None) -> tuple[ContactConfig, ...]:
+def _contacts(r: _ConfigReader, value: Any, classes: tuple[str, ...] | None) -> tuple[ContactConfig, ...]:
     out = []
     for i, t in enumerate(r.tables(value, ("contacts",), _CONTACT_KEYS)):
         p = ("contacts", i)
@@ -361,7 +371,7 @@ def _contacts(r: _Reader, value: Any, classes: tuple[str, ...] | None) -> tuple[
     return tuple(out)
 
 
-def _parts(r: _Reader, value: Any, families: tuple[str, ...] | None) -> tuple[PartConfig, ...]:
+def _parts(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tuple[PartConfig, ...]:
     out = []
     for i, t in enumerate(r.tables(value, ("parts",), _PART_KEYS)):
         p = ("parts", i)
@@ -375,11 +385,13 @@ def _parts(r: _Reader, value: Any, families: tuple[str, ...] | None) -> tuple[Pa
     return tuple(out)
 
 
-def _mcu_pin(r: _Reader, t: dict, p: KeyPath, mcu_family: str, mcu_supply: float | None,
+def _mcu_pin(r: _ConfigReader, t: dict, p: KeyPath, mcu_family: str, mcu_supply: float | None,
              families: tuple[str, ...] | None) -> McuPinConfig:
     pin = r.integer(r.require(t, p, "pin"), p + ("pin",))
     family = r.string(t["family"], p + ("family",), families, what="logic family") if "family" in t else mcu_family
-    pull = r.string(t["pull"], p + ("pull",), PULL_DIRECTIONS, what="pull direction") if "pull" in t else None
+    # Checked against PULL_DIRECTIONS: one of the PullChoice literals.
+    pull = cast("PullChoice | None", r.string(t["pull"], p + ("pull",), PULL_DIRECTIONS, what="pull direction")
+                if "pull" in t else None)
     pull_min = r.quantity(t["pull-min"], p + ("pull-min",), "resistance") if "pull-min" in t else None
     pull_max = r.quantity(t["pull-max"], p + ("pull-max",), "resistance") if "pull-max" in t else None
     if pull is not None and (pull_min is None or pull_max is None):
@@ -398,7 +410,7 @@ def _mcu_pin(r: _Reader, t: dict, p: KeyPath, mcu_family: str, mcu_supply: float
     )
 
 
-def _mcus(r: _Reader, value: Any, families: tuple[str, ...] | None) -> tuple[McuConfig, ...]:
+def _mcus(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tuple[McuConfig, ...]:
     out = []
     for i, t in enumerate(r.tables(value, ("mcu",), _MCU_KEYS)):
         p = ("mcu", i)
@@ -421,14 +433,14 @@ def _mcus(r: _Reader, value: Any, families: tuple[str, ...] | None) -> tuple[Mcu
     return tuple(out)
 
 
-def _limits(r: _Reader, value: Any, limit_keys: Mapping[str, str] | tuple[str, ...] | None) -> dict[str, float]:
+def _limits(r: _ConfigReader, value: Any, limit_keys: Mapping[str, str] | tuple[str, ...] | None) -> dict[str, float]:
     table = r.table(value, ("limits",), limit_keys if limit_keys is not None else value.keys()
                     if isinstance(value, dict) else ())
     out: dict[str, float] = {}
     for key, raw in table.items():
         p = ("limits", key)
-        dimension = limit_keys.get(key) if isinstance(limit_keys, Mapping) else None
-        dimension = _UNIT_DIMENSIONS.get(dimension, dimension)
+        unit = limit_keys.get(key) if isinstance(limit_keys, Mapping) else None
+        dimension = _UNIT_DIMENSIONS.get(unit, unit) if unit is not None else None
         if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
             raise r.error(p, f"expected a number or a quantity such as \"20 ms\", got {_type_name(raw)}")
         try:
@@ -441,7 +453,7 @@ def _limits(r: _Reader, value: Any, limit_keys: Mapping[str, str] | tuple[str, .
     return out
 
 
-def _severities(r: _Reader, value: Any, rule_ids: tuple[str, ...] | None) -> dict[str, str]:
+def _severities(r: _ConfigReader, value: Any, rule_ids: tuple[str, ...] | None) -> dict[str, str]:
     table = r.table(value, ("severity",), value.keys() if isinstance(value, dict) else ())
     out = {}
     for key, raw in table.items():
@@ -451,7 +463,7 @@ def _severities(r: _Reader, value: Any, rule_ids: tuple[str, ...] | None) -> dic
     return out
 
 
-def _rule_list(r: _Reader, value: Any, key: str, rule_ids: tuple[str, ...] | None) -> tuple[str, ...]:
+def _rule_list(r: _ConfigReader, value: Any, key: str, rule_ids: tuple[str, ...] | None) -> tuple[str, ...]:
     ids = r.strings(value, (key,))
     for i, rule_id in enumerate(ids):
         if rule_ids is not None and rule_id not in rule_ids:
@@ -473,7 +485,7 @@ def read_date(value: Any) -> date | None:
     return None
 
 
-def _waivers(r: _Reader, value: Any, rule_ids: tuple[str, ...] | None) -> tuple[Waiver, ...]:
+def _waivers(r: _ConfigReader, value: Any, rule_ids: tuple[str, ...] | None) -> tuple[Waiver, ...]:
     out = []
     for i, t in enumerate(r.tables(value, ("waivers",), _WAIVER_KEYS)):
         p = ("waivers", i)
@@ -556,39 +568,62 @@ def load_config(path: str | os.PathLike, *, rule_ids: Iterable[str] | None = Non
     """
     file = Path(path)
     text, data = _read_toml(file)
-    prefix: KeyPath = ()
-    if file.name == PYPROJECT_NAME:
-        tool = data.get("tool", {})
-        if not isinstance(tool, dict) or "drc" not in tool:
-            raise ConfigError("pyproject.toml has no [tool.drc] table", SourceLocation(str(file)))
-        data, prefix = tool["drc"], ("tool", "drc")
-    reader = _Reader(str(file), text, prefix)
-    data = reader.table(data, (), _TOP_KEYS)
-    rule_ids_t = tuple(sorted(rule_ids)) if rule_ids is not None else None
-    if limit_keys is not None and not isinstance(limit_keys, Mapping):
-        limit_keys = tuple(limit_keys)
-    classes = tuple(contact_classes) if contact_classes is not None else None
-    family_names = tuple(families) if families is not None else None
-    tolerances = _tolerances(reader, data["tolerances"]) if "tolerances" in data else Tolerances()
+    data, prefix = _drc_table(file, data)
+    reader = _ConfigReader(str(file), text, prefix)
+    vocabulary = _Vocabulary(
+        rule_ids=tuple(sorted(rule_ids)) if rule_ids is not None else None,
+        limit_keys=(limit_keys if limit_keys is None or isinstance(limit_keys, Mapping)
+                    else tuple(limit_keys)),
+        contact_classes=tuple(contact_classes) if contact_classes is not None else None,
+        families=tuple(families) if families is not None else None)
+    return _config(reader, reader.table(data, (), _TOP_KEYS), file, vocabulary)
+
+
+@dataclass(frozen=True, slots=True)
+class _Vocabulary:
+    """The names a config may use, where the caller knows them (None: not checked)."""
+
+    rule_ids: tuple[str, ...] | None
+    limit_keys: Mapping[str, str] | tuple[str, ...] | None
+    contact_classes: tuple[str, ...] | None
+    families: tuple[str, ...] | None
+
+
+def _drc_table(file: Path, data: dict) -> tuple[Any, KeyPath]:
+    """The drc settings of a file and their key path: all of drc.toml, or pyproject's [tool.drc]."""
+    if file.name != PYPROJECT_NAME:
+        return data, ()
+    tool = data.get("tool", {})
+    if not isinstance(tool, dict) or "drc" not in tool:
+        raise ConfigError("pyproject.toml has no [tool.drc] table", SourceLocation(str(file)))
+    return tool["drc"], ("tool", "drc")
+
+
+def _config(r: _ConfigReader, data: dict, file: Path, v: _Vocabulary) -> Config:
+    """The Config of a checked top-level table; sections read in the order of the record."""
+
+    def section(key: str, read: Callable[[Any], Any], default: Any) -> Any:
+        return read(data[key]) if key in data else default
+
+    tolerances = section("tolerances", lambda t: _tolerances(r, t), Tolerances())
     base = file.parent
     return Config(
         path=str(file),
-        rails=_rails(reader, data["rails"], tolerances) if "rails" in data else (),
-        contacts=_contacts(reader, data["contacts"], classes) if "contacts" in data else (),
-        parts=_parts(reader, data["parts"], family_names) if "parts" in data else (),
-        mcus=_mcus(reader, data["mcu"], family_names) if "mcu" in data else (),
+        rails=section("rails", lambda t: _rails(r, t, tolerances), ()),
+        contacts=section("contacts", lambda t: _contacts(r, t, v.contact_classes), ()),
+        parts=section("parts", lambda t: _parts(r, t, v.families), ()),
+        mcus=section("mcu", lambda t: _mcus(r, t, v.families), ()),
         tolerances=tolerances,
-        default_bounce_s=(reader.quantity(data["default-bounce"], ("default-bounce",), "time")
-                          if "default-bounce" in data else None),
-        limits=_limits(reader, data["limits"], limit_keys) if "limits" in data else {},
-        severities=_severities(reader, data["severity"], rule_ids_t) if "severity" in data else {},
-        select=_rule_list(reader, data["select"], "select", rule_ids_t) if "select" in data else (),
-        ignore=_rule_list(reader, data["ignore"], "ignore", rule_ids_t) if "ignore" in data else (),
-        include_folders=tuple(str(base / p) for p in reader.strings(data["include"], ("include",)))
-        if "include" in data else (),
-        waivers=_waivers(reader, data["waivers"], rule_ids_t) if "waivers" in data else (),
-        fail_level=(reader.string(data["fail-level"], ("fail-level",), SEVERITIES, what="severity")
-                    if "fail-level" in data else None),
-        eseries=(reader.string(data["eseries"], ("eseries",), ESERIES, what="E-series")
-                 if "eseries" in data else "E24"),
+        default_bounce_s=section("default-bounce",
+                                 lambda t: r.quantity(t, ("default-bounce",), "time"), None),
+        limits=section("limits", lambda t: _limits(r, t, v.limit_keys), {}),
+        severities=section("severity", lambda t: _severities(r, t, v.rule_ids), {}),
+        select=section("select", lambda t: _rule_list(r, t, "select", v.rule_ids), ()),
+        ignore=section("ignore", lambda t: _rule_list(r, t, "ignore", v.rule_ids), ()),
+        include_folders=section(
+            "include", lambda t: tuple(str(base / p) for p in r.strings(t, ("include",))), ()),
+        waivers=section("waivers", lambda t: _waivers(r, t, v.rule_ids), ()),
+        fail_level=section("fail-level",
+                           lambda t: r.string(t, ("fail-level",), SEVERITIES, what="severity"), None),
+        eseries=section("eseries", lambda t: r.string(t, ("eseries",), ESERIES, what="E-series"), "E24"),
     )

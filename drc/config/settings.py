@@ -8,6 +8,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import date
+from typing import Literal
+
+# Where a pin's internal resistor pulls it.
+PullChoice = Literal["up", "down"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -42,7 +46,7 @@ class McuPinConfig:
     pin: int
     family: str
     schmitt: bool = True
-    pull: str | None = None  # "up", "down" or None
+    pull: PullChoice | None = None
     pull_min_ohms: float | None = None
     pull_max_ohms: float | None = None
     debounce_s: float | None = None
@@ -78,8 +82,10 @@ class Tolerances:
     rail: float = 0.05
 
 
-@dataclass(slots=True)
+@dataclass(frozen=True, slots=True)
 class Config:
+    """One board's configuration, as loaded (or the defaults: `Config()`)."""
+
     path: str | None = None
     rails: tuple[RailConfig, ...] = ()
     contacts: tuple[ContactConfig, ...] = ()

@@ -7,7 +7,6 @@ import pytest
 
 from drc.config.loading import discover_config, key_lines, load_config
 from drc.errors import ConfigError
-
 from tests.gate.builders import RULE_IDS
 
 FULL = '''
@@ -131,7 +130,8 @@ def test_full_drc_toml(tmp_path):
 
 
 def test_pyproject_tool_drc(tmp_path):
-    text = '[project]\nname = "x"\n\n[tool.drc]\nfail-level = "note"\n\n[[tool.drc.rails]]\nnet = "VCC"\nvoltage = "5 V"\n'
+    text = ('[project]\nname = "x"\n\n[tool.drc]\nfail-level = "note"\n\n'
+            '[[tool.drc.rails]]\nnet = "VCC"\nvoltage = "5 V"\n')
     config = load_config(write(tmp_path, "pyproject.toml", text), **VOCABULARY)
     assert config.fail_level == "note"
     assert config.rails[0].net == "VCC"
