@@ -160,13 +160,6 @@ def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[F
     return [replace(f, fix=fixed[id(f)]) if id(f) in fixed else f for f in findings]
 
 
-def _apply_debounce_annotations(board, debounces: dict[str, float]) -> None:
-    if not debounces:
-        return
-    board.receivers = [replace(r, firmware_debounce_s=debounces[r.ref.casefold()])
-                       if r.ref.casefold() in debounces else r for r in board.receivers]
-
-
 def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> BoardCheck:
     """Classify, analyse and check one read netlist; annotations and waivers applied."""
     from drc.netlist.annotations import read_annotations
@@ -178,9 +171,8 @@ def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> 
     if annotations and annotations.contacts:
         config = replace(config, contacts=tuple(config.contacts) + tuple(annotations.contacts))
     board = classify(netlist, lib, config, default_bounce_s=options.default_bounce_s
-                     if options.default_bounce_s is not None else config.default_bounce_s)
-    if annotations:
-        _apply_debounce_annotations(board, annotations.debounces)
+                     if options.default_bounce_s is not None else config.default_bounce_s,
+                     debounces=annotations.debounces if annotations else None)
     results = analyse_board(board, config)
     limits = effective_limits(config)
     selected = selected_rule_ids(config, options)
@@ -219,7 +211,7 @@ def check_board_full(path: str | Path, options: CheckOptions = CheckOptions()) -
 def board_report(check: BoardCheck):
     from drc.report.run_report import BoardReport
     board = check.board
-    kinds = Counter(r.stage.kind for r in check.results)
+    kinds: Counter[str] = Counter(r.stage.kind for r in check.results)
     seen: dict[str, None] = {}
     for d in (*check.reader_diagnostics, *getattr(board, "diagnostics", ())):
         seen.setdefault(f"{d.location}: {d.message}")

@@ -2,15 +2,27 @@
 
 Classification turns designators and subcircuit names into engineering roles
 using the library under rules/ and the board's config. Everything here is
-plain data; the functions that build it live in `classify`.
+frozen data; the functions that build it live in `classify`, and nothing
+after classification changes a board (firmware debounces written as
+netlist annotations are an input of classification, not a later patch).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from enum import StrEnum
 
 from drc.errors import SourceLocation
+from drc.library.entries import ContactForm, PinRole, PullDirection
 from drc.netlist.elements import Diagnostic, Netlist
+
+
+class ContactOrigin(StrEnum):
+    """What made an element a contact."""
+
+    ELEMENT = "element"  # an S line of our contact form
+    SUBCIRCUIT = "subcircuit"  # an X instance whose name is a contact class
+    CONFIG = "config"  # a designator glob of the config or of a `*@drc contact` annotation
 
 
 @dataclass(frozen=True, slots=True)
@@ -28,20 +40,20 @@ class Contact:
     """One mechanical switching element.
 
     terminals: nets, common first for a changeover (SPDT: common, NC, NO);
-    for SPST the two nets. form: "SPST-NO", "SPST-NC" or "SPDT".
+    for SPST the two nets.
     wetting_a / rating_a: the class's minimum wetting current and contact
     rating (None where the class sets none).
     """
 
     designator: str
     contact_class: str
-    form: str
+    form: ContactForm
     terminals: tuple[str, ...]
     bounce_s: float
     wetting_a: float | None
     rating_a: float | None
     location: SourceLocation
-    origin: str  # "element", "subcircuit", "config" or "annotation"
+    origin: ContactOrigin
     closed_resistance: float = 0.1
     static: bool = False  # read as configuration (e.g. DIP), not as events
 
@@ -50,7 +62,7 @@ class Contact:
 class InternalPull:
     """A pull resistor inside a receiver pin (microcontroller GPIO)."""
 
-    direction: str  # "up" or "down"
+    direction: PullDirection
     r_min: float
     r_max: float
 
@@ -89,7 +101,7 @@ class Receiver:
 class PartPin:
     number: int
     net: str
-    role: str  # "input", "output", "supply", "ground", "nc"
+    role: PinRole
     name: str
 
 
@@ -105,13 +117,18 @@ class Part:
     location: SourceLocation
 
 
-@dataclass(slots=True)
+@dataclass(frozen=True, slots=True)
 class Board:
+    """A classified netlist. Built whole by `classify`; the lists are not changed afterwards.
+
+    rails: key(net) -> Rail; parts: key(designator) -> Part.
+    """
+
     path: str
     netlist: Netlist
-    rails: dict[str, Rail] = field(default_factory=dict)  # key(net) -> Rail
+    rails: dict[str, Rail] = field(default_factory=dict)
     contacts: list[Contact] = field(default_factory=list)
     receivers: list[Receiver] = field(default_factory=list)
-    parts: dict[str, Part] = field(default_factory=dict)  # key(designator) -> Part
+    parts: dict[str, Part] = field(default_factory=dict)
     diagnostics: list[Diagnostic] = field(default_factory=list)
     config_path: str | None = None

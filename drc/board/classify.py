@@ -19,18 +19,28 @@ names keep the spelling of their first appearance in the netlist.
 from __future__ import annotations
 
 import re
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, fields, replace
 from fnmatch import fnmatchcase
 from itertools import chain
-from typing import Any, Iterable
+from typing import TypeVar
 
-from drc.board.board import Board, Contact, InternalPull, Part, PartPin, Rail, Receiver
-from drc.config.settings import Config, ContactConfig, McuConfig, PartConfig
+from drc.board.board import Board, Contact, ContactOrigin, InternalPull, Part, PartPin, Rail, Receiver
+from drc.config.settings import Config, ContactConfig, McuConfig, McuPinConfig, PartConfig, RailConfig
 from drc.errors import ConfigError, SourceLocation
+from drc.library.catalogue import Library
+from drc.library.entries import (
+    FORMS,
+    ContactClass,
+    ContactForm,
+    ContactMatch,
+    PinRole,
+    PinSpec,
+    PullDirection,
+    ResolvedPart,
+)
 from drc.netlist.elements import GROUND, Diagnostic, Element, Netlist, key
-from drc.cli.gcpause import collection_paused
 
-FORMS = ("SPST-NO", "SPST-NC", "SPDT")
 DEFAULT_CONTACT_CLASS = "tactile"
 
 # Nets that people name after a supply: +5V, 5V, 3V3, +3.3V, 5V0, -12V,
@@ -68,37 +78,37 @@ def matches(pattern: str, element: Element) -> bool:
     return any(fnmatchcase(n, p) for n in names)
 
 
-def classify(netlist: Netlist, library: Any, config: Config, *,
-             default_bounce_s: float | None = None) -> Board:
+def classify(netlist: Netlist, library: Library, config: Config, *,
+             default_bounce_s: float | None = None,
+             debounces: Mapping[str, float] | None = None) -> Board:
     """Turn a flat netlist into a Board using the library and the config.
 
     default_bounce_s is the command line's bounce figure: it wins over the
     class default and the config's `default_bounce_s`, and loses to a
-    per-contact bounce from config.
+    per-contact bounce from config. debounces maps a receiver pin "PART:PIN"
+    (case-folded) to a firmware debounce in seconds, from `*@drc debounce`
+    annotations; it wins over the config's.
     """
-    with collection_paused():
-        return _classify(netlist, library, config, default_bounce_s)
-
-
-def _classify(netlist: Netlist, library: Any, config: Config,
-              default_bounce_s: float | None) -> Board:
-    board = Board(path=netlist.path, netlist=netlist, config_path=config.path)
     names = _net_spellings(netlist)
-    board.rails = _rails(netlist, config, names, board.diagnostics)
-    _rail_name_diagnostics(netlist, names, board.rails, board.diagnostics)
+    diagnostics: list[Diagnostic] = []
+    rails = _rails(netlist, config, names, diagnostics)
+    _rail_name_diagnostics(netlist, names, rails, diagnostics)
     bounce_default = default_bounce_s if default_bounce_s is not None else config.default_bounce_s
-    ctx = _Context(library, config, board, names, bounce_default)
+    ctx = _Context(library, config, netlist, names, rails, bounce_default, debounces or {},
+                   diagnostics=diagnostics)
     unknown: dict[str, SourceLocation] = {}
     never = _NEVER_CONTACT
     for element in netlist.elements:
         if element.kind not in never:  # most of a board: passives need no call
             _classify_element(ctx, element, unknown)
     for name, location in unknown.items():
-        board.diagnostics.append(Diagnostic(
+        diagnostics.append(Diagnostic(
             f"subcircuit {name} is not a known logic part or contact type; its "
             f"instances are not checked (name it in rules/ or map it in the config)",
             location))
-    return board
+    return Board(path=netlist.path, netlist=netlist, rails=rails, contacts=ctx.contacts,
+                 receivers=ctx.receivers, parts=ctx.parts, diagnostics=diagnostics,
+                 config_path=config.path)
 
 
 # ---------------------------------------------------------------- nets, rails
@@ -161,45 +171,64 @@ def _rails(netlist: Netlist, config: Config, names: dict[str, str],
            diagnostics: list[Diagnostic]) -> dict[str, Rail]:
     """Rails from DC sources (chained through sources on rails) and config."""
     configured = {key(r.net): r for r in config.rails}
-    rails: dict[str, Rail] = {}
-    fixed = {key(GROUND): 0.0}
-    sources = [e for e in netlist.elements
-               if e.kind == "V" and e.value is not None and len(e.nodes) == 2]
-    # A source between a rail and another net makes that net a rail too; the
-    # loop ends when a pass adds nothing (each pass adds at least one net).
-    pending = sources
-    while pending:
-        left = []
-        for source in pending:
-            plus, minus = (key(n) for n in source.nodes)
-            volts = source.value.si
-            if minus in fixed and plus not in fixed:
-                net, voltage = plus, fixed[minus] + volts
-            elif plus in fixed and minus not in fixed:
-                net, voltage = minus, fixed[plus] - volts
-            else:
-                left.append(source)
-                continue
-            fixed[net] = voltage
-            cfg = configured.get(net)
-            tol = _tolerance_param(source)
-            if tol is None:
-                tol = cfg.tolerance if cfg is not None else config.tolerances.rail
-            if cfg is not None and abs(cfg.voltage - voltage) > 1e-9 * max(1.0, abs(voltage)):
-                diagnostics.append(Diagnostic(
-                    f"config gives rail {cfg.net} {cfg.voltage:g} V but source "
-                    f"{source.designator} holds it at {voltage:g} V; the source wins",
-                    source.location))
-            rails[net] = Rail(names.get(net, source.nodes[0]), voltage, tol, source.designator)
-        if len(left) == len(pending):
-            break
-        pending = left
+    rails = _source_rails(netlist, config, configured, names, diagnostics)
     for net, cfg in configured.items():
         # A config shared by several boards may name nets this board lacks.
         if net in rails or net == key(GROUND) or net not in names:
             continue
         rails[net] = Rail(names[net], cfg.voltage, cfg.tolerance, "config")
     return rails
+
+
+def _source_rails(netlist: Netlist, config: Config, configured: Mapping[str, RailConfig],
+                  names: dict[str, str], diagnostics: list[Diagnostic]) -> dict[str, Rail]:
+    """Rails held by DC sources: a source from a held net to another holds that one too."""
+    rails: dict[str, Rail] = {}
+    fixed = {key(GROUND): 0.0}
+    sources = [(e, e.value.si) for e in netlist.elements
+               if e.kind == "V" and e.value is not None and len(e.nodes) == 2]
+    # A source between a rail and another net makes that net a rail too; the
+    # loop ends when a pass adds nothing (each pass adds at least one net).
+    pending = sources
+    while pending:
+        left = []
+        for source, volts in pending:
+            held = _held_by(source, volts, fixed)
+            if held is None:
+                left.append((source, volts))
+                continue
+            net, voltage = held
+            fixed[net] = voltage
+            rails[net] = _source_rail(source, net, voltage, configured.get(net), config, names,
+                                      diagnostics)
+        if len(left) == len(pending):
+            break
+        pending = left
+    return rails
+
+
+def _held_by(source: Element, volts: float, fixed: Mapping[str, float]) -> tuple[str, float] | None:
+    """(net key, voltage) the source holds, given the nets already held; None if not yet."""
+    plus, minus = (key(n) for n in source.nodes)
+    if minus in fixed and plus not in fixed:
+        return plus, fixed[minus] + volts
+    if plus in fixed and minus not in fixed:
+        return minus, fixed[plus] - volts
+    return None
+
+
+def _source_rail(source: Element, net: str, voltage: float, cfg: RailConfig | None, config: Config,
+                 names: dict[str, str], diagnostics: list[Diagnostic]) -> Rail:
+    """The rail a source holds; its tolerance from the source, the config's rail, or the default."""
+    tol = _tolerance_param(source)
+    if tol is None:
+        tol = cfg.tolerance if cfg is not None else config.tolerances.rail
+    if cfg is not None and abs(cfg.voltage - voltage) > 1e-9 * max(1.0, abs(voltage)):
+        diagnostics.append(Diagnostic(
+            f"config gives rail {cfg.net} {cfg.voltage:g} V but source "
+            f"{source.designator} holds it at {voltage:g} V; the source wins",
+            source.location))
+    return Rail(names.get(net, source.nodes[0]), voltage, tol, source.designator)
 
 
 def _rail_name_diagnostics(netlist: Netlist, names: dict[str, str], rails: dict[str, Rail],
@@ -220,19 +249,27 @@ def _rail_name_diagnostics(netlist: Netlist, names: dict[str, str], rails: dict[
 
 # ---------------------------------------------------------------- elements
 
-@dataclass
+@dataclass(slots=True)
 class _Context:
-    library: Any
+    """What classification reads (library, config, netlist) and what it builds."""
+
+    library: Library
     config: Config
-    board: Board
+    netlist: Netlist
     names: dict[str, str]
+    rails: dict[str, Rail]
     bounce_default: float | None
+    debounces: Mapping[str, float]  # "part:pin" (case-folded) -> firmware debounce, s
+    contacts: list[Contact] = field(default_factory=list)
+    receivers: list[Receiver] = field(default_factory=list)
+    parts: dict[str, Part] = field(default_factory=dict)
+    diagnostics: list[Diagnostic] = field(default_factory=list)
     defined: frozenset[str] | None = None
     notes: set[str] = field(default_factory=set)  # once-per-board diagnostics given
 
     def is_defined_subcircuit(self, name: str) -> bool:
         if self.defined is None:
-            self.defined = frozenset(key(n) for n in self.board.netlist.subcircuit_names)
+            self.defined = frozenset(key(n) for n in self.netlist.subcircuit_names)
         return key(name) in self.defined
 
     def net(self, node: str) -> str:
@@ -243,11 +280,20 @@ class _Context:
         name = "contact_closed_resistance"
         if name in self.config.limits:
             return self.config.limits[name]
-        limit = getattr(self.library, "limits", {}).get(name)
+        limit = self.library.limits.get(name)
         return limit.value if limit is not None else None
 
     def config_location(self) -> SourceLocation:
         return SourceLocation(self.config.path or "<config>")
+
+    def firmware_debounce(self, part: str, pin: int, configured: float | None) -> float | None:
+        """A pin's firmware debounce: an annotation's, else the config's."""
+        if not self.debounces:
+            return configured
+        return self.debounces.get(f"{part}:{pin}".casefold(), configured)
+
+    def note(self, message: str, location: SourceLocation) -> None:
+        self.diagnostics.append(Diagnostic(message, location))
 
 
 def _classify_element(ctx: _Context, element: Element,
@@ -260,10 +306,13 @@ def _classify_element(ctx: _Context, element: Element,
     elif kind not in _NEVER_CONTACT and len(element.nodes) >= 2:
         settings = _contact_settings(ctx.config.contacts, element)
         if settings is not None:
-            _add_contacts(ctx, element, element.nodes, None, settings, "config")
+            _add_contacts(ctx, element, element.nodes, None, settings, ContactOrigin.CONFIG)
 
 
-def _merged_settings(entries, element: Element):
+_Entry = TypeVar("_Entry", ContactConfig, PartConfig)
+
+
+def _merged_settings(entries: Iterable[_Entry], element: Element) -> _Entry | None:
     """The config entries matching a designator, merged: later entries win field by field."""
     merged = None
     for entry in entries:
@@ -289,14 +338,13 @@ def _classify_s(ctx: _Context, element: Element) -> None:
         match = (ctx.library.contact_class_for(element.model, len(element.nodes))
                  if element.model else None)
         if element.model and match is None and (settings is None or not settings.contact_class):
-            ctx.board.diagnostics.append(Diagnostic(
-                f"{element.designator}: contact type {element.model} is not in the "
-                f"library; taken as class {DEFAULT_CONTACT_CLASS}", element.location))
-        _add_contacts(ctx, element, element.nodes, match, settings, "element")
+            ctx.note(f"{element.designator}: contact type {element.model} is not in the "
+                     f"library; taken as class {DEFAULT_CONTACT_CLASS}", element.location)
+        _add_contacts(ctx, element, element.nodes, match, settings, ContactOrigin.ELEMENT)
     elif settings is not None:
         # A SPICE switch (nodes: switch+, switch-, control+, control-) the config
         # declares to be a real contact: its first two nodes are the contact.
-        _add_contacts(ctx, element, element.nodes[:2], None, settings, "config")
+        _add_contacts(ctx, element, element.nodes[:2], None, settings, ContactOrigin.CONFIG)
 
 
 def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocation]) -> None:
@@ -320,19 +368,18 @@ def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocati
     match = lib.contact_class_for(model, len(element.nodes)) if model else None
     if match is not None:
         if ctx.is_defined_subcircuit(model):
-            ctx.board.diagnostics.append(Diagnostic(
-                f"{display_designator(element)}: subcircuit {model} is defined in the "
-                f"netlist but its name matches contact class "
-                f"{match.contact_class.name}; taken as a contact, its contents unread",
-                element.location))
-        _add_contacts(ctx, element, element.nodes, match, settings, "subcircuit")
+            ctx.note(f"{display_designator(element)}: subcircuit {model} is defined in the "
+                     f"netlist but its name matches contact class "
+                     f"{match.contact_class.name}; taken as a contact, its contents unread",
+                     element.location)
+        _add_contacts(ctx, element, element.nodes, match, settings, ContactOrigin.SUBCIRCUIT)
         return
     resolved = lib.resolve_part(model) if model else None
     if resolved is not None:
         _add_part(ctx, element, resolved, part_cfg.family if part_cfg else None)
         return
     if settings is not None:
-        _add_contacts(ctx, element, element.nodes, None, settings, "config")
+        _add_contacts(ctx, element, element.nodes, None, settings, ContactOrigin.CONFIG)
         return
     unknown.setdefault(model or element.designator, element.location)
 
@@ -343,7 +390,7 @@ def _part_settings(entries: Iterable[PartConfig], element: Element) -> PartConfi
 
 # ---------------------------------------------------------------- contacts
 
-def _contact_class(ctx: _Context, name: str, element: Element):
+def _contact_class(ctx: _Context, name: str, element: Element) -> ContactClass:
     classes = ctx.library.contact_classes
     found = classes.get(name) or classes.get(name.casefold())
     if found is None:
@@ -363,8 +410,19 @@ def _normal_form(text: str | None) -> str | None:
     return {"NO": "SPST-NO", "NC": "SPST-NC", "SPST": "SPST-NO"}.get(form, form)
 
 
-def _add_contacts(ctx: _Context, element: Element, nodes: tuple[str, ...], match,
-                  settings: ContactConfig | None, origin: str) -> None:
+def _configured_form(ctx: _Context, settings: ContactConfig | None, element: Element) -> ContactForm | None:
+    """The form the config gives the element, if any (a ConfigError if it is no form)."""
+    if settings is None or settings.form is None:
+        return None
+    form = _normal_form(settings.form)
+    if form not in FORMS:
+        raise ConfigError(f"contact form {settings.form!r} for {element.designator} is not "
+                          f"one of {', '.join(FORMS)}", ctx.config_location())
+    return ContactForm(form)
+
+
+def _add_contacts(ctx: _Context, element: Element, nodes: tuple[str, ...], match: ContactMatch | None,
+                  settings: ContactConfig | None, origin: ContactOrigin) -> None:
     """Add one contact per pole of the element, named after its designator."""
     if settings is not None and settings.contact_class:
         cls = _contact_class(ctx, settings.contact_class, element)
@@ -372,38 +430,32 @@ def _add_contacts(ctx: _Context, element: Element, nodes: tuple[str, ...], match
         cls = match.contact_class
     else:
         cls = _contact_class(ctx, DEFAULT_CONTACT_CLASS, element)
-    config_form = _normal_form(settings.form if settings else None)
-    if config_form is not None and config_form not in FORMS:
-        raise ConfigError(f"contact form {settings.form!r} for {element.designator} is not "
-                          f"one of {', '.join(FORMS)}", ctx.config_location())
-    wanted = config_form or _normal_form(match.form if match else None) \
-        or _normal_form(getattr(cls, "default_form", None)) or "SPST-NO"
+    config_form = _configured_form(ctx, settings, element)
+    wanted = config_form or ContactForm(_normal_form(match.form if match else None)
+                                        or _normal_form(cls.default_form) or "SPST-NO")
     poles = _poles(nodes, wanted, config_form is not None)
     if poles is None:
-        ctx.board.diagnostics.append(Diagnostic(
-            f"{element.designator}: a contact with {len(nodes)} terminals cannot be "
-            f"split into poles; not checked", element.location))
+        ctx.note(f"{element.designator}: a contact with {len(nodes)} terminals cannot be "
+                 f"split into poles; not checked", element.location)
         return
-    if config_form == "SPDT" and len(nodes) == 2:
-        ctx.board.diagnostics.append(Diagnostic(
-            f"{element.designator}: configured SPDT but has two terminals; taken as SPST-NO",
-            element.location))
+    if config_form == ContactForm.SPDT and len(nodes) == 2:
+        ctx.note(f"{element.designator}: configured SPDT but has two terminals; taken as SPST-NO",
+                 element.location)
     bounce = _bounce(settings, ctx.bounce_default, cls)
     name = display_designator(element)
-    closed = getattr(cls, "closed_ohms", None)
-    if closed is None:
-        closed = ctx.closed_resistance()
+    closed = ctx.closed_resistance()
     for index, (form, terminals) in enumerate(poles, start=1):
         designator = name if len(poles) == 1 else f"{name}.{index}"
         extra = {"closed_resistance": closed} if closed is not None else {}
-        ctx.board.contacts.append(Contact(
+        ctx.contacts.append(Contact(
             designator=designator, contact_class=cls.name, form=form,
             terminals=tuple(ctx.net(n) for n in terminals), bounce_s=bounce,
-            wetting_a=getattr(cls, "wetting_a", None), rating_a=getattr(cls, "rating_a", None),
-            location=element.location, origin=origin, static=getattr(cls, "static", False), **extra))
+            wetting_a=cls.wetting_a, rating_a=cls.rating_a,
+            location=element.location, origin=origin, static=cls.static, **extra))
 
 
-def _poles(nodes: tuple[str, ...], form: str, form_configured: bool):
+def _poles(nodes: tuple[str, ...], form: ContactForm,
+           form_configured: bool) -> list[tuple[ContactForm, tuple[str, ...]]] | None:
     """Split terminals into (form, terminals) poles; None when no split fits.
 
     2 terminals: one SPST pole (an SPDT form falls back to SPST-NO).
@@ -413,19 +465,19 @@ def _poles(nodes: tuple[str, ...], form: str, form_configured: bool):
     3N terminals with form SPDT: N changeover poles (common, NC, NO) in order.
     """
     n = len(nodes)
+    spst = form if form != ContactForm.SPDT else ContactForm.SPST_NO
     if n == 2:
-        return [(form if form != "SPDT" else "SPST-NO", nodes)]
+        return [(spst, nodes)]
     if n == 3:
-        return [("SPDT", nodes)]
-    if form == "SPDT" and n % 3 == 0:
-        return [("SPDT", nodes[i:i + 3]) for i in range(0, n, 3)]
+        return [(ContactForm.SPDT, nodes)]
+    if form == ContactForm.SPDT and n % 3 == 0:
+        return [(ContactForm.SPDT, nodes[i:i + 3]) for i in range(0, n, 3)]
     if n % 2 == 0:
-        spst = form if form != "SPDT" else "SPST-NO"
         return [(spst, (nodes[k], nodes[n - 1 - k])) for k in range(n // 2)]
     return None
 
 
-def _bounce(settings: ContactConfig | None, default: float | None, cls) -> float:
+def _bounce(settings: ContactConfig | None, default: float | None, cls: ContactClass) -> float:
     if settings is not None and settings.bounce_s is not None:
         return settings.bounce_s
     if default is not None:
@@ -442,53 +494,52 @@ def _family_name(ctx: _Context, name: str, what: str) -> str:
     except KeyError:
         raise ConfigError(f"logic family {name!r} (for {what}) is not in the library",
                           ctx.config_location()) from None
-    return getattr(family, "name", name)
+    return family.name
 
 
-def _add_part(ctx: _Context, element: Element, resolved, family_override: str | None) -> None:
+def _add_part(ctx: _Context, element: Element, resolved: ResolvedPart, family_override: str | None) -> None:
     part_type = resolved.part_type
     name = display_designator(element)
     family = _family_name(ctx, family_override, name) if family_override else resolved.family
     if len(element.nodes) != part_type.pin_count:
-        ctx.board.diagnostics.append(Diagnostic(
-            f"{name}: {element.model} has {part_type.pin_count} pins but the instance "
-            f"connects {len(element.nodes)}; not checked", element.location))
+        ctx.note(f"{name}: {element.model} has {part_type.pin_count} pins but the instance "
+                 f"connects {len(element.nodes)}; not checked", element.location)
         return
     pins = tuple(
         PartPin(number, ctx.net(element.nodes[number - 1]), spec.role, spec.name)
         for number, spec in sorted(part_type.pins.items()))
-    ctx.board.parts[key(name)] = Part(name, part_type.name, resolved.part_number or element.model,
-                                      family, pins, element.location)
+    ctx.parts[key(name)] = Part(name, part_type.name, resolved.part_number or element.model or "",
+                                family, pins, element.location)
     supply = _supply_rail(ctx, pins)
     if supply is None:
-        ctx.board.diagnostics.append(Diagnostic(
-            f"{name}: its supply pin is not on a rail with a known voltage; its "
-            f"inputs are not checked", element.location))
+        ctx.note(f"{name}: its supply pin is not on a rail with a known voltage; its "
+                 f"inputs are not checked", element.location)
         return
     for number, spec in sorted(part_type.pins.items()):
-        if spec.role != "input":
+        if spec.role != PinRole.INPUT:
             continue
         pull = _part_pin_pull(ctx, name, element, spec, family)
-        ctx.board.receivers.append(Receiver(
+        ctx.receivers.append(Receiver(
             part=name, pin=number, net=ctx.net(element.nodes[number - 1]),
             part_type=part_type.name, family=family, schmitt=bool(spec.schmitt),
             edge_sensitive=bool(spec.edge_sensitive), function=spec.function or "data",
             supply_v=supply.voltage, supply_tolerance=supply.tolerance,
             location=element.location, internal_pull=pull,
+            firmware_debounce_s=ctx.firmware_debounce(name, number, None),
             dedicated_debounce=bool(part_type.debounces), gate=spec.gate))
 
 
 def _family_pull_range(ctx: _Context, family: str) -> tuple[float, float] | None:
     try:
-        return getattr(ctx.library.family(family), "internal_pull_ohms", None)
+        return ctx.library.family(family).internal_pull_ohms
     except KeyError:
         return None
 
 
-def _part_pin_pull(ctx: _Context, name: str, element: Element, spec,
+def _part_pin_pull(ctx: _Context, name: str, element: Element, spec: PinSpec,
                    family: str) -> InternalPull | None:
     """A pin the part data says is pulled inside, with the family's resistor range."""
-    direction = getattr(spec, "internal_pull", None)
+    direction = spec.internal_pull
     if not direction:
         return None
     found = _family_pull_range(ctx, family)
@@ -503,14 +554,14 @@ def _part_pin_pull(ctx: _Context, name: str, element: Element, spec,
         # A set of the notes given: a board has hundreds of such parts.
         if note not in ctx.notes:
             ctx.notes.add(note)
-            ctx.board.diagnostics.append(Diagnostic(note, element.location))
+            ctx.note(note, element.location)
     return InternalPull(direction, found[0], found[1])
 
 
 def _supply_rail(ctx: _Context, pins: Iterable[PartPin]) -> Rail | None:
     for pin in pins:
-        if pin.role == "supply":
-            rail = ctx.board.rails.get(key(pin.net))
+        if pin.role == PinRole.SUPPLY:
+            rail = ctx.rails.get(key(pin.net))
             if rail is not None and rail.voltage > 0:
                 return rail
     return None
@@ -527,54 +578,68 @@ def _add_mcu(ctx: _Context, element: Element, mcu: McuConfig) -> None:
                               ctx.config_location())
         return ctx.net(nodes[pin - 1])
 
-    supply_rail = next((ctx.board.rails[key(net_of(p))] for p in mcu.supply_pins
-                        if key(net_of(p)) in ctx.board.rails), None)
-    pins = [PartPin(p, net_of(p), "supply", "VDD") for p in mcu.supply_pins]
-    pins += [PartPin(p, net_of(p), "ground", "VSS") for p in mcu.ground_pins]
+    supply_rail = next((ctx.rails[key(net_of(p))] for p in mcu.supply_pins
+                        if key(net_of(p)) in ctx.rails), None)
+    pins = [PartPin(p, net_of(p), PinRole.SUPPLY, "VDD") for p in mcu.supply_pins]
+    pins += [PartPin(p, net_of(p), PinRole.GROUND, "VSS") for p in mcu.ground_pins]
     family_default = _family_name(ctx, mcu.family, name) if mcu.family else None
     for pin in mcu.pins:
         net = net_of(pin.pin)
-        pins.append(PartPin(pin.pin, net, "input", f"P{pin.pin}"))
-        family = _family_name(ctx, pin.family, f"{name} pin {pin.pin}") if pin.family \
-            else family_default
-        supply_v = pin.supply_v or mcu.supply_v or (supply_rail.voltage if supply_rail else None)
-        if family is None or supply_v is None:
-            ctx.board.diagnostics.append(Diagnostic(
-                f"{name} pin {pin.pin}: the config gives no "
-                f"{'family' if family is None else 'supply voltage'}; not checked",
-                element.location))
-            continue
-        tolerance = supply_rail.tolerance if supply_rail else ctx.config.tolerances.rail
-        ctx.board.receivers.append(Receiver(
-            part=name, pin=pin.pin, net=net, part_type="mcu", family=family,
-            schmitt=pin.schmitt, edge_sensitive=pin.edge_sensitive, function="gpio",
-            supply_v=supply_v, supply_tolerance=tolerance, location=element.location,
-            internal_pull=_internal_pull(ctx, name, pin, family),
-            firmware_debounce_s=pin.debounce_s))
-    ctx.board.parts[key(name)] = Part(name, "mcu", element.model or "", family_default or "",
-                                      tuple(sorted(pins, key=lambda p: p.number)),
-                                      element.location)
+        pins.append(PartPin(pin.pin, net, PinRole.INPUT, f"P{pin.pin}"))
+        receiver = _mcu_receiver(ctx, element, name, mcu, pin, net, family_default, supply_rail)
+        if receiver is not None:
+            ctx.receivers.append(receiver)
+    ctx.parts[key(name)] = Part(name, "mcu", element.model or "", family_default or "",
+                                tuple(sorted(pins, key=lambda p: p.number)),
+                                element.location)
 
 
-def _internal_pull(ctx: _Context, name: str, pin, family: str) -> InternalPull | None:
+def _mcu_receiver(ctx: _Context, element: Element, name: str, mcu: McuConfig, pin: McuPinConfig,
+                  net: str, family_default: str | None, supply_rail: Rail | None) -> Receiver | None:
+    """The receiver of one configured MCU pin; None (with a diagnostic) when it lacks data."""
+    family = _family_name(ctx, pin.family, f"{name} pin {pin.pin}") if pin.family \
+        else family_default
+    supply_v = pin.supply_v or mcu.supply_v or (supply_rail.voltage if supply_rail else None)
+    if family is None or supply_v is None:
+        ctx.note(f"{name} pin {pin.pin}: the config gives no "
+                 f"{'family' if family is None else 'supply voltage'}; not checked",
+                 element.location)
+        return None
+    tolerance = supply_rail.tolerance if supply_rail else ctx.config.tolerances.rail
+    return Receiver(
+        part=name, pin=pin.pin, net=net, part_type="mcu", family=family,
+        schmitt=pin.schmitt, edge_sensitive=pin.edge_sensitive, function="gpio",
+        supply_v=supply_v, supply_tolerance=tolerance, location=element.location,
+        internal_pull=_internal_pull(ctx, name, pin, family),
+        firmware_debounce_s=ctx.firmware_debounce(name, pin.pin, pin.debounce_s))
+
+
+def _internal_pull(ctx: _Context, name: str, pin: McuPinConfig, family: str) -> InternalPull | None:
     if not pin.pull:
         return None
     direction = pin.pull.strip().lower()
     if direction not in ("up", "down"):
         raise ConfigError(f"{name} pin {pin.pin}: pull must be \"up\" or \"down\", "
                           f"not {pin.pull!r}", ctx.config_location())
-    low, high = pin.pull_min_ohms, pin.pull_max_ohms
-    if low is None and high is None:
-        # No range in the config: the family's typical range, if rules/ has one.
-        found = _family_pull_range(ctx, family)
-        if found is None:
-            raise ConfigError(f"{name} pin {pin.pin}: pull = {direction} needs pull-min "
-                              f"and pull-max (family {family} gives no range)",
-                              ctx.config_location())
-        low, high = found
-    low = high if low is None else low
-    high = low if high is None else high
+    low, high = _pull_range(ctx, name, pin, family, direction)
     if not 0 < low <= high:
         raise ConfigError(f"{name} pin {pin.pin}: internal pull range {low:g}..{high:g} "
                           f"ohm is not a positive range", ctx.config_location())
-    return InternalPull(direction, low, high)
+    return InternalPull(PullDirection(direction), low, high)
+
+
+def _pull_range(ctx: _Context, name: str, pin: McuPinConfig, family: str,
+                direction: str) -> tuple[float, float]:
+    """The configured pull range (one bound given: both), else the family's typical range."""
+    low, high = pin.pull_min_ohms, pin.pull_max_ohms
+    if low is not None:
+        return (low, high if high is not None else low)
+    if high is not None:
+        return (high, high)
+    # No range in the config: the family's typical range, if rules/ has one.
+    found = _family_pull_range(ctx, family)
+    if found is None:
+        raise ConfigError(f"{name} pin {pin.pin}: pull = {direction} needs pull-min "
+                          f"and pull-max (family {family} gives no range)",
+                          ctx.config_location())
+    return found

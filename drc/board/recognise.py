@@ -21,43 +21,52 @@ from __future__ import annotations
 
 import re
 from collections import deque
-from functools import cache
+from collections.abc import Iterable
+from dataclasses import dataclass, field, replace
 
 from drc.board.board import Board, Contact, Rail, Receiver
+from drc.board.classify import parse_tolerance
+from drc.board.stage import (
+    ActuatorState,
+    Capacitor,
+    Diode,
+    RailSource,
+    Resistor,
+    ResistorRole,
+    Stage,
+    StageCircuit,
+    StageKind,
+    Throw,
+    two_terminal_nets,
+)
+from drc.board.trace import InputPath, TraceIndex, build_index, trace_paths
+from drc.caching import Memo, memoized
 from drc.config.settings import Config
 from drc.errors import NetlistError
+from drc.library.entries import ContactForm, PinRole, PullDirection
 from drc.netlist.elements import GROUND, Element, key
-from drc.board.stage import Capacitor, Diode, RailSource, Resistor, Stage, StageCircuit, Throw
-from drc.cli.gcpause import collection_paused
-from drc.board.trace import InputPath, TraceIndex, build_index, trace_paths
-from drc.board.classify import parse_tolerance
 
 _DIGITS = re.compile(r"(\d+)")
+
+# Designators and part names recur in every stage's sort and parts list.
+_NATURAL: Memo[str, tuple] = Memo("board.natural_key", 100_000)
 
 
 def natural_key(text: str) -> tuple:
     """Sort key that puts SW2 before SW10."""
     found = _NATURAL.get(text)
     if found is None:
-        found = tuple(int(part) if part.isdigit() else part.casefold()
-                      for part in _DIGITS.split(text))
-        if len(_NATURAL) > 100_000:  # a bound for long-lived processes
-            _NATURAL.clear()
-        _NATURAL[text] = found
+        found = _NATURAL.put(text, tuple(int(part) if part.isdigit() else part.casefold()
+                                         for part in _DIGITS.split(text)))
     return found
-
-
-# Designators and part names recur in every stage's sort and parts list.
-_NATURAL: dict[str, tuple] = {}
 
 
 def stages_for_board(board: Board, config: Config) -> list[Stage]:
     """Every stage of the board, by contact designator then receiver."""
-    with collection_paused():
-        index = build_index(board)
-        diode = _DiodeDefaults(config)
-        stages = [_recognise(path, board, config, index, diode)
-                  for path in trace_paths(board, index)]
+    index = build_index(board)
+    diode = _DiodeDefaults(config)
+    stages = [_recognise(path, board, config, index, diode)
+              for path in trace_paths(board, index)]
     stages.sort(key=lambda s: (natural_key(s.contact.designator),
                                natural_key(s.receiver.part), s.receiver.pin))
     return stages
@@ -87,7 +96,7 @@ class _DiodeDefaults:
         return self.value
 
 
-@cache
+@memoized(limit=1)
 def _library_limits() -> tuple[tuple[str, float], ...]:
     from drc.library.catalogue import load_library
     return tuple((k, v.value) for k, v in load_library().limits.items())
@@ -150,6 +159,17 @@ def _is_short(element: Element) -> bool:
 
 # ---------------------------------------------------------------- building
 
+@dataclass(slots=True)
+class _Passives:
+    """The path's parts as the stage circuit holds them, gathered element by element."""
+
+    resistors: list[Resistor] = field(default_factory=list)
+    capacitors: list[Capacitor] = field(default_factory=list)
+    diodes: list[Diode] = field(default_factory=list)
+    parts: list[str] = field(default_factory=list)  # every designator, shorts included
+    resting: set[str] = field(default_factory=set)  # other contacts, closed at rest
+
+
 def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
                diode_defaults: _DiodeDefaults) -> Stage:
     contact, receiver = path.contact, path.receiver
@@ -158,74 +178,86 @@ def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
         if _is_short(element) and len(element.nodes) == 2:
             nets.short(*element.nodes)
     receiver_node = nets.name(receiver.net)
-
-    raw_resistors: list[Resistor] = []
-    capacitors: list[Capacitor] = []
-    diodes: list[Diode] = []
-    parts: list[str] = []
+    found = _Passives()
     for element in path.elements:
-        parts.append(element.designator)
-        if _is_short(element):
-            continue
-        a, b = (nets.name(n) for n in element.nodes[:2])
-        if element.kind in "RC" and element.value is None:
-            raise NetlistError(f"{element.designator} has no value", element.location,
-                               element.text or None)
-        if a == b:
-            continue  # both ends on one net: carries nothing
-        if element.kind == "R":
-            tol = _tolerance(element, config.tolerances.resistor)
-            raw_resistors.append(Resistor(element.designator, a, b, element.value.si, tol, tol))
-        elif element.kind == "C":
-            tol = _tolerance(element, config.tolerances.capacitor)
-            capacitors.append(Capacitor(element.designator, a, b, element.value.si, tol, tol))
-        elif element.kind == "D":
-            diodes.append(Diode(element.designator, a, b, *diode_defaults.get()))
-
-    resting: set[str] = set()
-    for other in path.contacts:
-        if other.form not in ("SPST-NC", "SPDT"):
-            continue  # only a contact closed at rest joins the circuit
-        for throw in _throws(other, nets):
-            if throw.closed_when == "released" and throw.a != throw.b:
-                raw_resistors.append(Resistor(other.designator, throw.a, throw.b,
-                                              other.closed_resistance, 0.0, 0.0))
-                parts.append(other.designator)
-                resting.add(other.designator)
+        _add_passive(found, element, nets, config, diode_defaults)
+    _add_resting_contacts(found, path.contacts, nets)
 
     rails_used: dict[str, RailSource] = {}
     internal = _internal_pull(receiver, receiver_node, board, nets, rails_used)
     throws = _throws(contact, nets)
-    resistors = _with_roles(raw_resistors, throws, receiver_node, nets)
+    resistors = _with_roles(found.resistors, throws, receiver_node, nets)
     # A resting contact is neither a pull nor a series resistor for the rules.
-    resistors = [r if r.designator not in resting else
-                 Resistor(r.designator, r.a, r.b, r.ohms, r.tol_minus, r.tol_plus, "other")
+    resistors = [r if r.designator not in found.resting else replace(r, role=ResistorRole.OTHER)
                  for r in resistors]
     if internal is not None:
         resistors.append(internal)
-        parts.append(internal.designator)
+        found.parts.append(internal.designator)
 
-    for net in _circuit_nets(resistors, capacitors, diodes, throws):
+    for net in two_terminal_nets(resistors, found.capacitors, found.diodes, throws):
         rail = nets.rail(net)
         if rail is not None and net not in rails_used:
             rails_used[net] = RailSource(net, rail.voltage, rail.tolerance)
     circuit = StageCircuit(
-        resistors=tuple(resistors), capacitors=tuple(capacitors), diodes=tuple(diodes),
+        resistors=tuple(resistors), capacitors=tuple(found.capacitors), diodes=tuple(found.diodes),
         rails=tuple(rails_used[n] for n in sorted(rails_used, key=natural_key)),
         throws=throws, receiver_node=receiver_node)
     kind = _kind(path, circuit, nets, index)
     return Stage(contact=contact, receiver=receiver, kind=kind,
-                 parts=tuple(sorted(dict.fromkeys(parts), key=natural_key)),
+                 parts=tuple(sorted(dict.fromkeys(found.parts), key=natural_key)),
                  circuit=circuit, nets=circuit.nodes())
+
+
+def _add_passive(found: _Passives, element: Element, nets: _Nets, config: Config,
+                 diode_defaults: _DiodeDefaults) -> None:
+    """One element of the path into the circuit: shorts merged already, a part on one net dropped."""
+    found.parts.append(element.designator)
+    if _is_short(element):
+        return
+    a, b = (nets.name(n) for n in element.nodes[:2])
+    kind = element.kind
+    value = _value(element) if kind in "RC" else 0.0
+    if a == b:
+        return  # both ends on one net: carries nothing
+    if kind == "R":
+        tol = _tolerance(element, config.tolerances.resistor)
+        found.resistors.append(Resistor(element.designator, a, b, value, tol, tol))
+    elif kind == "C":
+        tol = _tolerance(element, config.tolerances.capacitor)
+        found.capacitors.append(Capacitor(element.designator, a, b, value, tol, tol))
+    elif kind == "D":
+        found.diodes.append(Diode(element.designator, a, b, *diode_defaults.get()))
+
+
+def _value(element: Element) -> float:
+    """A resistor's or capacitor's value in SI units; a NetlistError when it has none."""
+    if element.value is None:
+        raise NetlistError(f"{element.designator} has no value", element.location,
+                           element.text or None)
+    return element.value.si
+
+
+def _add_resting_contacts(found: _Passives, contacts: Iterable[Contact], nets: _Nets) -> None:
+    """Other contacts closed at rest join the circuit as their closed resistance."""
+    for other in contacts:
+        if other.form not in (ContactForm.SPST_NC, ContactForm.SPDT):
+            continue  # only a contact closed at rest joins the circuit
+        for throw in _throws(other, nets):
+            if throw.closed_when == ActuatorState.RELEASED and throw.a != throw.b:
+                found.resistors.append(Resistor(other.designator, throw.a, throw.b,
+                                                other.closed_resistance, 0.0, 0.0))
+                found.parts.append(other.designator)
+                found.resting.add(other.designator)
 
 
 def _throws(contact: Contact, nets: _Nets) -> tuple[Throw, ...]:
     """The contact's switched paths: which terminals join in which state."""
     t = [nets.name(n) for n in contact.terminals]
     ohms = contact.closed_resistance
-    if contact.form == "SPDT" and len(t) >= 3:
-        return (Throw(t[0], t[1], "released", ohms), Throw(t[0], t[2], "pressed", ohms))
-    state = "released" if contact.form == "SPST-NC" else "pressed"
+    if contact.form == ContactForm.SPDT and len(t) >= 3:
+        return (Throw(t[0], t[1], ActuatorState.RELEASED, ohms),
+                Throw(t[0], t[2], ActuatorState.PRESSED, ohms))
+    state = ActuatorState.RELEASED if contact.form == ContactForm.SPST_NC else ActuatorState.PRESSED
     return (Throw(t[0], t[1], state, ohms),)
 
 
@@ -237,17 +269,17 @@ def _internal_pull(receiver: Receiver, node: str, board: Board, nets: _Nets,
         return None
     nominal = (pull.r_min + pull.r_max) / 2
     spread = (pull.r_max - pull.r_min) / 2 / nominal
-    if pull.direction == "down":
+    if pull.direction == PullDirection.DOWN:
         end = GROUND
     else:
-        end = _supply_net(receiver, board, nets)
-        if end is None:
-            end = f"{receiver.part}:VDD"  # no rail net: a node of the pin's own supply
+        supply = _supply_net(receiver, board, nets)
+        # No rail net: a node of the pin's own supply.
+        end = supply if supply is not None else f"{receiver.part}:VDD"
         rail = nets.rail(end)
         rails_used[end] = RailSource(end, rail.voltage if rail else receiver.supply_v,
                                      rail.tolerance if rail else receiver.supply_tolerance)
     return Resistor(f"{receiver.part}:{receiver.pin}/pull", end, node, nominal,
-                    spread, spread, "internal-pull")
+                    spread, spread, ResistorRole.INTERNAL_PULL)
 
 
 def _supply_net(receiver: Receiver, board: Board, nets: _Nets) -> str | None:
@@ -255,7 +287,7 @@ def _supply_net(receiver: Receiver, board: Board, nets: _Nets) -> str | None:
     part = board.parts.get(key(receiver.part))
     if part is not None:
         for pin in part.pins:
-            if pin.role == "supply" and key(pin.net) in board.rails:
+            if pin.role == PinRole.SUPPLY and key(pin.net) in board.rails:
                 rail = board.rails[key(pin.net)]
                 if abs(rail.voltage - receiver.supply_v) <= 1e-9 * max(1.0, rail.voltage):
                     return nets.name(pin.net)
@@ -264,19 +296,6 @@ def _supply_net(receiver: Receiver, board: Board, nets: _Nets) -> str | None:
     if matching:
         return nets.name(min(matching, key=lambda r: natural_key(r.net)).net)
     return None
-
-
-def _circuit_nets(resistors, capacitors, diodes, throws) -> list[str]:
-    out: dict[str, None] = {}
-    for r in resistors:
-        out.setdefault(r.a); out.setdefault(r.b)
-    for c in capacitors:
-        out.setdefault(c.a); out.setdefault(c.b)
-    for d in diodes:
-        out.setdefault(d.anode); out.setdefault(d.cathode)
-    for t in throws:
-        out.setdefault(t.a); out.setdefault(t.b)
-    return list(out)
 
 
 # ---------------------------------------------------------------- roles
@@ -301,7 +320,7 @@ def _with_roles(resistors: list[Resistor], throws: tuple[Throw, ...], receiver_n
             links.setdefault(r.b, []).append((i, r.a))
     starts = {n for t in throws for n in (t.a, t.b) if not held(n)}
 
-    def reaches(sources, target: str, avoid: str) -> bool:
+    def reaches(sources: Iterable[str], target: str, avoid: str) -> bool:
         seen = {s for s in sources if s != avoid}
         queue = deque(seen)
         while queue:
@@ -317,33 +336,33 @@ def _with_roles(resistors: list[Resistor], throws: tuple[Throw, ...], receiver_n
     out: list[Resistor] = []
     for r in resistors:
         if held(r.a) != held(r.b):
-            role = "pull"
+            role = ResistorRole.PULL
         elif held(r.a):
-            role = "other"
+            role = ResistorRole.OTHER
         elif ((reaches(starts, r.a, r.b) and reaches((r.b,), receiver_node, r.a))
               or (reaches(starts, r.b, r.a) and reaches((r.a,), receiver_node, r.b))):
-            role = "series"
+            role = ResistorRole.SERIES
         else:
-            role = "other"
+            role = ResistorRole.OTHER
         out.append(Resistor(r.designator, r.a, r.b, r.ohms, r.tol_minus, r.tol_plus, role))
     return out
 
 
 # ---------------------------------------------------------------- kinds
 
-def _kind(path: InputPath, circuit: StageCircuit, nets: _Nets, index: TraceIndex) -> str:
+def _kind(path: InputPath, circuit: StageCircuit, nets: _Nets, index: TraceIndex) -> StageKind:
     receiver = path.receiver
     if receiver.dedicated_debounce:
-        return "dedicated"
+        return StageKind.DEDICATED
     if receiver.firmware_debounce_s is not None and receiver.firmware_debounce_s > 0:
-        return "firmware"
+        return StageKind.FIRMWARE
     if _is_latch(path, index):
-        return "latch"
+        return StageKind.LATCH
     if _charged_capacitor(circuit, nets):
-        return "rc-schmitt" if receiver.schmitt else "rc"
-    if any(r.role in ("pull", "internal-pull") for r in circuit.resistors):
-        return "pull-only"
-    return "direct"
+        return StageKind.RC_SCHMITT if receiver.schmitt else StageKind.RC
+    if any(r.role in (ResistorRole.PULL, ResistorRole.INTERNAL_PULL) for r in circuit.resistors):
+        return StageKind.PULL_ONLY
+    return StageKind.DIRECT
 
 
 def _charged_capacitor(circuit: StageCircuit, nets: _Nets) -> bool:
@@ -390,7 +409,8 @@ def _is_latch(path: InputPath, index: TraceIndex) -> bool:
     """A changeover whose NC and NO throws reach inputs of two gates, each
     gate's output feeding an input of the other (a cross-coupled pair)."""
     contact, receiver = path.contact, path.receiver
-    if contact.form != "SPDT" or len(contact.terminals) < 3 or receiver.gate is None:
+    gate = receiver.gate
+    if contact.form != ContactForm.SPDT or len(contact.terminals) < 3 or gate is None:
         return False
     nc_side = _side(path, contact.terminals[1], index)
     no_side = _side(path, contact.terminals[2], index)
@@ -401,10 +421,12 @@ def _is_latch(path: InputPath, index: TraceIndex) -> bool:
         other_side = nc_side
     else:
         return False
-    mine = (key(receiver.part), receiver.gate)
+    mine = (key(receiver.part), gate)
     for other in path.reached:
+        if other.gate is None:
+            continue
         theirs = (key(other.part), other.gate)
-        if other.gate is None or theirs == mine or key(other.net) not in other_side:
+        if theirs == mine or key(other.net) not in other_side:
             continue
         if _feeds(index, mine[0], theirs) and _feeds(index, theirs[0], mine):
             return True
@@ -422,7 +444,7 @@ def _feeds(index: TraceIndex, part_key: str, gate: tuple[str, str]) -> bool:
     if part is None:
         return False
     for pin in part.pins:
-        if pin.role != "output":
+        if pin.role != PinRole.OUTPUT:
             continue
         for r in index.receivers_at.get(key(pin.net), ()):
             if (key(r.part), r.gate) == gate:

@@ -8,8 +8,10 @@ visited, where networkx's path algorithms earn their import.
 
 from __future__ import annotations
 
-from drc.netlist.elements import GROUND
+from itertools import pairwise
+
 from drc.board.stage import Stage
+from drc.netlist.elements import GROUND
 
 
 def stage_graph(stage: Stage):
@@ -56,7 +58,7 @@ def signal_path(stage: Stage) -> list[str]:
     if best is None:
         return []
     out = [best[0]]
-    for a, b in zip(best, best[1:]):
+    for a, b in pairwise(best):
         parts = sorted(data["part"] for data in inner.get_edge_data(a, b).values())
         out += ["/".join(parts), b]
     return out

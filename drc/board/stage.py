@@ -9,11 +9,42 @@ contact's throws as switches. Ground is the net "0". Tolerances are fractions
 
 from __future__ import annotations
 
+from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
+from enum import StrEnum
 
 from drc.board.board import Contact, Receiver
 
-STAGE_KINDS = ("direct", "pull-only", "rc", "rc-schmitt", "latch", "firmware", "dedicated")
+
+class StageKind(StrEnum):
+    """What debounces an input path, if anything (see `recognise` for the tests, in order)."""
+
+    DIRECT = "direct"  # nothing between the contact and the pin
+    PULL_ONLY = "pull-only"  # a pull resistor, no charged capacitor
+    RC = "rc"  # a capacitor charged through a resistance, into a plain input
+    RC_SCHMITT = "rc-schmitt"  # the same into a Schmitt input
+    LATCH = "latch"  # a changeover into a cross-coupled gate pair
+    FIRMWARE = "firmware"  # an MCU pin with a declared firmware debounce
+    DEDICATED = "dedicated"  # the receiving part debounces (e.g. 4490)
+
+
+STAGE_KINDS = tuple(StageKind)
+
+
+class ResistorRole(StrEnum):
+    """What a resistor does for the stage."""
+
+    PULL = "pull"  # one end held (rail or ground), one free
+    SERIES = "series"  # on a route from the contact to the receiver
+    INTERNAL_PULL = "internal-pull"  # the receiver pin's own pull resistor
+    OTHER = "other"
+
+
+class ActuatorState(StrEnum):
+    """The state of a contact's actuator (button, lever): a throw is closed in one of them."""
+
+    PRESSED = "pressed"
+    RELEASED = "released"
 
 
 @dataclass(frozen=True, slots=True)
@@ -24,7 +55,7 @@ class Resistor:
     ohms: float
     tol_minus: float = 0.05
     tol_plus: float = 0.05
-    role: str = "other"  # "pull", "series", "internal-pull", "other"
+    role: ResistorRole = ResistorRole.OTHER
 
 
 @dataclass(frozen=True, slots=True)
@@ -59,8 +90,25 @@ class Throw:
 
     a: str
     b: str
-    closed_when: str  # "pressed" or "released"
+    closed_when: ActuatorState
     closed_ohms: float = 0.1
+
+
+def two_terminal_nets(resistors: Iterable[Resistor], capacitors: Iterable[Capacitor],
+                      diodes: Iterable[Diode], throws: Iterable[Throw]) -> Iterator[str]:
+    """Both nets of every part, resistors first, then capacitors, diodes and throws."""
+    for r in resistors:
+        yield r.a
+        yield r.b
+    for c in capacitors:
+        yield c.a
+        yield c.b
+    for d in diodes:
+        yield d.anode
+        yield d.cathode
+    for t in throws:
+        yield t.a
+        yield t.b
 
 
 @dataclass(frozen=True, slots=True)
@@ -74,15 +122,8 @@ class StageCircuit:
 
     def nodes(self) -> tuple[str, ...]:
         """Every non-ground net of the circuit, in a stable order."""
-        seen: dict[str, None] = {}
-        for r in self.resistors:
-            seen.setdefault(r.a); seen.setdefault(r.b)
-        for c in self.capacitors:
-            seen.setdefault(c.a); seen.setdefault(c.b)
-        for d in self.diodes:
-            seen.setdefault(d.anode); seen.setdefault(d.cathode)
-        for t in self.throws:
-            seen.setdefault(t.a); seen.setdefault(t.b)
+        seen = dict.fromkeys(two_terminal_nets(self.resistors, self.capacitors, self.diodes,
+                                               self.throws))
         for s in self.rails:
             seen.setdefault(s.net)
         seen.setdefault(self.receiver_node)
@@ -100,7 +141,7 @@ class Stage:
 
     contact: Contact
     receiver: Receiver
-    kind: str
+    kind: StageKind
     parts: tuple[str, ...]
     circuit: StageCircuit
     nets: tuple[str, ...]

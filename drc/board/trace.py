@@ -19,7 +19,6 @@ from collections import defaultdict
 from dataclasses import dataclass, field
 
 from drc.board.board import Board, Contact, Receiver
-from drc.cli.gcpause import collection_paused
 from drc.netlist.elements import GROUND, Element, key
 
 # Element letters the walk crosses: resistors, capacitors, inductors and
@@ -48,7 +47,7 @@ class InputPath:
     boundary: tuple[str, ...] = ()
     contacts: tuple[Contact, ...] = ()
     reached: tuple[Receiver, ...] = ()
-    index: "TraceIndex | None" = field(default=None, compare=False, repr=False)
+    index: TraceIndex | None = field(default=None, compare=False, repr=False)
 
     @property
     def name(self) -> str:
@@ -86,11 +85,14 @@ class TraceIndex:
         k = key(net)
         return k in self.stops or k in self.driven
 
-    def region(self, start: str) -> _Region:
-        """The connected passive region containing interior net key `start`."""
+    def region_id(self, start: str) -> int:
+        """The number of the connected passive region containing interior net key `start`.
+
+        Regions are walked on first use and remembered by the index.
+        """
         found = self._region_of.get(start)
         if found is not None:
-            return self._regions[found]
+            return found
         rid = len(self._regions)
         region = _Region()
         self._regions.append(region)
@@ -120,16 +122,11 @@ class TraceIndex:
                 elif other not in region_of:
                     region_of[other] = rid
                     stack.append(other)
-        return region
+        return rid
 
 
 def build_index(board: Board) -> TraceIndex:
     """Index the board's nets for tracing, in one pass over the netlist."""
-    with collection_paused():
-        return _build_index(board)
-
-
-def _build_index(board: Board) -> TraceIndex:
     elements = board.netlist.elements
     kinds = PASSIVE_KINDS
     # Every passive pin of the board passes here: group by spelling first (a
@@ -175,8 +172,14 @@ def _receiver_order(receiver: Receiver) -> tuple:
     return (key(receiver.part), receiver.pin)
 
 
+# What the contacts of one set of regions share: element ids, interior net
+# names, boundary net names, contact ids, receivers reached.
+_RegionSummary = tuple[tuple[int, ...], tuple[str, ...], tuple[str, ...], tuple[int, ...],
+                       tuple[Receiver, ...]]
+
+
 def trace_contact(index: TraceIndex, contact_index: int,
-                  cache: dict | None = None) -> list[InputPath]:
+                  cache: dict[tuple, _RegionSummary] | None = None) -> list[InputPath]:
     """The input paths of one contact (board.contacts[contact_index])."""
     contact = index.board.contacts[contact_index]
     region_ids: list[int] = []
@@ -189,8 +192,7 @@ def trace_contact(index: TraceIndex, contact_index: int,
             leaves.add(terminal)
             landed_driven.append(terminal)
         else:
-            index.region(terminal)
-            rid = index._region_of[terminal]
+            rid = index.region_id(terminal)
             if rid not in region_ids:
                 region_ids.append(rid)
     memo_key = (tuple(sorted(region_ids)), tuple(landed_driven), frozenset(leaves))
@@ -210,7 +212,7 @@ def trace_contact(index: TraceIndex, contact_index: int,
 
 
 def _region_summary(index: TraceIndex, region_ids: list[int], landed_driven: list[str],
-                    leaves: set[str]):
+                    leaves: set[str]) -> _RegionSummary:
     element_ids: set[int] = set()
     contact_ids: set[int] = set()
     interior: list[str] = []
@@ -248,16 +250,15 @@ def trace_paths(board: Board, index: TraceIndex | None = None) -> list[InputPath
     and pin. A contact that reaches no receiver gives no path (see
     `untraced_contacts`).
     """
-    with collection_paused():
-        index = index or build_index(board)
-        cache: dict = {}
-        paths: list[InputPath] = []
-        for contact_index in range(len(board.contacts)):
-            paths.extend(trace_contact(index, contact_index, cache))
+    index = index or build_index(board)
+    cache: dict[tuple, _RegionSummary] = {}  # shared regions, for this call only
+    paths: list[InputPath] = []
+    for contact_index in range(len(board.contacts)):
+        paths.extend(trace_contact(index, contact_index, cache))
     return paths
 
 
 def untraced_contacts(board: Board, paths: list[InputPath]) -> list[Contact]:
     """Contacts that reach no receiver input (wired to nothing checked)."""
-    traced = {id(p.contact) for p in paths}
-    return [c for c in board.contacts if id(c) not in traced]
+    traced = {p.contact for p in paths}
+    return [c for c in board.contacts if c not in traced]

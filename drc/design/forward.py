@@ -16,11 +16,13 @@ from collections.abc import Mapping
 from dataclasses import dataclass, replace
 
 from drc.library import eseries
-from drc.board.board import Contact, Receiver
+from drc.library.entries import ContactForm
+from drc.board.board import Contact, ContactOrigin, Receiver
 from drc.errors import SourceLocation, UsageError
 from drc.design.fixes import FIXABLE, MAX_ANALYSES, capacitor_series, search, with_values
 from drc.analysis.results import StageResult
-from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit, Throw
+from drc.board.stage import (ActuatorState, Capacitor, RailSource, Resistor, ResistorRole, Stage, StageCircuit,
+                             StageKind, Throw)
 from drc.units import format_quantity as fq
 
 TOPOLOGIES = ("pull-up", "pull-down")
@@ -152,17 +154,18 @@ def build_stage(rail_v: float, rx_family: str, schmitt: bool, bounce_s: float, r
     vt = float(limits.get("tolerance_rail", 0.05))
     closed = float(limits.get("contact_closed_resistance", 0.1))
     if topology == "pull-up":
-        r1 = Resistor("R1", "vcc", "n1", r_pull, rt, rt, role="pull")
-        throw = Throw("n1", "0", "pressed", closed)
+        r1 = Resistor("R1", "vcc", "n1", r_pull, rt, rt, role=ResistorRole.PULL)
+        throw = Throw("n1", "0", ActuatorState.PRESSED, closed)
     else:
-        r1 = Resistor("R1", "n1", "0", r_pull, rt, rt, role="pull")
-        throw = Throw("vcc", "n1", "pressed", closed)
-    circuit = StageCircuit((r1, Resistor("R2", "n1", "in", r_series, rt, rt, role="series")),
+        r1 = Resistor("R1", "n1", "0", r_pull, rt, rt, role=ResistorRole.PULL)
+        throw = Throw("vcc", "n1", ActuatorState.PRESSED, closed)
+    circuit = StageCircuit((r1, Resistor("R2", "n1", "in", r_series, rt, rt, role=ResistorRole.SERIES)),
                            (Capacitor("C1", "in", "0", c, ct, ct),), (),
                            (RailSource("vcc", rail_v, vt),), (throw,), "in")
-    contact = Contact("SW1", "design", "SPST-NO", ("n1", "0"), bounce_s, None, None, _LOC, "config")
+    contact = Contact("SW1", "design", ContactForm.SPST_NO, ("n1", "0"), bounce_s, None, None, _LOC,
+                      ContactOrigin.CONFIG)
     receiver = Receiver("U1", 1, "in", "design", rx_family, schmitt, False, "data", rail_v, vt, _LOC)
-    return Stage(contact, receiver, "rc-schmitt" if schmitt else "rc", ("R1", "R2", "C1"), circuit,
+    return Stage(contact, receiver, StageKind.RC_SCHMITT if schmitt else StageKind.RC, ("R1", "R2", "C1"), circuit,
                  circuit.nodes())
 
 

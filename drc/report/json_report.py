@@ -175,7 +175,7 @@ def render_json(run: RunReport) -> str:
     dump_indented because the standard library's indenting encoder is pure
     Python generators, three times slower on a report of thousands of stages.
     """
-    from drc.board.trace import collection_paused
+    from drc.cli.gcpause import collection_paused
     with collection_paused():  # many small dicts, no cycles: no collections needed
         return dump_indented(report_document(run)) + "\n"
 
