@@ -9,8 +9,7 @@ from __future__ import annotations
 
 import pytest
 
-from drc.config.settings import (Config, ContactConfig, McuConfig, McuPinConfig, PartConfig,
-                              RailConfig, Tolerances)
+from drc.config.settings import Config, ContactConfig, McuConfig, McuPinConfig, PartConfig, RailConfig, Tolerances
 from drc.errors import ConfigError
 
 HC14 = "XU1 in1 o1 0 o2 0 o3 0 o4 0 o5 0 o6 0 {vcc} 74HC14"

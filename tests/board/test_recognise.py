@@ -12,10 +12,10 @@ from __future__ import annotations
 
 import pytest
 
-from drc.config.settings import Config, McuConfig, McuPinConfig, Tolerances
 from drc.board.recognise import recognise, stages_for_board
 from drc.board.stage import STAGE_KINDS
 from drc.board.trace import trace_paths
+from drc.config.settings import Config, McuConfig, McuPinConfig, Tolerances
 
 # '14 hex Schmitt inverter and '04 hex inverter: inputs 1 3 5 9 11 13, GND 7, VCC 14.
 HC14 = "XU1 {a} o1 0 o2 0 o3 0 o4 0 o5 0 o6 0 +5V 74HC14\n"

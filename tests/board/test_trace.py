@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import time
 
-from drc.config.settings import Config
 from drc.board.recognise import stages_for_board
 from drc.board.trace import trace_paths, untraced_contacts
+from drc.config.settings import Config
 
 SUPPLY = "V1 +5V 0 DC 5\n"
 
