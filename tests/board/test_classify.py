@@ -236,3 +236,30 @@ XU9 +3V3 0 KEY1 KEY2 n5 CTRL_CHIP
             key1.internal_pull.r_max) == ("up", 20e3, 60e3)
     assert not by_pin[4].schmitt and by_pin[4].internal_pull is None
     assert board.parts["u9"].part_type == "mcu"
+
+
+def test_annotation_debounces_are_applied_during_classification(board_of):
+    # `*@drc debounce PART:PIN TIME` reaches classify as "part:pin" (case-folded) -> seconds;
+    # it wins over the config's debounce and also applies to a logic part's pin.
+    config = Config(mcus=(McuConfig("U9", "MCU-3V3", supply_pins=(1,), ground_pins=(2,), pins=(
+        McuPinConfig("U9", 3, "MCU-3V3", debounce_s=20e-3),
+        McuPinConfig("U9", 4, "MCU-3V3")),),))
+    board = board_of("""debounce
+V1 +5V 0 DC 5
+V2 +3V3 0 DC 3.3
+XU9 +3V3 0 KEY1 KEY2 CTRL_CHIP
+""" + HC14.format(vcc="+5V") + "\n", config, debounces={"u9:3": 30e-3, "u1:1": 5e-3})
+    by_ref = {r.ref: r.firmware_debounce_s for r in board.receivers}
+    assert by_ref["U9:3"] == 30e-3 and by_ref["U9:4"] is None
+    assert by_ref["U1:1"] == 5e-3 and by_ref["U1:3"] is None
+
+
+def test_annotation_debounce_makes_a_firmware_stage(tmp_path):
+    from drc.pipeline import CheckOptions, check_board_full
+    board = tmp_path / "b.cir"
+    board.write_text("annotated\n*@drc debounce U1:1 20ms\nV1 +5V 0 DC 5\nR1 +5V in1 10k\n"
+                     "SW1 in1 0 SW_PUSH\n" + HC14.format(vcc="+5V") + "\n.end\n")
+    check = check_board_full(board, CheckOptions(propose_fixes=False))
+    [result] = check.results
+    assert result.stage.kind == "firmware"
+    assert result.stage.receiver.firmware_debounce_s == pytest.approx(20e-3)

@@ -56,3 +56,30 @@ def test_missing_file_is_a_library_error(rules_copy):
     (rules_copy / "parts.toml").unlink()
     with pytest.raises(LibraryError, match="parts.toml|cannot read"):
         load_library(rules_copy)
+
+
+def test_a_copy_with_the_same_content_is_an_equal_library(rules_copy):
+    # Memos key on the library's content, never on the object's identity.
+    assert load_library(rules_copy) == load_library()
+    assert hash(load_library(rules_copy)) == hash(load_library())
+
+
+def test_a_changed_copy_is_a_different_library(rules_copy):
+    path = rules_copy / "limits.toml"
+    path.write_text(path.read_text().replace("value = 1.0", "value = 1.5", 1))
+    assert load_library(rules_copy) != load_library()
+
+
+def test_lookup_errors_belong_to_the_error_hierarchy():
+    from drc.errors import DrcError
+    from drc.library.entries import SupplyOutOfRange, UnknownFamily
+    library = load_library()
+    with pytest.raises(UnknownFamily) as unknown:
+        library.family("HCX")
+    assert isinstance(unknown.value, DrcError) and isinstance(unknown.value, KeyError)
+    assert unknown.value.render() == str(unknown.value) == \
+        "unknown logic family 'HCX'; did you mean HC, HCT, AHC?"
+    with pytest.raises(SupplyOutOfRange) as outside:
+        library.family("HC").check_supply(7.0)
+    assert isinstance(outside.value, DrcError) and isinstance(outside.value, ValueError)
+    assert str(outside.value) == "VCC 7 V is outside the HC supply range 2-6 V"
