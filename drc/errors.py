@@ -3,11 +3,39 @@
 Every error carries enough to point at the cause: a file, and where the
 cause is inside a file, a line and a column. The command line maps the whole
 hierarchy to exit status 2 and one clean message; nothing below it prints.
+The exit statuses themselves are here too (the contract with shells and CI
+jobs), and the "did you mean" wording every unknown name gets.
 """
 
 from __future__ import annotations
 
+import difflib
+from collections.abc import Iterable
 from dataclasses import dataclass
+from enum import IntEnum
+
+
+class ExitStatus(IntEnum):
+    """What a `drc` process exits with."""
+
+    OK = 0  # nothing at or above the fail level
+    FINDINGS = 1  # findings at or above the fail level
+    ERROR = 2  # bad input, config or usage (any DrcError), or an internal error
+    INTERRUPTED = 130  # Ctrl-C, as shells report SIGINT
+
+
+def suggest(name: str, candidates: Iterable[str]) -> str | None:
+    """The candidate nearest to `name` (difflib), or None when nothing is close."""
+    matches = difflib.get_close_matches(name, sorted(candidates), n=1, cutoff=0.6)
+    return matches[0] if matches else None
+
+
+def unknown_name_message(kind: str, name: str, candidates: Iterable[str]) -> str:
+    """`unknown rule id 'bounce-windw'; did you mean 'bounce-window'?`"""
+    candidates = list(candidates)
+    nearest = suggest(name, candidates)
+    hint = f"; did you mean {nearest!r}?" if nearest else f"; known: {', '.join(sorted(candidates))}"
+    return f"unknown {kind} {name!r}{hint}"
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,3 +101,7 @@ class UsageError(DrcError):
 
 class LibraryError(DrcError):
     """The engineering data under rules/ is malformed (a bug in a shipped file)."""
+
+
+class RulePackError(DrcError):
+    """An outside rule pack (entry-point group "drc.rules") cannot be loaded."""

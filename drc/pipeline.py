@@ -1,25 +1,39 @@
 """The whole check of one board, and of many, as one pure pipeline.
 
 read -> classify -> trace/recognise -> analyse -> check rules -> gate
-(annotations, waivers) -> BoardReport; a run maps `check_board` over boards
-(with any concurrent.futures Executor) and applies the baseline. Nothing here
-prints: the command line and the Python API both call these functions.
+(severities, annotations, waivers) -> report record; a run maps `check_board`
+over boards (with any concurrent.futures Executor) and applies the baseline.
+Nothing here prints: the command line and the Python API both call these
+functions.
+
+Three results, three names. `CheckedBoard` is everything one check computed,
+in memory (the board, its netlist, stage results, findings, config):
+`check_board_in_memory` (a file), `check_netlist_in_memory` (a netlist already
+read) and `check_netlist_text` (text, for tests and examples) return it or its
+parts. `BoardSummary` is what the public `check_board` returns, small and
+picklable so a worker process can send it back: the board's `BoardReport`
+(the record every report format reads) and its gate notes.
 """
 
 from __future__ import annotations
 
 from collections import Counter
+from collections.abc import Callable, Iterable
 from concurrent.futures import Executor
 from dataclasses import dataclass, field, replace
 from datetime import date
 from pathlib import Path
-from typing import Iterable
+from typing import TYPE_CHECKING
 
-from drc.config.settings import Config
-from drc.cli.gcpause import collection_paused
-from drc.errors import DrcError
-from drc.checks.findings import Finding
 from drc.analysis.results import StageResult
+from drc.checks.findings import Finding
+from drc.config.settings import Config, Waiver
+from drc.errors import DrcError
+
+if TYPE_CHECKING:
+    from drc.board.board import Board
+    from drc.gate.decision import WaiverNote, WaiverOutcome
+    from drc.report.run_report import BaselineInfo, BoardReport, Inventory, RunReport
 
 NETLIST_SUFFIXES = (".cir", ".sp", ".spice", ".net", ".ckt")
 
@@ -46,17 +60,21 @@ class CheckOptions:
     today: date | None = None
 
 
-@dataclass
-class BoardCheck:
-    """Everything computed for one board, before it is frozen into a BoardReport."""
+@dataclass(frozen=True)
+class CheckedBoard:
+    """Everything one check computed for one board, in memory (netlist included).
+
+    What `drc trace`, the tests and the fix search read; `board_report`
+    turns it into the BoardReport record the reports format.
+    """
 
     path: str
-    board: object
+    board: Board
     results: list[StageResult] = field(default_factory=list)
     findings: list[Finding] = field(default_factory=list)
     config: Config | None = None
-    waiver_outcome: object | None = None
-    annotation_notes: tuple = ()
+    waiver_outcome: WaiverOutcome | None = None
+    annotation_notes: tuple[WaiverNote, ...] = ()
     files: tuple[str, ...] = ()
     reader_diagnostics: tuple = ()
 
@@ -141,7 +159,7 @@ def effective_limits(config: Config) -> dict[str, float]:
 
 def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
     from drc.errors import UsageError
-    from drc.gate.selection import resolve_selection
+    from drc.gate.decision import resolve_selection
     ids = rule_ids()
     # Command-line ids are usage errors; the config's were checked when it loaded.
     resolve_selection(ids, options.select, options.ignore, where="command line", error=UsageError)
@@ -160,12 +178,13 @@ def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[F
     return [replace(f, fix=fixed[id(f)]) if id(f) in fixed else f for f in findings]
 
 
-def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> BoardCheck:
-    """Classify, analyse and check one read netlist; annotations and waivers applied."""
-    from drc.netlist.annotations import read_annotations
-    from drc.checks import run_rules
+def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path: str) -> CheckedBoard:
+    """Classify, analyse and check one read netlist; the gate's severities, annotations
+    and waivers applied."""
     from drc.board.classify import classify
-    from drc.gate.waivers import apply_annotations, apply_waivers
+    from drc.checks import run_rules
+    from drc.gate.decision import judge_board
+    from drc.netlist.annotations import read_annotations
     lib = library()
     annotations = read_annotations(netlist.files) if netlist.files else None
     if annotations and annotations.contacts:
@@ -176,21 +195,16 @@ def check_netlist(netlist, config: Config, options: CheckOptions, path: str) -> 
     results = analyse_board(board, config)
     limits = effective_limits(config)
     selected = selected_rule_ids(config, options)
-    findings = run_rules(board, results, limits, dict(config.severities), selected)
+    findings = run_rules(board, results, limits, selected)
     if options.propose_fixes and findings:
         findings = _with_fixes(results, findings, limits, options.eseries or config.eseries)
-    notes: tuple = ()
-    if annotations and annotations.waivers:
-        outcome = apply_annotations(findings, [(w.rule, w.parts, w.reason, w.location)
-                                               for w in annotations.waivers])
-        findings, notes = list(outcome.findings), tuple(outcome.notes)
-    waiver_outcome = None
-    if config.waivers:
-        waiver_outcome = apply_waivers(findings, config.waivers, path, options.today or date.today())
-        findings = list(waiver_outcome.findings)
-    return BoardCheck(path=path, board=board, results=results, findings=findings, config=config,
-                      waiver_outcome=waiver_outcome, annotation_notes=notes,
-                      files=tuple(netlist.files), reader_diagnostics=tuple(netlist.diagnostics))
+    waived = [(w.rule, w.parts, w.reason, w.location) for w in annotations.waivers] if annotations else []
+    judged = judge_board(findings, path, options.today or date.today(), severities=config.severities,
+                         annotations=waived, waivers=config.waivers)
+    return CheckedBoard(path=path, board=board, results=results, findings=list(judged.findings),
+                        config=config, waiver_outcome=judged.waiver_outcome,
+                        annotation_notes=judged.annotation_notes, files=tuple(netlist.files),
+                        reader_diagnostics=tuple(netlist.diagnostics))
 
 
 def read_board(path: str, config: Config, options: CheckOptions):
@@ -199,16 +213,16 @@ def read_board(path: str, config: Config, options: CheckOptions):
                         keep_as_part=library().is_known_subcircuit)
 
 
-def check_board_full(path: str | Path, options: CheckOptions = CheckOptions()) -> BoardCheck:
-    """Read and check one netlist file (errors propagate as DrcError)."""
+def check_board_in_memory(path: str | Path, options: CheckOptions = CheckOptions()) -> CheckedBoard:
+    """Read and check one netlist file, keeping everything (errors propagate as DrcError)."""
     path = str(path)
     config = find_config(path, options)
-    with collection_paused():  # the pipeline allocates many small records and frees few
-        netlist = read_board(path, config, options)
-        return check_netlist(netlist, config, options, path)
+    netlist = read_board(path, config, options)
+    return check_netlist_in_memory(netlist, config, options, path)
 
 
-def board_report(check: BoardCheck):
+def board_report(check: CheckedBoard) -> BoardReport:
+    """The report record of a checked board: what every report format reads."""
     from drc.report.run_report import BoardReport
     board = check.board
     kinds: Counter[str] = Counter(r.stage.kind for r in check.results)
@@ -221,7 +235,7 @@ def board_report(check: BoardCheck):
                        files=check.files, inventory=inventory(board))
 
 
-def inventory(board):
+def inventory(board: Board) -> Inventory:
     """Parts by element letter, nets, rails and flattened instances of a classified board."""
     from drc.report.run_report import Inventory
     elements = board.netlist.elements
@@ -233,45 +247,39 @@ def inventory(board):
 
 
 @dataclass(frozen=True)
-class BoardOutcome:
-    """What a worker sends back for one board: its report and its gate notes."""
+class BoardSummary:
+    """What `check_board` returns (and a worker sends back) for one board: its report
+    record and its gate notes; no netlist, so it is small and picklable."""
 
-    report: object
+    report: BoardReport
     notes: tuple[str, ...] = ()
-    waivers: tuple = ()
-    waiver_outcome: object | None = None
+    waivers: tuple[Waiver, ...] = ()
+    waiver_outcome: WaiverOutcome | None = None
     failed: bool = False
 
 
-def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> BoardOutcome:
+def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> BoardSummary:
     """Check one board; a bad board becomes a report with an error, never an exception.
 
     Top-level and picklable, so a process pool or a cluster executor can run it.
     """
     from drc.report.run_report import BoardReport
-    # The collector stays paused until the report is built: with a large
-    # netlist alive, a full collection set off by the report's allocations
-    # would walk every element of it (the records hold no cycles).
-    with collection_paused():
-        try:
-            check = check_board_full(path, options)
-        except DrcError as exc:
-            return BoardOutcome(BoardReport(path=str(path), error=exc.render()), failed=True)
-        notes = tuple(n.message for n in check.annotation_notes)
-        waivers = tuple(check.config.waivers) if check.config else ()
-        outcome = BoardOutcome(board_report(check), notes, waivers, check.waiver_outcome)
-        # The netlist and board go now, by reference counting: the first collection
-        # after the pause then walks only the report, not every element.
-        del check
-    return outcome
+    try:
+        check = check_board_in_memory(path, options)
+    except DrcError as exc:
+        return BoardSummary(BoardReport(path=str(path), error=exc.render()), failed=True)
+    notes = tuple(n.message for n in check.annotation_notes)
+    waivers = tuple(check.config.waivers) if check.config else ()
+    return BoardSummary(board_report(check), notes, waivers, check.waiver_outcome)
 
 
-def check_text(text: str, path: str = "<example>", config: Config | None = None,
-               options: CheckOptions = CheckOptions(propose_fixes=False)):
-    """Check netlist text; returns (board, results, findings). For tests and the API."""
+def check_netlist_text(text: str, path: str = "<example>", config: Config | None = None,
+                       options: CheckOptions = CheckOptions(propose_fixes=False)
+                       ) -> tuple[Board, list[StageResult], list[Finding]]:
+    """Check netlist text; returns (board, results, findings). For tests and examples."""
     from drc.netlist.reader import read_netlist_text
     netlist = read_netlist_text(text, path, keep_as_part=library().is_known_subcircuit)
-    check = check_netlist(netlist, config or Config(), options, path)
+    check = check_netlist_in_memory(netlist, config or Config(), options, path)
     return check.board, check.results, check.findings
 
 
@@ -291,38 +299,21 @@ def board_files(paths: Iterable[str | Path]) -> list[Path]:
 
 def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *,
           executor: Executor | None = None, baseline_path: str | None = None,
-          fail_level: str = "error", progress=None):
+          fail_level: str = "error", progress: Callable[[str | None], object] | None = None) -> RunReport:
     """Check many boards and assemble a RunReport (results in a stable order).
 
     executor: any concurrent.futures.Executor (a process pool, a cluster's
     executor); None runs in this process. progress: called once per board.
     """
     from drc.checks import all_rules
+    from drc.gate.decision import run_waiver_notes
     from drc.report.run_report import RunReport
-    from drc.gate.waivers import combine_notes
     files = [str(f) for f in board_files(paths)]
-    if executor is None:
-        outcomes = []
-        for f in files:
-            outcomes.append(check_board(f, options))
-            if progress:
-                progress(f)
-    else:
-        futures = [executor.submit(check_board, f, options) for f in files]
-        outcomes = []
-        for fut in futures:
-            outcomes.append(fut.result())
-            if progress:
-                progress(None)
-    notes: list[str] = [n for o in outcomes for n in o.notes]
-    waiver_sets = {}
-    for o in outcomes:
-        if o.waivers:
-            waiver_sets.setdefault(o.waivers, []).append(o.waiver_outcome)
-    for waivers, wo in waiver_sets.items():
-        notes.extend(n.message for n in combine_notes(waivers, [w for w in wo if w is not None],
-                                                      options.today or date.today()))
-    reports = [o.report for o in outcomes]
+    summaries = _check_boards(files, options, executor, progress)
+    notes: list[str] = [n for s in summaries for n in s.notes]
+    notes += run_waiver_notes(((s.waivers, s.waiver_outcome) for s in summaries),
+                              options.today or date.today())
+    reports = [s.report for s in summaries]
     baseline_info, fixed = None, ()
     if baseline_path:
         reports, baseline_info, fixed = _apply_baseline(reports, baseline_path)
@@ -331,18 +322,33 @@ def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *
                      waiver_notes=tuple(notes), baseline=baseline_info, fixed=tuple(fixed))
 
 
-def _apply_baseline(reports, baseline_path: str):
-    from drc.gate.baseline import apply_baseline, load_baseline
+def _check_boards(files: list[str], options: CheckOptions, executor: Executor | None,
+                  progress: Callable[[str | None], object] | None) -> list[BoardSummary]:
+    """`check_board` over the files, in their order, here or on the executor."""
+    summaries: list[BoardSummary] = []
+    if executor is None:
+        for f in files:
+            summaries.append(check_board(f, options))
+            if progress:
+                progress(f)
+        return summaries
+    futures = [executor.submit(check_board, f, options) for f in files]
+    for future in futures:
+        summaries.append(future.result())
+        if progress:
+            progress(None)
+    return summaries
+
+
+def _apply_baseline(reports: list[BoardReport], baseline_path: str
+                    ) -> tuple[list[BoardReport], BaselineInfo, tuple]:
+    """The reports with the baseline's decisions applied (boards that failed stay as
+    they are), the baseline's tally and its fixed entries."""
+    from drc.gate.baseline import load_baseline
+    from drc.gate.decision import judge_against_baseline
     from drc.report.run_report import BaselineInfo
-    baseline = load_baseline(baseline_path)
-    out, fixed, matched, new = [], [], 0, 0
-    for report in reports:
-        if report.error:
-            out.append(report)
-            continue
-        findings, gone = apply_baseline(report.findings, baseline, report.path)
-        matched += sum(1 for f in findings if f.suppression == "baseline")
-        new += sum(1 for f in findings if f.suppression is None)
-        fixed.extend(gone)
-        out.append(replace(report, findings=tuple(findings)))
-    return out, BaselineInfo(path=baseline_path, matched=matched, new=new), fixed
+    judged = judge_against_baseline(((r.path, r.findings) for r in reports if not r.error),
+                                    load_baseline(baseline_path))
+    marked = iter(judged.findings)
+    out = [r if r.error else replace(r, findings=next(marked)) for r in reports]
+    return out, BaselineInfo(path=baseline_path, matched=judged.matched, new=judged.new), judged.fixed

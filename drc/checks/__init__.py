@@ -3,26 +3,33 @@
 Importing this package registers the built-in rules, one module each, in
 catalogue order. `run_rules` runs the selected rules over a board's stage
 results (stage rules) and its netlist (board rules) and returns immutable
-Findings; rules never parse, solve or print. An outside rule pack registers
-with the same `rule` decorator (see `registry`) and is picked up by
-`all_rules` as soon as its module is imported.
+Findings with each rule's own severity; rules never parse, solve or print,
+and never decide what a finding counts for (the user's severities, waivers
+and the fail level are the gate's: drc.gate.decision). Outside rule packs
+register with the same `rule` decorator and load through the "drc.rules"
+entry-point group when the registry is first read (see `registry`).
 """
 
 from __future__ import annotations
 
+import importlib
 from collections.abc import Iterable, Mapping
 
-from drc.checks.findings import Finding
 from drc.analysis.results import StageResult
+from drc.caching import Memo
 from drc.checks.context import RuleContext, locations_of
-from drc.checks.registry import Rule, registered_rules, rule
+from drc.checks.findings import Finding
+from drc.checks.registry import Rule, registered_rules, registry_generation, rule
 
-# Built-in rules, imported in catalogue order (registration order = catalogue order).
-from drc.checks import (  # noqa: E402,F401  (imported for their registration)
-    undebounced_input, floating_input, bounce_window, slow_edge, response_latency,
-    leakage_headroom, pullup_waste, resistance_range, contact_wetting, contact_surge,
-    rail_mismatch, ambiguous_value,
+# The built-in rules in catalogue order: importing a module registers its rule,
+# and the registration order is the catalogue order.
+BUILT_IN_RULE_MODULES = (
+    "undebounced_input", "floating_input", "bounce_window", "slow_edge", "response_latency",
+    "leakage_headroom", "pullup_waste", "resistance_range", "contact_wetting", "contact_surge",
+    "rail_mismatch", "ambiguous_value",
 )
+for _module in BUILT_IN_RULE_MODULES:
+    importlib.import_module(f"drc.checks.{_module}")
 
 __all__ = ["Rule", "RuleContext", "rule", "all_rules", "get_rule", "run_rules", "run_stage_rules"]
 
@@ -41,11 +48,9 @@ def get_rule(rule_id: str) -> Rule:
 
 
 def _contexts(rules: Iterable[Rule], board_name: str, limits: Mapping[str, float],
-              severities: Mapping[str, str] | None, locations) -> list[tuple[Rule, RuleContext]]:
-    severities = severities or {}
+              locations: Mapping) -> list[tuple[Rule, RuleContext]]:
     return [(r, RuleContext(rule_id=r.id, default_severity=r.severity, board_name=board_name,
-                            limits=limits, severity_override=severities.get(r.id),
-                            locations=locations)) for r in rules]
+                            limits=limits, locations=locations)) for r in rules]
 
 
 def _selected(selected_ids: Iterable[str] | None, kind: str | None = None) -> list[Rule]:
@@ -55,18 +60,17 @@ def _selected(selected_ids: Iterable[str] | None, kind: str | None = None) -> li
 
 
 def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float],
-              severities: Mapping[str, str] | None = None,
               selected_ids: Iterable[str] | None = None) -> list[Finding]:
     """Run the selected rules (None = all) on one board; findings in a stable order.
 
     Order: stage by stage (in the order of `results`), rules in catalogue
-    order within a stage; then the board rules. severities: rule id -> the
-    user's severity, overriding the rule's default.
+    order within a stage; then the board rules. Each finding has its rule's
+    severity; the user's overrides are the gate's (drc.gate.decision).
     """
     rules = _selected(selected_ids)
     locations = locations_of(board)
     board_name = getattr(board, "path", "") or ""
-    contexts = _contexts(rules, board_name, limits, severities, locations)
+    contexts = _contexts(rules, board_name, limits, locations)
     stage_rules = [(r, c) for r, c in contexts if r.kind == "stage"]
     findings: list[Finding] = []
     for result in results:
@@ -79,15 +83,13 @@ def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float]
 
 
 def run_stage_rules(result: StageResult, limits: Mapping[str, float],
-                    selected_ids: Iterable[str] | None = None, board=None,
-                    severities: Mapping[str, str] | None = None) -> list[Finding]:
+                    selected_ids: Iterable[str] | None = None, board=None) -> list[Finding]:
     """The stage rules alone on one result (what the fix solver re-runs)."""
-    if board is None and not severities:
+    if board is None:
         contexts = _bare_contexts(limits, selected_ids)
     else:
         rules = _selected(selected_ids, kind="stage")
-        contexts = _contexts(rules, getattr(board, "path", "") or "", limits, severities,
-                             locations_of(board) if board is not None else {})
+        contexts = _contexts(rules, getattr(board, "path", "") or "", limits, locations_of(board))
     out: list[Finding] = []
     for r, ctx in contexts:
         out.extend(r.check(result, ctx))
@@ -95,18 +97,15 @@ def run_stage_rules(result: StageResult, limits: Mapping[str, float],
 
 
 # The fix search re-runs the stage rules thousands of times with one limits
-# mapping and no board: their contexts are built once. Keyed by the mapping's
-# identity (each context holds the mapping and its rule, so the ids stay theirs
-# while cached) and by the rules registered.
-_BARE: dict[tuple, list[tuple[Rule, RuleContext]]] = {}
+# mapping and no board: their contexts are built once per limits (by value),
+# selection and state of the registry. Each holds its own copy of the limits.
+_BARE: Memo[tuple, list[tuple[Rule, RuleContext]]] = Memo("checks.bare-contexts", 64)
 
 
 def _bare_contexts(limits: Mapping[str, float], selected_ids) -> list[tuple[Rule, RuleContext]]:
     selected = None if selected_ids is None else tuple(sorted(selected_ids))
-    memo = (id(limits), selected, tuple(id(r) for r in registered_rules()))
-    found = _BARE.get(memo)
+    key = (tuple(limits.items()), selected, registry_generation())
+    found = _BARE.get(key)
     if found is None:
-        if len(_BARE) > 64:
-            _BARE.clear()
-        found = _BARE[memo] = _contexts(_selected(selected_ids, kind="stage"), "", limits, None, {})
+        found = _BARE.put(key, _contexts(_selected(selected_ids, kind="stage"), "", dict(limits), {}))
     return found

@@ -2,9 +2,11 @@
 
 A rule states facts (which parts, which figures, what message and fix); the
 context fills in what is the same for every rule: the board name, the
-severity (the rule's default, a per-finding default, or the user's
-override), and the netlist locations of the parts involved. Locations are
-looked up in a designator index built once per board, not per finding.
+severity (the rule's default, or a per-finding one the rule gives), and the
+netlist locations of the parts involved. The user's severity overrides are
+not applied here: what a finding counts for is the gate's decision
+(drc.gate.decision). Locations are looked up in a designator index built
+once per board, not per finding.
 """
 
 from __future__ import annotations
@@ -13,46 +15,40 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from operator import attrgetter
 
-from drc.errors import LibraryError, SourceLocation
-from drc.checks.findings import Figure, Finding
-from drc.netlist.elements import key
 from drc.analysis.results import StageResult
+from drc.caching import memoized
+from drc.checks.findings import Figure, Finding, Severity
+from drc.errors import LibraryError, SourceLocation
+from drc.netlist.elements import key
 from drc.units import format_quantity
 
 
 def figure(value: float, unit: str) -> Figure:
     """A Figure with its display text ("11.8 ms", "4.7 kΩ")."""
     value = float(value)
-    memo = (value, unit)
-    found = _FIGURES.get(memo) if value else None  # 0.0 and -0.0 are equal keys
-    if found is None:
-        found = Figure(value=value, unit=unit, text=quantity_text(value, unit))
-        if value:
-            if len(_FIGURES) > 50_000:  # a bound for long-lived processes
-                _FIGURES.clear()
-            _FIGURES[memo] = found
-    return found
+    if not value:  # 0.0 and -0.0 are equal keys: each is built with its own sign
+        return Figure(value=value, unit=unit, text=quantity_text(value, unit))
+    return _figure(value, unit)
+
+
+# Limits and standard values recur across stages and boards; a Figure is frozen.
+@memoized(50_000)
+def _figure(value: float, unit: str) -> Figure:
+    return Figure(value=value, unit=unit, text=quantity_text(value, unit))
 
 
 def quantity_text(value: float, unit: str) -> str:
     """units.format_quantity, remembered: part values and limits recur in every stage."""
-    memo = (value.__class__, value, unit)
     try:
-        return _TEXTS[memo]
-    except KeyError:
-        pass
+        return _quantity_text(value.__class__, value, unit)
     except TypeError:  # an unhashable value: format it as it is
         return format_quantity(value, unit)
-    text = format_quantity(value, unit)
-    if len(_TEXTS) > 50_000:  # a bound for long-lived processes
-        _TEXTS.clear()
-    _TEXTS[memo] = text
-    return text
 
 
-_TEXTS: dict[tuple, str] = {}
-# Limits and standard values recur across stages and boards; a Figure is frozen.
-_FIGURES: dict[tuple[float, str], Figure] = {}
+@memoized(50_000)
+def _quantity_text(_kind: type, value: float, unit: str) -> str:
+    # The value's class is part of the key: 1 and 1.0 are equal keys but may format apart.
+    return format_quantity(value, unit)
 
 
 _DESIGNATOR = attrgetter("designator")
@@ -116,14 +112,12 @@ class RuleContext:
     """Per-run facts for one rule.
 
     limits: key -> SI float (library defaults overridden by config).
-    severity_override: the user's severity for this rule, or None.
     """
 
     rule_id: str
-    default_severity: str
+    default_severity: Severity
     board_name: str
     limits: Mapping[str, float]
-    severity_override: str | None = None
     locations: Mapping[str, SourceLocation] = field(default_factory=dict)
 
     def limit(self, limit_key: str) -> float:
@@ -134,8 +128,9 @@ class RuleContext:
             raise LibraryError(f"rule {self.rule_id!r} needs limit {limit_key!r}, which "
                                f"rules/limits.toml does not define") from None
 
-    def severity(self, finding_default: str | None = None) -> str:
-        return self.severity_override or finding_default or self.default_severity
+    def severity(self, finding_default: str | None = None) -> Severity:
+        """The rule's severity, or the one the rule gives this finding."""
+        return Severity(finding_default) if finding_default else self.default_severity
 
     def location(self, designator: str) -> SourceLocation | None:
         return self.locations.get(key(designator))

@@ -1,16 +1,43 @@
 """Findings: one rule violation at one stage (or one part), immutable.
 
-Rules create findings; reports format them; nothing else touches them.
+Rules create findings; the gate (drc.gate.decision) marks the ones a waiver,
+an annotation or a baseline accepts; reports format them. The two choices a
+finding carries, its severity and its suppression, are string enums whose
+values are the words every report writes, so a report never needs to
+translate them.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from enum import StrEnum
 
 from drc.errors import SourceLocation
 
-SEVERITIES = ("note", "warning", "error")
-SEVERITY_RANK = {name: rank for rank, name in enumerate(SEVERITIES)}
+
+class Severity(StrEnum):
+    """How serious a finding is; the order note < warning < error is `rank`."""
+
+    NOTE = "note"
+    WARNING = "warning"
+    ERROR = "error"
+
+    @property
+    def rank(self) -> int:
+        return SEVERITY_RANK[self]
+
+
+class Suppression(StrEnum):
+    """What accepted a finding, so that it no longer fails the run."""
+
+    WAIVER = "waiver"  # a [[waivers]] entry of the config, with an expiry date
+    ANNOTATION = "annotation"  # a `*@drc waive` line in the netlist
+    BASELINE = "baseline"  # an entry of the baseline file
+
+
+SEVERITIES: tuple[Severity, ...] = (Severity.NOTE, Severity.WARNING, Severity.ERROR)
+# Plain strings look up the same ranks: a StrEnum member hashes and compares as its value.
+SEVERITY_RANK: dict[str, int] = {name: rank for rank, name in enumerate(SEVERITIES)}
 
 
 @dataclass(frozen=True, slots=True)
@@ -28,7 +55,7 @@ class Figure:
 @dataclass(frozen=True, slots=True)
 class Finding:
     rule: str
-    severity: str
+    severity: Severity
     board: str
     contact: str | None
     receiver: str | None
@@ -41,7 +68,7 @@ class Finding:
     location: SourceLocation | None
     related: tuple[SourceLocation, ...] = ()
     # Set by the gate (waivers, annotations, baselines), never by rules.
-    suppression: str | None = None  # None, "waiver", "annotation", "baseline"
+    suppression: Suppression | None = None
     justification: str | None = None
 
     def identity(self) -> tuple:

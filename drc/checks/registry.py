@@ -2,21 +2,42 @@
 
 A rule is a plain function plus its `RuleDoc`, registered with the `rule`
 decorator. Stage rules read one `StageResult`; board rules read the `Board`
-(its netlist's elements). Built-in rules register exactly the way an outside
-rule pack would: import the pack's module and its decorators run. The
-catalogue order is the registration order, so the built-in modules are
-imported in the order of the published catalogue.
+(its netlist's elements). The catalogue order is the registration order, so
+the built-in modules are imported (by drc.checks) in the order of the
+published catalogue.
+
+Outside rule packs register exactly the same way. A pack is an installed
+distribution that declares an entry point in the group "drc.rules" naming a
+module; that module uses `@rule(RuleDoc(...))`. The first time the registry
+is read, every such module is imported once, after the built-ins; a pack
+that cannot be imported, or that registers a bad rule, is a located
+RulePackError (exit status 2 on the command line), never a traceback.
 """
 
 from __future__ import annotations
 
+import traceback
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass
+from enum import StrEnum
+from pathlib import Path
 
-from drc.checks.findings import SEVERITIES
+from drc.checks.findings import SEVERITIES, Severity
 from drc.checks.ruledoc import RuleDoc
+from drc.errors import RulePackError, SourceLocation
 
-RULE_KINDS = ("stage", "board")
+ENTRY_POINT_GROUP = "drc.rules"
+
+
+class RuleKind(StrEnum):
+    """What a rule reads."""
+
+    STAGE = "stage"  # one StageResult
+    BOARD = "board"  # the whole Board
+
+
+RULE_KINDS: tuple[str, ...] = tuple(kind.value for kind in RuleKind)
+_SEVERITY_NAMES: tuple[str, ...] = tuple(severity.value for severity in SEVERITIES)
 
 
 @dataclass(frozen=True, slots=True)
@@ -29,7 +50,7 @@ class Rule:
     """
 
     doc: RuleDoc
-    kind: str
+    kind: RuleKind
     check: Callable
 
     @property
@@ -37,8 +58,8 @@ class Rule:
         return self.doc.id
 
     @property
-    def severity(self) -> str:
-        return self.doc.severity
+    def severity(self) -> Severity:
+        return Severity(self.doc.severity)
 
     @property
     def limits(self) -> tuple[str, ...]:
@@ -46,6 +67,9 @@ class Rule:
 
 
 _REGISTRY: dict[str, Rule] = {}
+# Bumped on every change, so that whatever is built from the registered rules
+# can tell, by value, whether it is still current.
+_GENERATION = 0
 
 
 def rule(doc: RuleDoc, kind: str = "stage") -> Callable[[Callable], Callable]:
@@ -56,24 +80,97 @@ def rule(doc: RuleDoc, kind: str = "stage") -> Callable[[Callable], Callable]:
     """
     if kind not in RULE_KINDS:
         raise ValueError(f"rule {doc.id!r}: kind must be one of {RULE_KINDS}, got {kind!r}")
-    if doc.severity not in SEVERITIES:
-        raise ValueError(f"rule {doc.id!r}: severity must be one of {SEVERITIES}, got {doc.severity!r}")
+    if doc.severity not in _SEVERITY_NAMES:
+        raise ValueError(f"rule {doc.id!r}: severity must be one of {_SEVERITY_NAMES}, got {doc.severity!r}")
 
     def register(check: Callable) -> Callable:
+        global _GENERATION
         if doc.id in _REGISTRY and _REGISTRY[doc.id].check is not check:
             raise ValueError(f"rule id {doc.id!r} is already registered")
-        _REGISTRY[doc.id] = Rule(doc=doc, kind=kind, check=check)
+        _REGISTRY[doc.id] = Rule(doc=doc, kind=RuleKind(kind), check=check)
+        _GENERATION += 1
         return check
 
     return register
 
 
 def registered_rules() -> tuple[Rule, ...]:
-    """Every registered rule, in registration (catalogue) order."""
+    """Every registered rule, in registration (catalogue) order, outside packs last."""
+    if not _packs_loaded:
+        load_rule_packs()
     return tuple(_REGISTRY.values())
+
+
+def registry_generation() -> int:
+    """A number that changes whenever a rule is registered or removed."""
+    if not _packs_loaded:
+        load_rule_packs()
+    return _GENERATION
 
 
 def unregister(ids: Iterable[str]) -> None:
     """Remove rules by id (for tests of outside packs; built-ins stay put otherwise)."""
+    global _GENERATION
     for rule_id in ids:
-        _REGISTRY.pop(rule_id, None)
+        if _REGISTRY.pop(rule_id, None) is not None:
+            _GENERATION += 1
+
+
+# ------------------------------------------------------------------ outside rule packs
+
+_packs_loaded = False
+# What a pack's import can raise for a broken pack: a missing or misspelt module,
+# a syntax error, a slip in its code, or a rule the decorator refuses.
+_PACK_FAILURES = (ImportError, SyntaxError, ValueError, TypeError, NameError, AttributeError,
+                  LookupError)
+
+
+def load_rule_packs() -> None:
+    """Import every module of the "drc.rules" entry-point group (once per process).
+
+    A pack that fails is a RulePackError naming the entry point, located at
+    the line of the pack that failed when there is one; loading is tried
+    again on the next use, so the error does not go away silently.
+    """
+    global _packs_loaded
+    from importlib.metadata import entry_points  # lazy: only when the registry is read
+
+    _packs_loaded = True  # a pack that reads the registry while it loads sees the rules so far
+    try:
+        for entry_point in entry_points(group=ENTRY_POINT_GROUP):
+            try:
+                entry_point.load()
+            except _PACK_FAILURES as exc:
+                raise _pack_error(entry_point, exc) from exc
+    except RulePackError:
+        _packs_loaded = False
+        raise
+
+
+def _pack_error(entry_point, exc: BaseException) -> RulePackError:
+    dist = getattr(entry_point, "dist", None)
+    origin = f" of {dist.name}" if dist is not None and getattr(dist, "name", None) else ""
+    message = (f"rule pack {entry_point.name!r}{origin} (entry point {entry_point.value!r} in group "
+               f"{ENTRY_POINT_GROUP!r}) cannot be loaded: {type(exc).__name__}: {_reason(exc)}")
+    if isinstance(exc, SyntaxError) and exc.filename:
+        return RulePackError(message, SourceLocation(exc.filename, exc.lineno or 0, exc.offset or 0),
+                             exc.text)
+    return RulePackError(message, *_pack_frame(exc))
+
+
+def _reason(exc: BaseException) -> str:
+    return exc.msg if isinstance(exc, SyntaxError) and exc.msg else str(exc)
+
+
+def _pack_frame(exc: BaseException) -> tuple[SourceLocation | None, str | None]:
+    """Where in the pack the import failed (and that line's text): the innermost frame
+    that is neither drc's own nor importlib's."""
+    package = Path(__file__).resolve().parents[1]
+    for frame in reversed(traceback.extract_tb(exc.__traceback__)):
+        name = frame.filename
+        if name.startswith("<") or Path(name).resolve().is_relative_to(package):
+            continue
+        if "importlib" in Path(name).parts:
+            continue
+        return SourceLocation(name, frame.lineno or 0), frame.line
+    return None, None

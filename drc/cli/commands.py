@@ -1,7 +1,8 @@
 """What each `drc` sub-command does, given its parsed arguments.
 
 Kept apart from the argument parser so that the parser stays cheap to build
-and each command imports only what it needs.
+and each command imports only what it needs. Each `run_NAME(args)` returns
+the exit status; errors are raised as DrcError for `drc.cli.parser.main`.
 """
 
 from __future__ import annotations
@@ -11,8 +12,35 @@ from contextlib import contextmanager
 from datetime import date
 from pathlib import Path
 
-from drc.cli.parser import EXIT_ERROR, EXIT_OK, FORMATS, _ids, _quantity
-from drc.errors import UsageError
+from drc.errors import ConfigError, DrcError, ExitStatus, UsageError
+from drc.report.formats import FORMATS, ConsoleFormatter, RenderOptions, formatter
+
+
+# ------------------------------------------------------------------ option values
+
+def _ids(values: list[str] | None) -> tuple[str, ...]:
+    """Rule ids from repeated comma lists: ["a,b", "c"] -> ("a", "b", "c")."""
+    out: list[str] = []
+    for v in values or ():
+        out.extend(x.strip() for x in v.split(",") if x.strip())
+    return tuple(out)
+
+
+def _quantity(text: str, dimension: str, option: str) -> float:
+    """A command-line quantity: "5ms", "10 kΩ"; R and C also in SPICE form ("4.7k", "470n")."""
+    from drc.units import parse_quantity
+    try:
+        return parse_quantity(text, dimension, option)
+    except ConfigError as exc:
+        if dimension in ("resistance", "capacitance"):
+            from drc.netlist.values import parse_value
+            value = parse_value(text.strip())
+            if value is not None and value.si > 0:
+                return value.si
+        message = exc.message
+        if message.startswith(option + ":"):
+            message = message[len(option) + 1:].strip()
+        raise UsageError(f"{option}: {message}") from None
 
 
 # ------------------------------------------------------------------ output
@@ -84,49 +112,17 @@ def _check_options(args):
         today=_as_of(args.as_of))
 
 
-def _run_fail_level(args, options, files) -> str:
+def _run_fail_level(args, options, files: list[Path]) -> str:
     """The command line's, else the (explicit or first discovered) config's, else error."""
+    from drc.gate.decision import run_fail_level
     if args.fail_level:
-        return args.fail_level
+        return run_fail_level(args.fail_level, None)
     from drc.pipeline import find_config
     try:
         config = find_config(str(files[0]) if files else None, options)
-    except Exception:
-        return "error"  # the board's own check reports a bad config
-    return config.fail_level or "error"
-
-
-def _render(fmt: str, run, quiet: bool) -> str:
-    if fmt == "json":
-        from drc.report.json_report import render_json
-        return render_json(run)
-    if fmt == "sarif":
-        from drc.report.sarif import render_sarif
-        return render_sarif(run, Path.cwd())
-    if fmt == "junit":
-        from drc.report.junit import render_junit
-        return render_junit(run, run.fail_level)
-    if fmt == "html":
-        from drc.report.html import render_html
-        return render_html(run)
-    return _plain_text(run, quiet, width=100)
-
-
-def _plain_text(run, quiet: bool, width: int) -> str:
-    """The text report without colour, lines stripped of rich's cell padding."""
-    from io import StringIO
-    from rich.console import Console
-    buffer = StringIO()
-    _print_text(run, Console(file=buffer, width=width, force_terminal=False, color_system=None,
-                             highlight=False), quiet)
-    return "".join(line.rstrip() + "\n" for line in buffer.getvalue().splitlines())
-
-
-def _print_text(run, console, quiet: bool) -> None:
-    from drc.report.text import render_folder_summary, render_text
-    render_text(run, console, quiet=quiet)
-    if len(run.boards) > 1:
-        render_folder_summary(run, console)
+    except (DrcError, OSError):
+        return run_fail_level(None, None)  # the board's own check reports a bad config
+    return run_fail_level(None, config.fail_level)
 
 
 def _progress(total: int):
@@ -139,63 +135,94 @@ def _progress(total: int):
     return progress, (lambda _path: progress.advance(task))
 
 
-def run_check(args) -> int:
-    from drc.atomic import write_atomic
-    from drc.pipeline import audit, board_files
-    from drc.gate.selection import exit_status
-    options = _check_options(args)
-    outputs = _outputs(args.output)
-    for p in args.paths:
+def _board_files(paths: list[str]) -> list[Path]:
+    """The netlists to check; a missing path or a folder without netlists is a usage error."""
+    from drc.pipeline import board_files
+    for p in paths:
         if not Path(p).exists():
             raise UsageError(f"{p}: no such file or folder")
-    files = board_files(args.paths)
+    files = board_files(paths)
     if not files:
-        raise UsageError(f"no netlists (*.cir *.sp *.spice *.net *.ckt) under {' '.join(args.paths)}")
-    inputs = [str(f) for f in files] + ([args.config] if args.config else [])
-    if args.baseline:
-        inputs.append(args.baseline)
-    from drc.pipeline import rule_ids
-    from drc.gate.selection import resolve_selection
-    resolve_selection(rule_ids(), options.select, options.ignore, where="command line", error=UsageError)
-    fail_level = _run_fail_level(args, options, files)
-    executor = None
-    if args.jobs > 1 and len(files) > 1:
-        from concurrent.futures import ProcessPoolExecutor
-        executor = ProcessPoolExecutor(max_workers=args.jobs)
+        raise UsageError(f"no netlists (*.cir *.sp *.spice *.net *.ckt) under {' '.join(paths)}")
+    return files
+
+
+def _executor(jobs: int, boards: int):
+    """A process pool for --jobs N over several boards (its workers pause the collector)."""
+    if jobs <= 1 or boards <= 1:
+        return None
+    from concurrent.futures import ProcessPoolExecutor
+
+    from drc.cli.gcpause import pause_collection_in_worker
+    return ProcessPoolExecutor(max_workers=jobs, initializer=pause_collection_in_worker)
+
+
+def _audit(files: list[Path], options, args, fail_level: str):
+    """The run over every board, on a process pool for --jobs, with a progress bar on a terminal."""
+    from drc.pipeline import audit
+    executor = _executor(args.jobs, len(files))
     progress, tick = _progress(len(files))
     try:
         if progress:
             progress.start()
-        run = audit(files, options, executor=executor, baseline_path=args.baseline,
-                    fail_level=fail_level, progress=tick)
+        return audit(files, options, executor=executor, baseline_path=args.baseline,
+                     fail_level=fail_level, progress=tick)
     finally:
         if progress:
             progress.stop()
         if executor is not None:
             executor.shutdown(cancel_futures=True)
+
+
+def _with_written_baseline(path: str, run, inputs: list[str]):
+    """Write the run's baseline to `path`; the run, saying so."""
+    from dataclasses import replace
+
+    from drc.gate.baseline import write_baseline
+    from drc.report.run_report import BaselineInfo
+    write_baseline(path, run, inputs=inputs)
+    active = sum(1 for f in run.findings() if f.suppression is None)
+    return replace(run, baseline=BaselineInfo(path, matched=0, new=active, written=True))
+
+
+def _print_report(name: str, run, options: RenderOptions) -> None:
+    """The report in format `name` on standard output (in colour on a terminal if it can)."""
+    chosen = formatter(name)
+    if isinstance(chosen, ConsoleFormatter):
+        with stdout_console() as console:
+            chosen.print_to(console, run, options)
+        return
+    sys.stdout.write(chosen.render(run, options))
+    sys.stdout.flush()
+
+
+def run_check(args) -> int:
+    from drc.atomic import write_atomic
+    from drc.gate.decision import exit_status, resolve_selection
+    from drc.pipeline import rule_ids
+    options = _check_options(args)
+    outputs = _outputs(args.output)
+    files = _board_files(args.paths)
+    inputs = [str(f) for f in files] + ([args.config] if args.config else [])
+    if args.baseline:
+        inputs.append(args.baseline)
+    resolve_selection(rule_ids(), options.select, options.ignore, where="command line", error=UsageError)
+    fail_level = _run_fail_level(args, options, files)
+    run = _audit(files, options, args, fail_level)
     # Nothing a board was read from (config found by discovery, included files) may be overwritten.
     inputs += [b.config_path for b in run.boards if b.config_path]
     inputs += [f for b in run.boards for f in b.files]
     if args.write_baseline:
-        from dataclasses import replace
-        from drc.gate.baseline import write_baseline
-        from drc.report.run_report import BaselineInfo
-        write_baseline(args.write_baseline, run, inputs=inputs)
-        active = sum(1 for f in run.findings() if f.suppression is None)
-        run = replace(run, baseline=BaselineInfo(args.write_baseline, matched=0, new=active, written=True))
+        run = _with_written_baseline(args.write_baseline, run, inputs)
     for board in run.boards:
         if board.error:  # bad input is reported on standard error whatever the format
             sys.stderr.write(board.error.rstrip("\n") + "\n")
+    render = RenderOptions(quiet=args.quiet, working_dir=Path.cwd())
     for fmt, file in outputs:
-        write_atomic(file, _render(fmt, run, args.quiet), inputs=inputs)
-    if args.format == "text":
-        with stdout_console() as console:
-            _print_text(run, console, args.quiet)
-    else:
-        sys.stdout.write(_render(args.format, run, args.quiet))
-        sys.stdout.flush()
+        write_atomic(file, formatter(fmt).render(run, render), inputs=inputs)
+    _print_report(args.format, run, render)
     if any(b.error for b in run.boards):
-        return EXIT_ERROR
+        return ExitStatus.ERROR
     return exit_status(list(run.findings()), fail_level, args.report_only)
 
 
@@ -214,12 +241,12 @@ def run_rules(args) -> int:
     with stdout_console() as console:
         console.print(table)
         console.print("`drc explain ID` prints one rule in full.")
-    return EXIT_OK
+    return ExitStatus.OK
 
 
 def run_explain(args) -> int:
     from drc.checks import all_rules
-    from drc.gate.selection import unknown_name_message
+    from drc.errors import unknown_name_message
     rules = {r.id: r for r in all_rules()}
     rule = rules.get(args.rule_id)
     if rule is None:
@@ -230,7 +257,7 @@ def run_explain(args) -> int:
             f"overridable in [limits]): {limits}\n\nFailing example\n{_indent(doc.failing_example)}\n"
             f"Passing example\n{_indent(doc.passing_example)}")
     sys.stdout.write(text.rstrip() + "\n")
-    return EXIT_OK
+    return ExitStatus.OK
 
 
 def _indent(text: str) -> str:
@@ -240,12 +267,12 @@ def _indent(text: str) -> str:
 # ------------------------------------------------------------------ trace / simulate
 
 def _board_stages(board_path: str, config_path: str | None, bounce: str | None):
-    from drc.pipeline import CheckOptions, check_board_full
+    from drc.pipeline import CheckOptions, check_board_in_memory
     if not Path(board_path).is_file():
         raise UsageError(f"{board_path}: no such file")
     options = CheckOptions(config_path=config_path, propose_fixes=False,
                            default_bounce_s=_quantity(bounce, "time", "--bounce") if bounce else None)
-    return check_board_full(board_path, options)
+    return check_board_in_memory(board_path, options)
 
 
 def matching_results(results, ref: str):
@@ -257,7 +284,7 @@ def matching_results(results, ref: str):
 
 
 def _no_match(check, ref: str) -> UsageError:
-    from drc.gate.selection import unknown_name_message
+    from drc.errors import unknown_name_message
     names = sorted({r.stage.contact.designator for r in check.results}
                    | {r.stage.receiver.ref for r in check.results})
     return UsageError(unknown_name_message(f"contact or receiver in {check.path}", ref, names))
@@ -271,7 +298,7 @@ def run_trace(args) -> int:
         raise _no_match(check, args.ref)
     with stdout_console() as console:
         print_trace(console, check, results)
-    return EXIT_OK
+    return ExitStatus.OK
 
 
 def run_simulate(args) -> int:
@@ -297,7 +324,7 @@ def run_simulate(args) -> int:
             if len(results) > 1:
                 console.print(f"{args.ref} has {len(results)} stages; simulating {result.stage.name}")
             render_simulation_text(sim, console)
-    return EXIT_OK
+    return ExitStatus.OK
 
 
 # ------------------------------------------------------------------ design
@@ -312,7 +339,7 @@ def run_design(args) -> int:
     else:
         name = (args.contact or "tactile").lower()
         if name not in lib.contact_classes:
-            from drc.gate.selection import unknown_name_message
+            from drc.errors import unknown_name_message
             raise UsageError(unknown_name_message("contact class", name, lib.contact_classes))
         bounce = lib.contact_classes[name].bounce_s
     latency = _quantity(args.latency, "time", "--latency")
@@ -321,7 +348,7 @@ def run_design(args) -> int:
     try:
         family = lib.family(args.family).name
     except KeyError:
-        from drc.gate.selection import unknown_name_message
+        from drc.errors import unknown_name_message
         raise UsageError(unknown_name_message("logic family", args.family, lib.families)) from None
     try:
         result = design_stage(rail, family, not args.plain, bounce, latency, series=args.series,
@@ -335,4 +362,4 @@ def run_design(args) -> int:
         if args.netlist:
             console.print(result.netlist_fragment(), markup=False)
         console.print("Guidance from models and typical data: verify on the real board.", style="dim")
-    return EXIT_OK if result.ok else 1
+    return ExitStatus.OK if result.ok else ExitStatus.FINDINGS

@@ -2,9 +2,12 @@
 
 Exit status: 0 nothing at or above the fail level; 1 findings at or above
 it; 2 bad input, bad config or usage (and any internal error); 130 when
-interrupted. Errors are one located message, never a traceback (unless
---traceback asks for it). Heavy modules are imported inside the commands
-so that `drc --version` and a small check start fast.
+interrupted (drc.errors.ExitStatus). Errors are one located message, never a
+traceback (unless --traceback asks for it): `main` is the one place that
+catches every exception. Heavy modules are imported inside the commands
+(drc.cli.commands) so that `drc --version` and a small check start fast.
+Python's cyclic collector is paused for the whole of a command (see
+drc.cli.gcpause); the Python API leaves it alone.
 """
 
 from __future__ import annotations
@@ -13,11 +16,11 @@ import argparse
 import sys
 
 from drc import __version__
-from drc.errors import DrcError, UsageError
+from drc.cli.gcpause import collection_paused
+from drc.errors import DrcError, ExitStatus, UsageError
+from drc.report.formats import FORMATS
 
-FORMATS = ("text", "json", "sarif", "junit", "html")
-LEVELS = ("error", "warning", "note")
-EXIT_OK, EXIT_FINDINGS, EXIT_ERROR, EXIT_INTERRUPTED = 0, 1, 2, 130
+LEVELS = ("error", "warning", "note")  # the severities, most serious first
 
 
 class _Parser(argparse.ArgumentParser):
@@ -25,31 +28,6 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message: str):  # noqa: D401 - argparse's name
         raise UsageError(f"{self.prog}: {message} (see `{self.prog} --help`)")
-
-
-def _ids(values: list[str] | None) -> tuple[str, ...]:
-    out: list[str] = []
-    for v in values or ():
-        out.extend(x.strip() for x in v.split(",") if x.strip())
-    return tuple(out)
-
-
-def _quantity(text: str, dimension: str, option: str) -> float:
-    """A command-line quantity: "5ms", "10 kΩ"; R and C also in SPICE form ("4.7k", "470n")."""
-    from drc.errors import ConfigError
-    from drc.units import parse_quantity
-    try:
-        return parse_quantity(text, dimension, option)
-    except ConfigError as exc:
-        if dimension in ("resistance", "capacitance"):
-            from drc.netlist.values import parse_value
-            value = parse_value(text.strip())
-            if value is not None and value.si > 0:
-                return value.si
-        message = exc.message
-        if message.startswith(option + ":"):
-            message = message[len(option) + 1:].strip()
-        raise UsageError(f"{option}: {message}") from None
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -129,34 +107,37 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run one `drc` command; the process's exit status. The last line of defence:
+    every error becomes one message on standard error and a status, never a traceback."""
     argv = sys.argv[1:] if argv is None else argv
     show_traceback = "--traceback" in argv
     try:
         args = build_parser().parse_args(argv)
         if args.command is None:
             build_parser().print_help()
-            return EXIT_ERROR
+            return ExitStatus.ERROR
         from drc.cli import commands
-        return getattr(commands, f"run_{args.command}")(args)
+        with collection_paused():  # the run builds many small records and frees few
+            return getattr(commands, f"run_{args.command}")(args)
     except DrcError as exc:
         _stderr(exc.render())
-        return EXIT_ERROR
+        return ExitStatus.ERROR
     except KeyboardInterrupt:
         _stderr("drc: interrupted")
-        return EXIT_INTERRUPTED
+        return ExitStatus.INTERRUPTED
     except BrokenPipeError:
-        return EXIT_ERROR
+        return ExitStatus.ERROR
     except Exception as exc:  # an internal error: one line unless asked for the traceback
         if show_traceback:
             raise
         _stderr(f"drc: internal error: {type(exc).__name__}: {exc} (rerun with --traceback for details)")
-        return EXIT_ERROR
+        return ExitStatus.ERROR
 
 
 def _stderr(text: str) -> None:
     try:
         sys.stderr.write(text.rstrip("\n") + "\n")
         sys.stderr.flush()
-    except Exception:
+    except (OSError, ValueError):  # standard error closed or gone: nothing left to tell
         pass
 

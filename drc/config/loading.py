@@ -97,8 +97,7 @@ from drc.config.settings import (
     Tolerances,
     Waiver,
 )
-from drc.errors import ConfigError, SourceLocation
-from drc.gate.selection import suggest, unknown_name_message
+from drc.errors import ConfigError, SourceLocation, suggest, unknown_name_message
 from drc.netlist.lines import read_regular
 from drc.units import parse_any_quantity, parse_quantity
 

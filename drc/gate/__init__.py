@@ -1,5 +1,6 @@
 """The gate: which findings count and what the run exits with.
 
-Rule selection and severities (`selection`), waivers (`waivers`) and
-baselines (`baseline`).
+Every decision (rule selection, severities, waivers and annotations, the
+baseline, the fail level, the exit status) lives in `decision`; `baseline`
+reads and writes the baseline file those decisions use.
 """

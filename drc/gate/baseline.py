@@ -4,10 +4,9 @@ A baseline file is JSON ("format": "drc-baseline/1") listing, per finding,
 the board, the rule, the contact, the receiver and the passive parts: the
 finding's identity, never its line numbers, so the baseline survives edits
 that shift lines. Board paths are stored relative to the baseline file's
-folder, so the same baseline works from any working directory. Applying a
-baseline marks matching findings with suppression "baseline" (each entry
-matches at most one finding, so a second identical finding is new) and
-returns the entries that matched nothing: findings that have been fixed.
+folder, so the same baseline works from any working directory. This module
+reads and writes the file; applying it (which findings it accepts, which
+entries are fixed) is a decision of the gate, in drc.gate.decision.
 """
 
 from __future__ import annotations
@@ -15,18 +14,15 @@ from __future__ import annotations
 import codecs
 import json
 import os
-from collections.abc import Iterable, Sequence
-from dataclasses import dataclass, replace
+from collections.abc import Iterable
+from dataclasses import dataclass
 from pathlib import Path, PurePath
-from typing import TYPE_CHECKING, Any
+from typing import Any, Protocol
 
 from drc.atomic import write_atomic
+from drc.checks.findings import SEVERITIES, Finding, Severity, Suppression
 from drc.errors import ConfigError, SourceLocation
 from drc.netlist.lines import read_regular
-from drc.checks.findings import SEVERITIES, Finding
-
-if TYPE_CHECKING:
-    from drc.report.run_report import RunReport
 
 BASELINE_FORMAT = "drc-baseline/1"
 # A baseline of a large audit is megabytes; a fixed cap keeps a wrong path cheap.
@@ -41,7 +37,7 @@ class BaselineEntry:
     contact: str | None
     receiver: str | None
     parts: tuple[str, ...]
-    severity: str
+    severity: Severity
     message: str
 
     def identity(self) -> tuple:
@@ -77,25 +73,31 @@ def _entry(finding: Finding, root: str | os.PathLike | None) -> BaselineEntry:
                          finding.message)
 
 
-def _sort_key(entry: BaselineEntry) -> tuple:
+def entry_sort_key(entry: BaselineEntry) -> tuple:
+    """Entries in file order: board, identity, severity, message."""
     return (entry.board, entry.identity(), entry.severity, entry.message)
+
+
+class RunFindings(Protocol):
+    """What a baseline is written from: any run that lists its findings (a RunReport)."""
+
+    def findings(self) -> Iterable[Finding]: ...
 
 
 def baseline_entries(findings: Iterable[Finding], root: str | os.PathLike | None = None
                      ) -> tuple[BaselineEntry, ...]:
     """Entries for the findings to accept: all except those a waiver or annotation covers."""
-    chosen = [_entry(f, root) for f in findings if f.suppression in (None, "baseline")]
-    return tuple(sorted(chosen, key=_sort_key))
+    chosen = [_entry(f, root) for f in findings if f.suppression in (None, Suppression.BASELINE)]
+    return tuple(sorted(chosen, key=entry_sort_key))
 
 
-def baseline_document(run: "RunReport", root: str | os.PathLike | None = None) -> dict:
+def baseline_document(run: RunFindings, root: str | os.PathLike | None = None) -> dict:
     """The JSON document of a baseline accepting every unwaived finding of `run`."""
-    findings = [f for board in run.boards for f in board.findings]
     return {"format": BASELINE_FORMAT,
-            "entries": [e.as_json() for e in baseline_entries(findings, root)]}
+            "entries": [e.as_json() for e in baseline_entries(run.findings(), root)]}
 
 
-def write_baseline(path: str | os.PathLike, run: "RunReport",
+def write_baseline(path: str | os.PathLike, run: RunFindings,
                    inputs: Iterable[str | os.PathLike] = ()) -> None:
     """Write the baseline of `run` to `path` atomically (never over an input file)."""
     document = baseline_document(run, Path(path).parent)
@@ -116,26 +118,7 @@ def _optional_str(value: Any, path: str, where: str) -> str | None:
 def load_baseline(path: str | os.PathLike) -> Baseline:
     """Read a baseline file; a malformed one is a located ConfigError."""
     name = os.fspath(path)
-    try:
-        data = read_regular(name, name, MAX_BASELINE_BYTES, ConfigError, None)
-    except ConfigError as exc:
-        raise _bad(name, f"cannot read the file: {exc.message}") from None
-    try:
-        text = data.decode("utf-16") if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)) \
-            else data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        before = data[:exc.start]
-        raise _bad(name, f"not UTF-8 text ({exc.reason})", before.count(b"\n") + 1,
-                   exc.start - (before.rfind(b"\n") + 1) + 1) from None
-    try:
-        document = json.loads(text)
-    except RecursionError:
-        raise _bad(name, "not valid JSON: arrays or objects nest too deeply") from None
-    except json.JSONDecodeError as exc:
-        raise ConfigError(f"baseline: not valid JSON: {exc.msg}",
-                          SourceLocation(name, exc.lineno, exc.colno),
-                          text.splitlines()[exc.lineno - 1] if exc.lineno <= len(text.splitlines()) else None
-                          ) from None
+    document = _json_document(name, _baseline_text(name))
     if not isinstance(document, dict) or document.get("format") != BASELINE_FORMAT:
         found = document.get("format") if isinstance(document, dict) else None
         raise _bad(name, f"expected \"format\": \"{BASELINE_FORMAT}\", found {found!r}; "
@@ -143,52 +126,55 @@ def load_baseline(path: str | os.PathLike) -> Baseline:
     raw_entries = document.get("entries")
     if not isinstance(raw_entries, list):
         raise _bad(name, "\"entries\" must be a list")
-    entries = []
-    for i, raw in enumerate(raw_entries):
-        where = f"entries[{i}]"
-        if not isinstance(raw, dict):
-            raise _bad(name, f"{where}: expected an object")
-        missing = [k for k in ("board", "rule", "parts") if k not in raw]
-        if missing:
-            raise _bad(name, f"{where}: missing {', '.join(missing)}")
-        unknown = sorted(set(raw) - set(_ENTRY_KEYS))
-        if unknown:
-            raise _bad(name, f"{where}: unknown key {unknown[0]!r}")
-        if not isinstance(raw["board"], str) or not isinstance(raw["rule"], str):
-            raise _bad(name, f"{where}: board and rule must be strings")
-        parts = raw["parts"]
-        if not isinstance(parts, list) or not all(isinstance(p, str) for p in parts):
-            raise _bad(name, f"{where}.parts: expected a list of designators")
-        severity = raw.get("severity", "error")
-        if severity not in SEVERITIES:
-            raise _bad(name, f"{where}.severity: expected one of {', '.join(SEVERITIES)}")
-        entries.append(BaselineEntry(
-            raw["board"], raw["rule"], _optional_str(raw.get("contact"), name, where + ".contact"),
-            _optional_str(raw.get("receiver"), name, where + ".receiver"), tuple(sorted(parts)),
-            severity, _optional_str(raw.get("message"), name, where + ".message") or ""))
-    return Baseline(name, str(Path(path).parent), tuple(entries))
+    entries = tuple(_read_entry(raw, name, f"entries[{i}]") for i, raw in enumerate(raw_entries))
+    return Baseline(name, str(Path(path).parent), entries)
 
 
-def apply_baseline(findings: Sequence[Finding], baseline: Baseline, board: str
-                   ) -> tuple[tuple[Finding, ...], tuple[BaselineEntry, ...]]:
-    """Mark the findings of `board` that the baseline accepts; return them and the fixed entries.
+def _baseline_text(name: str) -> str:
+    """The file's text: UTF-16 with a byte-order mark, else UTF-8 (with or without one)."""
+    try:
+        data = read_regular(name, name, MAX_BASELINE_BYTES, ConfigError, None)
+    except ConfigError as exc:
+        raise _bad(name, f"cannot read the file: {exc.message}") from None
+    try:
+        return data.decode("utf-16") if data.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)) \
+            else data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        before = data[:exc.start]
+        raise _bad(name, f"not UTF-8 text ({exc.reason})", before.count(b"\n") + 1,
+                   exc.start - (before.rfind(b"\n") + 1) + 1) from None
 
-    Each baseline entry accepts one finding with the same board, rule,
-    contact, receiver and parts. Findings already waived or annotated are
-    left alone. Fixed: this board's entries that matched no finding.
-    """
-    key = board_key(board, baseline.root)
-    pool: dict[tuple, list[BaselineEntry]] = {}
-    for entry in baseline.entries:
-        if entry.board == key:
-            pool.setdefault(entry.identity(), []).append(entry)
-    out = []
-    for finding in findings:
-        matches = pool.get(finding.identity())
-        if finding.suppression is None and matches:
-            matches.pop()
-            finding = replace(finding, suppression="baseline",
-                              justification=f"accepted in baseline {baseline.path}")
-        out.append(finding)
-    fixed = tuple(sorted((e for rest in pool.values() for e in rest), key=_sort_key))
-    return tuple(out), fixed
+
+def _json_document(name: str, text: str) -> Any:
+    try:
+        return json.loads(text)
+    except RecursionError:
+        raise _bad(name, "not valid JSON: arrays or objects nest too deeply") from None
+    except json.JSONDecodeError as exc:
+        lines = text.splitlines()
+        raise ConfigError(f"baseline: not valid JSON: {exc.msg}", SourceLocation(name, exc.lineno, exc.colno),
+                          lines[exc.lineno - 1] if exc.lineno <= len(lines) else None) from None
+
+
+def _read_entry(raw: Any, name: str, where: str) -> BaselineEntry:
+    """One entry of the "entries" list, checked key by key."""
+    if not isinstance(raw, dict):
+        raise _bad(name, f"{where}: expected an object")
+    missing = [k for k in ("board", "rule", "parts") if k not in raw]
+    if missing:
+        raise _bad(name, f"{where}: missing {', '.join(missing)}")
+    unknown = sorted(set(raw) - set(_ENTRY_KEYS))
+    if unknown:
+        raise _bad(name, f"{where}: unknown key {unknown[0]!r}")
+    if not isinstance(raw["board"], str) or not isinstance(raw["rule"], str):
+        raise _bad(name, f"{where}: board and rule must be strings")
+    parts = raw["parts"]
+    if not isinstance(parts, list) or not all(isinstance(p, str) for p in parts):
+        raise _bad(name, f"{where}.parts: expected a list of designators")
+    severity = raw.get("severity", "error")
+    if severity not in SEVERITIES:
+        raise _bad(name, f"{where}.severity: expected one of {', '.join(SEVERITIES)}")
+    return BaselineEntry(
+        raw["board"], raw["rule"], _optional_str(raw.get("contact"), name, where + ".contact"),
+        _optional_str(raw.get("receiver"), name, where + ".receiver"), tuple(sorted(parts)),
+        Severity(severity), _optional_str(raw.get("message"), name, where + ".message") or "")

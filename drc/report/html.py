@@ -17,11 +17,12 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from drc import __version__
-from drc.checks.findings import SEVERITY_RANK, Finding
 from drc.analysis.results import EDGES, StageResult
-from drc.units import format_quantity
+from drc.checks.findings import SEVERITY_RANK, Finding
+from drc.report.formats import RenderOptions
 from drc.report.run_report import BoardReport, RunReport
 from drc.report.text import board_summary, figure_text, where_text
+from drc.units import format_quantity
 
 TEMPLATES = Path(__file__).with_name("templates")
 _CORNERS = ("fastest", "nominal", "slowest")
@@ -222,4 +223,13 @@ def render_html(run: RunReport) -> str:
     )
 
 
-__all__ = ["render_html", "stage_anchor"]
+class HtmlFormatter:
+    """The "html" format of `drc check`: one self-contained review page."""
+
+    name = "html"
+
+    def render(self, run: RunReport, options: RenderOptions) -> str:
+        return render_html(run)
+
+
+__all__ = ["HtmlFormatter", "render_html", "stage_anchor"]

@@ -11,11 +11,14 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Callable, Iterable
 
 from drc import __version__
-from drc.errors import SourceLocation
-from drc.checks.findings import Figure, Finding
 from drc.analysis.results import EdgeResult, LevelResult, StageResult
+from drc.caching import memoized
+from drc.checks.findings import Figure, Finding
+from drc.errors import SourceLocation
+from drc.report.formats import RenderOptions
 from drc.report.run_report import BoardReport, RunReport
 
 REPORT_FORMAT = "drc-report/1"
@@ -26,20 +29,15 @@ def number(value: float | None) -> float | None:
     if value is None or isinstance(value, bool):
         return None
     value = float(value)
-    found = _ROUNDED.get(value)
-    if found is not None and value:  # 0.0 and -0.0 are one key: keep each one's sign
-        return found
-    if not math.isfinite(value):
-        return None
-    found = float(f"{value:.9g}")
-    if len(_ROUNDED) > 200_000:  # a bound for long-lived processes
-        _ROUNDED.clear()
-    _ROUNDED[value] = found
-    return found
+    if not value:  # 0.0 and -0.0 are one key: each keeps its own sign
+        return value
+    return _rounded(value)
 
 
 # Corner values, thresholds and rails recur across thousands of stages: round each once.
-_ROUNDED: dict[float, float] = {}
+@memoized(200_000)
+def _rounded(value: float) -> float | None:
+    return float(f"{value:.9g}") if math.isfinite(value) else None
 
 
 def location_json(location: SourceLocation | None) -> dict | None:
@@ -115,10 +113,10 @@ def stage_json(result: StageResult) -> dict:
 def finding_json(finding: Finding) -> dict:
     suppressed = None
     if finding.suppression is not None:
-        suppressed = {"kind": finding.suppression, "justification": finding.justification}
+        suppressed = {"kind": str(finding.suppression), "justification": finding.justification}
     return {
         "rule": finding.rule,
-        "severity": finding.severity,
+        "severity": str(finding.severity),
         "contact": finding.contact,
         "receiver": finding.receiver,
         "parts": list(finding.parts),
@@ -159,7 +157,7 @@ def report_document(run: RunReport) -> dict:
         "format": REPORT_FORMAT,
         "tool": {"name": "drc", "version": __version__},
         "caution": run.caution,
-        "fail_level": run.fail_level,
+        "fail_level": str(run.fail_level),
         "boards": [board_json(b) for b in run.boards],
         "waiver_notes": list(run.waiver_notes),
         "baseline": baseline,
@@ -171,28 +169,39 @@ def render_json(run: RunReport) -> str:
     """The JSON report text: sorted keys, two-space indent, UTF-8 characters kept, final newline.
 
     Byte-identical to json.dumps(doc, indent=2, sort_keys=True, ensure_ascii=False,
-    allow_nan=False) (tests/gate/test_json_report.py checks it); written by
+    allow_nan=False) (tests/report/test_json_report.py checks it); written by
     dump_indented because the standard library's indenting encoder is pure
     Python generators, three times slower on a report of thousands of stages.
     """
-    from drc.cli.gcpause import collection_paused
-    with collection_paused():  # many small dicts, no cycles: no collections needed
-        return dump_indented(report_document(run)) + "\n"
+    return dump_indented(report_document(run)) + "\n"
 
 
-_escape = json.encoder.encode_basestring  # the C string escaper when available
+class JsonFormatter:
+    """The "json" format of `drc check`."""
+
+    name = "json"
+
+    def render(self, run: RunReport, options: RenderOptions) -> str:
+        return render_json(run)
+
+
+_escape: Callable[[str], str] = json.encoder.encode_basestring  # type: ignore[attr-defined]  # the C escaper, untyped in typeshed
 _float_repr = float.__repr__
 _int_repr = int.__repr__
-_KEYS: dict[str, str] = {}
+_CONTAINERS = frozenset((dict, list, tuple))
+
+
+@memoized(10_000)
+def _str_key(key: str) -> str:
+    """A string key as written before its value: escaped, with the colon. The same
+    few dozen keys recur in every stage of a report."""
+    return _escape(key) + ": "
 
 
 def _key(key) -> str:
-    text = _KEYS.get(key) if type(key) is str else None
-    if text is None:
-        text = _escape(_key_text(key)) + ": "
-        if type(key) is str:
-            _KEYS[key] = text
-    return text
+    if type(key) is str:
+        return _str_key(key)
+    return _escape(_key_text(key)) + ": "
 
 
 def _key_text(key) -> str:
@@ -219,7 +228,8 @@ def _float_text(value: float) -> str:
 
 
 def _scalar(value) -> str:
-    """json's order of checks, for subclasses (numpy floats, IntEnum...)."""
+    """Any scalar, in json's order of checks (so subclasses such as numpy floats,
+    IntEnum or StrEnum are written as their base type)."""
     if isinstance(value, str):
         return _escape(value)
     if value is None:
@@ -235,25 +245,17 @@ def _scalar(value) -> str:
     raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
 
 
-_CONTAINERS = frozenset((dict, list, tuple))
-_LEAF_ENCODERS: dict[str, object] = {}
-
-
-def _leaf_encoder(inner: str):
-    """An encoder for a container of scalars at one depth: the C encoder when
-    there is one (compact, with the newline and indent as its item separator),
-    else the standard library's own Python one."""
-    encoder = _LEAF_ENCODERS.get(inner)
-    if encoder is None:
-        make = json.encoder.c_make_encoder
-        if make is not None:
-            encoder = make(None, _no_default, _escape, None, ": ", "," + inner, True, False, False)
-        else:
-            plain = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
-                                     separators=("," + inner, ": "))
-            encoder = (lambda value, _level: plain.iterencode(value))
-        _LEAF_ENCODERS[inner] = encoder
-    return encoder
+@memoized(64)
+def _leaf_encoder(inner: str) -> Callable:
+    """An encoder for a container of scalars at one depth (`inner` is its items'
+    newline and indent): the C encoder when there is one (compact, with the newline
+    and indent as its item separator), else the standard library's own Python one."""
+    make = json.encoder.c_make_encoder  # type: ignore[attr-defined]  # None without the C accelerator
+    if make is not None:
+        return make(None, _no_default, _escape, None, ": ", "," + inner, True, False, False)
+    plain = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
+                             separators=("," + inner, ": "))
+    return lambda value, _level: plain.iterencode(value)
 
 
 def _no_default(value):
@@ -268,78 +270,78 @@ def dump_indented(value) -> str:
 
 
 def _dump(value, indent: str, out: list[str]) -> None:
-    append = out.append
+    """Append `value` at `indent` (its closing bracket's newline and indent)."""
     kind = type(value)
     if kind is dict:
-        if not value:
-            append("{}")
-            return
-        inner = indent + "  "
-        if _CONTAINERS.isdisjoint(map(type, value.values())) and type(next(iter(value))) is str:
-            # Only scalars: one call of the C encoder, the indent as its item separator.
-            text = "".join(_leaf_encoder(inner)(value, 0))
-            append("{" + inner)
-            append(text[1:-1])
-            append(indent + "}")
-            return
-        keys = _KEYS
-        head = "{" + inner
-        separator = "," + inner
-        for k, v in sorted(value.items()):
-            key = keys.get(k) if type(k) is str else None
-            if key is None:
-                key = _key(k)
-            kind = type(v)
-            # Scalars inline: a call per value would be most of the cost of a report.
-            if kind is str:
-                append(head + key + _escape(v))
-            elif kind is float:
-                text = _float_repr(v)
-                if text[-1] > "9":
-                    _float_text(v)  # raises on inf and nan, as json does
-                append(head + key + text)
-            elif v is None:
-                append(head + key + "null")
-            else:
-                append(head + key)
-                _dump(v, inner, out)
-            head = separator
-        append(indent + "}")
-        return
-    if kind is list or kind is tuple:
-        if not value:
-            append("[]")
-            return
-        inner = indent + "  "
-        if _CONTAINERS.isdisjoint(map(type, value)):
-            text = "".join(_leaf_encoder(inner)(value, 0))
-            append("[" + inner)
-            append(text[1:-1])
-            append(indent + "]")
-            return
-        head = "[" + inner
-        separator = "," + inner
-        for v in value:
-            append(head)
-            _dump(v, inner, out)
-            head = separator
-        append(indent + "]")
-        return
-    if kind is str:
-        append(_escape(value))
+        _dump_dict(value, indent, out)
+    elif kind is list or kind is tuple:
+        _dump_list(value, indent, out)
     elif kind is float:
-        append(_float_text(value))
-    elif value is None:
-        append("null")
-    elif value is True:
-        append("true")
-    elif value is False:
-        append("false")
-    elif kind is int:
-        append(_int_repr(value))
+        out.append(_float_text(value))
     elif isinstance(value, dict):
-        _dump(dict(value), indent, out)
+        _dump_dict(dict(value), indent, out)
     elif isinstance(value, (list, tuple)):
-        _dump(list(value), indent, out)
+        _dump_list(list(value), indent, out)
     else:
-        append(_scalar(value))
+        out.append(_scalar(value))
+
+
+def _only_scalars(values: Iterable) -> bool:
+    return _CONTAINERS.isdisjoint(map(type, values))
+
+
+def _dump_leaf(value: dict | list | tuple, brackets: str, indent: str, out: list[str]) -> None:
+    """A container of scalars alone: one call of the C encoder, the indent as its separator."""
+    inner = indent + "  "
+    text = "".join(_leaf_encoder(inner)(value, 0))
+    out.append(brackets[0] + inner)
+    out.append(text[1:-1])
+    out.append(indent + brackets[1])
+
+
+def _dump_dict(value: dict, indent: str, out: list[str]) -> None:
+    if not value:
+        out.append("{}")
+        return
+    if _only_scalars(value.values()) and type(next(iter(value))) is str:
+        _dump_leaf(value, "{}", indent, out)
+        return
+    append = out.append
+    inner = indent + "  "
+    head = "{" + inner
+    separator = "," + inner
+    for k, v in sorted(value.items()):
+        key = _str_key(k) if type(k) is str else _key(k)
+        kind = type(v)
+        # Scalars inline: a call per value would be most of the cost of a report.
+        if kind is str:
+            append(head + key + _escape(v))
+        elif kind is float:
+            text = _float_repr(v)
+            if text[-1] > "9":
+                _float_text(v)  # raises on inf and nan, as json does
+            append(head + key + text)
+        elif v is None:
+            append(head + key + "null")
+        else:
+            append(head + key)
+            _dump(v, inner, out)
+        head = separator
+    append(indent + "}")
+
+
+def _dump_list(value: list | tuple, indent: str, out: list[str]) -> None:
+    if not value:
+        out.append("[]")
+        return
+    if _only_scalars(value):
+        _dump_leaf(value, "[]", indent, out)
+        return
+    inner = indent + "  "
+    head = "[" + inner
+    separator = "," + inner
+    for v in value:
+        out.append(head)
+        _dump(v, inner, out)
+        head = separator
+    out.append(indent + "]")

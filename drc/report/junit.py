@@ -22,7 +22,8 @@ from __future__ import annotations
 import xml.etree.ElementTree as ET
 
 from drc.checks.findings import Finding
-from drc.gate.selection import severity_at_least
+from drc.gate.decision import Decision, decide
+from drc.report.formats import RenderOptions
 from drc.report.run_report import BoardReport, RunReport, natural_key
 
 ARROW = "→"
@@ -77,14 +78,15 @@ def _suite(board: BoardReport, fail_level: str) -> tuple[ET.Element, dict[str, i
             counts["errors"] += 1
         quiet: list[str] = []
         for finding in cases[name]:
-            if finding.suppression is None and severity_at_least(finding.severity, fail_level):
+            decision = decide(finding, fail_level)
+            if decision is Decision.COUNTS:
                 failure = ET.SubElement(case, "failure", {
                     "message": f"{finding.rule}: {finding.message}", "type": finding.rule})
                 failure.text = _failure_text(finding)
                 counts["failures"] += 1
             else:
-                why = f"suppressed by {finding.suppression}: {finding.justification}" \
-                    if finding.suppression else "below the fail level"
+                why = "below the fail level" if decision is Decision.BELOW_FAIL_LEVEL \
+                    else f"suppressed by {finding.suppression}: {finding.justification}"
                 quiet.append(f"{_failure_text(finding)}\n({why})")
         if quiet:
             ET.SubElement(case, "system-out").text = "\n\n".join(quiet)
@@ -107,3 +109,12 @@ def render_junit(run: RunReport, fail_level: str | None = None) -> str:
         root.set(key, str(value))
     ET.indent(root)
     return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(root, encoding="unicode") + "\n"
+
+
+class JunitFormatter:
+    """The "junit" format of `drc check`, failing test cases at the run's fail level."""
+
+    name = "junit"
+
+    def render(self, run: RunReport, options: RenderOptions) -> str:
+        return render_junit(run, run.fail_level)

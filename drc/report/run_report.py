@@ -13,10 +13,11 @@ from collections import Counter
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
-from drc.gate.baseline import BaselineEntry
-from drc.checks.findings import SEVERITIES, SEVERITY_RANK, Finding
 from drc.analysis.results import StageResult
+from drc.caching import memoized
+from drc.checks.findings import SEVERITIES, SEVERITY_RANK, Finding
 from drc.checks.ruledoc import RuleDoc
+from drc.gate.baseline import BaselineEntry, entry_sort_key
 
 CAUTION = ("Design guidance from models and typical data: verify on the real board and "
            "against the parts' own data, and follow the applicable standards and licensed "
@@ -28,22 +29,14 @@ CAUTION_SHORT = ("Guidance from models and typical data: verify on the real boar
 _DIGITS = re.compile(r"(\d+)")
 
 
+# Designators, refs and board paths recur in every finding of a board: split each once.
+@memoized(100_000)
 def natural_key(text: str | None) -> tuple:
     """"SW2" before "SW10"; case-insensitive, then exact text to stay total."""
     text = text or ""
-    found = _NATURAL.get(text)
-    if found is None:
-        parts = tuple((0, int(p), "") if p.isdigit() else (1, 0, p.casefold())
-                      for p in _DIGITS.split(text) if p)
-        found = (parts, text)
-        if len(_NATURAL) > 100_000:  # a bound for long-lived processes
-            _NATURAL.clear()
-        _NATURAL[text] = found
-    return found
-
-
-# Designators, refs and board paths recur in every finding of a board: split each once.
-_NATURAL: dict[str, tuple] = {}
+    parts = tuple((0, int(p), "") if p.isdigit() else (1, 0, p.casefold())
+                  for p in _DIGITS.split(text) if p)
+    return (parts, text)
 
 
 def _figure_key(figure) -> tuple:
@@ -151,7 +144,7 @@ class RunReport:
 
     boards: tuple[BoardReport, ...]
     rule_docs: tuple[RuleDoc, ...] = ()
-    fail_level: str = "error"
+    fail_level: str = "error"  # a Severity
     waiver_notes: tuple[str, ...] = ()
     baseline: BaselineInfo | None = None
     fixed: tuple[BaselineEntry, ...] = ()
@@ -161,15 +154,14 @@ class RunReport:
         object.__setattr__(self, "boards", tuple(sorted(self.boards, key=lambda b: natural_key(b.path))))
         object.__setattr__(self, "rule_docs", tuple(sorted(self.rule_docs, key=lambda d: d.id)))
         object.__setattr__(self, "waiver_notes", tuple(sorted(self.waiver_notes)))
-        object.__setattr__(self, "fixed", tuple(sorted(
-            self.fixed, key=lambda e: (e.board, e.identity(), e.severity, e.message))))
+        object.__setattr__(self, "fixed", tuple(sorted(self.fixed, key=entry_sort_key)))
 
     def findings(self) -> Iterable[Finding]:
         for board in self.boards:
             yield from board.findings
 
     def counts(self) -> dict[str, int]:
-        total = Counter()
+        total: Counter[str] = Counter()
         for board in self.boards:
             total.update(board.counts())
         return {key: total.get(key, 0) for key in (*SEVERITIES, "suppressed")}

@@ -21,16 +21,18 @@ from pathlib import Path
 from urllib.parse import quote
 
 from drc import __version__
-from drc.gate.baseline import board_key
-from drc.errors import SourceLocation
-from drc.checks.findings import Finding
+from drc.checks.findings import Finding, Suppression
 from drc.checks.ruledoc import RuleDoc
+from drc.errors import SourceLocation
+from drc.gate.baseline import board_key
+from drc.report.formats import RenderOptions
 from drc.report.json_report import figure_json
 from drc.report.run_report import RunReport
 
 SARIF_SCHEMA = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/sarif-schema-2.1.0.json"
 FINGERPRINT_KEY = "drcFinding/v1"
-_SUPPRESSION_KIND = {"waiver": "external", "baseline": "external", "annotation": "inSource"}
+_SUPPRESSION_KIND = {Suppression.WAIVER: "external", Suppression.BASELINE: "external",
+                     Suppression.ANNOTATION: "inSource"}
 _EXPIRY = re.compile(r"until (\d{4}-\d{2}-\d{2})\)$")
 
 
@@ -98,7 +100,7 @@ def suppression_json(finding: Finding) -> list[dict]:
                    "status": "accepted", "justification": finding.justification or ""}
     properties: dict = {"drcSuppression": finding.suppression}
     expiry = _EXPIRY.search(finding.justification or "")
-    if finding.suppression == "waiver" and expiry:
+    if finding.suppression == Suppression.WAIVER and expiry:
         properties["expires"] = expiry.group(1)  # SARIF has no expiry field
     entry["properties"] = properties
     return [entry]
@@ -134,7 +136,7 @@ def result_json(finding: Finding, rule_index: dict[str, int], working_dir: str |
     if with_suppressions:
         result["suppressions"] = suppression_json(finding)
     if with_baseline:
-        result["baselineState"] = "unchanged" if finding.suppression == "baseline" else "new"
+        result["baselineState"] = "unchanged" if finding.suppression == Suppression.BASELINE else "new"
     return result
 
 
@@ -183,3 +185,12 @@ def render_sarif(run: RunReport, working_dir: str | os.PathLike) -> str:
     """The SARIF 2.1.0 log text (deterministic: sorted keys, final newline)."""
     return json.dumps(sarif_document(run, working_dir), indent=2, sort_keys=True,
                       ensure_ascii=False, allow_nan=False) + "\n"
+
+
+class SarifFormatter:
+    """The "sarif" format of `drc check`; paths relative to the options' working folder."""
+
+    name = "sarif"
+
+    def render(self, run: RunReport, options: RenderOptions) -> str:
+        return render_sarif(run, options.working_dir or Path.cwd())

@@ -11,6 +11,7 @@ readable at 80 columns. Suppressed findings are counted, not listed.
 from __future__ import annotations
 
 from collections.abc import Iterable
+from io import StringIO
 
 from rich import box
 from rich.console import Console
@@ -18,8 +19,9 @@ from rich.table import Table
 from rich.text import Text
 
 from drc.checks.findings import Finding
-from drc.units import format_quantity
+from drc.report.formats import RenderOptions
 from drc.report.run_report import CAUTION_SHORT, BoardReport, RunReport
+from drc.units import format_quantity
 
 SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "note": "cyan"}
 ARROW = "→"
@@ -164,3 +166,27 @@ def render_folder_summary(run: RunReport, console: Console) -> None:
                       Text(str(counts["warning"]), style="yellow" if counts["warning"] else ""),
                       margin_text)
     console.print(table)
+
+
+def print_report(run: RunReport, console: Console, *, quiet: bool = False) -> None:
+    """The whole text report: every board, then the table of boards when there are several."""
+    render_text(run, console, quiet=quiet)
+    if len(run.boards) > 1:
+        render_folder_summary(run, console)
+
+
+class TextFormatter:
+    """The "text" format of `drc check`: printed in colour to a terminal, plain elsewhere."""
+
+    name = "text"
+
+    def print_to(self, console: Console, run: RunReport, options: RenderOptions) -> None:
+        print_report(run, console, quiet=options.quiet)
+
+    def render(self, run: RunReport, options: RenderOptions) -> str:
+        """The report without colour at `options.width`, lines stripped of rich's cell padding."""
+        buffer = StringIO()
+        console = Console(file=buffer, width=options.width, force_terminal=False, color_system=None,
+                          highlight=False)
+        print_report(run, console, quiet=options.quiet)
+        return "".join(line.rstrip() + "\n" for line in buffer.getvalue().splitlines())

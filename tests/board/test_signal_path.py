@@ -10,7 +10,7 @@ from __future__ import annotations
 import networkx as nx
 
 from drc.board.signal_graph import signal_path, stage_graph
-from drc.pipeline import check_text
+from drc.pipeline import check_netlist_text
 
 TWO_SECTIONS = """two RC sections
 V1 vcc 0 DC 5
@@ -26,7 +26,7 @@ XU1 in y 0 0 0 0 0 0 0 0 0 0 0 vcc 74HC14
 
 
 def _stage(text):
-    _board, results, _findings = check_text(text, "t.cir")
+    _board, results, _findings = check_netlist_text(text, "t.cir")
     [result] = results
     return result.stage
 

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import pytest
 
-from drc.pipeline import check_text
+from drc.pipeline import check_netlist_text
 
 CORPUS = Path(__file__).parent / "corpus"
 
@@ -46,7 +46,7 @@ def test_corpus_file(path: Path):
     text = path.read_text()
     want = expectations(text)
     assert want or "* expect: none" in text, f"{path.name} states no expectation"
-    _board, _results, findings = check_text(text, str(path))
+    _board, _results, findings = check_netlist_text(text, str(path))
     got = produced(findings)
     missing, unexpected = want - got, got - want
     detail = "\n".join(f"  {f.rule} {f.contact} {f.receiver} {f.parts}: {f.message}" for f in findings)

@@ -9,13 +9,13 @@ from __future__ import annotations
 import pytest
 
 from drc.checks import all_rules
-from drc.pipeline import check_text
+from drc.pipeline import check_netlist_text
 
 RULES = [r for r in all_rules() if r.doc.failing_example]
 
 
 def _fired(text: str, path: str) -> tuple[set[str], list]:
-    board, results, findings = check_text(text, path=path)
+    board, results, findings = check_netlist_text(text, path=path)
     return {f.rule for f in findings}, findings
 
 

@@ -19,7 +19,7 @@ import pytest
 
 from drc.design import fixes
 from drc.checks import run_stage_rules
-from drc.pipeline import CheckOptions, check_board_full, effective_limits
+from drc.pipeline import CheckOptions, check_board_in_memory, effective_limits
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "benchmarks"))
@@ -38,7 +38,7 @@ def boards(tmp_path_factory):
 
 
 def _failing(path):
-    check = check_board_full(path, CheckOptions(propose_fixes=False))
+    check = check_board_in_memory(path, CheckOptions(propose_fixes=False))
     limits = effective_limits(check.config)
     out = []
     for result in check.results:
@@ -65,7 +65,7 @@ def test_prefetched_search_equals_one_at_a_time(boards, monkeypatch):
 
 
 def _fix_texts(path):
-    check = check_board_full(path, CheckOptions())
+    check = check_board_in_memory(path, CheckOptions())
     return [(f.contact, f.receiver, f.rule, f.fix) for f in check.findings]
 
 

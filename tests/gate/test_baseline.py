@@ -9,9 +9,9 @@ from dataclasses import replace
 
 import pytest
 
-from drc.gate.baseline import apply_baseline, load_baseline, write_baseline
 from drc.errors import ConfigError, SourceLocation, UsageError
-from drc.gate.selection import exit_status
+from drc.gate.baseline import load_baseline, write_baseline
+from drc.gate.decision import apply_baseline, exit_status
 
 from tests.gate.builders import board_report, finding, run_report, sample_findings
 

@@ -10,7 +10,7 @@ from dataclasses import replace
 import pytest
 
 from drc.errors import ConfigError, UsageError
-from drc.gate.selection import exit_status, resolve_selection, severity_at_least
+from drc.gate.decision import exit_status, resolve_selection, severity_at_least
 
 from tests.gate.builders import RULE_IDS, finding
 

@@ -10,7 +10,7 @@ from datetime import date
 
 from drc.config.settings import Waiver
 from drc.errors import SourceLocation
-from drc.gate.waivers import apply_annotations, apply_waivers, combine_notes
+from drc.gate.decision import apply_annotations, apply_waivers, combine_notes
 
 from tests.gate.builders import BOARD, finding
 

@@ -6,7 +6,7 @@ Netlists are built from statement generators (elements of every letter the
 reader knows, subcircuit blocks, instances, parameters, expressions,
 includes, annotations) and then mutated byte-wise, so most examples are
 nearly valid and reach deep into the reader, the classifier and the rules.
-The whole pipeline runs in-process (pipeline.check_board_full). Example
+The whole pipeline runs in-process (pipeline.check_board_in_memory). Example
 counts are kept modest so the suite stays fast.
 """
 
@@ -19,9 +19,10 @@ from pathlib import Path
 from hypothesis import HealthCheck, given, settings, strategies as st
 
 from drc.netlist.annotations import parse_annotations
-from drc.gate.baseline import apply_baseline, load_baseline
+from drc.gate.baseline import load_baseline
+from drc.gate.decision import apply_baseline
 from drc.errors import DrcError
-from drc.pipeline import CheckOptions, check_board_full, load_config_file
+from drc.pipeline import CheckOptions, check_board_in_memory, load_config_file
 from drc.netlist.reader import ReaderOptions
 
 SETTINGS = settings(max_examples=120, deadline=None, derandomize=True,
@@ -117,7 +118,7 @@ def test_netlists_check_cleanly_or_fail_located(tmp_path_factory, data):
     board = folder / "self.cir"
     board.write_bytes(data)
     try:
-        check_board_full(board, OPTIONS)
+        check_board_in_memory(board, OPTIONS)
     except DrcError as exc:
         _located(exc)
     assert board.read_bytes() == data  # input never modified
@@ -195,7 +196,7 @@ def test_configs_drive_a_whole_check(tmp_path_factory, data, board):
     (folder / "drc.toml").write_bytes(data)
     (folder / "b.cir").write_text(board)
     try:
-        check_board_full(folder / "b.cir", OPTIONS)
+        check_board_in_memory(folder / "b.cir", OPTIONS)
     except DrcError as exc:
         _located(exc)
 

@@ -19,7 +19,7 @@ import pytest
 
 from drc.analysis.stage_analysis import analyse_stage
 from drc.design.fixes import with_values
-from drc.pipeline import CheckOptions, check_board_full, effective_limits
+from drc.pipeline import CheckOptions, check_board_in_memory, effective_limits
 from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
 from drc.units import parse_quantity
 from tests.support.ngspice import measure
@@ -38,7 +38,7 @@ def _value(text: str) -> float:
 
 def fixed_stages():
     for board in sorted((ROOT / "boards").rglob("*.cir")):
-        check = check_board_full(board, CheckOptions())
+        check = check_board_in_memory(board, CheckOptions())
         limits = effective_limits(check.config)
         results = {(r.stage.contact.designator, r.stage.receiver.ref): r for r in check.results}
         for f in check.findings:

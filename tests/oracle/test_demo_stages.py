@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from drc.pipeline import CheckOptions, check_board_full
+from drc.pipeline import CheckOptions, check_board_in_memory
 from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
 from tests.support.ngspice import measure
 
@@ -29,7 +29,7 @@ BOARDS = sorted((ROOT / "boards").rglob("*.cir"))
 
 def timed_stages():
     for board in BOARDS:
-        check = check_board_full(board, CheckOptions(propose_fixes=False))
+        check = check_board_in_memory(board, CheckOptions(propose_fixes=False))
         for result in check.results:
             timed = [e for e in ("press", "release")
                      if e in result.edges and (result.edges[e].nominal_s or 0) > 0]
