@@ -64,19 +64,25 @@ def write_atomic(path: str | os.PathLike, text: str,
                                              prefix=f".{target.name}.", suffix=".tmp", delete=False)
     except OSError as exc:
         raise UsageError(f"cannot write {os.fspath(path)}: {exc.strerror or exc}") from None
+    replaced = False
     try:
         with handle:
             handle.write(text)
             handle.flush()
             os.fsync(handle.fileno())
         os.replace(handle.name, target)
-    except BaseException as exc:
+        replaced = True
+    except OSError as exc:
+        raise UsageError(f"cannot write {os.fspath(path)}: {exc.strerror or exc}") from None
+    finally:
         # Interrupted (Ctrl-C) or failed: the destination keeps its previous
         # content and no temporary file is left behind.
-        try:
-            os.unlink(handle.name)
-        except OSError:
-            pass
-        if isinstance(exc, OSError):
-            raise UsageError(f"cannot write {os.fspath(path)}: {exc.strerror or exc}") from None
-        raise
+        if not replaced:
+            _discard(handle.name)
+
+
+def _discard(name: str) -> None:
+    try:
+        os.unlink(name)
+    except OSError:
+        pass

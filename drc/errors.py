@@ -27,7 +27,7 @@ class ExitStatus(IntEnum):
 def suggest(name: str, candidates: Iterable[str]) -> str | None:
     """The candidate nearest to `name` (difflib), or None when nothing is close."""
     matches = difflib.get_close_matches(name, sorted(candidates), n=1, cutoff=0.6)
-    return matches[0] if matches else None
+    return str(matches[0]) if matches else None  # a plain string, also for StrEnum candidates
 
 
 def unknown_name_message(kind: str, name: str, candidates: Iterable[str]) -> str:

@@ -17,8 +17,8 @@ from __future__ import annotations
 
 import math
 import re
-from functools import cache
 
+from drc.caching import memoized
 from drc.errors import ConfigError
 
 # The pint reference unit each dimension must be compatible with, and the
@@ -72,11 +72,27 @@ def _fast_quantity(clean: str) -> tuple[float, str] | None:
     return (value, _UNIT_DIMENSION[unit]) if math.isfinite(value) else None
 
 
-@cache
+@memoized(1)
 def _registry():
     import pint  # lazy: pint costs a noticeable start-up time
 
     return pint.UnitRegistry()
+
+
+def _pint_failures() -> tuple[type[BaseException], ...]:
+    """What pint raises on text that is not a quantity of the asked dimension.
+
+    Its own errors (unknown unit, wrong dimension, bad definition, offset
+    units), the tokenizer's, and built-in ones from evaluating the parsed
+    text: AssertionError (a lone operator), ValueError, TypeError,
+    AttributeError, ZeroDivisionError and OverflowError (ArithmeticError),
+    RecursionError (deep nesting), LookupError.
+    """
+    import tokenize
+
+    from pint.errors import PintError
+    return (PintError, tokenize.TokenError, AssertionError, ValueError, TypeError, AttributeError,
+            ArithmeticError, RecursionError, LookupError)
 
 
 def _error(message: str, where: str) -> ConfigError:
@@ -107,9 +123,16 @@ def parse_quantity(text: str, dimension: str, where: str = "") -> float:
     """
     if dimension not in DIMENSIONS:
         raise ValueError(f"unknown dimension {dimension!r}")
-    reference, example = DIMENSIONS[dimension]
     raw = text if isinstance(text, str) else str(text)
     clean = _normalise(raw)
+    value = _common_form(raw, clean, dimension, where)
+    return value if value is not None else _pint_quantity(raw, clean, dimension, where)
+
+
+def _common_form(raw: str, clean: str, dimension: str, where: str) -> float | None:
+    """The value of the forms read without pint, None to let pint decide; refuses
+    an empty text, a bare number where a unit is needed and part-marking codes."""
+    example = DIMENSIONS[dimension][1]
     if not clean:
         raise _error(f"expected a {dimension} such as {example!r}, got an empty text", where)
     if _NUMBER.match(clean):
@@ -124,23 +147,31 @@ def parse_quantity(text: str, dimension: str, where: str = "") -> float:
         if bare:
             return float(bare.group(1)) * (1e3 if bare.group(2) in "kK" else 1e6)
     if dimension == "fraction" and clean.endswith("%"):
-        number = clean[:-1].strip()
-        if _NUMBER.match(number):
-            return float(number) / 100.0
-        raise _error(f"{raw!r} is not a percentage; expected e.g. {example!r}", where)
+        return _percentage(raw, clean, example, where)
     fast = _fast_quantity(clean)
-    if fast is not None and fast[1] == dimension:
-        return fast[0]
+    return fast[0] if fast is not None and fast[1] == dimension else None
+
+
+def _percentage(raw: str, clean: str, example: str, where: str) -> float:
+    number = clean[:-1].strip()
+    if _NUMBER.match(number):
+        return float(number) / 100.0
+    raise _error(f"{raw!r} is not a percentage; expected e.g. {example!r}", where)
+
+
+def _pint_quantity(raw: str, clean: str, dimension: str, where: str) -> float:
+    """Any other spelling pint reads, converted to the dimension's reference unit."""
+    reference, example = DIMENSIONS[dimension]
     registry = _registry()
     try:
         quantity = registry.Quantity(clean)
-    except Exception:  # pint raises several unrelated types for unreadable text
+    except _pint_failures():
         raise _error(f"{raw!r} is not a {dimension}; expected e.g. {example!r}", where) from None
     if not hasattr(quantity, "magnitude") or not hasattr(quantity, "to"):
         raise _error(f"{raw!r} is not a {dimension}; expected e.g. {example!r}", where)
     try:
-        value = quantity.to(reference).magnitude if reference else quantity.to("").magnitude
-    except Exception:
+        value = quantity.to(reference).magnitude
+    except _pint_failures():
         raise _error(f"{raw!r} is not a {dimension} (its unit is {quantity.units}); "
                      f"expected e.g. {example!r}", where) from None
     value = float(value)
@@ -168,7 +199,7 @@ def parse_any_quantity(text: str, where: str = "") -> float:
     try:
         quantity = _registry().Quantity(clean)
         value = float(quantity.to_base_units().magnitude)
-    except Exception:
+    except _pint_failures():
         raise _error(f"{text!r} is not a quantity; expected a number or e.g. '20 ms'", where) from None
     return value
 
@@ -185,7 +216,7 @@ def _three_figures(mantissa: float) -> str:
     return text
 
 
-def format_quantity(value: float, unit: str) -> str:
+def format_quantity(value: float | None, unit: str) -> str:
     """`value` (SI) as text with an engineering prefix and three figures.
 
     0.0118 s -> "11.8 ms", 4700 Ω -> "4.7 kΩ", 2.53 V -> "2.53 V",

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import re
 
-from drc.checks.ruledoc import RuleDoc
-from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.context import RuleContext, figure
+from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
+from drc.checks.ruledoc import RuleDoc
 
 DOC = RuleDoc(
     id="ambiguous-value",
@@ -71,8 +72,9 @@ def check(board, ctx: RuleContext):
         if text.isdigit() or not text:
             continue  # a bare number is never ambiguous: the common case stays cheap
         memo = (kind, text)
-        problem = seen.get(memo, _UNSEEN)
-        if problem is _UNSEEN:
+        if memo in seen:
+            problem = seen[memo]
+        else:
             problem = seen[memo] = classify_value_text(kind, text)
         if problem is None:
             continue
@@ -81,9 +83,6 @@ def check(board, ctx: RuleContext):
             continue
         reported.add(element.location)
         yield _finding(ctx, element, problem)
-
-
-_UNSEEN = object()
 
 
 def _finding(ctx: RuleContext, element, problem: str):
@@ -99,7 +98,8 @@ def _finding(ctx: RuleContext, element, problem: str):
         severity = "note"
     elif problem == "milli":
         message = (f"{d} value '{text}' is {spice_text} in SPICE (M is milli); 1 MΩ is written '1Meg'")
-        mantissa = _NUMBER.match(text).group(0)
+        number = _NUMBER.match(text)
+        mantissa = number.group(0) if number else text
         fix = f"write {d} as '{mantissa}Meg' if a megohm is meant, or {_plain(value.si, unit)} if not"
         severity = "warning"
     else:

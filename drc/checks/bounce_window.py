@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 from drc.analysis.results import EDGES, StageResult
-from drc.checks.ruledoc import RuleDoc
 from drc.checks.common import RC_KINDS, contact_name, threshold_name, timing_parts, timing_text
-from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.context import RuleContext, figure
+from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
+from drc.checks.ruledoc import RuleDoc
 
 MARGIN = "bounce_margin"
 

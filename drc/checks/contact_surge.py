@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 from drc.analysis.results import StageResult
-from drc.checks.ruledoc import RuleDoc
 from drc.checks.common import contact_name
-from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.context import RuleContext, figure
+from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
+from drc.checks.ruledoc import RuleDoc
 
 DOC = RuleDoc(
     id="contact-surge",
@@ -19,7 +20,8 @@ DOC = RuleDoc(
     why=("A capacitor straight across a contact delivers amperes for a few microseconds at every "
          "closure: the contact arcs, pits and welds, and the current loop radiates. A series "
          "resistor of a few hundred ohms to a kilohm between contact and capacitor prevents it."),
-    how="I_peak = V_cap / (R_contact + R_series) from the analysis; compared with the class's `rating` in rules/contacts.toml.",
+    how=("I_peak = V_cap / (R_contact + R_series) from the analysis; compared with the class's "
+         "`rating` in rules/contacts.toml."),
     fix="Put a resistor (100 Ω-1 kΩ is usual) in series between the contact and the capacitor.",
     failing_example=netlist("A 10 nF capacitor straight across SW1",
                             *debounced_stage(extra=("C2 n1 0 10n",))),

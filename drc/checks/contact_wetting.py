@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 from drc.analysis.results import StageResult
-from drc.checks.ruledoc import RuleDoc
 from drc.checks.common import contact_name, pull_resistors, resistor_text
-from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.context import RuleContext, figure
+from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
+from drc.checks.ruledoc import RuleDoc
 
 DOC = RuleDoc(
     id="contact-wetting",
@@ -22,7 +23,8 @@ DOC = RuleDoc(
     fix=("Lower the pull resistor until the closed-contact current reaches the wetting minimum, "
          "add a small capacitor discharged through the contact as a wetting pulse, or use a "
          "gold-contact (dry-circuit) part."),
-    failing_example=netlist("A snap-action switch (1 mA wetting minimum) carrying about 0.55 mA through an 8.2 kΩ pull-up",
+    failing_example=netlist("A snap-action switch (1 mA wetting minimum) carrying about 0.55 mA "
+                            "through an 8.2 kΩ pull-up",
                             *debounced_stage(contact="SNAP")),
     passing_example=netlist("A tactile switch (its class sets no wetting minimum) in the same stage",
                             *debounced_stage()),

@@ -37,7 +37,7 @@ def _figure(value: float, unit: str) -> Figure:
     return Figure(value=value, unit=unit, text=quantity_text(value, unit))
 
 
-def quantity_text(value: float, unit: str) -> str:
+def quantity_text(value: float | None, unit: str) -> str:
     """units.format_quantity, remembered: part values and limits recur in every stage."""
     try:
         return _quantity_text(value.__class__, value, unit)
@@ -46,7 +46,7 @@ def quantity_text(value: float, unit: str) -> str:
 
 
 @memoized(50_000)
-def _quantity_text(_kind: type, value: float, unit: str) -> str:
+def _quantity_text(_kind: type, value: float | None, unit: str) -> str:
     # The value's class is part of the key: 1 and 1.0 are equal keys but may format apart.
     return format_quantity(value, unit)
 
@@ -66,7 +66,7 @@ class Locations(Mapping):
 
     def __init__(self, elements, others: dict[str, SourceLocation]) -> None:
         backwards = elements[::-1]  # later duplicates first, so the first one wins
-        self._elements = dict(zip(map(str.casefold, map(_DESIGNATOR, backwards)), backwards))
+        self._elements = dict(zip(map(str.casefold, map(_DESIGNATOR, backwards)), backwards, strict=True))
         self._others = others
 
     def get(self, k, default=None):

@@ -3,11 +3,11 @@
 from __future__ import annotations
 
 from drc.analysis.results import StageResult
-from drc.checks.ruledoc import RuleDoc
 from drc.checks.common import contact_name, receiver_name
 from drc.checks.context import RuleContext
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
+from drc.checks.ruledoc import RuleDoc
 
 DOC = RuleDoc(
     id="floating-input",

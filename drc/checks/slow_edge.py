@@ -3,11 +3,12 @@
 from __future__ import annotations
 
 from drc.analysis.results import EDGES, StageResult
-from drc.checks.ruledoc import RuleDoc
 from drc.checks.common import DEBOUNCED_ELSEWHERE, contact_name, is_schmitt, timing_parts
-from drc.checks.context import RuleContext, figure, quantity_text as fq
+from drc.checks.context import RuleContext, figure
+from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
+from drc.checks.ruledoc import RuleDoc
 
 DOC = RuleDoc(
     id="slow-edge",

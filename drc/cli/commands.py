@@ -15,7 +15,6 @@ from pathlib import Path
 from drc.errors import ConfigError, DrcError, ExitStatus, UsageError
 from drc.report.formats import FORMATS, ConsoleFormatter, RenderOptions, formatter
 
-
 # ------------------------------------------------------------------ option values
 
 def _ids(values: list[str] | None) -> tuple[str, ...]:
@@ -50,6 +49,7 @@ def stdout_console():
     """A rich Console for standard output: colour on a terminal; on a pipe or CI
     log, plain lines without the cells' trailing padding."""
     from io import StringIO
+
     from rich.console import Console
     console = Console(highlight=False)
     if console.is_terminal:
@@ -229,8 +229,9 @@ def run_check(args) -> int:
 # ------------------------------------------------------------------ rules
 
 def run_rules(args) -> int:
-    from rich.table import Table
     from rich import box
+    from rich.table import Table
+
     from drc.checks import all_rules
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
     table.add_column("rule id", no_wrap=True)
@@ -303,6 +304,7 @@ def run_trace(args) -> int:
 
 def run_simulate(args) -> int:
     import json
+
     from drc.simulation.injection import chatter_deck, render_simulation_text, simulate_stage, simulation_json
     if args.trials < 1:
         raise UsageError("--trials must be at least 1")

@@ -160,7 +160,7 @@ def _board_view(board: BoardReport, index: int, run: RunReport, svg_cache: dict)
     by_stage: dict[tuple[str, str], list[Finding]] = {}
     for f in board.findings:
         by_stage.setdefault(_stage_key(f.contact, f.receiver), []).append(f)
-    anchors = {}
+    anchors: dict[tuple[str, str], str] = {}
     stages = []
     rows = []
     for j, result in enumerate(board.stages):

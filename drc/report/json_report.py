@@ -185,7 +185,7 @@ class JsonFormatter:
         return render_json(run)
 
 
-_escape: Callable[[str], str] = json.encoder.encode_basestring  # type: ignore[attr-defined]  # the C escaper, untyped in typeshed
+_escape: Callable[[str], str] = json.encoder.encode_basestring  # the C escaper when available
 _float_repr = float.__repr__
 _int_repr = int.__repr__
 _CONTAINERS = frozenset((dict, list, tuple))

@@ -16,6 +16,7 @@ from __future__ import annotations
 import io
 import re
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -79,8 +80,8 @@ def _corner_argument(edge_result, corner: str):
 
 
 def _edge_plot(result: StageResult, edge: str) -> EdgePlot:
-    from drc.analysis.stage_analysis import edge_solution
     from drc.analysis.physics.transient import sample  # what edge_waveform samples with
+    from drc.analysis.stage_analysis import edge_solution
 
     edge_result = result.edges.get(edge)
     if edge_result is None:
@@ -88,10 +89,13 @@ def _edge_plot(result: StageResult, edge: str) -> EdgePlot:
         return EdgePlot(edge, None, (), reason)
     thresholds = {"nominal": edge_result.threshold_v, "fastest": edge_result.threshold_fastest_v,
                   "slowest": edge_result.threshold_slowest_v}
-    curves = []
+    rx = result.receiver_electrical
+    if rx is None:
+        return EdgePlot(edge, edge_result.direction, (), f"{edge}: no waveform (no receiver model)")
+    curves: list[Curve] = []
     for corner in CORNERS:
         try:
-            solution = edge_solution(result.stage, result.receiver_electrical, edge,
+            solution = edge_solution(result.stage, rx, edge,
                                      _corner_argument(edge_result, corner))
         except (ValueError, ArithmeticError, np.linalg.LinAlgError) as exc:
             return EdgePlot(edge, edge_result.direction, tuple(curves), f"{edge}: no waveform ({exc})")
@@ -183,14 +187,14 @@ def stage_plot_svg(plot: StagePlot, id_prefix: str = "plot") -> str:
 
     t_end = time_window(plot)
     scale, unit = _time_unit(t_end)
-    rc = {"svg.fonttype": "none", "svg.hashsalt": id_prefix, "font.size": 8,
+    rc: dict[Any, object] = {"svg.fonttype": "none", "svg.hashsalt": id_prefix, "font.size": 8,
           "font.family": "sans-serif", "axes.linewidth": 0.6, "axes.edgecolor": "#5c6770",
           "xtick.color": "#3d4852", "ytick.color": "#3d4852", "xtick.major.width": 0.6,
           "ytick.major.width": 0.6, "lines.linewidth": 1.3, "path.simplify": True}
     with matplotlib.rc_context(rc):
         fig = Figure(figsize=(7.4, 2.5))
         axes = fig.subplots(1, 2, sharey=True)
-        for ax, edge_plot in zip(axes, plot.edges):
+        for ax, edge_plot in zip(axes, plot.edges, strict=False):
             _draw_edge(ax, edge_plot, plot, t_end, scale, unit)
         axes[0].set_ylabel(f"V at {plot.receiver}")
         handles = [h for h in axes[0].get_lines() if not h.get_label().startswith("_")]

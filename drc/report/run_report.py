@@ -115,7 +115,7 @@ class BoardReport:
     def counts(self) -> dict[str, int]:
         """Active findings per severity (every severity present), plus "suppressed"."""
         counter = Counter(f.severity for f in self.active())
-        out = {severity: counter.get(severity, 0) for severity in SEVERITIES}
+        out = {str(severity): counter.get(severity, 0) for severity in SEVERITIES}
         out["suppressed"] = sum(1 for f in self.findings if f.suppression is not None)
         return out
 
@@ -164,7 +164,7 @@ class RunReport:
         total: Counter[str] = Counter()
         for board in self.boards:
             total.update(board.counts())
-        return {key: total.get(key, 0) for key in (*SEVERITIES, "suppressed")}
+        return {str(key): total.get(key, 0) for key in (*SEVERITIES, "suppressed")}
 
     def rule_doc(self, rule_id: str) -> RuleDoc | None:
         for doc in self.rule_docs:

@@ -109,7 +109,8 @@ def suppression_json(finding: Finding) -> list[dict]:
 def result_json(finding: Finding, rule_index: dict[str, int], working_dir: str | os.PathLike,
                 with_suppressions: bool, with_baseline: bool) -> dict:
     message = finding.message if not finding.fix else f"{finding.message} Fix: {finding.fix}"
-    location = {"physicalLocation": physical_location(finding.location, finding.board, working_dir)}
+    location: dict[str, object] = {
+        "physicalLocation": physical_location(finding.location, finding.board, working_dir)}
     logical = logical_locations(finding)
     if logical:
         location["logicalLocations"] = logical

@@ -10,11 +10,11 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from drc.board.board import Contact, Receiver
 from drc.analysis.receiver import ReceiverElectrical
-from drc.errors import SourceLocation
 from drc.analysis.results import EdgeResult, LevelResult, StageResult
+from drc.board.board import Contact, Receiver
 from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit, Throw
+from drc.errors import SourceLocation
 
 LOC = SourceLocation("test.cir", 3, 1)
 LIMITS = {  # the defaults of rules/limits.toml (written out: the unit tests must not read it)

@@ -8,10 +8,9 @@ import pytest
 
 from drc.checks import all_rules, get_rule, run_rules, run_stage_rules
 from drc.checks.registry import rule, unregister
+from drc.checks.ruledoc import RuleDoc
 from drc.datafiles import rules_path
 from drc.errors import LibraryError
-from drc.checks.ruledoc import RuleDoc
-
 from tests.checks.builders import LIMITS, result
 
 # The catalogue of DESIGN.md section 7, in its order, with its default severities.

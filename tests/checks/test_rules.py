@@ -12,12 +12,11 @@ from dataclasses import replace
 import pytest
 
 from drc.board.board import Board
+from drc.board.stage import Capacitor
 from drc.checks import run_rules, run_stage_rules
 from drc.errors import SourceLocation
 from drc.netlist.elements import Element, Netlist
-from drc.board.stage import Capacitor
 from drc.netlist.values import parse_value
-
 from tests.checks.builders import LIMITS, contact, edge, hc, level, rc_stage, receiver, result
 
 

@@ -7,13 +7,11 @@ on a dask.distributed local cluster (its executor is a standard Executor).
 from __future__ import annotations
 
 from concurrent.futures import ProcessPoolExecutor
-from pathlib import Path
 
 import pytest
 
 import drc
 from drc.report.json_report import render_json
-
 from tests.cli.helpers import ROOT
 
 BOARDS = ROOT / "boards" / "lx24"

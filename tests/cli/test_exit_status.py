@@ -115,7 +115,8 @@ def test_baseline_flow(boards: Path):
     shifted.write_text(ERROR.replace("error board\n", "error board\n* a new comment\n* another\n"))
     assert drc("check", str(shifted), "--baseline", str(base), "--no-fixes").returncode == 0
     # A new finding fails.
-    shifted.write_text(ERROR.replace(".end", "SW2 d2 0 TOGGLE\nR9 vcc d2 10k\nXU2 vcc d2 d2 vcc q2 d3 0 0 0 vcc 0 0 vcc vcc 74HC74\n.end"))
+    shifted.write_text(ERROR.replace(".end", "SW2 d2 0 TOGGLE\nR9 vcc d2 10k\n"
+                                             "XU2 vcc d2 d2 vcc q2 d3 0 0 0 vcc 0 0 vcc vcc 74HC74\n.end"))
     proc = drc("check", str(shifted), "--baseline", str(base), "--no-fixes")
     assert proc.returncode == 1, proc.stdout
 

@@ -7,13 +7,13 @@ computed (the gate never computes them either).
 
 from __future__ import annotations
 
-from drc.board.board import Contact, Receiver
-from drc.errors import SourceLocation
-from drc.checks.findings import Figure, Finding
-from drc.report.run_report import Inventory, BoardReport, RunReport
 from drc.analysis.results import EdgeResult, LevelResult, StageResult
-from drc.checks.ruledoc import RuleDoc
+from drc.board.board import Contact, Receiver
 from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit, Throw
+from drc.checks.findings import Figure, Finding
+from drc.checks.ruledoc import RuleDoc
+from drc.errors import SourceLocation
+from drc.report.run_report import BoardReport, Inventory, RunReport
 
 BOARD = "boards/panel.cir"
 

@@ -12,7 +12,6 @@ import pytest
 from drc.errors import ConfigError, SourceLocation, UsageError
 from drc.gate.baseline import load_baseline, write_baseline
 from drc.gate.decision import apply_baseline, exit_status
-
 from tests.gate.builders import board_report, finding, run_report, sample_findings
 
 
@@ -96,7 +95,8 @@ def test_refuses_to_overwrite_an_input(tmp_path):
     ('{"format": "drc-baseline/1", "entries": {}}', "must be a list", 0),
     ('{"format": "drc-baseline/1", "entries": [{"board": "a", "rule": "r"}]}', "entries[0]: missing parts", 0),
     ('{"format": "drc-baseline/1", "entries": [{"board": "a", "rule": "r", "parts": [1]}]}', "entries[0].parts", 0),
-    ('{"format": "drc-baseline/1", "entries": [{"board": "a", "rule": "r", "parts": [], "x": 1}]}', "unknown key 'x'", 0),
+    ('{"format": "drc-baseline/1", "entries": [{"board": "a", "rule": "r", "parts": [], "x": 1}]}',
+     "unknown key 'x'", 0),
 ])
 def test_bad_baseline_is_a_located_config_error(tmp_path, text, says, line):
     path = tmp_path / "b.json"

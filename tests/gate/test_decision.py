@@ -21,7 +21,6 @@ from drc.gate.decision import (
     run_fail_level,
     with_severities,
 )
-
 from tests.checks.builders import LIMITS, result
 from tests.gate.builders import BOARD, finding
 

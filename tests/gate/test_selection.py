@@ -11,7 +11,6 @@ import pytest
 
 from drc.errors import ConfigError, UsageError
 from drc.gate.decision import exit_status, resolve_selection, severity_at_least
-
 from tests.gate.builders import RULE_IDS, finding
 
 ALL = set(RULE_IDS)

@@ -11,7 +11,6 @@ from datetime import date
 from drc.config.settings import Waiver
 from drc.errors import SourceLocation
 from drc.gate.decision import apply_annotations, apply_waivers, combine_notes
-
 from tests.gate.builders import BOARD, finding
 
 TODAY = date(2025, 3, 1)

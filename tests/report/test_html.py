@@ -18,8 +18,8 @@ import numpy as np
 import pytest
 
 from drc.report.html import render_html
-from drc.report.run_report import BoardReport, RunReport
 from drc.report.plots import resample, stage_plot_data, stage_plot_svg, time_window
+from drc.report.run_report import BoardReport, RunReport
 from tests.report.html_demo import ALL, board_report, run_report
 
 

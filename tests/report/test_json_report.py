@@ -5,9 +5,12 @@ import re
 from dataclasses import replace
 from pathlib import Path
 
+import pytest
+
+from drc.checks.findings import Severity, Suppression
+from drc.errors import ExitStatus
 from drc.report.json_report import REPORT_FORMAT, render_json
 from drc.report.run_report import BaselineInfo
-
 from tests.gate.builders import board_report, finding, run_report, sample_findings, stage_result
 
 SCHEMA_DOC = Path(__file__).resolve().parents[2] / "docs" / "report-schema.md"
@@ -98,3 +101,35 @@ def test_schema_doc_and_output_agree():
     for name, keys in written.items():
         assert documented[name] == keys, (name, sorted(documented[name] ^ keys))
     assert f"`{REPORT_FORMAT}`" in SCHEMA_DOC.read_text(encoding="utf-8")
+
+
+def standard(value) -> str:
+    return json.dumps(value, indent=2, sort_keys=True, ensure_ascii=False, allow_nan=False)
+
+
+def test_the_fast_writer_writes_what_json_dumps_writes():
+    from drc.report.json_report import report_document
+    run = full_run()
+    assert render_json(run) == standard(report_document(run)) + "\n"
+
+
+@pytest.mark.parametrize("value", [
+    {}, [], {"a": []}, {"b": {}, "a": [{}]}, [1, 2.5, -0.0, 0.0, True, False, None, "x"],
+    {"é": "ü\n\"\\", "a": {"c": 1e-300, "b": [1e21, 12345678.9]}},
+    {2: "int keys", 1: "sorted as numbers"}, {2.5: "float keys", -1.0: "x"}, {True: "bool", False: "keys"},
+    {"nested": [[1, [2, [3]]], {"k": ("tuple", 1)}]},
+    {"enum": Severity.ERROR, "int enum": ExitStatus.FINDINGS, "kind": Suppression.WAIVER},
+    ["\u2028 separators \x00 and \t tabs"],
+])
+def test_dump_indented_matches_json_dumps(value):
+    from drc.report.json_report import dump_indented
+    assert dump_indented(value) == standard(value)
+
+
+@pytest.mark.parametrize("value", [[float("nan")], {"a": float("inf")}, {"a": [1, -float("inf")]}])
+def test_dump_indented_refuses_what_json_refuses(value):
+    from drc.report.json_report import dump_indented
+    with pytest.raises(ValueError):
+        standard(value)
+    with pytest.raises(ValueError):
+        dump_indented(value)

@@ -5,7 +5,6 @@ from dataclasses import replace
 from junitparser import Error, Failure, JUnitXml
 
 from drc.report.junit import render_junit
-
 from tests.gate.builders import board_report, finding, run_report, sample_findings
 
 

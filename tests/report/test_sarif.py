@@ -17,7 +17,6 @@ from jsonschema import Draft4Validator
 from drc.errors import SourceLocation
 from drc.report.run_report import BaselineInfo
 from drc.report.sarif import FINGERPRINT_KEY, render_sarif
-
 from tests.gate.builders import board_report, finding, run_report, sample_findings
 
 SCHEMA_SHA256 = "c3b4bb2d6093897483348925aaa73af03b3e3f4bd4ca38cef26dcb4212a2682e"
@@ -70,7 +69,7 @@ def test_rules_and_results(tmp_path):
     location = result["locations"][0]
     assert location["physicalLocation"]["artifactLocation"]["uri"] == "boards/panel.cir"
     assert location["physicalLocation"]["region"]["startLine"] == 5
-    assert {(l["name"], l["kind"]) for l in location["logicalLocations"]} == {
+    assert {(logical["name"], logical["kind"]) for logical in location["logicalLocations"]} == {
         ("SW1", "component"), ("U1:1", "component"), ("in1", "net")}
     assert result["relatedLocations"][0]["physicalLocation"]["region"]["startLine"] == 7
 

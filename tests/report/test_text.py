@@ -13,7 +13,6 @@ from rich.console import Console
 
 from drc.report.run_report import BaselineInfo
 from drc.report.text import render_folder_summary, render_text
-
 from tests.gate.builders import board_report, finding, run_report, sample_findings, stage_result
 
 
