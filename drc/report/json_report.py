@@ -191,19 +191,6 @@ _int_repr = int.__repr__
 _CONTAINERS = frozenset((dict, list, tuple))
 
 
-@memoized(10_000)
-def _str_key(key: str) -> str:
-    """A string key as written before its value: escaped, with the colon. The same
-    few dozen keys recur in every stage of a report."""
-    return _escape(key) + ": "
-
-
-def _key(key) -> str:
-    if type(key) is str:
-        return _str_key(key)
-    return _escape(_key_text(key)) + ": "
-
-
 def _key_text(key) -> str:
     """A non-string key as json.dumps writes it."""
     if isinstance(key, str):
@@ -245,103 +232,116 @@ def _scalar(value) -> str:
     raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
 
 
-@memoized(64)
-def _leaf_encoder(inner: str) -> Callable:
-    """An encoder for a container of scalars at one depth (`inner` is its items'
-    newline and indent): the C encoder when there is one (compact, with the newline
-    and indent as its item separator), else the standard library's own Python one."""
-    make = json.encoder.c_make_encoder  # type: ignore[attr-defined]  # None without the C accelerator
-    if make is not None:
-        return make(None, _no_default, _escape, None, ": ", "," + inner, True, False, False)
-    plain = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
-                             separators=("," + inner, ": "))
-    return lambda value, _level: plain.iterencode(value)
-
-
 def _no_default(value):
     raise TypeError(f"Object of type {value.__class__.__name__} is not JSON serializable")
 
 
 def dump_indented(value) -> str:
     """`value` as json.dumps(indent=2, sort_keys=True, ensure_ascii=False, allow_nan=False)."""
-    out: list[str] = []
-    _dump(value, "\n", out)
-    return "".join(out)  # one copy of the text, whatever the nesting
+    writer = _IndentedWriter()
+    writer.value(value, "\n")
+    return "".join(writer.out)  # one copy of the text, whatever the nesting
 
 
-def _dump(value, indent: str, out: list[str]) -> None:
-    """Append `value` at `indent` (its closing bracket's newline and indent)."""
-    kind = type(value)
-    if kind is dict:
-        _dump_dict(value, indent, out)
-    elif kind is list or kind is tuple:
-        _dump_list(value, indent, out)
-    elif kind is float:
-        out.append(_float_text(value))
-    elif isinstance(value, dict):
-        _dump_dict(dict(value), indent, out)
-    elif isinstance(value, (list, tuple)):
-        _dump_list(list(value), indent, out)
-    else:
-        out.append(_scalar(value))
+class _IndentedWriter:
+    """One dump: the pieces of text written so far, and what this dump remembers
+    (the written form of each key, the encoder of each depth). Each `indent`
+    argument is the newline and indent of the value's closing bracket."""
 
+    __slots__ = ("out", "keys", "encoders")
 
-def _only_scalars(values: Iterable) -> bool:
-    return _CONTAINERS.isdisjoint(map(type, values))
+    def __init__(self) -> None:
+        self.out: list[str] = []
+        self.keys: dict[str, str] = {}  # key -> its escaped text and ": "; the same few dozen recur
+        self.encoders: dict[str, Callable] = {}
 
-
-def _dump_leaf(value: dict | list | tuple, brackets: str, indent: str, out: list[str]) -> None:
-    """A container of scalars alone: one call of the C encoder, the indent as its separator."""
-    inner = indent + "  "
-    text = "".join(_leaf_encoder(inner)(value, 0))
-    out.append(brackets[0] + inner)
-    out.append(text[1:-1])
-    out.append(indent + brackets[1])
-
-
-def _dump_dict(value: dict, indent: str, out: list[str]) -> None:
-    if not value:
-        out.append("{}")
-        return
-    if _only_scalars(value.values()) and type(next(iter(value))) is str:
-        _dump_leaf(value, "{}", indent, out)
-        return
-    append = out.append
-    inner = indent + "  "
-    head = "{" + inner
-    separator = "," + inner
-    for k, v in sorted(value.items()):
-        key = _str_key(k) if type(k) is str else _key(k)
-        kind = type(v)
-        # Scalars inline: a call per value would be most of the cost of a report.
-        if kind is str:
-            append(head + key + _escape(v))
+    def value(self, value, indent: str) -> None:
+        kind = type(value)
+        if kind is dict:
+            self.mapping(value, indent)
+        elif kind is list or kind is tuple:
+            self.sequence(value, indent)
         elif kind is float:
-            text = _float_repr(v)
-            if text[-1] > "9":
-                _float_text(v)  # raises on inf and nan, as json does
-            append(head + key + text)
-        elif v is None:
-            append(head + key + "null")
+            self.out.append(_float_text(value))
+        elif isinstance(value, dict):
+            self.mapping(dict(value), indent)
+        elif isinstance(value, (list, tuple)):
+            self.sequence(list(value), indent)
         else:
-            append(head + key)
-            _dump(v, inner, out)
-        head = separator
-    append(indent + "}")
+            self.out.append(_scalar(value))
+
+    def leaf(self, value: dict | list | tuple, inner: str) -> str:
+        """A container of scalars alone, in one call of the C encoder (the newline and
+        indent as its item separator), without its brackets."""
+        encoder = self.encoders.get(inner)
+        if encoder is None:
+            encoder = self.encoders[inner] = _leaf_encoder(inner)
+        return "".join(encoder(value, 0))[1:-1]
+
+    def key(self, key) -> str:
+        if type(key) is not str:
+            return _escape(_key_text(key)) + ": "
+        text = self.keys[key] = _escape(key) + ": "
+        return text
+
+    def mapping(self, value: dict, indent: str) -> None:
+        out = self.out
+        if not value:
+            out.append("{}")
+            return
+        inner = indent + "  "
+        if _CONTAINERS.isdisjoint(map(type, value.values())) and type(next(iter(value))) is str:
+            out += ("{" + inner, self.leaf(value, inner), indent + "}")
+            return
+        append = out.append
+        keys = self.keys
+        head = "{" + inner
+        separator = "," + inner
+        for k, v in sorted(value.items()):
+            key = keys.get(k) if type(k) is str else None
+            if key is None:
+                key = self.key(k)
+            kind = type(v)
+            # Scalars inline: a call per value would be most of the cost of a report.
+            if kind is str:
+                append(head + key + _escape(v))
+            elif kind is float:
+                text = _float_repr(v)
+                if text[-1] > "9":
+                    _float_text(v)  # raises on inf and nan, as json does
+                append(head + key + text)
+            elif v is None:
+                append(head + key + "null")
+            else:
+                append(head + key)
+                self.value(v, inner)
+            head = separator
+        append(indent + "}")
+
+    def sequence(self, value: list | tuple, indent: str) -> None:
+        out = self.out
+        if not value:
+            out.append("[]")
+            return
+        inner = indent + "  "
+        if _CONTAINERS.isdisjoint(map(type, value)):
+            out += ("[" + inner, self.leaf(value, inner), indent + "]")
+            return
+        head = "[" + inner
+        separator = "," + inner
+        for v in value:
+            out.append(head)
+            self.value(v, inner)
+            head = separator
+        out.append(indent + "]")
 
 
-def _dump_list(value: list | tuple, indent: str, out: list[str]) -> None:
-    if not value:
-        out.append("[]")
-        return
-    if _only_scalars(value):
-        _dump_leaf(value, "[]", indent, out)
-        return
-    inner = indent + "  "
-    head = "[" + inner
-    separator = "," + inner
-    for v in value:
-        out.append(head)
-        _dump(v, inner, out)
-        head = separator
-    out.append(indent + "]")
+def _leaf_encoder(inner: str) -> Callable:
+    """An encoder for a container of scalars whose items are separated by "," and
+    `inner`: the C encoder when there is one, else the standard library's Python one."""
+    make = json.encoder.c_make_encoder  # type: ignore[attr-defined]  # None without the C accelerator
+    if make is not None:
+        return make(None, _no_default, _escape, None, ": ", "," + inner, True, False, False)
+    plain = json.JSONEncoder(sort_keys=True, ensure_ascii=False, allow_nan=False,
+                             separators=("," + inner, ": "))
+    return lambda value, _level: plain.iterencode(value)
