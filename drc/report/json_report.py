@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import json
 import math
-from collections.abc import Callable, Iterable
+from collections.abc import Callable
 
 from drc import __version__
 from drc.analysis.results import EdgeResult, LevelResult, StageResult
