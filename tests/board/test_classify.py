@@ -255,11 +255,11 @@ XU9 +3V3 0 KEY1 KEY2 CTRL_CHIP
 
 
 def test_annotation_debounce_makes_a_firmware_stage(tmp_path):
-    from drc.pipeline import CheckOptions, check_board_full
+    from drc.pipeline import CheckOptions, check_board_in_memory
     board = tmp_path / "b.cir"
     board.write_text("annotated\n*@drc debounce U1:1 20ms\nV1 +5V 0 DC 5\nR1 +5V in1 10k\n"
                      "SW1 in1 0 SW_PUSH\n" + HC14.format(vcc="+5V") + "\n.end\n")
-    check = check_board_full(board, CheckOptions(propose_fixes=False))
+    check = check_board_in_memory(board, CheckOptions(propose_fixes=False))
     [result] = check.results
     assert result.stage.kind == "firmware"
     assert result.stage.receiver.firmware_debounce_s == pytest.approx(20e-3)
