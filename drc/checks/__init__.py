@@ -19,7 +19,7 @@ from drc.analysis.results import StageResult
 from drc.caching import Memo
 from drc.checks.context import RuleContext, locations_of
 from drc.checks.findings import Finding
-from drc.checks.registry import Rule, registered_rules, registry_generation, rule
+from drc.checks.registry import Rule, RuleKind, registered_rules, registry_generation, rule
 
 # The built-in rules in catalogue order: importing a module registers its rule,
 # and the registration order is the catalogue order.
@@ -71,13 +71,13 @@ def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float]
     locations = locations_of(board)
     board_name = getattr(board, "path", "") or ""
     contexts = _contexts(rules, board_name, limits, locations)
-    stage_rules = [(r, c) for r, c in contexts if r.kind == "stage"]
+    stage_rules = [(r, c) for r, c in contexts if r.kind == RuleKind.STAGE]
     findings: list[Finding] = []
     for result in results:
         for r, ctx in stage_rules:
             findings.extend(r.check(result, ctx))
     for r, ctx in contexts:
-        if r.kind == "board" and board is not None:
+        if r.kind == RuleKind.BOARD and board is not None:
             findings.extend(r.check(board, ctx))
     return findings
 
@@ -88,7 +88,7 @@ def run_stage_rules(result: StageResult, limits: Mapping[str, float],
     if board is None:
         contexts = _bare_contexts(limits, selected_ids)
     else:
-        rules = _selected(selected_ids, kind="stage")
+        rules = _selected(selected_ids, kind=RuleKind.STAGE)
         contexts = _contexts(rules, getattr(board, "path", "") or "", limits, locations_of(board))
     out: list[Finding] = []
     for r, ctx in contexts:
@@ -107,5 +107,5 @@ def _bare_contexts(limits: Mapping[str, float], selected_ids) -> list[tuple[Rule
     key = (tuple(limits.items()), selected, registry_generation())
     found = _BARE.get(key)
     if found is None:
-        found = _BARE.put(key, _contexts(_selected(selected_ids, kind="stage"), "", dict(limits), {}))
+        found = _BARE.put(key, _contexts(_selected(selected_ids, kind=RuleKind.STAGE), "", dict(limits), {}))
     return found

@@ -25,6 +25,17 @@ def test_check_one_board():
     assert {r.stage.kind for r in report.stages} == {"rc-schmitt"}
 
 
+def test_the_api_leaves_the_collector_alone(monkeypatch):
+    import gc
+
+    def refuse():
+        raise AssertionError("the Python API must not pause the host's garbage collector")
+
+    monkeypatch.setattr(gc, "disable", refuse)
+    assert drc.check_board(BOARDS / "remote_pod.cir", OPTIONS).report.error is None
+    assert len(drc.audit([BOARDS / "remote_pod.cir"], OPTIONS).boards) == 1
+
+
 def test_audit_same_result_with_a_process_pool():
     serial = render_json(drc.audit([BOARDS], OPTIONS))
     with ProcessPoolExecutor(max_workers=2) as pool:
