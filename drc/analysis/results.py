@@ -6,13 +6,39 @@ never reached (the steady level does not cross it): a result, not an error.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
+from enum import StrEnum
 
 from drc.analysis.receiver import ReceiverElectrical
 from drc.board.stage import Stage
 
+
+class Edge(StrEnum):
+    """The two edges at a receiver; the value is the name reports print."""
+
+    PRESS = "press"  # released -> pressed
+    RELEASE = "release"  # pressed -> released
+
+
 ACTUATOR_STATES = ("released", "pressed")
-EDGES = ("press", "release")
+EDGES: tuple[Edge, ...] = tuple(Edge)
+# Each edge as (state before, state after).
+EDGE_STATES: dict[Edge, tuple[str, str]] = {Edge.PRESS: ("released", "pressed"),
+                                             Edge.RELEASE: ("pressed", "released")}
+OTHER_STATE = {"released": "pressed", "pressed": "released"}
+# The resistors whose current `StageResult.pull_current_a` reports.
+PULL_ROLES = ("pull", "internal-pull")
+
+
+def time_or_none(x: float | None) -> float | None:
+    """A time as reported: None when the threshold is never reached (nan or inf)."""
+    return None if x is None or not math.isfinite(x) else float(x)
+
+
+def slope_or_none(x: float | None) -> float | None:
+    """A slope as reported; inf (an instant switch) is kept, nan (no crossing) is None."""
+    return None if x is None or math.isnan(x) else float(x)
 
 
 @dataclass(frozen=True, slots=True)
@@ -49,7 +75,7 @@ class EdgeResult:
     keyed by designator or name ("R2", "C1", "rail:+5V", "threshold", "leakage").
     """
 
-    edge: str
+    edge: Edge
     direction: str  # "rising" or "falling"
     start_v: float
     final_v: float

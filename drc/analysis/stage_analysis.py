@@ -3,7 +3,8 @@
 `analyse_stage` turns a Stage and its receiver's electrical data into the
 StageResult the rules read; `analyse_stages` does the same for many stages,
 solving those that share a circuit structure as one numpy batch
-(physics.batch), which is how a board's thousands of stages are analysed. It compiles the stage circuit once, then asks the
+(physics.batch), which is how a board's thousands of stages are analysed.
+It compiles the stage circuit once, then asks the
 physics package for steady levels in each actuator state (nominal, and at the
 vertex closest to the threshold the level must clear), for both edges'
 time-to-threshold at nominal and at the fastest and slowest corners, and for
@@ -18,27 +19,49 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
-from drc.analysis.receiver import ReceiverElectrical
-from drc.analysis.physics.corners import ENUMERATE_MAX, Box, corner_dict, make_box, sign_search, vertices, worst_vertex
-from drc.analysis.physics.mna import DcBatch, cap_voltages, dc_solve, node_voltage
+from drc.analysis.physics.batch import analyse_group, batchable, structure_key, template
 from drc.analysis.physics.compiled import THRESHOLD, LinearModel, compile_circuit
+from drc.analysis.physics.corners import (
+    ENUMERATE_MAX,
+    Box,
+    corner_dict,
+    make_box,
+    sign_search,
+    vertices,
+    worst_vertex,
+)
+from drc.analysis.physics.mna import DcBatch, cap_voltages, dc_solve, node_voltage
 from drc.analysis.physics.transient import EdgeSolution, edge_batch, sample, settle_diodes, solve_edge
-from drc.analysis.results import LevelResult, EdgeResult, StageResult
+from drc.analysis.receiver import ReceiverElectrical
+from drc.analysis.results import (
+    ACTUATOR_STATES,
+    EDGE_STATES,
+    OTHER_STATE,
+    PULL_ROLES,
+    Edge,
+    EdgeResult,
+    LevelResult,
+    StageResult,
+    slope_or_none,
+    time_or_none,
+)
 from drc.board.stage import Stage
 
-EDGE_STATES = {"press": ("released", "pressed"), "release": ("pressed", "released")}
-PULL_ROLES = ("pull", "internal-pull")
-_OTHER = {"released": "pressed", "pressed": "released"}
+# A corner: "nominal", "fastest", "slowest", or {parameter name: value} (an EdgeResult's corner).
+Corner = str | Mapping[str, float]
+# A DC figure to make worst: badness per corner row of a DcBatch (larger is worse).
+DcObjective = Callable[[DcBatch], np.ndarray]
 
 
 @dataclass(frozen=True, slots=True)
 class EdgeSetup:
     """What defines one edge's question: states, direction, thresholds, ranges."""
 
-    edge: str
+    edge: Edge
     from_state: str
     to_state: str
     direction: int  # +1 rising, -1 falling
@@ -58,35 +81,37 @@ def analyse_stages(stages: Sequence[Stage],
     aside) with closed-form edges are solved together in one batch; the rest
     one by one.
     """
-    from drc.analysis.physics.batch import analyse_group, batchable, structure_key, template
     stages = list(stages)
     rxs = [rx_for(s) for s in stages] if callable(rx_for) else list(rx_for)
     if len(rxs) != len(stages):
         raise ValueError("rx_for must give one receiver per stage")
-    out: list[StageResult | None] = [None] * len(stages)
     groups: dict[tuple, list[int]] = {}
     for i, st in enumerate(stages):
         groups.setdefault(structure_key(st.circuit), []).append(i)
+    by_index: dict[int, StageResult] = {}
     for key, idx in groups.items():
         model = template(key, stages[idx[0]].circuit)
-        got = None
-        if batchable(model):
-            for lo in range(0, len(idx), _BATCH_STAGES):
-                chunk = idx[lo:lo + _BATCH_STAGES]
-                part = analyse_group(model, [stages[i] for i in chunk], [rxs[i] for i in chunk])
-                if part is None:
-                    got = None
-                    break
-                got = (got or []) + part
+        mine, their_rxs = [stages[i] for i in idx], [rxs[i] for i in idx]
+        got = _batched(model, mine, their_rxs) if batchable(model) else None
         if got is None:
-            got = [_analyse_one(stages[i], rxs[i]) for i in idx]
-        for i, res in zip(idx, got):
-            out[i] = res
-    return out  # type: ignore[return-value]
+            got = [_analyse_one(st, rx) for st, rx in zip(mine, their_rxs, strict=True)]
+        by_index.update(zip(idx, got, strict=True))
+    return [by_index[i] for i in range(len(stages))]
 
 
 # Stages per batch: bounds the temporary arrays (rows = stages x 2**parameters).
 _BATCH_STAGES = 2048
+
+
+def _batched(model: LinearModel, stages: list[Stage], rxs: list[ReceiverElectrical]) -> list[StageResult] | None:
+    """Stages of one structure solved in batches of `_BATCH_STAGES`; None if a batch does not apply."""
+    got: list[StageResult] = []
+    for lo in range(0, len(stages), _BATCH_STAGES):
+        part = analyse_group(model, stages[lo:lo + _BATCH_STAGES], rxs[lo:lo + _BATCH_STAGES])
+        if part is None:
+            return None
+        got += part
+    return got
 
 
 def analyse_stage(stage: Stage, rx: ReceiverElectrical) -> StageResult:
@@ -99,8 +124,8 @@ def _analyse_one(stage: Stage, rx: ReceiverElectrical) -> StageResult:
     model = compile_circuit(stage.circuit)
     notes: list[str] = []
     levels: dict[str, LevelResult] = {}
-    extremes: dict[str, dict] = {}
-    for state in ("released", "pressed"):
+    extremes: dict[str, dict[str, Any]] = {}
+    for state in ACTUATOR_STATES:
         levels[state], extremes[state] = _level(model, state, rx)
         if levels[state].logic == "undefined":
             notes.append(f"{state}: the receiver has no DC path to a rail or ground")
@@ -109,7 +134,7 @@ def _analyse_one(stage: Stage, rx: ReceiverElectrical) -> StageResult:
         if levels[a].logic == "undefined" or levels[b].logic == "undefined":
             notes.append(f"{edge}: not timed, a level is undefined")
             continue
-        edges[edge] = _edge(model, rx, edge_setup(model, rx, edge, levels), notes)
+        edges[edge] = _edge(model, edge_setup(model, rx, edge, levels))
     defined = [s for s in levels if levels[s].logic != "undefined"]
     max_in = max((extremes[s]["max_v"] for s in defined), default=None)
     pulls = [extremes[s]["pull_a"] for s in defined if extremes[s]["pull_a"] is not None]
@@ -127,7 +152,11 @@ def _level_range(rx: ReceiverElectrical, logic: str) -> tuple[float, float]:
     return rx.leak_high_a if logic == "high" else rx.leak_low_a
 
 
-def _level(model: LinearModel, state: str, rx: ReceiverElectrical) -> tuple[LevelResult, dict]:
+def _closed_throws(model: LinearModel, state: str) -> list[int]:
+    return [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
+
+
+def _level(model: LinearModel, state: str, rx: ReceiverElectrical) -> tuple[LevelResult, dict[str, Any]]:
     # The level decides which leakage range applies: solve with both midpoints at once.
     boxes = {lv: make_box(model.nominal, model.lo, model.hi, model.leak_col, _level_range(rx, lv))
              for lv in ("high", "low")}
@@ -139,12 +168,12 @@ def _level(model: LinearModel, state: str, rx: ReceiverElectrical) -> tuple[Leve
     i0 = 0 if logic == "high" else 1
     box = _dc_box(model, boxes[logic])
     sign = -1.0 if logic == "high" else 1.0  # badness: lower is worse for high, higher for low
-    objectives = {
+    objectives: dict[str, DcObjective] = {
         "worst": lambda d: _nan_low(sign * d.rx_v),
         "max_v": lambda d: _nan_low(d.rx_v),
         "pull_a": lambda d: _pull_current(model, d),
     }
-    closed = [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
+    closed = _closed_throws(model, state)
     if closed:
         objectives["contact_a"] = lambda d: -np.min(np.abs(d.i_throw[:, closed]), axis=1)
     ex = _dc_extremes(model, state, box, objectives)
@@ -170,7 +199,8 @@ def _nan_low(x: np.ndarray) -> np.ndarray:
     return np.where(np.isnan(x), -np.inf, x)
 
 
-def _dc_extremes(model: LinearModel, state: str, box: Box, objectives: dict) -> dict:
+def _dc_extremes(model: LinearModel, state: str, box: Box,
+                 objectives: Mapping[str, DcObjective]) -> dict[str, tuple[np.ndarray, float]]:
     """For each objective (DcBatch -> badness per corner): (worst row, worst value)."""
     out = {}
     if len(box.cols) <= ENUMERATE_MAX:
@@ -182,8 +212,13 @@ def _dc_extremes(model: LinearModel, state: str, box: Box, objectives: dict) -> 
             out[name] = (P[i], float(vals[i]))
         return out
     for name, fn in objectives.items():
-        out[name] = worst_vertex(box, lambda P, fn=fn: fn(dc_solve(model, state, P)))
+        out[name] = worst_vertex(box, _over_rows(model, state, fn))
     return out
+
+
+def _over_rows(model: LinearModel, state: str, fn: DcObjective) -> Callable[[np.ndarray], np.ndarray]:
+    """An objective as a function of parameter rows (one DC solve per call)."""
+    return lambda P: fn(dc_solve(model, state, P))
 
 
 def _pull_current(model: LinearModel, dc: DcBatch) -> np.ndarray:
@@ -196,7 +231,7 @@ def _pull_current(model: LinearModel, dc: DcBatch) -> np.ndarray:
 def _contact_current(model: LinearModel, state: str, rx: ReceiverElectrical,
                      logic: str | None = None) -> float | None:
     """Smallest steady current through a throw closed in `state`, over corners."""
-    closed = [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
+    closed = _closed_throws(model, state)
     if not closed:
         return None
     leak = _level_range(rx, logic) if logic else (0.0, 0.0)
@@ -208,7 +243,8 @@ def _contact_current(model: LinearModel, state: str, rx: ReceiverElectrical,
 
 def edge_setup(model: LinearModel, rx: ReceiverElectrical, edge: str,
                levels: Mapping[str, LevelResult] | None = None) -> EdgeSetup:
-    """Direction (from the nominal levels), thresholds and ranges of an edge."""
+    """Direction (from the nominal levels), thresholds and ranges of an edge ("press" or "release")."""
+    edge = Edge(edge)
     a, b = EDGE_STATES[edge]
     if levels is None:
         levels = {s: _level(model, s, rx)[0] for s in (a, b)}
@@ -223,68 +259,97 @@ def edge_setup(model: LinearModel, rx: ReceiverElectrical, edge: str,
     return EdgeSetup(edge, a, b, 1 if rising else -1, thr, inner, outer, box)
 
 
-def _none(x: float) -> float | None:
-    return None if x is None or not math.isfinite(x) else float(x)
+@dataclass(frozen=True, slots=True)
+class _EdgeCorners:
+    """One edge's figures before they become an EdgeResult (nan: threshold not reached)."""
+
+    nominal_s: float
+    nominal_slope: float
+    start_v: float
+    final_v: float
+    row_fastest: np.ndarray
+    row_slowest: np.ndarray
+    fastest_s: float  # inf: not reached
+    slowest_s: float
+    slowest_slope: float
 
 
-def _slope(x: float) -> float | None:
-    """A slope; inf (an instant switch) is kept, nan (no crossing) is None."""
-    return None if x is None or math.isnan(x) else float(x)
-
-
-def _edge(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup, notes: list[str]) -> EdgeResult:
-    box = es.box
-    typ = es.threshold[1]
-    if len(box.cols) <= ENUMERATE_MAX and model.k <= 1 and not model.has_diodes:
-        # Closed form, vectorised: every vertex outright (one batched solve).
-        V = vertices(box)
-        nv = V.shape[0]
-        P = np.vstack([box.nominal[None, :], V, V])
-        vth = np.concatenate([[typ], np.full(nv, es.inner_v), np.full(nv, es.outer_v)])
-        eb = edge_batch(model, es.from_state, es.to_state, P, vth, es.direction)
-        nom = (eb.t[0], eb.slope[0], eb.start_v[0], eb.final_v[0])
-        tf = np.where(np.isnan(eb.t[1:nv + 1]), np.inf, eb.t[1:nv + 1])
-        ts = np.where(np.isnan(eb.t[nv + 1:]), np.inf, eb.t[nv + 1:])
-        i_f, i_s = int(np.argmin(tf)), int(np.argmax(ts))
-        row_f, row_s = V[i_f], V[i_s]
-        t_fast, t_slow = tf[i_f], ts[i_s]
-        slope_slow = eb.slope[nv + 1 + i_s]
+def _edge(model: LinearModel, es: EdgeSetup) -> EdgeResult:
+    """Both worst corners and the nominal of one edge: closed form when it applies, else exact."""
+    if len(es.box.cols) <= ENUMERATE_MAX and model.k <= 1 and not model.has_diodes:
+        c = _closed_form_corners(model, es)
     else:
-        # Exact event-driven solves, one corner at a time: the direction of each
-        # parameter from sensitivities, then a local search over single flips
-        # (2n + 2 solves per corner instead of 2**n; corners.sign_search).
-        memo: dict[tuple, tuple[float, float]] = {}
-
-        def run(P, vth):
-            out_t = np.empty(P.shape[0]); out_s = np.empty(P.shape[0])
-            for i, row in enumerate(P):
-                key = (row.tobytes(), vth)
-                hit = memo.get(key)
-                if hit is None:
-                    sol = solve_edge(model, es.from_state, es.to_state, row, vth, es.direction)
-                    hit = (math.nan, math.nan) if sol.crossing_s is None else (sol.crossing_s, sol.slope_v_per_s)
-                    memo[key] = hit
-                    if key[1] == typ and row.tobytes() == box.nominal.tobytes():
-                        memo["nominal"] = (sol.start_v, sol.final_v)
-                out_t[i], out_s[i] = hit
-            return out_t, out_s
-        t0, s0 = run(box.nominal[None, :], typ)
-        start_v, final_v = memo["nominal"]
-        nom = (t0[0], s0[0], start_v, final_v)
-        row_f, bad_f = sign_search(box, lambda P: -np.where(np.isnan(t := run(P, es.inner_v)[0]), np.inf, t))
-        row_s, bad_s = sign_search(box, lambda P: np.where(np.isnan(t := run(P, es.outer_v)[0]), np.inf, t))
-        t_fast, t_slow = -bad_f, bad_s
-        slope_slow = run(row_s[None, :], es.outer_v)[1][0]
+        c = _exact_corners(model, es)
     return EdgeResult(
         edge=es.edge, direction="rising" if es.direction > 0 else "falling",
-        start_v=float(nom[2]), final_v=float(nom[3]), threshold_v=typ,
+        start_v=float(c.start_v), final_v=float(c.final_v), threshold_v=es.threshold[1],
         threshold_fastest_v=es.inner_v, threshold_slowest_v=es.outer_v,
-        nominal_s=_none(nom[0]), fastest_s=_none(t_fast), slowest_s=_none(t_slow),
-        slope_v_per_s=_slope(nom[1]) if not np.isnan(nom[0]) else None,
-        slowest_slope_v_per_s=_slope(slope_slow) if math.isfinite(t_slow) else None,
-        corner_fastest=corner_dict(model.param_names, row_f, {THRESHOLD: es.inner_v}),
-        corner_slowest=corner_dict(model.param_names, row_s, {THRESHOLD: es.outer_v}),
+        nominal_s=time_or_none(c.nominal_s), fastest_s=time_or_none(c.fastest_s),
+        slowest_s=time_or_none(c.slowest_s),
+        slope_v_per_s=slope_or_none(c.nominal_slope) if not np.isnan(c.nominal_s) else None,
+        slowest_slope_v_per_s=slope_or_none(c.slowest_slope) if math.isfinite(c.slowest_s) else None,
+        corner_fastest=corner_dict(model.param_names, c.row_fastest, {THRESHOLD: es.inner_v}),
+        corner_slowest=corner_dict(model.param_names, c.row_slowest, {THRESHOLD: es.outer_v}),
     )
+
+
+def _closed_form_corners(model: LinearModel, es: EdgeSetup) -> _EdgeCorners:
+    """Closed form, vectorised: every vertex outright (one batched solve)."""
+    box = es.box
+    V = vertices(box)
+    nv = V.shape[0]
+    P = np.vstack([box.nominal[None, :], V, V])
+    vth = np.concatenate([[es.threshold[1]], np.full(nv, es.inner_v), np.full(nv, es.outer_v)])
+    eb = edge_batch(model, es.from_state, es.to_state, P, vth, es.direction)
+    tf = np.where(np.isnan(eb.t[1:nv + 1]), np.inf, eb.t[1:nv + 1])
+    ts = np.where(np.isnan(eb.t[nv + 1:]), np.inf, eb.t[nv + 1:])
+    i_f, i_s = int(np.argmin(tf)), int(np.argmax(ts))
+    return _EdgeCorners(eb.t[0], eb.slope[0], eb.start_v[0], eb.final_v[0], V[i_f], V[i_s],
+                        tf[i_f], ts[i_s], eb.slope[nv + 1 + i_s])
+
+
+class _ExactRuns:
+    """Exact event-driven solves of one edge at rows of parameters, each (row, threshold) once.
+
+    Keys are the rows' bytes and the threshold (values), and the memo lives
+    only as long as one edge's corner search.
+    """
+
+    def __init__(self, model: LinearModel, es: EdgeSetup) -> None:
+        self.model, self.es = model, es
+        self.memo: dict[tuple[bytes, float], tuple[float, float]] = {}
+        self.nominal_levels = (math.nan, math.nan)  # (start, final) at the nominal corner
+
+    def __call__(self, P: np.ndarray, vth: float) -> tuple[np.ndarray, np.ndarray]:
+        """(time, slope) at each row of P; nan where the threshold is not reached."""
+        es, nominal = self.es, self.es.box.nominal.tobytes()
+        out_t, out_s = np.empty(P.shape[0]), np.empty(P.shape[0])
+        for i, row in enumerate(P):
+            key = (row.tobytes(), vth)
+            hit = self.memo.get(key)
+            if hit is None:
+                sol = solve_edge(self.model, es.from_state, es.to_state, row, vth, es.direction)
+                slope = math.nan if sol.slope_v_per_s is None else sol.slope_v_per_s
+                hit = (math.nan, math.nan) if sol.crossing_s is None else (sol.crossing_s, slope)
+                self.memo[key] = hit
+                if vth == es.threshold[1] and key[0] == nominal:
+                    self.nominal_levels = (sol.start_v, sol.final_v)
+            out_t[i], out_s[i] = hit
+        return out_t, out_s
+
+
+def _exact_corners(model: LinearModel, es: EdgeSetup) -> _EdgeCorners:
+    """Exact event-driven solves, one corner at a time: the direction of each
+    parameter from sensitivities, then a local search over single flips
+    (2n + 2 solves per corner instead of 2**n; corners.sign_search)."""
+    box = es.box
+    run = _ExactRuns(model, es)
+    t0, s0 = run(box.nominal[None, :], es.threshold[1])
+    start_v, final_v = run.nominal_levels
+    row_f, bad_f = sign_search(box, lambda P: -np.where(np.isnan(t := run(P, es.inner_v)[0]), np.inf, t))
+    row_s, bad_s = sign_search(box, lambda P: np.where(np.isnan(t := run(P, es.outer_v)[0]), np.inf, t))
+    slope_slow = run(row_s[None, :], es.outer_v)[1][0]
+    return _EdgeCorners(t0[0], s0[0], start_v, final_v, row_f, row_s, -bad_f, bad_s, slope_slow)
 
 
 def _surge_peak(model: LinearModel) -> float | None:
@@ -303,7 +368,7 @@ def _surge_peak(model: LinearModel) -> float | None:
         ends = {n for n in (t.a, t.b) if n in model.free}
         if not any(c.a in ends or c.b in ends for c in model.circuit.capacitors):
             continue
-        dc0 = dc_solve(model, _OTHER[t.closed_when], P)
+        dc0 = dc_solve(model, OTHER_STATE[t.closed_when], P)
         u0 = cap_voltages(model, dc0)[0]
         on = tuple(bool(x) for x in dc0.diodes_on[0])
         on, red = settle_diodes(model, t.closed_when, P, u0, on)
@@ -314,7 +379,7 @@ def _surge_peak(model: LinearModel) -> float | None:
     return max(peaks) if peaks else None
 
 
-def corner_row(model: LinearModel, es: EdgeSetup, corner) -> tuple[np.ndarray, float]:
+def corner_row(model: LinearModel, es: EdgeSetup, corner: Corner) -> tuple[np.ndarray, float]:
     """Parameters and threshold of the nominal corner or of a {name: value} mapping."""
     if isinstance(corner, Mapping):
         row = es.box.nominal.copy()
@@ -327,17 +392,23 @@ def corner_row(model: LinearModel, es: EdgeSetup, corner) -> tuple[np.ndarray, f
     raise ValueError(f"unknown corner {corner!r}: 'nominal', 'fastest', 'slowest' or a mapping")
 
 
-def edge_solution(stage: Stage, rx: ReceiverElectrical, edge: str, corner="nominal") -> EdgeSolution:
+def edge_solution(stage: Stage, rx: ReceiverElectrical, edge: str, corner: Corner = "nominal") -> EdgeSolution:
     """The full exact trajectory of one edge at one corner."""
     model = compile_circuit(stage.circuit)
     es = edge_setup(model, rx, edge)
     if isinstance(corner, str) and corner in ("fastest", "slowest"):
-        res = _edge(model, rx, es, [])
+        res = _edge(model, es)
         corner = res.corner_fastest if corner == "fastest" else res.corner_slowest
     row, vth = corner_row(model, es, corner)
     return solve_edge(model, es.from_state, es.to_state, row, vth, es.direction, full=True)
 
 
-def edge_waveform(stage: Stage, rx: ReceiverElectrical, edge: str, corner="nominal") -> tuple[np.ndarray, np.ndarray]:
-    """(t, v) at the receiver for one edge and corner, sampled for plotting."""
+def edge_waveform(stage: Stage, rx: ReceiverElectrical, edge: str,
+                  corner: Corner = "nominal") -> tuple[np.ndarray, np.ndarray]:
+    """(t, v) at the receiver for `edge` ("press"/"release") at `corner`, sampled for plotting.
+
+    corner: "nominal", "fastest", "slowest", or a {parameter: value} mapping
+    such as EdgeResult.corner_slowest. The samples come from the same exact
+    solution the timing uses (`edge_solution`).
+    """
     return sample(edge_solution(stage, rx, edge, corner))

@@ -10,10 +10,10 @@ import math
 import numpy as np
 import pytest
 
-from drc.analysis.stage_analysis import analyse_stage, edge_solution
-from drc.analysis.physics.mna import dc_solve
 from drc.analysis.physics.compiled import compile_circuit
-from drc.analysis.physics.transient import edge_batch, solve_edge, waveform
+from drc.analysis.physics.mna import dc_solve
+from drc.analysis.physics.transient import edge_batch, solve_edge
+from drc.analysis.stage_analysis import analyse_stage, edge_solution, edge_waveform
 from drc.board.stage import Capacitor, Diode, Resistor, Throw
 
 from tests.analysis.builders import pullup_c_at_pin, pullup_series_rc, receiver_electrical, stage
@@ -142,7 +142,7 @@ def test_waveform_is_the_analysis_solution():
     for edge in ("press", "release"):
         for corner, key, vkey in (("nominal", "nominal_s", "threshold_v"), ("slowest", "slowest_s", "threshold_slowest_v"),
                                   ("fastest", "fastest_s", "threshold_fastest_v")):
-            t, v = waveform(st, RX, edge, corner)
+            t, v = edge_waveform(st, RX, edge, corner)
             e = res.edges[edge]
             assert np.all(np.diff(t) >= 0) and t.size > 500
             tc = getattr(e, key)

@@ -17,22 +17,36 @@ the same corners win ties.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
-from drc.analysis.receiver import ReceiverElectrical
-from drc.analysis.results import EdgeResult, LevelResult, StageResult
-from drc.board.stage import Stage, StageCircuit
-from drc.analysis.physics.corners import ENUMERATE_MAX, _bits
-from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from drc.analysis.physics.compiled import GROUND, THRESHOLD, LinearModel, compile_circuit, param_table
+from drc.analysis.physics.corners import ENUMERATE_MAX, vertex_bits
+from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from drc.analysis.physics.transient import single_cap_parts, single_cap_times
+from drc.analysis.receiver import ReceiverElectrical
+from drc.analysis.results import (
+    ACTUATOR_STATES,
+    EDGE_STATES,
+    OTHER_STATE,
+    PULL_ROLES,
+    Edge,
+    EdgeResult,
+    LevelResult,
+    StageResult,
+    slope_or_none,
+    time_or_none,
+)
+from drc.board.stage import Stage, StageCircuit
+from drc.caching import Memo
 
-EDGE_STATES = {"press": ("released", "pressed"), "release": ("pressed", "released")}
-PULL_ROLES = ("pull", "internal-pull")
-_OTHER = {"released": "pressed", "pressed": "released"}
-_TEMPLATES: dict[tuple, LinearModel] = {}
+# One compiled model per circuit structure; shapes are few, the bound is for long-lived processes.
+_TEMPLATES: Memo[tuple, LinearModel] = Memo("analysis.batch.templates", 512)
+# Builds one edge's result for a distinct row j, with that stage's parameter names.
+EdgeBuilder = Callable[[int, tuple[str, ...]], EdgeResult]
 
 
 def structure_key(circuit: StageCircuit) -> tuple:
@@ -66,10 +80,7 @@ def template(key: tuple, circuit: StageCircuit) -> LinearModel:
     """The compiled model of a structure (values of the first circuit seen; never read)."""
     model = _TEMPLATES.get(key)
     if model is None:
-        if len(_TEMPLATES) > 512:  # a bound for long-lived processes; shapes are few
-            _TEMPLATES.clear()
-        model = compile_circuit(circuit)
-        _TEMPLATES[key] = model
+        model = _TEMPLATES.put(key, compile_circuit(circuit))
     return model
 
 
@@ -107,16 +118,18 @@ def _rx_arrays(rxs: list[ReceiverElectrical]) -> dict[str, np.ndarray]:
     }
 
 
-def _with_leak(nom, lo, hi, col, leak):
+def _with_leak(nom: np.ndarray, lo: np.ndarray, hi: np.ndarray, col: int,
+               leak: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """make_box over rows: the leakage range (m, 2) filled in, nominal its midpoint."""
-    nom = nom.copy(); lo = lo.copy(); hi = hi.copy()
+    nom, lo, hi = nom.copy(), lo.copy(), hi.copy()
     lo[:, col] = leak.min(axis=1)
     hi[:, col] = leak.max(axis=1)
     nom[:, col] = 0.5 * (lo[:, col] + hi[:, col])
     return nom, lo, hi
 
 
-def _vertex_rows(nom, lo, hi, exclude=()) -> tuple[np.ndarray, tuple[int, ...]]:
+def _vertex_rows(nom: np.ndarray, lo: np.ndarray, hi: np.ndarray,
+                 exclude: tuple[int, ...] = ()) -> tuple[np.ndarray, tuple[int, ...]]:
     """(m, 2**u, p) vertices over the columns varying in any row (u = their count).
 
     A column fixed in one stage but varying in another gives that stage
@@ -125,7 +138,7 @@ def _vertex_rows(nom, lo, hi, exclude=()) -> tuple[np.ndarray, tuple[int, ...]]:
     """
     varying = np.flatnonzero(np.any(hi != lo, axis=0))
     cols = tuple(int(i) for i in varying if int(i) not in exclude)
-    bits = _bits(len(cols))
+    bits = vertex_bits(len(cols))
     V = np.repeat(nom[:, None, :], bits.shape[0], axis=1)
     if cols:
         c = list(cols)
@@ -133,21 +146,21 @@ def _vertex_rows(nom, lo, hi, exclude=()) -> tuple[np.ndarray, tuple[int, ...]]:
     return V, cols
 
 
-def _nan_low(x):
+def _nan_low(x: np.ndarray) -> np.ndarray:
     return np.where(np.isnan(x), -np.inf, x)
 
 
 def _levels(g: _Group, state: str, rx: dict) -> dict:
     """Steady levels of one actuator state for every stage of the group."""
     model, m, L = g.model, g.m, g.model.leak_col
-    nom_h = g.nom.copy(); nom_l = g.nom.copy()
+    nom_h, nom_l = g.nom.copy(), g.nom.copy()
     # as make_box: the midpoint is 0.5 * (lo + hi) of the ordered range
     nom_h[:, L] = 0.5 * (rx["leak_high"].min(axis=1) + rx["leak_high"].max(axis=1))
     nom_l[:, L] = 0.5 * (rx["leak_low"].min(axis=1) + rx["leak_low"].max(axis=1))
     both = dc_solve(model, state, np.vstack([nom_h, nom_l]))
     closed = [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
     if bool(both.floating[0]):  # structural: the same for every stage of the group
-        out = {"undefined": True, "contact_a": None}
+        out: dict[str, Any] = {"undefined": True, "contact_a": None}
         if closed:
             nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, np.zeros((m, 2)))
             V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model))
@@ -187,15 +200,7 @@ def _cap_cols(model: LinearModel) -> tuple[int, ...]:
     return tuple(range(n_r, n_r + len(model.circuit.capacitors)))
 
 
-def _none(x: float) -> float | None:
-    return None if x is None or not math.isfinite(x) else float(x)
-
-
-def _slope(x: float) -> float | None:
-    return None if x is None or math.isnan(x) else float(x)
-
-
-def _edges(g: _Group, edge: str, lv: dict, rx: dict):
+def _edges(g: _Group, edge: Edge, lv: dict, rx: dict) -> EdgeBuilder | None:
     """One edge for every row: a builder (row, names) -> EdgeResult, or None
     when the closed form does not apply."""
     model, m, L = g.model, g.m, g.model.leak_col
@@ -218,47 +223,48 @@ def _edges(g: _Group, edge: str, lv: dict, rx: dict):
     if parts is None:
         return None
     direction = np.repeat(np.where(rising, 1.0, -1.0), nv + 1)
-    vth_f = np.repeat(inner, nv + 1); vth_f[::nv + 1] = typ
+    vth_f = np.repeat(inner, nv + 1)
+    vth_f[::nv + 1] = typ  # the nominal row of each stage: its typical threshold
     vth_s = np.repeat(outer, nv + 1)
     ef = single_cap_times(parts, vth_f, direction)
     es = single_cap_times(parts, vth_s, direction)
-    t_f = ef.t.reshape(m, nv + 1); t_s = es.t.reshape(m, nv + 1)
-    s_f = ef.slope.reshape(m, nv + 1); s_s = es.slope.reshape(m, nv + 1)
+    t_f, t_s = ef.t.reshape(m, nv + 1), es.t.reshape(m, nv + 1)
+    s_f, s_s = ef.slope.reshape(m, nv + 1), es.slope.reshape(m, nv + 1)
     start = parts.start.reshape(m, nv + 1)[:, 0]
     final = parts.vinf.reshape(m, nv + 1)[:, 0]
     tf = np.where(np.isnan(t_f[:, 1:]), np.inf, t_f[:, 1:])
     ts = np.where(np.isnan(t_s[:, 1:]), np.inf, t_s[:, 1:])
-    i_f = np.argmin(tf, axis=1); i_s = np.argmax(ts, axis=1)
+    i_f, i_s = np.argmin(tf, axis=1), np.argmax(ts, axis=1)
     ar = np.arange(m)
-    t_fast = tf[ar, i_f]; t_slow = ts[ar, i_s]
+    t_fast, t_slow = tf[ar, i_f], ts[ar, i_s]
     slope_slow = s_s[ar, 1 + i_s]
     # Plain Python floats once per group (tolist), not a numpy scalar per figure:
     # the same values, at a fraction of the cost over thousands of stages.
-    cols = [rising, start, final, typ, inner, outer, t_f[:, 0], t_fast, t_slow, s_f[:, 0], slope_slow]
-    rows = list(zip(*(c.tolist() for c in cols)))
+    columns = [rising, start, final, typ, inner, outer, t_f[:, 0], t_fast, t_slow, s_f[:, 0], slope_slow]
+    figures = list(zip(*(c.tolist() for c in columns), strict=True))
     fast_rows = V[ar, i_f].tolist()
     slow_rows = V[ar, i_s].tolist()
 
     def build(j: int, names: tuple[str, ...]) -> EdgeResult:
-        up, v0, v1, vt, vin, vout, t0, tfast, tslow, s0, sslow = rows[j]
-        fastest = dict(zip(names, fast_rows[j]))  # as corners.corner_dict
+        up, v0, v1, vt, vin, vout, t0, tfast, tslow, s0, sslow = figures[j]
+        fastest = dict(zip(names, fast_rows[j], strict=True))  # as corners.corner_dict
         fastest[THRESHOLD] = vin
-        slowest = dict(zip(names, slow_rows[j]))
+        slowest = dict(zip(names, slow_rows[j], strict=True))
         slowest[THRESHOLD] = vout
         return EdgeResult(
             edge=edge, direction="rising" if up else "falling",
             start_v=v0, final_v=v1, threshold_v=vt,
             threshold_fastest_v=vin, threshold_slowest_v=vout,
-            nominal_s=_none(t0), fastest_s=_none(tfast), slowest_s=_none(tslow),
-            slope_v_per_s=_slope(s0) if not math.isnan(t0) else None,
-            slowest_slope_v_per_s=_slope(sslow) if math.isfinite(tslow) else None,
+            nominal_s=time_or_none(t0), fastest_s=time_or_none(tfast), slowest_s=time_or_none(tslow),
+            slope_v_per_s=slope_or_none(s0) if not math.isnan(t0) else None,
+            slowest_slope_v_per_s=slope_or_none(sslow) if math.isfinite(tslow) else None,
             corner_fastest=fastest, corner_slowest=slowest,
         )
     return build
 
 
 def _surge(g: _Group) -> np.ndarray | None:
-    """Peak closing current per stage (see analysis._surge_peak), or None if no throw has one."""
+    """Peak closing current per stage (see stage_analysis._surge_peak), or None if no throw has one."""
     model = g.model
     row = g.lo.copy()
     rp = model.rail_params
@@ -269,7 +275,7 @@ def _surge(g: _Group) -> np.ndarray | None:
         ends = {n for n in (t.a, t.b) if n in model.free}
         if not any(c.a in ends or c.b in ends for c in model.circuit.capacitors):
             continue
-        dc0 = dc_solve(model, _OTHER[t.closed_when], row)
+        dc0 = dc_solve(model, OTHER_STATE[t.closed_when], row)
         u0 = cap_voltages(model, dc0)
         red = reduce_dynamic(model, model.topology(t.closed_when, ()), row)
         v = red.cv + np.einsum("Nnk,Nk->Nn", red.Mv, u0)
@@ -281,32 +287,16 @@ def _surge(g: _Group) -> np.ndarray | None:
 
 def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverElectrical]) -> list[StageResult] | None:
     """StageResults of stages sharing `model`'s structure; None if the batch does not apply."""
-    names, nom, lo, hi = [], [], [], []
-    for st in stages:
-        n_, a_, b_, c_ = param_table(st.circuit)
-        names.append(n_); nom.append(a_); lo.append(b_); hi.append(c_)
-    # Stages repeat (a keypad is one design many times): solve each distinct
-    # set of values and receiver data once.
-    rx_ids: dict[ReceiverElectrical, int] = {}
-    rx_col = [rx_ids.setdefault(r, len(rx_ids)) for r in rxs]
-    table = np.column_stack([np.array(nom, dtype=float), np.array(lo, dtype=float),
-                             np.array(hi, dtype=float), np.array(rx_col, dtype=float)])
-    uniq, first, inverse = np.unique(table, axis=0, return_index=True, return_inverse=True)
-    inverse = inverse.ravel()
-    p = len(names[0])
-    g = _Group(model, [stages[i] for i in first], [rxs[i] for i in first], [names[i] for i in first],
-               uniq[:, :p].copy(), uniq[:, p:2 * p].copy(), uniq[:, 2 * p:3 * p].copy())
+    g, inverse, names = _distinct(model, stages, rxs)
     # The steady-level search leaves capacitors out; more columns go per stage.
     dc_cols = np.flatnonzero(np.any(g.hi != g.lo, axis=0))
     if len([c for c in dc_cols if c not in _cap_cols(model)]) + 1 > ENUMERATE_MAX:
         return None
     rx = _rx_arrays(g.rxs)
-    lv = {s: _levels(g, s, rx) for s in ("released", "pressed")}
-    notes: list[str] = []
-    for s in ("released", "pressed"):
-        if lv[s]["undefined"]:
-            notes.append(f"{s}: the receiver has no DC path to a rail or ground")
-    builders = {}
+    lv = {s: _levels(g, s, rx) for s in ACTUATOR_STATES}
+    notes = [f"{s}: the receiver has no DC path to a rail or ground" for s in ACTUATOR_STATES
+             if lv[s]["undefined"]]
+    builders: dict[Edge, EdgeBuilder] = {}
     for edge, (a, b) in EDGE_STATES.items():
         if lv[a]["undefined"] or lv[b]["undefined"]:
             notes.append(f"{edge}: not timed, a level is undefined")
@@ -315,41 +305,83 @@ def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverEle
         if got is None:
             return None
         builders[edge] = got
-    surge = _surge(g)
-    surge_l = surge.tolist() if surge is not None else None
-    # Plain Python values per distinct row, once (tolist): same figures, no numpy scalars.
-    plain = {s: _plain_levels(lv[s]) for s in ("released", "pressed")}
-    states = [s for s in ("released", "pressed") if not lv[s]["undefined"]]
+    figures = _RowFigures(lv, _surge(g))
     notes_t = tuple(notes)
-    built: dict[int, tuple] = {}
     out = []
     for i, st in enumerate(stages):
         j = int(inverse[i])
-        shared = built.get(j)
-        if shared is None:
-            levels = {}
-            for s in ("released", "pressed"):
-                d = plain[s]
-                if d is None:
-                    levels[s] = LevelResult(s, "undefined", None, None, None, None, None, None)
-                else:
-                    levels[s] = LevelResult(
-                        s, "high" if d["high"][j] else "low", d["nominal_v"][j], d["worst_v"][j],
-                        d["required"][j], d["margin"][j], d["thevenin_v"][j], d["thevenin_ohms"][j])
-            max_in = max((plain[s]["max_v"][j] for s in states), default=None)
-            pulls = [plain[s]["pull_a"][j] for s in states if math.isfinite(plain[s]["pull_a"][j])]
-            contacts = [float(lv[s]["contact_a"][j]) for s in ("released", "pressed")
-                        if lv[s]["contact_a"] is not None]
-            shared = built[j] = (levels, max(pulls) if pulls else None,
-                                 min(contacts) if contacts else None,
-                                 surge_l[j] if surge_l is not None else None, max_in)
-        levels, pull, contact, surge_j, max_in = shared
+        levels, pull, contact, surge_j, max_in = figures.row(j)
         out.append(StageResult(
             stage=st, levels=dict(levels), edges={e: build(j, names[i]) for e, build in builders.items()},
             pull_current_a=pull, contact_current_a=contact, surge_peak_a=surge_j,
             max_input_v=max_in, receiver_electrical=rxs[i], notes=notes_t,
         ))
     return out
+
+
+def _distinct(model: LinearModel, stages: list[Stage],
+              rxs: list[ReceiverElectrical]) -> tuple[_Group, np.ndarray, list[tuple[str, ...]]]:
+    """The group of distinct stages, each stage's row in it, and each stage's parameter names.
+
+    Stages repeat (a keypad is one design many times): each distinct set of
+    values and receiver data is solved once.
+    """
+    names, nom, lo, hi = [], [], [], []
+    for st in stages:
+        n_, a_, b_, c_ = param_table(st.circuit)
+        names.append(n_)
+        nom.append(a_)
+        lo.append(b_)
+        hi.append(c_)
+    rx_ids: dict[ReceiverElectrical, int] = {}
+    rx_col = [rx_ids.setdefault(r, len(rx_ids)) for r in rxs]
+    table = np.column_stack([np.array(nom, dtype=float), np.array(lo, dtype=float),
+                             np.array(hi, dtype=float), np.array(rx_col, dtype=float)])
+    uniq, first, inverse = np.unique(table, axis=0, return_index=True, return_inverse=True)
+    p = len(names[0])
+    g = _Group(model, [stages[i] for i in first], [rxs[i] for i in first], [names[i] for i in first],
+               uniq[:, :p].copy(), uniq[:, p:2 * p].copy(), uniq[:, 2 * p:3 * p].copy())
+    return g, inverse.ravel(), names
+
+
+# What stages of one distinct row share: levels, pull, contact and surge currents, max input.
+_Shared = tuple[dict[str, LevelResult], float | None, float | None, float | None, float | None]
+
+
+class _RowFigures:
+    """The per-stage figures of each distinct row, as plain Python values, built once per row."""
+
+    def __init__(self, lv: dict[str, dict], surge: np.ndarray | None) -> None:
+        self.lv = lv
+        # Plain Python values per distinct row, once (tolist): same figures, no numpy scalars.
+        self.plain = {s: _plain_levels(lv[s]) for s in ACTUATOR_STATES}
+        self.defined = [s for s in ACTUATOR_STATES if not lv[s]["undefined"]]
+        self.surge = surge.tolist() if surge is not None else None
+        self.built: dict[int, _Shared] = {}
+
+    def row(self, j: int) -> _Shared:
+        shared = self.built.get(j)
+        if shared is None:
+            shared = self.built[j] = self._build(j)
+        return shared
+
+    def _build(self, j: int) -> _Shared:
+        plain = self.plain
+        levels = {s: _level_result(s, plain[s], j) for s in ACTUATOR_STATES}
+        defined = [d for d in (plain[s] for s in self.defined) if d is not None]
+        max_in = max((d["max_v"][j] for d in defined), default=None)
+        pulls = [d["pull_a"][j] for d in defined if math.isfinite(d["pull_a"][j])]
+        contacts = [float(self.lv[s]["contact_a"][j]) for s in ACTUATOR_STATES
+                    if self.lv[s]["contact_a"] is not None]
+        return (levels, max(pulls) if pulls else None, min(contacts) if contacts else None,
+                self.surge[j] if self.surge is not None else None, max_in)
+
+
+def _level_result(state: str, d: dict | None, j: int) -> LevelResult:
+    if d is None:
+        return LevelResult(state, "undefined", None, None, None, None, None, None)
+    return LevelResult(state, "high" if d["high"][j] else "low", d["nominal_v"][j], d["worst_v"][j],
+                       d["required"][j], d["margin"][j], d["thevenin_v"][j], d["thevenin_ohms"][j])
 
 
 def _plain_levels(d: dict) -> dict | None:

@@ -126,17 +126,26 @@ def param_table(circuit: StageCircuit) -> tuple[tuple[str, ...], list[float], li
     nom: list[float] = []
     lo: list[float] = []
     hi: list[float] = []
-    for r in circuit.resistors:
-        names.append(r.designator); nom.append(r.ohms)
-        lo.append(r.ohms * (1 - r.tol_minus)); hi.append(r.ohms * (1 + r.tol_plus))
-    for c in circuit.capacitors:
-        names.append(c.designator); nom.append(c.farads)
-        lo.append(c.farads * (1 - c.tol_minus)); hi.append(c.farads * (1 + c.tol_plus))
-    for r in circuit.rails:
-        if r.net != GROUND:
-            names.append(rail_param(r.net)); nom.append(r.volts)
-            lo.append(r.volts * (1 - r.tolerance)); hi.append(r.volts * (1 + r.tolerance))
-    names.append(LEAKAGE); nom.append(0.0); lo.append(0.0); hi.append(0.0)
+    for res in circuit.resistors:
+        names.append(res.designator)
+        nom.append(res.ohms)
+        lo.append(res.ohms * (1 - res.tol_minus))
+        hi.append(res.ohms * (1 + res.tol_plus))
+    for cap in circuit.capacitors:
+        names.append(cap.designator)
+        nom.append(cap.farads)
+        lo.append(cap.farads * (1 - cap.tol_minus))
+        hi.append(cap.farads * (1 + cap.tol_plus))
+    for rail in circuit.rails:
+        if rail.net != GROUND:
+            names.append(rail_param(rail.net))
+            nom.append(rail.volts)
+            lo.append(rail.volts * (1 - rail.tolerance))
+            hi.append(rail.volts * (1 + rail.tolerance))
+    names.append(LEAKAGE)
+    nom.append(0.0)
+    lo.append(0.0)
+    hi.append(0.0)
     return tuple(names), nom, lo, hi
 
 
@@ -199,8 +208,9 @@ def _build_topology(model: LinearModel, state: str, diodes_on: tuple[bool, ...])
     circuit = model.circuit
     rows: list[tuple[int, int, float, float]] = []  # (a, b, fixed g, e)
     res_cols: list[int] = []
-    for i, (a, b) in enumerate(model.res_nodes):
-        res_cols.append(len(rows)); rows.append((a, b, 0.0, 0.0))
+    for a, b in model.res_nodes:
+        res_cols.append(len(rows))
+        rows.append((a, b, 0.0, 0.0))
     throw_cols: list[int | None] = []
     for t in circuit.throws:
         if t.closed_when == state:
@@ -209,18 +219,19 @@ def _build_topology(model: LinearModel, state: str, diodes_on: tuple[bool, ...])
         else:
             throw_cols.append(None)
     diode_cols: list[int | None] = []
-    for d, on in zip(circuit.diodes, diodes_on):
+    for d, on in zip(circuit.diodes, diodes_on, strict=True):
         if on:
             diode_cols.append(len(rows))
             rows.append((model.node_code(d.anode), model.node_code(d.cathode), 1.0 / d.on_ohms, d.forward_v))
         else:
             diode_cols.append(None)
     m, n, nf = len(rows), model.n, len(model.fixed)
-    A = np.zeros((m, n)); Af = np.zeros((m, nf))
-    e = np.zeros(m); g_fixed = np.zeros(m)
+    A, Af = np.zeros((m, n)), np.zeros((m, nf))
+    e, g_fixed = np.zeros(m), np.zeros(m)
     for i, (a, b, g, ev) in enumerate(rows):
         _stamp(A, Af, i, a, b)
-        g_fixed[i] = g; e[i] = ev
+        g_fixed[i] = g
+        e[i] = ev
     pairs = [(a, b) for a, b, _, _ in rows]
     dc_nodes = _reaches_fixed(n, pairs)
     tr_nodes = _reaches_fixed(n, pairs + list(model.cap_nodes))

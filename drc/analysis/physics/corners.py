@@ -13,11 +13,12 @@ one nearest the start) is always fastest, the outer one slowest.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from functools import lru_cache
-from typing import Callable
 
 import numpy as np
+
+from drc.caching import memoized
 
 ENUMERATE_MAX = 12  # up to 2**12 vertices are evaluated outright
 
@@ -35,23 +36,25 @@ class Box:
 def make_box(nominal: np.ndarray, lo: np.ndarray, hi: np.ndarray, leak_col: int,
              leak_range: tuple[float, float], exclude: tuple[int, ...] = ()) -> Box:
     """Fill in the leakage range (nominal = its midpoint) and list varying columns."""
-    nominal = nominal.copy(); lo = lo.copy(); hi = hi.copy()
+    nominal, lo, hi = nominal.copy(), lo.copy(), hi.copy()
     lo[leak_col], hi[leak_col] = min(leak_range), max(leak_range)
     nominal[leak_col] = 0.5 * (lo[leak_col] + hi[leak_col])
     cols = tuple(int(i) for i in np.flatnonzero(hi != lo) if int(i) not in exclude)
     return Box(nominal, lo, hi, cols)
 
 
-@lru_cache(maxsize=None)
-def _bits(count: int) -> np.ndarray:
-    """All 2**count vertices as a 0/1 matrix (row i = binary digits of i)."""
+@memoized(64)
+def vertex_bits(count: int) -> np.ndarray:
+    """All 2**count vertices as a 0/1 matrix (row i = binary digits of i); shared, do not modify."""
     idx = np.arange(2 ** count)[:, None]
-    return ((idx >> np.arange(count)[None, :]) & 1).astype(float)
+    bits = ((idx >> np.arange(count)[None, :]) & 1).astype(float)
+    bits.flags.writeable = False
+    return bits
 
 
 def vertices(box: Box) -> np.ndarray:
     """Every vertex of the box over its varying columns, one per row."""
-    bits = _bits(len(box.cols))
+    bits = vertex_bits(len(box.cols))
     P = np.tile(box.nominal, (bits.shape[0], 1))
     if box.cols:
         cols = list(box.cols)
@@ -69,7 +72,7 @@ def worst_vertex(box: Box, badness: Callable[[np.ndarray], np.ndarray]) -> tuple
     return _sensitivity_search(box, badness)
 
 
-def _sensitivity_search(box: Box, badness) -> tuple[np.ndarray, float]:
+def _sensitivity_search(box: Box, badness: Callable[[np.ndarray], np.ndarray]) -> tuple[np.ndarray, float]:
     cols = list(box.cols)
     trial = np.tile(box.nominal, (2 * len(cols), 1))
     for j, c in enumerate(cols):
@@ -114,15 +117,16 @@ def sign_search(box: Box, badness: Callable[[np.ndarray], np.ndarray]) -> tuple[
     current = box.nominal.copy()
     for j, c in enumerate(cols):
         current[c] = box.hi[c] if vals[j + 1] >= vals[0] else box.lo[c]
-    best = None
-    for _ in range(len(cols) + 1):
+    best = -np.inf
+    for round_ in range(len(cols) + 1):
         flips = np.tile(current, (len(cols) + 1, 1))
         for j, c in enumerate(cols):
             flips[j + 1, c] = box.lo[c] if current[c] == box.hi[c] else box.hi[c]
-        rows = flips if best is None else flips[1:]
-        fv = badness(rows)
-        if best is None:
+        if round_ == 0:  # the vertex itself once, then only its neighbours
+            fv = badness(flips)
             best, fv = float(fv[0]), fv[1:]
+        else:
+            fv = badness(flips[1:])
         j = int(np.argmax(fv))
         if not fv[j] > best:
             break
@@ -132,6 +136,6 @@ def sign_search(box: Box, badness: Callable[[np.ndarray], np.ndarray]) -> tuple[
 
 def corner_dict(names: tuple[str, ...], row: np.ndarray, extra: dict[str, float]) -> dict[str, float]:
     """A corner as {parameter name: value}, plus the threshold and the like."""
-    out = {name: float(v) for name, v in zip(names, row)}
+    out = {name: float(v) for name, v in zip(names, row, strict=True)}
     out.update(extra)
     return out

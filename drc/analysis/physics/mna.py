@@ -15,6 +15,7 @@ exactly. Leakage is the current INTO the receiver pin, so it leaves the node.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -90,7 +91,7 @@ def spd_solve(GT: np.ndarray, R: np.ndarray) -> np.ndarray:
     if n > _UNROLL_MAX:
         return np.linalg.solve(np.moveaxis(GT, 2, 0), R)
     r = R.shape[2]
-    g = [[GT[i, j].copy() if j >= i else None for j in range(n)] for i in range(n)]
+    g: list[list[Any]] = [[GT[i, j].copy() if j >= i else None for j in range(n)] for i in range(n)]
     rr = [[np.ascontiguousarray(R[:, i, c]) for c in range(r)] for i in range(n)]
     for j in range(n):
         inv = 1.0 / g[j][j]
@@ -101,7 +102,7 @@ def spd_solve(GT: np.ndarray, R: np.ndarray) -> np.ndarray:
             for c in range(r):
                 rr[i][c] -= f * rr[j][c]
     X = np.empty(R.shape)
-    xs = [None] * n
+    xs: list[Any] = [None] * n
     for i in range(n - 1, -1, -1):
         inv = 1.0 / g[i][i]
         row = []
@@ -187,8 +188,9 @@ def _solve_groups(model: LinearModel, state: str, P: np.ndarray, states: np.ndar
         "floating": np.zeros(N, dtype=bool), "i_res": np.zeros((N, nR)),
         "i_throw": np.zeros((N, nT)), "diodes": states.copy(),
     }
+    groups: list[tuple[tuple[bool, ...], Any]]
     if states.shape[1] == 0:
-        groups = [(tuple(), slice(None))]
+        groups = [((), slice(None))]
     else:
         uniq, inverse = np.unique(states, axis=0, return_inverse=True)
         groups = [(tuple(bool(x) for x in row), inverse.ravel() == i) for i, row in enumerate(uniq)]
@@ -196,7 +198,10 @@ def _solve_groups(model: LinearModel, state: str, P: np.ndarray, states: np.ndar
         topo = model.topology(state, key)
         Ps = P[sel]
         v, v0, vfix, unit, g, vb = _dc_fixed(model, topo, Ps)
-        out["v"][sel] = v; out["v0"][sel] = v0; out["unit"][sel] = unit; out["vfix"][sel] = vfix
+        out["v"][sel] = v
+        out["v0"][sel] = v0
+        out["unit"][sel] = unit
+        out["vfix"][sel] = vfix
         out["floating"][sel] = model.rx >= 0 and not topo.dc_nodes[model.rx]
         i = g * (v @ topo.A.T + vb)
         out["i_res"][sel] = i[:, topo.res_cols]
@@ -215,10 +220,12 @@ def _assemble(model: LinearModel, parts: dict) -> DcBatch:
         th_v = parts["v0"][:, model.rx].copy()
         th_r = parts["unit"][:, model.rx].copy()
         floating = parts["floating"]
-        rx_v[floating] = np.nan; th_v[floating] = np.nan; th_r[floating] = np.nan
+        rx_v[floating] = np.nan
+        th_v[floating] = np.nan
+        th_r[floating] = np.nan
     else:  # the receiver sits on a rail or on ground
         rx_v = vfix[:, -1 - model.rx].copy()
-        th_v = rx_v.copy(); th_r = np.zeros_like(rx_v)
+        th_v, th_r = rx_v.copy(), np.zeros_like(rx_v)
         floating = np.zeros(v.shape[0], dtype=bool)
     return DcBatch(v=v, vfix=vfix, rx_v=rx_v, thevenin_v=th_v, thevenin_ohms=th_r,
                    floating=floating, i_res=parts["i_res"], i_throw=parts["i_throw"],
@@ -248,7 +255,7 @@ def reduce_dynamic(model: LinearModel, topo: Topology, P: np.ndarray) -> Reduced
                        for a, bb in model.cap_nodes], dtype=bool)
     kidx = np.flatnonzero(active)
     ni, ki = idx.size, kidx.size
-    Y = np.zeros((N, k, k)); h = np.zeros((N, k)); Mv = np.zeros((N, n, k))
+    Y, h, Mv = np.zeros((N, k, k)), np.zeros((N, k)), np.zeros((N, n, k))
     cv = np.full((N, n), np.nan)
     if ni + ki:
         G = _assemble_g(topo.A[:, idx], g)

@@ -22,8 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from drc.analysis.physics.compiled import LinearModel
+from drc.analysis.physics.mna import Reduced, cap_voltages, dc_solve, node_voltage, reduce_dynamic
 
 MAX_EVENTS = 32  # diode state changes followed during one edge
 _GRID = np.geomspace(1e-4, 60.0, 56)  # multiples of each time constant
@@ -64,7 +64,7 @@ class ExpSum:
     def deriv(self, t: float) -> float:
         return float(self.s - np.dot(self.a * self.lam, np.exp(-self.lam * t)))
 
-    def combine(self, other: "ExpSum", k_self: float, k_other: float, const: float = 0.0) -> "ExpSum":
+    def combine(self, other: ExpSum, k_self: float, k_other: float, const: float = 0.0) -> ExpSum:
         """k_self * self + k_other * other + const (same modes)."""
         return ExpSum(k_self * self.c + k_other * other.c + const, k_self * self.a + k_other * other.a,
                       self.lam, k_self * self.s + k_other * other.s)
@@ -85,31 +85,7 @@ def first_crossing(f: ExpSum, target: float, direction: int, t_max: float = math
 
     if g(0.0) >= 0:
         return 0.0
-    decaying = f.lam[(f.lam > 0) & (f.a != 0)]
-    if decaying.size == 0 and f.s == 0:
-        return None
-    pts = [(1.0 / lam) * _GRID for lam in decaying]
-    for i in range(f.lam.size):  # stationary point of each pair: extrema the grid could straddle
-        for j in range(i + 1, f.lam.size):
-            li, lj, ai, aj = f.lam[i], f.lam[j], f.a[i], f.a[j]
-            if li > 0 and lj > 0 and li != lj and ai * aj != 0:
-                ratio = -(li * ai) / (lj * aj)
-                if ratio > 0:
-                    ts = math.log(ratio) / (li - lj)
-                    if ts > 0:
-                        pts.append(np.array([ts]))
-    tail = max((60.0 / lam for lam in decaying), default=0.0)
-    if f.s != 0:
-        t_lin = abs(target - f.c) / abs(f.s)
-        tail = max(tail, 2.0 * t_lin + 1e-30)
-        pts.append(np.geomspace(max(t_lin * 1e-6, 1e-30), 2.0 * t_lin + 1e-30, 60))
-    grid = np.unique(np.concatenate(pts)) if pts else np.zeros(0)
-    # Extend the tail geometrically: a final value within 1e-26 of the
-    # threshold is reached only after the exponentials have died further.
-    if decaying.size:
-        grid = np.concatenate([grid, tail * np.geomspace(1.5, 1e4, 24)])
-    if math.isfinite(t_max):
-        grid = np.append(grid[grid < t_max], t_max)
+    grid = _bracket_grid(f, target, t_max)
     if grid.size == 0:
         return None
     vals = direction * (f.many(grid) - target)
@@ -124,6 +100,42 @@ def first_crossing(f: ExpSum, target: float, direction: int, t_max: float = math
     from scipy.optimize import brentq  # lazy: only multi-capacitor and diode stages get here
 
     return float(brentq(g, lo, hi, xtol=max(hi * 1e-15, 1e-300), rtol=1e-13, maxiter=200))
+
+
+def _bracket_grid(f: ExpSum, target: float, t_max: float) -> np.ndarray:
+    """Ascending instants to look for the first crossing at; empty when f never moves."""
+    decaying = f.lam[(f.lam > 0) & (f.a != 0)]
+    if decaying.size == 0 and f.s == 0:
+        return np.zeros(0)
+    pts = [(1.0 / lam) * _GRID for lam in decaying] + _pair_stationary_points(f)
+    tail = max((60.0 / lam for lam in decaying), default=0.0)
+    if f.s != 0:
+        t_lin = abs(target - f.c) / abs(f.s)
+        tail = max(tail, 2.0 * t_lin + 1e-30)
+        pts.append(np.geomspace(max(t_lin * 1e-6, 1e-30), 2.0 * t_lin + 1e-30, 60))
+    grid = np.unique(np.concatenate(pts)) if pts else np.zeros(0)
+    # Extend the tail geometrically: a final value within 1e-26 of the
+    # threshold is reached only after the exponentials have died further.
+    if decaying.size:
+        grid = np.concatenate([grid, tail * np.geomspace(1.5, 1e4, 24)])
+    if math.isfinite(t_max):
+        grid = np.append(grid[grid < t_max], t_max)
+    return grid
+
+
+def _pair_stationary_points(f: ExpSum) -> list[np.ndarray]:
+    """The stationary point of each pair of modes: extrema the grid could straddle."""
+    pts = []
+    for i in range(f.lam.size):
+        for j in range(i + 1, f.lam.size):
+            li, lj, ai, aj = f.lam[i], f.lam[j], f.a[i], f.a[j]
+            if li > 0 and lj > 0 and li != lj and ai * aj != 0:
+                ratio = -(li * ai) / (lj * aj)
+                if ratio > 0:
+                    ts = math.log(ratio) / (li - lj)
+                    if ts > 0:
+                        pts.append(np.array([ts]))
+    return pts
 
 
 @dataclass(frozen=True, slots=True)
@@ -196,7 +208,7 @@ class _Modal:
         return [] if self.k == 0 else [1.0 / x for x in self.lam[self.pos]]
 
 
-def _node_expr(model: LinearModel, red, modal: _Modal, code: int) -> ExpSum:
+def _node_expr(model: LinearModel, red: Reduced, modal: _Modal, code: int) -> ExpSum:
     if code < 0:
         return _constant(float(red.vfix[0, -1 - code]))
     if not red.nodes[code]:
@@ -204,10 +216,11 @@ def _node_expr(model: LinearModel, red, modal: _Modal, code: int) -> ExpSum:
     return modal.expr(red.Mv[0, code], float(red.cv[0, code]))
 
 
-def _diode_exprs(model: LinearModel, red, modal: _Modal, on: tuple[bool, ...]) -> list[tuple[ExpSum, float, int]]:
+def _diode_exprs(model: LinearModel, red: Reduced, modal: _Modal,
+                 on: tuple[bool, ...]) -> list[tuple[ExpSum, float, int]]:
     """Per diode: (watched quantity, event target, direction)."""
     out = []
-    for d, is_on in zip(model.circuit.diodes, on):
+    for d, is_on in zip(model.circuit.diodes, on, strict=True):
         vak = _node_expr(model, red, modal, model.node_code(d.anode)).combine(
             _node_expr(model, red, modal, model.node_code(d.cathode)), 1.0, -1.0)
         if is_on:  # conducting: event when the forward current reverses
@@ -218,14 +231,26 @@ def _diode_exprs(model: LinearModel, red, modal: _Modal, on: tuple[bool, ...]) -
     return out
 
 
-def settle_diodes(model: LinearModel, state: str, P: np.ndarray, u: np.ndarray, on: tuple[bool, ...]):
+def _diode_events(model: LinearModel, red: Reduced, modal: _Modal,
+                  on: tuple[bool, ...]) -> list[tuple[float, int]]:
+    """(time, diode index) of each diode's next change of state in this segment."""
+    events = []
+    for j, (f, target, sign) in enumerate(_diode_exprs(model, red, modal, on)):
+        t = first_crossing(f, target, sign)
+        if t is not None:
+            events.append((t, j))
+    return events
+
+
+def settle_diodes(model: LinearModel, state: str, P: np.ndarray, u: np.ndarray,
+                  on: tuple[bool, ...]) -> tuple[tuple[bool, ...], Reduced]:
     """Diode states consistent with capacitor voltages u at the start of a segment."""
     for _ in range(2 * len(on) + 4):
         topo = model.topology(state, on)
         red = reduce_dynamic(model, topo, P)
         v = red.cv[0] + red.Mv[0] @ u if model.k else red.cv[0]
         new = []
-        for d, is_on in zip(model.circuit.diodes, on):
+        for d, is_on in zip(model.circuit.diodes, on, strict=True):
             va = node_voltage(model, v[None], red.vfix, model.node_code(d.anode))[0]
             vc = node_voltage(model, v[None], red.vfix, model.node_code(d.cathode))[0]
             vak = va - vc
@@ -258,7 +283,8 @@ def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.nd
     on = tuple(bool(x) for x in dc0.diodes_on[0])
     before = direction * (vth - start_v) > 0
     t_abs = 0.0
-    crossing = slope = None
+    crossing: float | None = None
+    slope: float | None = None
     segments: list[Segment] = []
     taus: list[float] = []
     final_v = math.nan
@@ -268,9 +294,7 @@ def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.nd
         taus.extend(modal.time_constants())
         rx = _node_expr(model, red, modal, model.rx)
         final_v = rx.c if rx.s == 0 else math.copysign(math.inf, rx.s)
-        events = [(first_crossing(f, target, sign), j) for j, (f, target, sign) in
-                  enumerate(_diode_exprs(model, red, modal, on))]
-        events = [(t, j) for t, j in events if t is not None]
+        events = _diode_events(model, red, modal, on)
         t_event = min((t for t, _ in events), default=math.inf)
         if crossing is None and before:
             tc = first_crossing(rx, vth, direction, t_event)
@@ -308,7 +332,8 @@ def edge_batch(model: LinearModel, from_state: str, to_state: str, P: np.ndarray
         if out is not None:
             return out
     n = P.shape[0]
-    t = np.full(n, np.nan); slope = np.full(n, np.nan); s0 = np.empty(n); sf = np.empty(n)
+    t, slope = np.full(n, np.nan), np.full(n, np.nan)
+    s0, sf = np.empty(n), np.empty(n)
     for i in range(n):
         sol = solve_edge(model, from_state, to_state, P[i], float(vth[i]), direction)
         s0[i], sf[i] = sol.start_v, sol.final_v
@@ -317,7 +342,8 @@ def edge_batch(model: LinearModel, from_state: str, to_state: str, P: np.ndarray
     return EdgeBatch(t, slope, s0, sf)
 
 
-def _single_cap_batch(model, from_state, to_state, P, vth, direction) -> EdgeBatch | None:
+def _single_cap_batch(model: LinearModel, from_state: str, to_state: str, P: np.ndarray, vth: np.ndarray,
+                      direction: int) -> EdgeBatch | None:
     parts = single_cap_parts(model, from_state, to_state, P)
     return None if parts is None else single_cap_times(parts, vth, direction)
 
@@ -337,14 +363,14 @@ class SingleCapEdge:
     q: np.ndarray  # nan where the receiver has no path at all
 
 
-def single_cap_parts(model, from_state, to_state, P) -> SingleCapEdge | None:
+def single_cap_parts(model: LinearModel, from_state: str, to_state: str, P: np.ndarray) -> SingleCapEdge | None:
     """The closed-form edge at every row of P; None when it does not apply."""
     dc0 = dc_solve(model, from_state, P)
     start = dc0.rx_v
     red = reduce_dynamic(model, model.topology(to_state, ()), P)
     q = red.cv[:, model.rx]
     if model.k == 0:
-        vinf = q.copy(); v0p = q; tau = np.ones_like(q)
+        vinf, v0p, tau = q.copy(), q, np.ones_like(q)
     else:
         Y, C, h = red.Y[:, 0, 0], red.C[:, 0], red.h[:, 0]
         if np.any(Y <= 0):
@@ -367,7 +393,8 @@ def single_cap_times(e: SingleCapEdge, vth, direction) -> EdgeBatch:
         t = np.where(past0, 0.0, tau * np.log((vinf - v0p) / (vinf - vth)))
         slope = np.where(past0, np.inf, np.abs(vinf - vth) / tau)
     bad = ~before | (~past0 & ~reach) | np.isnan(e.q)
-    t[bad] = np.nan; slope[bad] = np.nan
+    t[bad] = np.nan
+    slope[bad] = np.nan
     return EdgeBatch(t, slope, start, vinf)
 
 
@@ -389,15 +416,3 @@ def sample(solution: EdgeSolution, points: int = 600) -> tuple[np.ndarray, np.nd
     grid = grid[grid <= t_end]
     v = solution.voltage(grid)
     return np.concatenate([[0.0], grid]), np.concatenate([[solution.start_v], v])
-
-
-def waveform(stage, rx, edge: str, corner="nominal") -> tuple[np.ndarray, np.ndarray]:
-    """(t, v) at the receiver for `edge` ("press"/"release") at `corner`.
-
-    corner: "nominal", "fastest", "slowest", or a {parameter: value} mapping
-    such as EdgeResult.corner_slowest. The samples come from the same exact
-    solution the timing uses (see drc.analysis.edge_solution).
-    """
-    from drc.analysis.stage_analysis import edge_waveform  # the corner's meaning lives with the analysis
-
-    return edge_waveform(stage, rx, edge, corner)
