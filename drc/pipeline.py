@@ -175,7 +175,7 @@ def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[F
     """
     from drc.design.fixes import propose_board_fixes
     fixed = propose_board_fixes(results, findings, limits, series)
-    return [replace(f, fix=fixed[id(f)]) if id(f) in fixed else f for f in findings]
+    return [replace(f, fix=fixed[f]) if f in fixed else f for f in findings]
 
 
 def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path: str) -> CheckedBoard:

@@ -332,8 +332,9 @@ def run_simulate(args) -> int:
 # ------------------------------------------------------------------ design
 
 def run_design(args) -> int:
-    from drc.design.forward import design_stage
+    from drc.design.forward import DesignError, DesignRequest, design_stage
     from drc.library.catalogue import load_library
+    from drc.report.design_view import design_lines
     lib = load_library()
     rail = _quantity(args.rail, "voltage", "--rail")
     if args.bounce:
@@ -352,14 +353,15 @@ def run_design(args) -> int:
     except KeyError:
         from drc.errors import unknown_name_message
         raise UsageError(unknown_name_message("logic family", args.family, lib.families)) from None
+    request = DesignRequest(rail, family, not args.plain, bounce, latency, series=args.series,
+                            capacitor=capacitor, resistor=resistor,
+                            topology="pull-down" if args.pull_down else "pull-up")
     try:
-        result = design_stage(rail, family, not args.plain, bounce, latency, series=args.series,
-                              capacitor=capacitor, resistor=resistor,
-                              topology="pull-down" if args.pull_down else "pull-up")
-    except (ValueError, KeyError) as exc:
+        result = design_stage(request)
+    except DesignError as exc:
         raise UsageError(f"drc design: {exc}") from None
     with stdout_console() as console:
-        for line in result.lines():
+        for line in design_lines(result):
             console.print(line, markup=False)
         if args.netlist:
             console.print(result.netlist_fragment(), markup=False)

@@ -30,19 +30,23 @@ nothing passes within it the text says so.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
 
-from drc.library import eseries
-from drc.checks.findings import Finding
-from drc.analysis.results import EDGES, StageResult
+from drc.analysis.physics.batch import batchable, structure_key, template
+from drc.analysis.receiver import ReceiverElectrical
+from drc.analysis.results import EDGES, EdgeResult, StageResult
+from drc.analysis.stage_analysis import analyse_stage, analyse_stages
 from drc.board.stage import Stage
+from drc.caching import Memo
+from drc.checks import run_stage_rules
+from drc.checks.findings import Finding
+from drc.library import eseries
 from drc.units import format_quantity as fq
 
 FIXABLE = ("bounce-window", "slow-edge", "response-latency", "leakage-headroom",
            "pullup-waste", "resistance-range")
 MAX_ANALYSES = 300
-_analyses_run = [0]  # analyses run by this process's searches (for board budgets)
 # Board checks: a failing closed-form stage costs about 2 ms per analysis.
 FIX_BUDGET = 100
 # An analysis on the exact event-driven path costs about this many closed-form ones.
@@ -113,11 +117,10 @@ class Evaluator:
     search, its answer and its count are those of one analysis at a time.
     """
 
-    def __init__(self, stage: Stage, rx, limits: Mapping[str, float], tolerated: set[str],
+    def __init__(self, stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], tolerated: set[str],
                  budget: int = MAX_ANALYSES) -> None:
         self.stage, self.rx, self.limits = stage, rx, limits
         self.tolerated = tolerated  # rule ids that fire today and no value can change
-        from drc.analysis.physics.batch import batchable, structure_key, template
         fast = batchable(template(structure_key(stage.circuit), stage.circuit))
         self.fast = fast  # closed-form edges: batches pay off (the exact path runs one by one)
         self.budget = budget if fast else max(1, budget // SLOW_ANALYSIS_COST)
@@ -145,10 +148,9 @@ class Evaluator:
                 todo.setdefault(key, values)
         if len(todo) < 2:
             return
-        from drc.analysis.stage_analysis import analyse_stages
         results = analyse_stages([with_values(self.stage, v) for v in todo.values()],
                                  [self.rx] * len(todo))
-        self._pending.update(zip(todo, results))
+        self._pending.update(zip(todo, results, strict=True))
 
     def fired(self, values: Mapping[str, float]) -> tuple[frozenset[str], StageResult] | None:
         """Rule ids that fire (tolerated ones removed), or None when out of budget."""
@@ -157,12 +159,9 @@ class Evaluator:
             return self._cache[key]
         if self.exhausted:
             return None
-        from drc.checks import run_stage_rules
         self.count += 1
-        _analyses_run[0] += 1
         result = self._pending.pop(key, None)
         if result is None:
-            from drc.analysis.stage_analysis import analyse_stage
             result = analyse_stage(with_values(self.stage, values), self.rx)
         if result.receiver_electrical is None:
             result = replace(result, receiver_electrical=self.rx)
@@ -247,6 +246,16 @@ def variables(stage: Stage, series: str) -> list[Variable]:
     return out
 
 
+# The rule ids that fire at candidate i (None: out of budget).
+Verdict = Callable[[int], frozenset[str] | None]
+
+
+def _nearest_index(var: Variable, indices: range) -> int:
+    """The candidate among `indices` nearest the present value (log scale)."""
+    cand = var.candidates
+    return min(indices, key=lambda i: abs(math.log(cand[i] / var.present)))
+
+
 def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tuple[float, StageResult] | None:
     """The passing value of `var` nearest its present value, others held at `fixed`.
 
@@ -257,7 +266,7 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
     if not cand:
         return None
 
-    def verdict(i: int):
+    def verdict(i: int) -> frozenset[str] | None:
         _prefetch_for(ev, var, fixed, i)
         got = ev.fired({**fixed, var.designator: cand[i]})
         return None if got is None else got[0]
@@ -266,29 +275,31 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
     lo_fired, hi_fired = verdict(0), verdict(n - 1)
     if lo_fired is None or hi_fired is None:
         return None
+    span = _passing_span(verdict, var, lo_fired, hi_fired)
+    if span is None:
+        return None
+    regions = _outside_inner_failures(verdict, var, span, lo_fired | hi_fired)
+    if regions is None:
+        return None
+    return _nearest_passing(ev, var, fixed, regions)
+
+
+def _passing_span(verdict: Verdict, var: Variable, lo_fired: frozenset[str],
+                  hi_fired: frozenset[str]) -> tuple[int, int] | None:
+    """[first, last]: the candidates every rule firing at an end of the list passes on.
+
+    None when that is empty or the budget ran out.
+    """
+    n = len(var.candidates)
     first, last = 0, n - 1
     # Sorted: a set's order changes with the process's string hashing, and with a
     # budget the order of the bisections decides what is found.
     for rule_id in sorted(lo_fired | hi_fired):
         if rule_id in lo_fired and rule_id in hi_fired:
-            # Fails at both ends: passes, if anywhere, on an inner interval. Probe for
-            # one passing point (the present value first), then bisect each side.
-            here = min(range(n), key=lambda i: abs(math.log(cand[i] / var.present)))
-            inside = None
-            for i in dict.fromkeys((here, n // 2, n // 4, 3 * n // 4)):
-                got = verdict(i)
-                if got is None:
-                    return None
-                if rule_id not in got:
-                    inside = i
-                    break
-            if inside is None:
+            inner = _inner_interval(verdict, var, rule_id)
+            if inner is None:
                 return None
-            lo_b = _boundary(verdict, rule_id, 0, inside, passes_high=True)
-            hi_b = _boundary(verdict, rule_id, inside, n - 1, passes_high=False)
-            if lo_b is None or hi_b is None:
-                return None
-            first, last = max(first, lo_b), min(last, hi_b)
+            first, last = max(first, inner[0]), min(last, inner[1])
             continue
         passes_high = rule_id in lo_fired
         bound = _boundary(verdict, rule_id, 0, n - 1, passes_high)
@@ -300,24 +311,63 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
             last = min(last, bound)
     if first > last:
         return None
-    # A rule that passes at both ends may still fail in between (a level that changes
-    # logic as a divider moves): if it fails near the present value, find where it
-    # stops failing on each side, and keep the parts of [first, last] outside that.
-    here = min(range(first, last + 1), key=lambda i: abs(math.log(cand[i] / var.present)))
+    return first, last
+
+
+def _inner_interval(verdict: Verdict, var: Variable, rule_id: str) -> tuple[int, int] | None:
+    """Where a rule failing at both ends passes: probe for one passing point (the
+    present value first), then bisect each side. None if no probe passes."""
+    n = len(var.candidates)
+    here = _nearest_index(var, range(n))
+    inside = None
+    for i in dict.fromkeys((here, n // 2, n // 4, 3 * n // 4)):
+        got = verdict(i)
+        if got is None:
+            return None
+        if rule_id not in got:
+            inside = i
+            break
+    if inside is None:
+        return None
+    lo_b = _boundary(verdict, rule_id, 0, inside, passes_high=True)
+    hi_b = _boundary(verdict, rule_id, inside, n - 1, passes_high=False)
+    if lo_b is None or hi_b is None:
+        return None
+    return lo_b, hi_b
+
+
+def _outside_inner_failures(verdict: Verdict, var: Variable, span: tuple[int, int],
+                            at_ends: frozenset[str]) -> list[tuple[int, int]] | None:
+    """The parts of `span` outside the stretches where a rule passing at both ends fails.
+
+    Such a rule may still fail in between (a level that changes logic as a
+    divider moves): if it fails near the present value, find where it stops
+    failing on each side. None when the budget ran out.
+    """
+    n = len(var.candidates)
+    first, last = span
+    here = _nearest_index(var, range(first, last + 1))
     regions = [(first, last)]
     got = verdict(here)
     if got is None:
         return None
-    for rule_id in sorted(got - lo_fired - hi_fired):
+    for rule_id in sorted(got - at_ends):
         below = _boundary(verdict, rule_id, 0, here, passes_high=False)
         above = _boundary(verdict, rule_id, here, n - 1, passes_high=True)
         if below is None or above is None:
             return None
         regions = [(max(a, lo), min(b, hi)) for a, b in regions for lo, hi in ((0, below), (above, n - 1))]
         regions = [(a, b) for a, b in regions if a <= b]
+    return regions
+
+
+def _nearest_passing(ev: Evaluator, var: Variable, fixed: Mapping[str, float],
+                     regions: list[tuple[int, int]]) -> tuple[float, StageResult] | None:
+    """The nearest passing value in `regions`; a few neighbours if a verdict was not monotonic."""
+    cand = var.candidates
     indices = sorted({i for a, b in regions for i in range(a, b + 1)},
                      key=lambda i: (abs(math.log(cand[i] / var.present)), cand[i]))
-    for i in indices[:4]:  # the nearest passing value; a few neighbours if a verdict was not monotonic
+    for i in indices[:4]:
         _prefetch_for(ev, var, fixed, i)
         got = ev.fired({**fixed, var.designator: cand[i]})
         if got is None:
@@ -327,7 +377,7 @@ def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tup
     return None
 
 
-def _boundary(verdict, rule_id: str, a: int, b: int, passes_high: bool) -> int | None:
+def _boundary(verdict: Verdict, rule_id: str, a: int, b: int, passes_high: bool) -> int | None:
     """Bisect [a, b] where `rule_id` fails at one end and passes at the other.
 
     Returns the passing index next to the boundary: the lowest passing index
@@ -347,12 +397,19 @@ def _boundary(verdict, rule_id: str, a: int, b: int, passes_high: bool) -> int |
     return b if passes_high else a
 
 
-def search(stage: Stage, rx, limits: Mapping[str, float], series: str = "E24",
+def search(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str = "E24",
            tolerated: set[str] | None = None, budget: int = MAX_ANALYSES,
            fixed_parts: Sequence[str] = ()) -> tuple[Solution | None, int]:
     """The cheapest one- or two-part change that passes every stage rule; (solution, analyses)."""
     ev = Evaluator(stage, rx, limits, tolerated or set(), budget)
     vars_ = [v for v in variables(stage, series) if v.designator not in fixed_parts]
+    best = _best_one_part(ev, vars_)
+    if best is not None:
+        return best, ev.count
+    return _best_two_parts(ev, vars_), ev.count
+
+
+def _best_one_part(ev: Evaluator, vars_: list[Variable]) -> Solution | None:
     best: Solution | None = None
     for var in vars_:
         found = best_single(ev, var, {})
@@ -360,8 +417,13 @@ def search(stage: Stage, rx, limits: Mapping[str, float], series: str = "E24",
             sol = Solution((Change(var.designator, var.present, found[0], var.unit),), found[1], ev.count)
             if best is None or sol.cost < best.cost:
                 best = sol
-    if best is not None:
-        return best, ev.count
+    return best
+
+
+def _best_two_parts(ev: Evaluator, vars_: list[Variable]) -> Solution | None:
+    """Two-part changes: the first part's values nearest-first, stopping once that
+    change alone exceeds the best total found."""
+    best: Solution | None = None
     for outer in vars_:
         for inner in vars_:
             if inner is outer:
@@ -380,19 +442,19 @@ def search(stage: Stage, rx, limits: Mapping[str, float], series: str = "E24",
                 sol = Solution(changes, found[1], ev.count)
                 if best is None or sol.cost < best.cost:
                     best = sol
-    return best, ev.count
+    return best
 
 
 # Boards repeat one input design many times (a keypad): the search runs once per
 # distinct (structure, values, contact and receiver data, limits) and its answer is
-# renamed for every other stage of that kind. Bounded for long-lived processes.
-_MEMO: dict[tuple, tuple[tuple[tuple[int, float], ...] | None, StageResult | None, int]] = {}
-_MEMO_MAX = 4096
+# renamed for every other stage of that kind: (moves as (variable index, new value),
+# the result, analyses). Bounded for long-lived processes.
+_Moves = tuple[tuple[int, float], ...]
+_SEARCHES: Memo[tuple, tuple[_Moves | None, StageResult | None, int]] = Memo("design.fix_searches", 4096)
 
 
-def _memo_key(stage: Stage, rx, limits: Mapping[str, float], series: str, tolerated: set[str],
-              budget: int) -> tuple:
-    from drc.analysis.physics.batch import structure_key
+def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
+              tolerated: set[str], budget: int) -> tuple:
     c, k, r = stage.circuit, stage.contact, stage.receiver
     return (
         structure_key(c), stage.kind,
@@ -406,33 +468,26 @@ def _memo_key(stage: Stage, rx, limits: Mapping[str, float], series: str, tolera
     )
 
 
-def _search_memo(stage: Stage, rx, limits: Mapping[str, float], series: str, tolerated: set[str],
-                 budget: int) -> tuple[Solution | None, int]:
-    """`search`, answered from the memo when an identical stage was searched before."""
-    return _search_memo_keyed(stage, rx, limits, series, tolerated, budget)[:2]
-
-
-def _search_memo_keyed(stage: Stage, rx, limits: Mapping[str, float], series: str,
+def _search_memo_keyed(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
                        tolerated: set[str], budget: int) -> tuple[Solution | None, int, tuple | None]:
-    """`_search_memo`, and the memo key (None when the stage has no memo key)."""
+    """`search`, answered from the memo when an identical stage was searched before;
+    and the memo key (None when the stage has no memo key)."""
     try:
         key = _memo_key(stage, rx, limits, series, tolerated, budget)
         hash(key)
     except TypeError:  # an unhashable field somewhere: no memo, same answer
         return (*search(stage, rx, limits, series, tolerated, budget), None)
     vars_ = variables(stage, series)
-    hit = _MEMO.get(key)
+    hit = _SEARCHES.get(key)
     if hit is None:
         solution, count = search(stage, rx, limits, series, tolerated, budget)
         names = [v.designator for v in vars_]
         moves = None if solution is None else tuple((names.index(ch.designator), ch.new)
                                                     for ch in solution.changes)
-        if len(_MEMO) >= _MEMO_MAX:
-            _MEMO.clear()
-        _MEMO[key] = (moves, None if solution is None else solution.result, count)
+        _SEARCHES.put(key, (moves, None if solution is None else solution.result, count))
         return solution, count, key
     moves, res, count = hit
-    if moves is None:
+    if moves is None or res is None:
         return None, count, key
     changes = tuple(Change(vars_[i].designator, vars_[i].present, new, vars_[i].unit) for i, new in moves)
     return Solution(changes, res, count), count, key
@@ -444,36 +499,61 @@ def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
 
     edge: the edge the finding was about; by default the tightest edge.
     """
+    figure = _FIGURES.get(rule_id)
+    if figure is None:
+        return "passes"
     edges = [e for e in result.edges.values() if edge is None or e.edge == edge] or list(result.edges.values())
-    if rule_id == "bounce-window":
-        timed = [e for e in edges if e.fastest_s is not None]
-        if not timed:
-            return "no edge timed"
-        e = min(timed, key=lambda e: e.fastest_s)
-        need = result.stage.contact.bounce_s * limits.get("bounce_margin", 1.0)
-        return f"{e.edge} {fq(e.fastest_s, 's')} ≥ {fq(need, 's')} at fastest corner"
-    if rule_id == "response-latency":
-        timed = [e for e in edges if e.slowest_s is not None]
-        if not timed:
-            return "no edge timed"
-        e = max(timed, key=lambda e: e.slowest_s)
-        return f"{e.edge} {fq(e.slowest_s, 's')} ≤ {fq(limits['latency_limit'], 's')} at slowest corner"
-    if rule_id == "leakage-headroom":
-        lv = [l for l in result.levels.values() if l.margin_v is not None]
-        if not lv:
-            return "no level defined"
-        l = min(lv, key=lambda l: l.margin_v)
-        vcc = result.receiver_electrical.vcc if result.receiver_electrical else result.stage.receiver.supply_v
-        return f"{l.state} margin {fq(l.margin_v, 'V')} ≥ {fq(limits['leakage_headroom_margin'] * vcc, 'V')}"
-    if rule_id == "pullup-waste":
-        if result.pull_current_a is None:
-            return "no pull current"
-        return f"held {fq(result.pull_current_a, 'A')} ≤ {fq(limits['pull_current_budget'], 'A')}"
-    if rule_id == "resistance-range":
-        return f"within {fq(limits['resistance_min'], 'Ω')}-{fq(limits['resistance_max'], 'Ω')}"
-    if rule_id == "slow-edge":
-        return "edge rate within the transition limit"
-    return "passes"
+    return figure(result, limits, edges)
+
+
+def _bounce_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    timed = [(e.fastest_s, e) for e in edges if e.fastest_s is not None]
+    if not timed:
+        return "no edge timed"
+    fastest, e = min(timed, key=lambda pair: pair[0])
+    need = result.stage.contact.bounce_s * limits.get("bounce_margin", 1.0)
+    return f"{e.edge} {fq(fastest, 's')} ≥ {fq(need, 's')} at fastest corner"
+
+
+def _latency_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    timed = [(e.slowest_s, e) for e in edges if e.slowest_s is not None]
+    if not timed:
+        return "no edge timed"
+    slowest, e = max(timed, key=lambda pair: pair[0])
+    return f"{e.edge} {fq(slowest, 's')} ≤ {fq(limits['latency_limit'], 's')} at slowest corner"
+
+
+def _headroom_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    margins = [(lv.margin_v, lv) for lv in result.levels.values() if lv.margin_v is not None]
+    if not margins:
+        return "no level defined"
+    margin, lv = min(margins, key=lambda pair: pair[0])
+    vcc = result.receiver_electrical.vcc if result.receiver_electrical else result.stage.receiver.supply_v
+    return f"{lv.state} margin {fq(margin, 'V')} ≥ {fq(limits['leakage_headroom_margin'] * vcc, 'V')}"
+
+
+def _pull_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    if result.pull_current_a is None:
+        return "no pull current"
+    return f"held {fq(result.pull_current_a, 'A')} ≤ {fq(limits['pull_current_budget'], 'A')}"
+
+
+def _range_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    return f"within {fq(limits['resistance_min'], 'Ω')}-{fq(limits['resistance_max'], 'Ω')}"
+
+
+def _slow_edge_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    return "edge rate within the transition limit"
+
+
+_FIGURES: dict[str, Callable[[StageResult, Mapping[str, float], list[EdgeResult]], str]] = {
+    "bounce-window": _bounce_figure,
+    "response-latency": _latency_figure,
+    "leakage-headroom": _headroom_figure,
+    "pullup-waste": _pull_figure,
+    "resistance-range": _range_figure,
+    "slow-edge": _slow_edge_figure,
+}
 
 
 def _edge_of(finding: Finding) -> str | None:
@@ -501,7 +581,7 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
 
 
 def _propose(result: StageResult, findings: Sequence[Finding], limits: Mapping[str, float],
-             series: str, budget: int, searched: set | None) -> tuple[dict[Finding, str], int]:
+             series: str, budget: int, searched: set[tuple] | None) -> tuple[dict[Finding, str], int]:
     """propose_fixes, and the analyses its search costs the board's budget.
 
     searched: memo keys this board searched already; a repeat costs nothing,
@@ -518,27 +598,26 @@ def _propose(result: StageResult, findings: Sequence[Finding], limits: Mapping[s
         text = _plain_input_fix(result)
         if text:
             return {f: text for f in mine}, 0
-    from drc.checks import run_stage_rules
     present = {f.rule for f in run_stage_rules(result, limits)}
-    tolerated = present - set(FIXABLE)
     solution, count, key = _search_memo_keyed(stage, result.receiver_electrical, limits, series,
-                                              tolerated, budget)
+                                              present - set(FIXABLE), budget)
     charged = count
     if searched is not None and key is not None:
         charged = 0 if key in searched else count
         searched.add(key)
-    out: dict[Finding, str] = {}
     if solution is None:
-        names = ", ".join(v.designator for v in variables(stage, series)) or "the stage's parts"
-        honest = (f"no {series} value change of one or two of {names} passes every rule at worst case "
-                  f"({count} analyses tried)")
-        for f in mine:
-            out[f] = f"{f.fix}; {honest}" if f.fix else honest
-        return out, charged
+        return _no_change_texts(mine, stage, series, count), charged
     change_text = ", ".join(c.text() for c in solution.changes)
-    for f in mine:
-        out[f] = f"{change_text} ({rule_figure(f.rule, solution.result, limits, _edge_of(f))})"
-    return out, charged
+    return {f: f"{change_text} ({rule_figure(f.rule, solution.result, limits, _edge_of(f))})"
+            for f in mine}, charged
+
+
+def _no_change_texts(mine: list[Finding], stage: Stage, series: str, count: int) -> dict[Finding, str]:
+    """The plain-words fix, and honestly why no values are proposed."""
+    names = ", ".join(v.designator for v in variables(stage, series)) or "the stage's parts"
+    honest = (f"no {series} value change of one or two of {names} passes every rule at worst case "
+              f"({count} analyses tried)")
+    return {f: f"{f.fix}; {honest}" if f.fix else honest for f in mine}
 
 
 # A board check searches fixes for at most this many analyses in all (about 2 ms each
@@ -549,27 +628,27 @@ BOARD_FIX_BUDGET = 2000
 
 def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Finding],
                         limits: Mapping[str, float], series: str = "E24",
-                        board_budget: int = BOARD_FIX_BUDGET) -> dict[int, str]:
-    """Fix texts for a whole board, keyed by id(finding); bounded by `board_budget` analyses.
+                        board_budget: int = BOARD_FIX_BUDGET) -> dict[Finding, str]:
+    """Fix texts for a whole board, keyed by finding; bounded by `board_budget` analyses.
 
     Same texts as `propose_fixes` per stage, while the board's budget lasts
     (a stage never gets more than `FIX_BUDGET`); deterministic, since the
-    bound counts analyses, not seconds.
+    bound counts analyses, not seconds. Findings are values: two equal
+    findings get the same text.
     """
     by_stage: dict[tuple, list[Finding]] = {}
     for f in findings:
         if f.contact is not None and f.receiver is not None:
             by_stage.setdefault((f.contact, f.receiver), []).append(f)
-    out: dict[int, str] = {}
+    out: dict[Finding, str] = {}
     left = board_budget
-    searched: set = set()
+    searched: set[tuple] = set()
     for result in results:
         mine = by_stage.get((result.stage.contact.designator, result.stage.receiver.ref))
         if not mine or left <= 0:
             continue
         texts, charged = _propose(result, mine, limits, series, min(FIX_BUDGET, left), searched)
-        for finding, text in texts.items():
-            out[id(finding)] = text
+        out.update(texts)
         # Charged as the search cost when first run (the memo may answer it here
         # from another board): the budget, hence the texts, depend on this board alone.
         left -= charged

@@ -1,36 +1,89 @@
 """Forward design: standard R and C values for a new switch input stage.
 
 Given the rail, the receiver's family (Schmitt or plain), the contact's
-bounce time and a latency limit, `design_stage` builds the usual stage
-(pull resistor at the contact node, series resistor, capacitor at the pin),
-starts from a textbook guess (pull resistor 10 kΩ, series 22 kΩ, τ about
-2.5 × bounce) and lets the fix solver move one or two values along the
-E-series until every stage rule passes at worst case. It reports both edges'
-nominal, fastest and slowest times and every margin, and prints the stage as
-a SPICE fragment. The analysis is `analysis.analyse_stage`, as for a board.
+bounce time and a latency limit (one `DesignRequest`), `design_stage` builds
+the usual stage (pull resistor at the contact node, series resistor,
+capacitor at the pin), starts from a textbook guess (pull resistor 10 kΩ,
+series 22 kΩ, τ about 2.5 × bounce) and lets the fix solver move one or two
+values along the E-series until every stage rule passes at worst case. It
+reports both edges' nominal, fastest and slowest times and every margin
+(`drc.report.design_view` words them), and gives the stage as a SPICE
+fragment. The analysis is `analysis.analyse_stage`, as for a board.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
+from typing import Literal
 
+from drc.analysis.receiver import ReceiverElectrical, receiver_electrical
+from drc.analysis.results import Edge, StageResult
+from drc.analysis.stage_analysis import analyse_stage
+from drc.board.board import Contact, ContactOrigin, Receiver
+from drc.board.stage import (
+    ActuatorState,
+    Capacitor,
+    RailSource,
+    Resistor,
+    ResistorRole,
+    Stage,
+    StageCircuit,
+    StageKind,
+    Throw,
+)
+from drc.checks import run_stage_rules
+from drc.design.fixes import FIXABLE, MAX_ANALYSES, Solution, capacitor_series, search, with_values
+from drc.errors import DrcError, SourceLocation, UsageError
 from drc.library import eseries
 from drc.library.entries import ContactForm
-from drc.board.board import Contact, ContactOrigin, Receiver
-from drc.errors import SourceLocation, UsageError
-from drc.design.fixes import FIXABLE, MAX_ANALYSES, capacitor_series, search, with_values
-from drc.analysis.results import StageResult
-from drc.board.stage import (ActuatorState, Capacitor, RailSource, Resistor, ResistorRole, Stage, StageCircuit,
-                             StageKind, Throw)
 from drc.units import format_quantity as fq
 
-TOPOLOGIES = ("pull-up", "pull-down")
+DesignTopology = Literal["pull-up", "pull-down"]
+TOPOLOGIES: tuple[DesignTopology, ...] = ("pull-up", "pull-down")
 _LOC = SourceLocation("<design>")
 # Starting point of the search (common practice, no source): a 10 kΩ pull and
 # a series resistor of about twice that, τ ≈ 2.5 × bounce.
 _START_SERIES, _START_TAU_PER_BOUNCE = 22e3, 2.5
 _CAPACITOR_TRIES = 8  # capacitor values tried around the start, the start included
+
+
+class DesignError(DrcError):
+    """The engineering data cannot answer a design request: an unknown E-series or
+    family, a rail outside the family's supply range, a value the series has not."""
+
+
+@dataclass(frozen=True, slots=True)
+class DesignRequest:
+    """What `drc design` is asked for.
+
+    capacitor / resistor: hold the capacitor or the pull resistor at this
+    value (snapped to the nearest series value). latency_s: the latency limit
+    the design must meet (overrides the limits'). Values: resistors from
+    `series`, capacitors from the coarser of `series` and E12. budget bounds
+    each solver run, design_budget the whole design (analyses).
+    """
+
+    rail_v: float
+    family: str
+    schmitt: bool
+    bounce_s: float
+    latency_s: float
+    series: str = "E24"
+    capacitor: float | None = None
+    resistor: float | None = None
+    topology: DesignTopology = "pull-up"
+    budget: int = MAX_ANALYSES
+    design_budget: int = 1200
+
+    def __post_init__(self) -> None:
+        if self.rail_v <= 0 or self.bounce_s <= 0 or self.latency_s <= 0:
+            raise UsageError("rail voltage, bounce and latency must be positive")
+
+    @property
+    def held(self) -> tuple[str, ...]:
+        """The parts held at a given value, C1 first."""
+        return tuple(name for name, given in (("C1", self.capacitor), ("R1", self.resistor)) if given)
 
 
 def _start_pull(series: str, rail_v: float, limits: Mapping[str, float]) -> float:
@@ -49,7 +102,7 @@ def _start_pull(series: str, rail_v: float, limits: Mapping[str, float]) -> floa
 
 @dataclass(frozen=True, slots=True)
 class EdgeTimes:
-    edge: str
+    edge: Edge
     nominal_s: float | None
     fastest_s: float | None
     slowest_s: float | None
@@ -65,17 +118,12 @@ class Margin:
     unit: str
     spare: float | None
 
-    def text(self) -> str:
-        if self.value is None:
-            return f"{self.name}: not reached (limit {fq(self.limit, self.unit)})"
-        return f"{self.name}: {fq(self.value, self.unit)} against {fq(self.limit, self.unit)} (spare {fq(self.spare, self.unit)})"
-
 
 @dataclass(frozen=True, slots=True)
 class DesignResult:
     ok: bool
     reason: str
-    topology: str
+    topology: DesignTopology
     rail_v: float
     family: str
     schmitt: bool
@@ -89,22 +137,23 @@ class DesignResult:
     analyses: int
 
     def part(self, designator: str) -> Resistor | Capacitor:
-        for p in (*self.stage.circuit.resistors, *self.stage.circuit.capacitors):
+        parts: tuple[Resistor | Capacitor, ...] = (*self.stage.circuit.resistors, *self.stage.circuit.capacitors)
+        for p in parts:
             if p.designator == designator:
                 return p
         raise KeyError(designator)
 
     @property
     def pull(self) -> Resistor:
-        return self.part("R1")
+        return _resistor(self.stage, "R1")
 
     @property
     def series_resistor(self) -> Resistor:
-        return self.part("R2")
+        return _resistor(self.stage, "R2")
 
     @property
     def capacitor(self) -> Capacitor:
-        return self.part("C1")
+        return next(c for c in self.stage.circuit.capacitors if c.designator == "C1")
 
     def netlist_fragment(self) -> str:
         """The stage as SPICE lines, in the conventions of our examples."""
@@ -119,20 +168,9 @@ class DesignResult:
                           f"R2 n1 in {_spice(r2.ohms)}", f"C1 in 0 {_spice(c1.farads)}",
                           "* connect net 'in' to the receiver input"]) + "\n"
 
-    def lines(self) -> list[str]:
-        """A human summary: parts, edge times, margins."""
-        out = [f"R1 ({'pull-up' if self.topology == 'pull-up' else 'pull-down'}) {fq(self.pull.ohms, 'Ω')}, "
-               f"R2 (series) {fq(self.series_resistor.ohms, 'Ω')}, C1 {fq(self.capacitor.farads, 'F')}"]
-        for e in self.edges:
-            out.append(f"{e.edge}: nominal {_t(e.nominal_s)}, fastest {_t(e.fastest_s)}, slowest {_t(e.slowest_s)}")
-        out.extend(m.text() for m in self.margins)
-        if not self.ok:
-            out.append(f"not passing: {self.reason}")
-        return out
 
-
-def _t(s: float | None) -> str:
-    return "never" if s is None else fq(s, "s")
+def _resistor(stage: Stage, designator: str) -> Resistor:
+    return next(r for r in stage.circuit.resistors if r.designator == designator)
 
 
 def _spice(value: float) -> str:
@@ -144,9 +182,10 @@ def _spice(value: float) -> str:
     return f"{value:.4g}"
 
 
-def build_stage(rail_v: float, rx_family: str, schmitt: bool, bounce_s: float, r_pull: float,
-                r_series: float, c: float, topology: str, limits: Mapping[str, float]) -> Stage:
+def build_stage(request: DesignRequest, r_pull: float, r_series: float, c: float,
+                limits: Mapping[str, float]) -> Stage:
     """The designed stage: R1 pull at n1, SW1 at n1, R2 n1-in, C1 in-0."""
+    topology = request.topology
     if topology not in TOPOLOGIES:
         raise UsageError(f"topology must be one of {', '.join(TOPOLOGIES)}, got {topology!r}")
     rt = float(limits.get("tolerance_resistor", 0.05))
@@ -161,106 +200,140 @@ def build_stage(rail_v: float, rx_family: str, schmitt: bool, bounce_s: float, r
         throw = Throw("vcc", "n1", ActuatorState.PRESSED, closed)
     circuit = StageCircuit((r1, Resistor("R2", "n1", "in", r_series, rt, rt, role=ResistorRole.SERIES)),
                            (Capacitor("C1", "in", "0", c, ct, ct),), (),
-                           (RailSource("vcc", rail_v, vt),), (throw,), "in")
-    contact = Contact("SW1", "design", ContactForm.SPST_NO, ("n1", "0"), bounce_s, None, None, _LOC,
+                           (RailSource("vcc", request.rail_v, vt),), (throw,), "in")
+    contact = Contact("SW1", "design", ContactForm.SPST_NO, ("n1", "0"), request.bounce_s, None, None, _LOC,
                       ContactOrigin.CONFIG)
-    receiver = Receiver("U1", 1, "in", "design", rx_family, schmitt, False, "data", rail_v, vt, _LOC)
-    return Stage(contact, receiver, StageKind.RC_SCHMITT if schmitt else StageKind.RC, ("R1", "R2", "C1"), circuit,
-                 circuit.nodes())
+    receiver = Receiver("U1", 1, "in", "design", request.family, request.schmitt, False, "data",
+                        request.rail_v, vt, _LOC)
+    kind = StageKind.RC_SCHMITT if request.schmitt else StageKind.RC
+    return Stage(contact, receiver, kind, ("R1", "R2", "C1"), circuit, circuit.nodes())
 
 
-def design_stage(rail_v: float, family: str, schmitt: bool, bounce_s: float, latency_s: float,
-                 series: str = "E24", capacitor: float | None = None, resistor: float | None = None,
-                 topology: str = "pull-up", *, rx=None, limits: Mapping[str, float] | None = None,
-                 budget: int = MAX_ANALYSES, design_budget: int = 1200) -> DesignResult:
+@dataclass(frozen=True, slots=True)
+class _Plan:
+    """A request resolved against the data: series, receiver, limits and the starting stage."""
+
+    request: DesignRequest
+    series: str  # upper case
+    cap_series: str
+    rx: ReceiverElectrical
+    limits: dict[str, float]
+    c_start: float
+    base: Stage
+
+
+def design_stage(request: DesignRequest, *, rx: ReceiverElectrical | None = None,
+                 limits: Mapping[str, float] | None = None) -> DesignResult:
     """Propose pull/series resistors and a capacitor passing every stage rule at worst case.
 
-    capacitor / resistor: hold the capacitor or the pull resistor at this
-    value (snapped to the nearest series value). rx / limits: the receiver's
-    electrical data and the rule limits; by default from the library
-    (rules/families.toml, rules/limits.toml). latency_s overrides the
-    latency limit. Values: resistors from `series`, capacitors from the
-    coarser of `series` and E12. budget bounds each solver run, design_budget
-    the whole design (analyses).
+    rx / limits: the receiver's electrical data and the rule limits; by
+    default from the library (rules/families.toml, rules/limits.toml).
+    Raises DesignError when the data cannot answer the request.
     """
-    if rail_v <= 0 or bounce_s <= 0 or latency_s <= 0:
-        raise UsageError("rail voltage, bounce and latency must be positive")
-    series = series.upper()
-    eseries.decade_codes(series)  # an unknown series is a usage error below
-    cap_series = capacitor_series(series)
-    if rx is None or limits is None:
-        from drc.analysis.receiver import receiver_electrical
-        from drc.library.catalogue import load_library
-        lib = load_library()
-        rx = rx or receiver_electrical(lib, family, rail_v, schmitt)
-        limits = limits if limits is not None else {k: v.value for k, v in lib.limits.items()}
-    limits = {**limits, "latency_limit": latency_s}
-    r_pull = eseries.nearest(series, resistor) if resistor else _start_pull(series, rail_v, limits)
-    r_series = eseries.nearest(series, _START_SERIES)
-    c_start = eseries.nearest(cap_series, capacitor if capacitor else _START_TAU_PER_BOUNCE * bounce_s / r_series)
-    base = build_stage(rail_v, family, schmitt, bounce_s, r_pull, r_series, c_start, topology, limits)
-    # Attempts: the start capacitor with the pull resistor held, then free; then, unless a
-    # capacitor was given, neighbouring capacitor values (nearest first) with C held.
-    held_r = ("R1",) if resistor else ()
-    attempts: list[tuple[float, tuple[str, ...]]] = [(c_start, ("R1", "C1") if capacitor else ("R1",))]
-    if not resistor:
-        attempts.append((c_start, ("C1",) if capacitor else ()))
-    if not capacitor:
-        nearby = eseries.by_closeness(cap_series, c_start, c_start / 10.0, c_start * 10.0)
-        attempts.extend((c, ("C1", *held_r)) for c in nearby[1:_CAPACITOR_TRIES])
-    count, solution, stage = 0, None, base
-    from drc.analysis.stage_analysis import analyse_stage
-    from drc.checks import run_stage_rules
-    start = analyse_stage(base, rx)
-    count += 1
-    start = start if start.receiver_electrical else replace(start, receiver_electrical=rx)
-    at_start = {f.rule for f in run_stage_rules(start, limits)}
-    # Rules no value repairs (a rail, family or topology problem, or a plain input's
-    # slow edge): say so without searching.
-    if (at_start - set(FIXABLE)) or "slow-edge" in at_start:
-        attempts = []
-    for c, fixed in attempts:
-        if count >= design_budget:
-            break
-        trial = with_values(base, {"C1": c})
-        solution, used = search(trial, rx, limits, series, set(), min(budget, design_budget - count),
-                                fixed_parts=fixed)
+    plan = _plan(request, rx, limits)
+    count = 1
+    if _repairable(_analysed(plan.base, plan), plan.limits):
+        solution, stage, used = _search_attempts(plan, _attempts(plan), count)
         count += used
-        stage = trial
-        if solution is not None:
-            break
-    if solution is None:
-        stage = base
-    from drc.analysis.stage_analysis import analyse_stage
-    from drc.checks import run_stage_rules
+    else:
+        solution, stage = None, plan.base
     if solution is not None:
         stage = with_values(stage, {ch.designator: ch.new for ch in solution.changes})
-        fixed = tuple(name for name, given in (("C1", capacitor), ("R1", resistor)) if given)
         result = solution.result
     else:
-        result = analyse_stage(stage, rx)
+        result = analyse_stage(stage, plan.rx)
         count += 1
     if result.receiver_electrical is None:
-        result = replace(result, receiver_electrical=rx)
-    failing = tuple(sorted({f.rule for f in run_stage_rules(result, limits)}))
-    ok = not failing
-    if ok:
-        reason = "passes every stage rule at worst case"
-    elif "slow-edge" in failing:
-        reason = f"no RC value passes a plain {rx.family} input; use a Schmitt-trigger input"
-    elif set(failing) - set(FIXABLE):
-        reason = (f"{', '.join(sorted(set(failing) - set(FIXABLE)))} fails whatever the values "
-                  f"(a rail, family or topology problem)")
-    else:
-        fixed = tuple(name for name, given in (("C1", capacitor), ("R1", resistor)) if given)
-        held = f" with {' and '.join(fixed)} held" if fixed else ""
-        reason = (f"no {series} combination found{held} within {count} analyses "
-                  f"(still failing: {', '.join(failing)})")
+        result = replace(result, receiver_electrical=plan.rx)
+    failing = tuple(sorted({f.rule for f in run_stage_rules(result, plan.limits)}))
     return DesignResult(
-        ok=ok, reason=reason, topology=topology, rail_v=rail_v, family=family, schmitt=schmitt,
-        bounce_s=bounce_s, series=series, stage=stage, result=result,
+        ok=not failing, reason=_reason(plan, failing, count), topology=request.topology,
+        rail_v=request.rail_v, family=request.family, schmitt=request.schmitt,
+        bounce_s=request.bounce_s, series=plan.series, stage=stage, result=result,
         edges=tuple(EdgeTimes(e.edge, e.nominal_s, e.fastest_s, e.slowest_s) for e in result.edges.values()),
-        margins=_margins(result, limits), failing_rules=failing, analyses=count)
+        margins=_margins(result, plan.limits), failing_rules=failing, analyses=count)
+
+
+def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
+          limits: Mapping[str, float] | None) -> _Plan:
+    """Series, receiver data, limits and start values; DesignError for what the data has not."""
+    try:
+        series = request.series.upper()
+        eseries.decade_codes(series)  # an unknown series is an error here
+        cap_series = capacitor_series(series)
+        if rx is None or limits is None:
+            from drc.library.catalogue import load_library
+            lib = load_library()
+            rx = rx if rx is not None else receiver_electrical(lib, request.family, request.rail_v, request.schmitt)
+            limits = limits if limits is not None else {k: v.value for k, v in lib.limits.items()}
+        limits = {**limits, "latency_limit": request.latency_s}
+        r_pull = (eseries.nearest(series, request.resistor) if request.resistor
+                  else _start_pull(series, request.rail_v, limits))
+        r_series = eseries.nearest(series, _START_SERIES)
+        c_start = eseries.nearest(cap_series, request.capacitor if request.capacitor
+                                  else _START_TAU_PER_BOUNCE * request.bounce_s / r_series)
+    except (ValueError, KeyError) as exc:  # the library's and the E-series' own refusals
+        raise DesignError(str(exc)) from exc
+    base = build_stage(request, r_pull, r_series, c_start, limits)
+    return _Plan(request, series, cap_series, rx, limits, c_start, base)
+
+
+def _analysed(stage: Stage, plan: _Plan) -> StageResult:
+    result = analyse_stage(stage, plan.rx)
+    return result if result.receiver_electrical else replace(result, receiver_electrical=plan.rx)
+
+
+def _repairable(start: StageResult, limits: Mapping[str, float]) -> bool:
+    """False for rules no value repairs (a rail, family or topology problem, or a
+    plain input's slow edge): the design says so without searching."""
+    at_start = {f.rule for f in run_stage_rules(start, limits)}
+    return not (at_start - set(FIXABLE)) and "slow-edge" not in at_start
+
+
+def _attempts(plan: _Plan) -> list[tuple[float, tuple[str, ...]]]:
+    """(capacitor value, parts held) per search: the start capacitor with the pull
+    resistor held, then free; then, unless a capacitor was given, neighbouring
+    capacitor values (nearest first) with C held."""
+    request, c_start = plan.request, plan.c_start
+    held_r = ("R1",) if request.resistor else ()
+    attempts: list[tuple[float, tuple[str, ...]]] = [(c_start, ("R1", "C1") if request.capacitor else ("R1",))]
+    if not request.resistor:
+        attempts.append((c_start, ("C1",) if request.capacitor else ()))
+    if not request.capacitor:
+        nearby = eseries.by_closeness(plan.cap_series, c_start, c_start / 10.0, c_start * 10.0)
+        attempts.extend((c, ("C1", *held_r)) for c in nearby[1:_CAPACITOR_TRIES])
+    return attempts
+
+
+def _search_attempts(plan: _Plan, attempts: list[tuple[float, tuple[str, ...]]],
+                     count: int) -> tuple[Solution | None, Stage, int]:
+    """The first attempt whose search passes, within the design's budget:
+    (solution, the stage it changes, analyses used)."""
+    request, used = plan.request, 0
+    for c, fixed in attempts:
+        if count + used >= request.design_budget:
+            break
+        trial = with_values(plan.base, {"C1": c})
+        solution, spent = search(trial, plan.rx, plan.limits, plan.series, set(),
+                                 min(request.budget, request.design_budget - count - used), fixed_parts=fixed)
+        used += spent
+        if solution is not None:
+            return solution, trial, used
+    return None, plan.base, used
+
+
+def _reason(plan: _Plan, failing: tuple[str, ...], count: int) -> str:
+    if not failing:
+        return "passes every stage rule at worst case"
+    if "slow-edge" in failing:
+        return f"no RC value passes a plain {plan.rx.family} input; use a Schmitt-trigger input"
+    if set(failing) - set(FIXABLE):
+        return (f"{', '.join(sorted(set(failing) - set(FIXABLE)))} fails whatever the values "
+                f"(a rail, family or topology problem)")
+    held = plan.request.held
+    held_text = f" with {' and '.join(held)} held" if held else ""
+    return (f"no {plan.series} combination found{held_text} within {count} analyses "
+            f"(still failing: {', '.join(failing)})")
 
 
 def _margins(result: StageResult, limits: Mapping[str, float]) -> tuple[Margin, ...]:

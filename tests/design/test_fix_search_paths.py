@@ -17,6 +17,7 @@ from pathlib import Path
 
 import pytest
 
+from drc.caching import clear_caches
 from drc.design import fixes
 from drc.checks import run_stage_rules
 from drc.pipeline import CheckOptions, check_board_in_memory, effective_limits
@@ -69,10 +70,10 @@ def _fix_texts(path):
     return [(f.contact, f.receiver, f.rule, f.fix) for f in check.findings]
 
 
-def test_board_fixes_do_not_depend_on_earlier_boards(boards, monkeypatch):
-    monkeypatch.setattr(fixes, "_MEMO", {})
+def test_board_fixes_do_not_depend_on_earlier_boards(boards):
+    clear_caches()
     fresh = _fix_texts(boards[-1])
-    monkeypatch.setattr(fixes, "_MEMO", {})
+    clear_caches()
     for path in boards[:-1]:
         _fix_texts(path)  # fills the memo a long-lived worker would have
     assert _fix_texts(boards[-1]) == fresh

@@ -6,7 +6,7 @@ import eseries as oracle
 import pytest
 
 from drc.checks import run_stage_rules
-from drc.design.forward import design_stage
+from drc.design.forward import DesignRequest, design_stage
 
 from tests.checks.builders import LIMITS, analysed, hc
 
@@ -19,7 +19,7 @@ def member(series, value):
 @pytest.mark.parametrize("topology", ["pull-up", "pull-down"])
 @pytest.mark.parametrize("series,eseries_key", [("E24", oracle.E24), ("E96", oracle.E96)])
 def test_design_passes_and_uses_series_values(topology, series, eseries_key):
-    d = design_stage(5.0, "HC", True, 0.010, 0.100, series=series, topology=topology,
+    d = design_stage(DesignRequest(5.0, "HC", True, 0.010, 0.100, series=series, topology=topology),
                      rx=hc(), limits=LIMITS)
     assert d.ok, d.reason
     assert member(eseries_key, d.pull.ohms) and member(eseries_key, d.series_resistor.ohms)
@@ -33,17 +33,18 @@ def test_design_passes_and_uses_series_values(topology, series, eseries_key):
 
 
 def test_design_with_a_given_capacitor():
-    d = design_stage(5.0, "HC", True, 0.010, 0.100, capacitor=1e-6, rx=hc(), limits=LIMITS)
+    d = design_stage(DesignRequest(5.0, "HC", True, 0.010, 0.100, capacitor=1e-6), rx=hc(), limits=LIMITS)
     assert d.ok and d.capacitor.farads == pytest.approx(1e-6)
 
 
 def test_plain_input_design_is_refused_honestly():
-    d = design_stage(5.0, "HC", False, 0.010, 0.100, rx=hc(schmitt=False), limits=LIMITS, design_budget=50)
+    d = design_stage(DesignRequest(5.0, "HC", False, 0.010, 0.100, design_budget=50), rx=hc(schmitt=False),
+                     limits=LIMITS)
     assert not d.ok and "Schmitt" in d.reason and "NOT PASSING" in d.netlist_fragment()
 
 
 def test_netlist_fragment_follows_our_conventions():
-    d = design_stage(5.0, "HC", True, 0.010, 0.100, rx=hc(), limits=LIMITS)
+    d = design_stage(DesignRequest(5.0, "HC", True, 0.010, 0.100), rx=hc(), limits=LIMITS)
     lines = d.netlist_fragment().splitlines()
     assert lines[1] == "V1 vcc 0 DC 5"
     assert lines[3] == "SW1 n1 0 TACTILE"
