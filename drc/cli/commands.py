@@ -305,7 +305,8 @@ def run_trace(args) -> int:
 def run_simulate(args) -> int:
     import json
 
-    from drc.simulation.injection import chatter_deck, render_simulation_text, simulate_stage, simulation_json
+    from drc.report.simulation_view import render_simulation_text, simulation_json
+    from drc.simulation.injection import chatter_deck, simulate_stage
     if args.trials < 1:
         raise UsageError("--trials must be at least 1")
     check = _board_stages(args.board, args.config, args.bounce)

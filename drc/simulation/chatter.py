@@ -22,6 +22,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from drc.analysis.results import Edge
+
 INTERVAL_S = (1e-6, 1e-3)  # log-uniform range of one make or break interval
 MIN_FRACTION = 0.5  # shortest burst, as a fraction of the bounce time
 
@@ -30,7 +32,7 @@ MIN_FRACTION = 0.5  # shortest burst, as a fraction of the bounce time
 class BounceTrain:
     """One actuation's toggles, in seconds from the first touch (first is 0.0, count odd)."""
 
-    edge: str  # "press" or "release"
+    edge: Edge
     toggles: tuple[float, ...]
 
     @property
@@ -48,7 +50,7 @@ class ChatterTrial:
     release: BounceTrain
 
     def train(self, edge: str) -> BounceTrain:
-        return self.press if edge == "press" else self.release
+        return self.press if edge == Edge.PRESS else self.release
 
 
 def draw_trains(rng: np.random.Generator, trials: int, bounce_s: float, *,
@@ -86,7 +88,7 @@ def draw_trains(rng: np.random.Generator, trials: int, bounce_s: float, *,
 
 def train_from_row(edge: str, row: np.ndarray) -> BounceTrain:
     """A BounceTrain from one padded row of `draw_trains`."""
-    return BounceTrain(edge, tuple(float(x) for x in row if not math.isnan(x)))
+    return BounceTrain(Edge(edge), tuple(float(x) for x in row if not math.isnan(x)))
 
 
 __all__ = ["INTERVAL_S", "MIN_FRACTION", "BounceTrain", "ChatterTrial", "draw_trains", "train_from_row"]

@@ -3,11 +3,11 @@
 The analysis answers "how long does an edge take"; this module answers the
 question a designer then asks: "does the receiver's output switch exactly once
 when this contact bounces?". Each trial draws a press and a release bounce
-train (drc.chatter) and integrates the stage's circuit exactly between the
+train (drc.simulation.chatter) and integrates the stage's circuit exactly between the
 switching instants: between two toggles the circuit is linear, so with the
 capacitor voltages u carried across each toggle, the reduced system of the
 physics package (C du/dt = h - Y u, receiver voltage cv + Mv u, from
-drc.physics.mna.reduce_dynamic) is solved in closed form by its
+drc.analysis.physics.mna.reduce_dynamic) is solved in closed form by its
 eigen-decomposition, for all trials at once. The receiver is a Schmitt input
 (output rises at VT+ typ, falls at VT- typ) or a plain input with one switching
 point (the typical threshold, where every crossing counts). Between two
@@ -21,10 +21,11 @@ While the contact bounces during a press it alternates between its pressed
 state and "no throw closed" (a changeover's common between its throws); a
 contact whose new state closes nothing (a normally-open contact released)
 re-makes into its old state instead. Leakage and the starting steady state
-follow the analysis' convention for each edge (drc.analysis.edge_setup), at
-the nominal corner. `chatter_deck` writes one recorded trial as an ngspice
-deck (drc.spice_deck's element lines, with the chatter as PWL controls), and
-`replay_trial` integrates the same schedule, so the two can be compared.
+follow the analysis' convention for each edge (drc.analysis.stage_analysis.edge_setup),
+at the nominal corner. `chatter_deck` writes one recorded trial as an ngspice
+deck (drc.simulation.spice_deck's element lines, with the chatter as PWL
+controls), and `replay_trial` integrates the same schedule, so the two can be
+compared. drc.report.simulation_view words a result.
 """
 
 from __future__ import annotations
@@ -34,13 +35,15 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from drc.analysis.stage_analysis import EDGE_STATES, edge_setup
-from drc.simulation.chatter import ChatterTrial, draw_trains, train_from_row
-from drc.analysis.receiver import ReceiverElectrical
-from drc.errors import UsageError
-from drc.analysis.physics.mna import cap_voltages, dc_solve, reduce_dynamic
 from drc.analysis.physics.compiled import LinearModel, compile_circuit
+from drc.analysis.physics.mna import cap_voltages, dc_solve, reduce_dynamic
+from drc.analysis.receiver import ReceiverElectrical
+from drc.analysis.results import EDGE_STATES, Edge
+from drc.analysis.stage_analysis import EdgeSetup, edge_setup
 from drc.board.stage import Stage
+from drc.errors import UsageError
+from drc.simulation.chatter import ChatterTrial, draw_trains, train_from_row
+from drc.simulation.spice_deck import deck_number, stage_deck
 
 TRANSIT = "transit"  # no throw closed: a topology state the model builds like any other
 SETTLE_TAUS = 40.0  # e^-40: the last interval of an actuation runs until nothing moves
@@ -61,7 +64,7 @@ class EdgeStatistics:
     level never crosses); histogram: number of output edges -> trials.
     """
 
-    edge: str
+    edge: Edge
     trials: int
     clean_trials: int
     missed_trials: int
@@ -83,17 +86,17 @@ class SimulationResult:
     receiver_model: str  # "schmitt" or "single-threshold"
     upper_v: float  # VT+ typ (or the single threshold)
     lower_v: float  # VT- typ (or the single threshold)
-    edges: dict[str, EdgeStatistics]
+    edges: dict[Edge, EdgeStatistics]
     clean_trials: int
     worst_trial: int
-    worst_edges: dict[str, int]
+    worst_edges: dict[Edge, int]
     notes: tuple[str, ...] = ()
-    trains: dict[str, np.ndarray] = field(default_factory=dict, repr=False)
+    trains: dict[Edge, np.ndarray] = field(default_factory=dict, repr=False)
 
     def trial(self, index: int) -> ChatterTrial:
         """The recorded bounce trains of one trial (e.g. the worst) for replay or a deck."""
-        return ChatterTrial(index, train_from_row("press", self.trains["press"][index]),
-                            train_from_row("release", self.trains["release"][index]))
+        return ChatterTrial(index, train_from_row(Edge.PRESS, self.trains[Edge.PRESS][index]),
+                            train_from_row(Edge.RELEASE, self.trains[Edge.RELEASE][index]))
 
 
 @dataclass(frozen=True, slots=True)
@@ -110,7 +113,7 @@ class TrialReplay:
     t_stop: float
     leak_switch_s: float
     release_at: float
-    edges: dict[str, int]
+    edges: dict[Edge, int]
     upper_v: float
     lower_v: float
     receiver_model: str
@@ -137,7 +140,7 @@ class _Mode:
         self.c = c
         if k == 0:
             self.d = self.lam = self.r = self.w = self.zinf = np.zeros(0)
-            self.Q = np.zeros((0, 0)); self.pos = np.zeros(0, dtype=bool)
+            self.Q, self.pos = np.zeros((0, 0)), np.zeros(0, dtype=bool)
             return
         C = red.C[0]
         d = 1.0 / np.sqrt(C)
@@ -230,7 +233,7 @@ class _StageSystem:
         if self.model.has_diodes:
             raise UsageError(f"cannot simulate {stage.name}: chatter simulation covers stages "
                              f"without diodes (diodes: {', '.join(d.designator for d in stage.circuit.diodes)})")
-        self.setups = {}
+        self.setups: dict[Edge, EdgeSetup] = {}
         for edge in EDGE_STATES:
             try:
                 self.setups[edge] = edge_setup(self.model, rx, edge)
@@ -243,26 +246,26 @@ class _StageSystem:
             self.receiver = _Receiver(rx.rising_threshold[1], rx.rising_threshold[1], rx.vcc)
         self._modes: dict[tuple, _Mode] = {}
         throws = stage.circuit.throws
-        self.alternate = {}
+        self.alternate: dict[Edge, str] = {}
         for edge, (a, b) in EDGE_STATES.items():
             # Bouncing on the new throw opens it (all open); a new state that
             # closes nothing can only re-make into the old one.
             self.alternate[edge] = TRANSIT if any(t.closed_when == b for t in throws) else a
 
-    def row(self, edge: str) -> np.ndarray:
+    def row(self, edge: Edge) -> np.ndarray:
         return self.setups[edge].box.nominal
 
-    def mode(self, state: str, edge: str) -> _Mode:
+    def mode(self, state: str, edge: Edge) -> _Mode:
         key = (state, edge)
         if key not in self._modes:
             self._modes[key] = _Mode(self.model, state, self.row(edge))
         return self._modes[key]
 
-    def modes_for(self, edge: str) -> tuple[_Mode, _Mode]:
+    def modes_for(self, edge: Edge) -> tuple[_Mode, _Mode]:
         """(the new state, the bounce state) of an actuation."""
         return self.mode(EDGE_STATES[edge][1], edge), self.mode(self.alternate[edge], edge)
 
-    def start_u(self, edge: str) -> tuple[np.ndarray, float]:
+    def start_u(self, edge: Edge) -> tuple[np.ndarray, float]:
         dc = dc_solve(self.model, EDGE_STATES[edge][0], self.row(edge)[None, :])
         return cap_voltages(self.model, dc)[0], float(dc.rx_v[0])
 
@@ -271,7 +274,7 @@ class _StageSystem:
         for edge in EDGE_STATES:
             for m in self.modes_for(edge):
                 out += m.taus()
-        out += self.mode(EDGE_STATES["release"][0], "release").taus()
+        out += self.mode(EDGE_STATES[Edge.RELEASE][0], Edge.RELEASE).taus()
         return [t for t in out if math.isfinite(t) and t > 0]
 
 
@@ -312,7 +315,8 @@ def _settle_s(system: _StageSystem, bounce_s: float) -> float:
     return SETTLE_TAUS * max(taus) if taus else max(bounce_s, 1e-6)
 
 
-def _actuation_columns(system: _StageSystem, edge: str, toggles: np.ndarray, tail_s: np.ndarray):
+def _actuation_columns(system: _StageSystem, edge: Edge, toggles: np.ndarray,
+                       tail_s: np.ndarray) -> tuple[list[_Mode], np.ndarray]:
     """Modes and interval lengths of one actuation: toggles (N, M) NaN-padded, tail after the last."""
     new, bounce = system.modes_for(edge)
     nxt = np.concatenate([toggles[:, 1:], np.full((toggles.shape[0], 1), np.nan)], axis=1)
@@ -323,13 +327,13 @@ def _actuation_columns(system: _StageSystem, edge: str, toggles: np.ndarray, tai
     return modes, dt
 
 
-def _statistics(edge: str, counts: np.ndarray) -> EdgeStatistics:
+def _statistics(edge: Edge, counts: np.ndarray) -> EdgeStatistics:
     values, freq = np.unique(counts, return_counts=True)
     return EdgeStatistics(
         edge=edge, trials=int(counts.size), clean_trials=int(np.sum(counts == 1)),
         missed_trials=int(np.sum(counts == 0)), max_edges=int(counts.max(initial=0)),
         mean_edges=float(counts.mean()) if counts.size else 0.0,
-        histogram={int(v): int(f) for v, f in zip(values, freq)})
+        histogram={int(v): int(f) for v, f in zip(values, freq, strict=True)})
 
 
 def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, seed: int = 0,
@@ -347,8 +351,8 @@ def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, 
         raise UsageError(f"bounce time must be a non-negative number of seconds, not {bounce_s!r}")
     rng = np.random.default_rng(seed)
     settle = _settle_s(system, bounce)
-    trains: dict[str, np.ndarray] = {}
-    counts: dict[str, np.ndarray] = {}
+    trains: dict[Edge, np.ndarray] = {}
+    counts: dict[Edge, np.ndarray] = {}
     for edge in EDGE_STATES:
         toggles = draw_trains(rng, trials, bounce)
         trains[edge] = toggles
@@ -356,8 +360,8 @@ def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, 
         u0, v0 = system.start_u(edge)
         out = system.receiver.initial(np.full(trials, v0))
         counts[edge] = _integrate(modes, dt, u0, system.receiver, out)[0]
-    total = counts["press"] + counts["release"]
-    clean = int(np.sum((counts["press"] == 1) & (counts["release"] == 1)))
+    total = counts[Edge.PRESS] + counts[Edge.RELEASE]
+    clean = int(np.sum((counts[Edge.PRESS] == 1) & (counts[Edge.RELEASE] == 1)))
     worst = int(np.argmax(total))
     notes = list(_notes(stage, system))
     return SimulationResult(
@@ -412,25 +416,25 @@ def replay_trial(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> T
     system = _StageSystem(stage, rx)
     sch = _schedule(system, trial)
     receiver = system.receiver
-    u, v0 = system.start_u("press")
+    u, v0 = system.start_u(Edge.PRESS)
     out = receiver.initial(np.array([v0]))
-    edges = {}
+    edges: dict[Edge, int] = {}
     v_before = [v0]
     # press: its toggles, the last interval running to the leakage switch
     tp = np.array([trial.press.toggles])
-    modes, dt = _actuation_columns(system, "press", tp, np.array([sch.leak_switch - sch.press_at - tp[0, -1]]))
+    modes, dt = _actuation_columns(system, Edge.PRESS, tp, np.array([sch.leak_switch - sch.press_at - tp[0, -1]]))
     count, v_end, u, out = _integrate(modes, dt, u, receiver, out)
-    edges["press"] = int(count[0])
+    edges[Edge.PRESS] = int(count[0])
     v_before += [float(x) for x in v_end[0, :-1]]
     # hold: pressed, with the release edge's leakage, until the release train starts
-    held = system.mode(EDGE_STATES["release"][0], "release")
+    held = system.mode(EDGE_STATES[Edge.RELEASE][0], Edge.RELEASE)
     count, v_end, u, out = _integrate([held], np.array([[sch.release_at - sch.leak_switch]]), u[0], receiver, out)
     hold_edges = int(count[0])
     v_before.append(float(v_end[0, 0]))
     tr = np.array([trial.release.toggles])
-    modes, dt = _actuation_columns(system, "release", tr, np.array([sch.t_stop - sch.release_at - tr[0, -1]]))
+    modes, dt = _actuation_columns(system, Edge.RELEASE, tr, np.array([sch.t_stop - sch.release_at - tr[0, -1]]))
     count, v_end, u, out = _integrate(modes, dt, u[0], receiver, out)
-    edges["release"] = int(count[0]) + hold_edges  # a late edge while held belongs to neither: counted with release
+    edges[Edge.RELEASE] = int(count[0]) + hold_edges  # a late edge while held belongs to neither: counted with release
     v_before += [float(x) for x in v_end[0, :-1]]
     instants = tuple(sch.press_at + t for t in trial.press.toggles) + \
         tuple(sch.release_at + t for t in trial.release.toggles)
@@ -455,7 +459,7 @@ def _control_points(instants: list[float], levels: list[int], initial: int) -> l
     """A PWL that holds `initial`, then ramps to levels[i] across each instant (mid-ramp = instant)."""
     pts = [(0.0, float(initial))]
     now = initial
-    for t, lv in zip(instants, levels):
+    for t, lv in zip(instants, levels, strict=True):
         if lv == now:
             continue
         pts.append((t - _DECK_HALF_EDGE, float(now)))
@@ -464,40 +468,49 @@ def _control_points(instants: list[float], levels: list[int], initial: int) -> l
     return pts
 
 
-def chatter_deck(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> str:
-    """A standalone ngspice deck of `stage` replaying one chatter trial.
-
-    The stage's elements come from drc.spice_deck (nominal corner); the
-    contact's throws are driven by PWL controls that follow the trial's
-    toggles; `.meas` lines report the receiver voltage just before every
-    toggle and the first and last threshold crossing of each actuation.
-    """
-    from drc.simulation.spice_deck import _fmt, stage_deck
-
-    system = _StageSystem(stage, rx)
-    sch = _schedule(system, trial)
-    replay = replay_trial(stage, rx, trial)
-    base = stage_deck(stage, rx, corner="nominal", press_at=sch.press_at, hold=sch.hold)
+def _stage_elements(deck: str) -> tuple[str | None, list[str]]:
+    """The receiver node a stage deck measures, and its lines without its controls,
+    analysis and measurements (the chatter deck writes its own)."""
     node = None
     kept: list[str] = []
-    for line in base.splitlines():
+    for line in deck.splitlines():
         if line.startswith(".meas") and " TARG " in line:
             node = line.split(" TARG ", 1)[1].split()[0]
         if line.startswith(("Vctl ", "Vctlb ", ".tran", ".meas", ".end", "* t_press", "* t_release",
                             "* Look for", "* edge (control", "* A '.meas", "* ctl is")):
             continue
         kept.append(line)
-    if node is None:
-        raise UsageError(f"cannot write a chatter deck for {stage.name}: the stage deck has no receiver node")
+    return node, kept
 
-    # Per toggle, the contact's state after it: press toggles alternate new/bounce state.
+
+def _toggle_states(system: _StageSystem, sch: _Schedule, trial: ChatterTrial) -> tuple[list[float], list[str]]:
+    """Every toggle's instant and the contact's state after it: a burst alternates
+    between the new state and the bounce state."""
     instants: list[float] = []
     states: list[str] = []
-    for edge, at in (("press", sch.press_at), ("release", sch.release_at)):
+    for edge, at in ((Edge.PRESS, sch.press_at), (Edge.RELEASE, sch.release_at)):
         new, old = EDGE_STATES[edge][1], system.alternate[edge]
         for i, t in enumerate(trial.train(edge).toggles):
             instants.append(at + t)
             states.append(new if i % 2 == 0 else old)
+    return instants, states
+
+
+def chatter_deck(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> str:
+    """A standalone ngspice deck of `stage` replaying one chatter trial.
+
+    The stage's elements come from drc.simulation.spice_deck (nominal corner); the
+    contact's throws are driven by PWL controls that follow the trial's
+    toggles; `.meas` lines report the receiver voltage just before every
+    toggle and the first and last threshold crossing of each actuation.
+    """
+    system = _StageSystem(stage, rx)
+    sch = _schedule(system, trial)
+    replay = replay_trial(stage, rx, trial)
+    node, kept = _stage_elements(stage_deck(stage, rx, corner="nominal", press_at=sch.press_at, hold=sch.hold))
+    if node is None:
+        raise UsageError(f"cannot write a chatter deck for {stage.name}: the stage deck has no receiver node")
+    instants, states = _toggle_states(system, sch, trial)
     ctl = _control_points(instants, [1 if s == "pressed" else 0 for s in states], 0)
     ctlb = _control_points(instants, [1 if s == "released" else 0 for s in states], 1)
 
@@ -505,16 +518,16 @@ def chatter_deck(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> s
     t_max = min(taus) / 50.0 if taus else sch.t_stop / 2000.0
     t_max = max(t_max, sch.t_stop / _DECK_MAX_POINTS)
     up, lo = replay.upper_v, replay.lower_v
-    thresholds = (f"VT+ {_fmt(up)} V and VT- {_fmt(lo)} V (typical; Schmitt input)" if up != lo
-                  else f"{_fmt(up)} V (typical switching point of a plain input: every crossing counts)")
+    thresholds = (f"VT+ {deck_number(up)} V and VT- {deck_number(lo)} V (typical; Schmitt input)" if up != lo
+                  else f"{deck_number(up)} V (typical switching point of a plain input: every crossing counts)")
     header = [
         f"* drc chatter deck: {stage.name} ({stage.kind}), trial {trial.index}, nominal corner",
         f"* Receiver node {node}; thresholds {thresholds}.",
-        f"* Press burst: {len(trial.press.toggles)} toggles from {_fmt(sch.press_at)} s; release burst: "
-        f"{len(trial.release.toggles)} toggles from {_fmt(sch.release_at)} s; leakage switches at "
-        f"{_fmt(sch.leak_switch)} s.",
-        f"* drc's event integration counts {replay.edges['press']} output edge(s) on press and "
-        f"{replay.edges['release']} on release; one each means this burst is debounced.",
+        f"* Press burst: {len(trial.press.toggles)} toggles from {deck_number(sch.press_at)} s; release burst: "
+        f"{len(trial.release.toggles)} toggles from {deck_number(sch.release_at)} s; leakage switches at "
+        f"{deck_number(sch.leak_switch)} s.",
+        f"* drc's event integration counts {replay.edges[Edge.PRESS]} output edge(s) on press and "
+        f"{replay.edges[Edge.RELEASE]} on release; one each means this burst is debounced.",
         "* Look for: vNNN = the receiver voltage just before toggle NNN; press_first/press_last and",
         "* release_first/release_last = the first and last threshold crossing of each actuation.",
         "* Several crossings alternating through both thresholds mean several output edges.",
@@ -525,88 +538,21 @@ def chatter_deck(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> s
         "* throw(s); both 0 V while a changeover's common is between throws",
         f"Vctl ctl 0 {_pwl(ctl)}",
         f"Vctlb ctlb 0 {_pwl(ctlb)}",
-        f".tran {_fmt(t_max)} {_time(sch.t_stop)} 0 {_fmt(t_max)}",
+        f".tran {deck_number(t_max)} {_time(sch.t_stop)} 0 {deck_number(t_max)}",
     ]
     for i, t in enumerate(instants):
         lines.append(f".meas tran v{i:03d} FIND {node} AT={_time(t - _DECK_HALF_EDGE)}")
     lines.append(f".meas tran vend FIND {node} AT={_time(sch.t_stop)}")
-    for edge, start, stop in (("press", sch.press_at, sch.leak_switch), ("release", sch.release_at, sch.t_stop)):
+    for edge, start in ((Edge.PRESS, sch.press_at), (Edge.RELEASE, sch.release_at)):
         es = system.setups[edge]
         vth = up if es.direction > 0 else lo
         way = "RISE" if es.direction > 0 else "FALL"
         td = _time(start - _DECK_HALF_EDGE)
-        lines.append(f"* {edge}: the receiver should {way.lower()} through {_fmt(vth)} V once")
-        lines.append(f".meas tran {edge}_first WHEN {node}={_fmt(vth)} {way}=1 TD={td}")
-        lines.append(f".meas tran {edge}_last WHEN {node}={_fmt(vth)} {way}=LAST TD={td}")
+        lines.append(f"* {edge}: the receiver should {way.lower()} through {deck_number(vth)} V once")
+        lines.append(f".meas tran {edge}_first WHEN {node}={deck_number(vth)} {way}=1 TD={td}")
+        lines.append(f".meas tran {edge}_last WHEN {node}={deck_number(vth)} {way}=LAST TD={td}")
     lines.append(".end")
     return "\n".join(lines) + "\n"
 
 
-# ---------------------------------------------------------------- output
-
-def simulation_json(result: SimulationResult) -> dict:
-    """The result as plain JSON data (trials and clean trials per edge and in total)."""
-    return {
-        "stage": result.stage, "kind": result.kind, "contact_class": result.contact_class,
-        "trials": result.trials, "seed": result.seed, "bounce_s": result.bounce_s,
-        "receiver_model": result.receiver_model, "upper_v": result.upper_v, "lower_v": result.lower_v,
-        "clean_trials": result.clean_trials,
-        "edges": {e: {"trials": s.trials, "clean_trials": s.clean_trials, "missed_trials": s.missed_trials,
-                      "max_edges": s.max_edges, "mean_edges": round(s.mean_edges, 6),
-                      "histogram": {str(k): v for k, v in sorted(s.histogram.items())}}
-                  for e, s in result.edges.items()},
-        "worst_trial": {"index": result.worst_trial, "edges": dict(result.worst_edges)},
-        "notes": list(result.notes),
-    }
-
-
-_BINS = ((0, 0), (1, 1), (2, 2), (3, 5), (6, 10), (11, 30), (31, 100), (101, None))
-
-
-def histogram_bins(histogram: dict[int, int]) -> list[tuple[str, int]]:
-    """Edges-per-actuation counts folded into a few readable ranges ("3-5": 17, ">100": 2)."""
-    out = []
-    for low, high in _BINS:
-        count = sum(n for edges, n in histogram.items()
-                    if edges >= low and (high is None or edges <= high))
-        if count:
-            label = str(low) if low == high else (f">{low - 1}" if high is None else f"{low}-{high}")
-            out.append((label, count))
-    return out
-
-
-def render_simulation_text(result: SimulationResult, console) -> None:
-    """Print the result to a rich Console: a table per actuation and a verdict."""
-    from rich import box
-    from rich.table import Table
-    from rich.text import Text
-
-    from drc.units import format_quantity
-
-    model = (f"Schmitt VT+ {format_quantity(result.upper_v, 'V')}, VT- {format_quantity(result.lower_v, 'V')}"
-             if result.receiver_model == "schmitt" else
-             f"plain input, switching at {format_quantity(result.upper_v, 'V')}")
-    console.print(Text(f"{result.stage} ({result.kind}, {result.contact_class})", style="bold"))
-    console.print(f"{result.trials} trials, seed {result.seed}, bursts up to "
-                  f"{format_quantity(result.bounce_s, 's')}; {model}; nominal corner")
-    table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
-    for name, justify in (("actuation", "left"), ("clean", "right"), ("missed", "right"),
-                          ("most edges", "right"), ("mean", "right"), ("edges per actuation", "left")):
-        table.add_column(name, justify=justify)
-    for edge, s in result.edges.items():
-        hist = "  ".join(f"{k}:{v}" for k, v in histogram_bins(s.histogram))
-        style = "green" if s.clean_trials == s.trials else "bold red"
-        table.add_row(edge, Text(f"{s.clean_trials}/{s.trials}", style=style), str(s.missed_trials),
-                      str(s.max_edges), f"{s.mean_edges:.2f}", hist)
-    console.print(table)
-    worst = ", ".join(f"{e} {n}" for e, n in result.worst_edges.items())
-    verdict_ok = result.clean_trials == result.trials
-    console.print(Text(f"clean trials (one edge per press and per release): {result.clean_trials}/{result.trials}",
-                       style="green" if verdict_ok else "bold red"))
-    console.print(f"worst trial: #{result.worst_trial} ({worst} output edges)")
-    for note in result.notes:
-        console.print(Text(f"note: {note}", style="dim"))
-
-
-__all__ = ["EdgeStatistics", "SimulationResult", "TrialReplay", "chatter_deck", "render_simulation_text",
-           "replay_trial", "simulate_stage", "simulation_json"]
+__all__ = ["EdgeStatistics", "SimulationResult", "TrialReplay", "chatter_deck", "replay_trial", "simulate_stage"]

@@ -15,12 +15,17 @@ comment lists the mapping.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
 
-from drc.analysis.stage_analysis import EDGE_STATES, corner_row, edge_setup
-from drc.analysis.receiver import ReceiverElectrical
-from drc.analysis.physics.compiled import compile_circuit
+import numpy as np
+
+from drc.analysis.physics.compiled import LinearModel, compile_circuit, rail_param
 from drc.analysis.physics.transient import solve_edge
-from drc.board.stage import Stage
+from drc.analysis.receiver import ReceiverElectrical
+from drc.analysis.results import EDGE_STATES, EDGES, Edge
+from drc.analysis.stage_analysis import Corner, EdgeSetup, corner_row, edge_setup
+from drc.board.stage import Stage, StageCircuit
 
 MEASUREMENTS = ("t_press", "t_release")  # names printed by the deck's .meas lines
 _EDGE_TIME = 1e-9  # s: control edge; the switch flips mid-way, where TRIG also looks
@@ -28,12 +33,26 @@ _SETTLE_TAUS = 16.0  # e^-16 = 1e-7: the level before the next edge is settled
 _MAX_POINTS = 250_000  # cap on t_stop / max step, so a deck runs in seconds
 
 
-def _fmt(x: float) -> str:
-    return f"{x:.15g}"  # PWL times late in a long deck need more than 9 figures
+def deck_number(x: float) -> str:
+    """A number as decks write it: 15 significant figures (PWL times late in a long
+    deck need more than 9, and the 1 ns control ramps must stay distinct)."""
+    return f"{x:.15g}"
 
 
-def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner="nominal", press_at: float = 1e-3,
-               hold: float | None = None, edges: tuple[str, ...] = EDGE_STATES) -> str:
+@dataclass(frozen=True, slots=True)
+class _Timing:
+    """When the deck presses, switches the leakage, releases and stops; its time step."""
+
+    press_at: float
+    release_at: float
+    leak_switch: float
+    t_stop: float
+    t_max: float
+    capped: bool  # the step-count cap, not the fastest tau, set t_max
+
+
+def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner: Corner = "nominal", press_at: float = 1e-3,
+               hold: float | None = None, edges: Sequence[str] = EDGES) -> str:
     """An ngspice deck of `stage` measuring `t_press` and `t_release`.
 
     corner: "nominal" (each edge with its own typical threshold and the
@@ -48,32 +67,11 @@ def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner="nominal", press_
     circuit = stage.circuit
     setups = {e: edge_setup(model, rx, e) for e in EDGE_STATES}
     rows = {e: corner_row(model, setups[e], corner) for e in EDGE_STATES}
-    edge_taus: dict[str, list[float]] = {}
-    for e, es in setups.items():
-        row, vth = rows[e]
-        found = solve_edge(model, es.from_state, es.to_state, row, vth, es.direction, full=True).time_constants
-        edge_taus[e] = [t for t in found if math.isfinite(t) and t > 0]
-    taus = edge_taus["press"] + edge_taus["release"]
-    measured_taus = [t for e in edges for t in edge_taus[e]]
-    settle = _SETTLE_TAUS * max(taus) if taus else 1e-6
-    hold = hold if hold is not None else 2.0 * settle
-    release_at = press_at + hold
-    leak_switch = press_at + 0.5 * hold  # pressed state re-settles with the release edge's leakage
-    if "release" in edges:
-        t_stop = release_at + settle
-    else:  # the released state is the DC operating point: only the press edge must settle
-        t_stop = press_at + _SETTLE_TAUS * max(edge_taus["press"] or [1e-6])
-    # Max step tau/50 keeps trapezoidal integration within 0.01 % (spice-dialect.md);
-    # with time constants far apart the cap on the step count wins (said in the deck).
-    t_max = min(measured_taus) / 50.0 if measured_taus else t_stop / 1000.0
-    capped = t_stop / t_max > _MAX_POINTS
-    t_max = max(t_max, t_stop / _MAX_POINTS)
-
+    timing = _timing(model, setups, rows, edges, press_at, hold)
     names = {"0": "0"}
     for i, net in enumerate(circuit.nodes(), start=1):
         names[net] = f"n{i}"
-    row = rows["press"][0]
-    value = dict(zip(model.param_names, row))
+    value = dict(zip(model.param_names, rows[Edge.PRESS][0], strict=True))
     lines = [
         f"* drc stage deck: {stage.name} ({stage.kind}), corner "
         f"{corner if isinstance(corner, str) else 'as given'}",
@@ -82,60 +80,108 @@ def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner="nominal", press_
         "* A '.meas ... failed' line means the threshold was never reached.",
         "* nets: " + ", ".join(f"{names[n]}={n}" for n in circuit.nodes()),
     ]
-    for r in circuit.rails:
-        if r.net != "0":
-            lines.append(f"V_{_id(r.net)} {names[r.net]} 0 DC {_fmt(value[f'rail:{r.net}'])}")
-    for r in circuit.resistors:
-        lines.append(f"R_{_id(r.designator)} {names[r.a]} {names[r.b]} {_fmt(value[r.designator])}")
-    for c in circuit.capacitors:
-        lines.append(f"C_{_id(c.designator)} {names[c.a]} {names[c.b]} {_fmt(value[c.designator])}")
-    for j, d in enumerate(circuit.diodes):
-        mid = f"dmid{j}"
-        lines += [
-            f"* {d.designator}: Vf in series with a switch that conducts while its own voltage is positive",
-            f"VD_{_id(d.designator)} {names[d.anode]} {mid} DC {_fmt(d.forward_v)}",
-            f"SD_{_id(d.designator)} {mid} {names[d.cathode]} {mid} {names[d.cathode]} dmod{j}",
-            f".model dmod{j} SW(VT=0 VH=1e-6 RON={_fmt(d.on_ohms)} ROFF=1e12)",
-        ]
-    for j, t in enumerate(circuit.throws):
-        ctl = "ctl" if t.closed_when == "pressed" else "ctlb"
-        lines += [f"S_T{j} {names[t.a]} {names[t.b]} {ctl} 0 tmod{j}",
-                  f".model tmod{j} SW(VT=0.5 VH=0 RON={_fmt(t.closed_ohms)} ROFF=1e12)"]
-    p1, r1 = press_at + _EDGE_TIME, release_at + _EDGE_TIME
-    lines += [
-        "* ctl is 1 V while pressed; ctlb is its complement (for throws closed while released)",
-        f"Vctl ctl 0 PWL(0 0 {_fmt(press_at)} 0 {_fmt(p1)} 1 {_fmt(release_at)} 1 {_fmt(r1)} 0)",
-        f"Vctlb ctlb 0 PWL(0 1 {_fmt(press_at)} 1 {_fmt(p1)} 0 {_fmt(release_at)} 0 {_fmt(r1)} 1)",
-    ]
+    lines += _element_lines(circuit, names, value)
+    lines += _control_lines(timing)
     if circuit.receiver_node != "0":
-        leak_p = _leak(rows["press"][0], model)
-        leak_r = _leak(rows["release"][0], model)
-        lines += [
-            "* receiver leakage: current into the pin (positive leaves the node)",
-            f"I_leak {names[circuit.receiver_node]} 0 PWL(0 {_fmt(leak_p)} {_fmt(leak_switch)} "
-            f"{_fmt(leak_p)} {_fmt(leak_switch + _EDGE_TIME)} {_fmt(leak_r)})",
-        ]
-    if capped:
+        lines += _leak_lines(model, names[circuit.receiver_node], rows, timing)
+    if timing.capped:
         lines.append("* time constants far apart: max step capped at t_stop/250000, above the fastest tau/50")
-    lines.append(f".tran {_fmt(t_max)} {_fmt(t_stop)} 0 {_fmt(t_max)}")
-    node = f"v({names[circuit.receiver_node]})"
-    for e, name in zip(EDGE_STATES, MEASUREMENTS):
-        if e not in edges:
-            continue
-        es = setups[e]
-        vth = rows[e][1]
-        ctl_dir = "RISE" if e == "press" else "FALL"
-        targ_dir = "RISE" if es.direction > 0 else "FALL"
-        at = press_at if e == "press" else release_at
-        lines.append(f"* {name}: {es.edge} edge, {'rising' if es.direction > 0 else 'falling'} through {_fmt(vth)} V")
-        lines.append(f".meas tran {name} TRIG v(ctl) VAL=0.5 {ctl_dir}=1 TD={_fmt(at * 0.999)} "
-                     f"TARG {node} VAL={_fmt(vth)} {targ_dir}=1 TD={_fmt(at)}")
+    lines.append(f".tran {deck_number(timing.t_max)} {deck_number(timing.t_stop)} 0 {deck_number(timing.t_max)}")
+    lines += _measure_lines(f"v({names[circuit.receiver_node]})", setups, rows, edges, timing)
     lines.append(".end")
     return "\n".join(lines) + "\n"
 
 
-def _leak(row, model) -> float:
-    return float(row[model.leak_col])
+def _timing(model: LinearModel, setups: Mapping[Edge, EdgeSetup], rows: Mapping[Edge, tuple[np.ndarray, float]],
+            edges: Sequence[str], press_at: float, hold: float | None) -> _Timing:
+    """Settling from the edges' own time constants; the step from the measured edges'."""
+    edge_taus: dict[str, list[float]] = {}
+    for e, es in setups.items():
+        row, vth = rows[e]
+        found = solve_edge(model, es.from_state, es.to_state, row, vth, es.direction, full=True).time_constants
+        edge_taus[e] = [t for t in found if math.isfinite(t) and t > 0]
+    taus = edge_taus[Edge.PRESS] + edge_taus[Edge.RELEASE]
+    measured_taus = [t for e in edges for t in edge_taus[e]]
+    settle = _SETTLE_TAUS * max(taus) if taus else 1e-6
+    hold = hold if hold is not None else 2.0 * settle
+    release_at = press_at + hold
+    leak_switch = press_at + 0.5 * hold  # pressed state re-settles with the release edge's leakage
+    if Edge.RELEASE in edges:
+        t_stop = release_at + settle
+    else:  # the released state is the DC operating point: only the press edge must settle
+        t_stop = press_at + _SETTLE_TAUS * max(edge_taus[Edge.PRESS] or [1e-6])
+    # Max step tau/50 keeps trapezoidal integration within 0.01 % (spice-dialect.md);
+    # with time constants far apart the cap on the step count wins (said in the deck).
+    t_max = min(measured_taus) / 50.0 if measured_taus else t_stop / 1000.0
+    capped = t_stop / t_max > _MAX_POINTS
+    t_max = max(t_max, t_stop / _MAX_POINTS)
+    return _Timing(press_at, release_at, leak_switch, t_stop, t_max, capped)
+
+
+def _element_lines(circuit: StageCircuit, names: Mapping[str, str], value: Mapping[str, float]) -> list[str]:
+    """Rails, resistors, capacitors, diodes and throws at the corner's values."""
+    lines = []
+    for rail in circuit.rails:
+        if rail.net != "0":
+            lines.append(f"V_{_id(rail.net)} {names[rail.net]} 0 DC {deck_number(value[rail_param(rail.net)])}")
+    for r in circuit.resistors:
+        lines.append(f"R_{_id(r.designator)} {names[r.a]} {names[r.b]} {deck_number(value[r.designator])}")
+    for c in circuit.capacitors:
+        lines.append(f"C_{_id(c.designator)} {names[c.a]} {names[c.b]} {deck_number(value[c.designator])}")
+    for j, d in enumerate(circuit.diodes):
+        mid = f"dmid{j}"
+        lines += [
+            f"* {d.designator}: Vf in series with a switch that conducts while its own voltage is positive",
+            f"VD_{_id(d.designator)} {names[d.anode]} {mid} DC {deck_number(d.forward_v)}",
+            f"SD_{_id(d.designator)} {mid} {names[d.cathode]} {mid} {names[d.cathode]} dmod{j}",
+            f".model dmod{j} SW(VT=0 VH=1e-6 RON={deck_number(d.on_ohms)} ROFF=1e12)",
+        ]
+    for j, t in enumerate(circuit.throws):
+        ctl = "ctl" if t.closed_when == "pressed" else "ctlb"
+        lines += [f"S_T{j} {names[t.a]} {names[t.b]} {ctl} 0 tmod{j}",
+                  f".model tmod{j} SW(VT=0.5 VH=0 RON={deck_number(t.closed_ohms)} ROFF=1e12)"]
+    return lines
+
+
+def _control_lines(timing: _Timing) -> list[str]:
+    p0, p1 = deck_number(timing.press_at), deck_number(timing.press_at + _EDGE_TIME)
+    r0, r1 = deck_number(timing.release_at), deck_number(timing.release_at + _EDGE_TIME)
+    return [
+        "* ctl is 1 V while pressed; ctlb is its complement (for throws closed while released)",
+        f"Vctl ctl 0 PWL(0 0 {p0} 0 {p1} 1 {r0} 1 {r1} 0)",
+        f"Vctlb ctlb 0 PWL(0 1 {p0} 1 {p1} 0 {r0} 0 {r1} 1)",
+    ]
+
+
+def _leak_lines(model: LinearModel, node: str, rows: Mapping[Edge, tuple[np.ndarray, float]],
+                timing: _Timing) -> list[str]:
+    """The receiver's leakage: the press edge's, then the release edge's from mid-hold."""
+    leak_p = float(rows[Edge.PRESS][0][model.leak_col])
+    leak_r = float(rows[Edge.RELEASE][0][model.leak_col])
+    switch = timing.leak_switch
+    return [
+        "* receiver leakage: current into the pin (positive leaves the node)",
+        f"I_leak {node} 0 PWL(0 {deck_number(leak_p)} {deck_number(switch)} "
+        f"{deck_number(leak_p)} {deck_number(switch + _EDGE_TIME)} {deck_number(leak_r)})",
+    ]
+
+
+def _measure_lines(node: str, setups: Mapping[Edge, EdgeSetup], rows: Mapping[Edge, tuple[np.ndarray, float]],
+                   edges: Sequence[str], timing: _Timing) -> list[str]:
+    lines = []
+    for e, name in zip(EDGE_STATES, MEASUREMENTS, strict=True):
+        if e not in edges:
+            continue
+        es = setups[e]
+        vth = rows[e][1]
+        ctl_dir = "RISE" if e == Edge.PRESS else "FALL"
+        targ_dir = "RISE" if es.direction > 0 else "FALL"
+        at = timing.press_at if e == Edge.PRESS else timing.release_at
+        way = "rising" if es.direction > 0 else "falling"
+        lines.append(f"* {name}: {es.edge} edge, {way} through {deck_number(vth)} V")
+        lines.append(f".meas tran {name} TRIG v(ctl) VAL=0.5 {ctl_dir}=1 TD={deck_number(at * 0.999)} "
+                     f"TARG {node} VAL={deck_number(vth)} {targ_dir}=1 TD={deck_number(at)}")
+    return lines
 
 
 def _id(name: str) -> str:
@@ -143,4 +189,4 @@ def _id(name: str) -> str:
     return "".join(ch if ch.isalnum() else "_" for ch in name)
 
 
-__all__ = ["MEASUREMENTS", "stage_deck"]
+__all__ = ["MEASUREMENTS", "deck_number", "stage_deck"]

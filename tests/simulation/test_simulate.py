@@ -18,7 +18,8 @@ from rich.console import Console
 
 from drc.simulation.chatter import INTERVAL_S, BounceTrain, ChatterTrial, draw_trains
 from drc.errors import UsageError
-from drc.simulation.injection import replay_trial, render_simulation_text, simulate_stage, simulation_json
+from drc.report.simulation_view import render_simulation_text, simulation_json
+from drc.simulation.injection import replay_trial, simulate_stage
 from drc.board.stage import Capacitor, RailSource, Resistor, Throw
 from tests.analysis.builders import receiver_electrical, stage
 from tests.simulation.demo import demo_result

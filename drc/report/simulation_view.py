@@ -1,0 +1,78 @@
+"""The words and the JSON of `drc simulate`: output edges per actuation, and a verdict.
+
+`drc.simulation.injection` counts the receiver's output edges over many
+bounce trials; this module only presents a `SimulationResult`, as a table per
+actuation on a rich Console or as plain JSON data. Formats; never computes.
+"""
+
+from __future__ import annotations
+
+from typing import Any, Literal
+
+from rich import box
+from rich.console import Console
+from rich.table import Table
+from rich.text import Text
+
+from drc.simulation.injection import SimulationResult
+from drc.units import format_quantity
+
+# Edges-per-actuation ranges of the text histogram; None: no upper end.
+_BINS = ((0, 0), (1, 1), (2, 2), (3, 5), (6, 10), (11, 30), (31, 100), (101, None))
+_COLUMNS: tuple[tuple[str, Literal["left", "right"]], ...] = (
+    ("actuation", "left"), ("clean", "right"), ("missed", "right"),
+    ("most edges", "right"), ("mean", "right"), ("edges per actuation", "left"))
+
+
+def simulation_json(result: SimulationResult) -> dict[str, Any]:
+    """The result as plain JSON data (trials and clean trials per edge and in total)."""
+    return {
+        "stage": result.stage, "kind": result.kind, "contact_class": result.contact_class,
+        "trials": result.trials, "seed": result.seed, "bounce_s": result.bounce_s,
+        "receiver_model": result.receiver_model, "upper_v": result.upper_v, "lower_v": result.lower_v,
+        "clean_trials": result.clean_trials,
+        "edges": {e: {"trials": s.trials, "clean_trials": s.clean_trials, "missed_trials": s.missed_trials,
+                      "max_edges": s.max_edges, "mean_edges": round(s.mean_edges, 6),
+                      "histogram": {str(k): v for k, v in sorted(s.histogram.items())}}
+                  for e, s in result.edges.items()},
+        "worst_trial": {"index": result.worst_trial, "edges": dict(result.worst_edges)},
+        "notes": list(result.notes),
+    }
+
+
+def histogram_bins(histogram: dict[int, int]) -> list[tuple[str, int]]:
+    """Edges-per-actuation counts folded into a few readable ranges ("3-5": 17, ">100": 2)."""
+    out = []
+    for low, high in _BINS:
+        count = sum(n for edges, n in histogram.items()
+                    if edges >= low and (high is None or edges <= high))
+        if count:
+            label = str(low) if low == high else (f">{low - 1}" if high is None else f"{low}-{high}")
+            out.append((label, count))
+    return out
+
+
+def render_simulation_text(result: SimulationResult, console: Console) -> None:
+    """Print the result to a rich Console: a table per actuation and a verdict."""
+    model = (f"Schmitt VT+ {format_quantity(result.upper_v, 'V')}, VT- {format_quantity(result.lower_v, 'V')}"
+             if result.receiver_model == "schmitt" else
+             f"plain input, switching at {format_quantity(result.upper_v, 'V')}")
+    console.print(Text(f"{result.stage} ({result.kind}, {result.contact_class})", style="bold"))
+    console.print(f"{result.trials} trials, seed {result.seed}, bursts up to "
+                  f"{format_quantity(result.bounce_s, 's')}; {model}; nominal corner")
+    table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
+    for name, justify in _COLUMNS:
+        table.add_column(name, justify=justify)
+    for edge, s in result.edges.items():
+        hist = "  ".join(f"{k}:{v}" for k, v in histogram_bins(s.histogram))
+        style = "green" if s.clean_trials == s.trials else "bold red"
+        table.add_row(edge, Text(f"{s.clean_trials}/{s.trials}", style=style), str(s.missed_trials),
+                      str(s.max_edges), f"{s.mean_edges:.2f}", hist)
+    console.print(table)
+    worst = ", ".join(f"{e} {n}" for e, n in result.worst_edges.items())
+    verdict_ok = result.clean_trials == result.trials
+    console.print(Text(f"clean trials (one edge per press and per release): {result.clean_trials}/{result.trials}",
+                       style="green" if verdict_ok else "bold red"))
+    console.print(f"worst trial: #{result.worst_trial} ({worst} output edges)")
+    for note in result.notes:
+        console.print(Text(f"note: {note}", style="dim"))
