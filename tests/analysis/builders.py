@@ -6,10 +6,10 @@ source of what it asserts.
 
 from __future__ import annotations
 
-from drc.board.board import Contact, Receiver
 from drc.analysis.receiver import ReceiverElectrical
-from drc.errors import SourceLocation
+from drc.board.board import Contact, Receiver
 from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit, Throw
+from drc.errors import SourceLocation
 
 _LOC = SourceLocation("test.cir", 1, 1)
 
@@ -27,8 +27,11 @@ def receiver_electrical(*, vcc: float = 5.0, schmitt: bool = True,
         transition_limit_s_per_v=None if schmitt else 1e-6)
 
 
-def stage(resistors=(), capacitors=(), diodes=(), rails=(RailSource("vcc", 5.0, 0.05),),
-          throws=(Throw("sw", "0", "pressed", 0.1),), receiver_node: str = "rx",
+_RAILS = (RailSource("vcc", 5.0, 0.05),)
+_THROWS = (Throw("sw", "0", "pressed", 0.1),)
+
+
+def stage(resistors=(), capacitors=(), diodes=(), rails=_RAILS, throws=_THROWS, receiver_node: str = "rx",
           kind: str = "rc-schmitt") -> Stage:
     circuit = StageCircuit(tuple(resistors), tuple(capacitors), tuple(diodes), tuple(rails),
                            tuple(throws), receiver_node)

@@ -12,12 +12,11 @@ import math
 import numpy as np
 import pytest
 
-from drc.analysis.stage_analysis import analyse_stage, edge_solution
-from drc.analysis.physics.mna import dc_solve
 from drc.analysis.physics.compiled import compile_circuit
+from drc.analysis.physics.mna import dc_solve
 from drc.analysis.physics.transient import rc_time_to_threshold, rc_voltage
+from drc.analysis.stage_analysis import analyse_stage, edge_solution
 from drc.board.stage import Capacitor, RailSource, Resistor, Throw
-
 from tests.analysis.builders import pullup_c_at_pin, receiver_electrical, stage
 
 # LIEC ch. 16: 15 V, 10 kΩ, 100 µF (tau = 1 s), from 0 V.

@@ -11,11 +11,10 @@ Sources:
 import numpy as np
 import pytest
 
-from drc.analysis.stage_analysis import analyse_stage, edge_setup
 from drc.analysis.physics.compiled import compile_circuit
 from drc.analysis.physics.transient import edge_batch
+from drc.analysis.stage_analysis import analyse_stage, edge_setup
 from drc.board.stage import Capacitor, Resistor
-
 from tests.analysis.builders import pullup_c_at_pin, pullup_series_rc, receiver_electrical, stage
 
 RX_REF = receiver_electrical(rising=(1.7, 2.4, 3.15), leak_high=(0.0, 1e-6))
@@ -79,7 +78,8 @@ def test_series_rc_monte_carlo_inside_corners(edge):
 
 def test_two_section_monte_carlo_inside_corners():
     # Property as above on the multi-capacitor (modal) path; fewer samples as each is a solve.
-    st = stage(resistors=(Resistor("R1", "vcc", "sw", 10e3, role="pull"), Resistor("R2", "sw", "a", 10e3, role="series"),
+    st = stage(resistors=(Resistor("R1", "vcc", "sw", 10e3, role="pull"),
+                          Resistor("R2", "sw", "a", 10e3, role="series"),
                           Resistor("R3", "a", "rx", 22e3, role="series")),
                capacitors=(Capacitor("C1", "a", "0", 100e-9, 0.1, 0.1), Capacitor("C2", "rx", "0", 47e-9, 0.1, 0.1)))
     rx = receiver_electrical()

@@ -15,7 +15,6 @@ from drc.analysis.physics.mna import dc_solve
 from drc.analysis.physics.transient import edge_batch, solve_edge
 from drc.analysis.stage_analysis import analyse_stage, edge_solution, edge_waveform
 from drc.board.stage import Capacitor, Diode, Resistor, Throw
-
 from tests.analysis.builders import pullup_c_at_pin, pullup_series_rc, receiver_electrical, stage
 
 RX = receiver_electrical()
@@ -78,7 +77,8 @@ def test_dc_thevenin_and_branch_currents():
     st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3), Resistor("R2", "rx", "0", 20e3)),
                throws=(Throw("rx", "x", "pressed", 0.1),))
     model = compile_circuit(st.circuit)
-    P = model.nominal.copy(); P[model.leak_col] = 1e-6
+    P = model.nominal.copy()
+    P[model.leak_col] = 1e-6
     dc = dc_solve(model, "released", P[None, :])
     assert dc.thevenin_v[0] == pytest.approx(5 * 20 / 30, rel=1e-12)
     assert dc.thevenin_ohms[0] == pytest.approx(1 / (1 / 10e3 + 1 / 20e3), rel=1e-12)
@@ -122,7 +122,8 @@ def test_modal_path_agrees_with_closed_form_batch():
 def test_diode_edge_is_asymmetric_and_event_driven():
     # Diode across the series resistor: the press discharges C through the diode
     # (fast), the release charges it through R1 + R2 (slow, diode blocking).
-    st = stage(resistors=(Resistor("R1", "vcc", "sw", 10e3, role="pull"), Resistor("R2", "sw", "rx", 47e3, role="series")),
+    st = stage(resistors=(Resistor("R1", "vcc", "sw", 10e3, role="pull"),
+                          Resistor("R2", "sw", "rx", 47e3, role="series")),
                capacitors=(Capacitor("C1", "rx", "0", 100e-9),), diodes=(Diode("D1", "rx", "sw", 0.6, 10.0),))
     res = analyse_stage(st, RX)
     assert res.edges["press"].nominal_s < res.edges["release"].nominal_s / 100
@@ -140,7 +141,8 @@ def test_waveform_is_the_analysis_solution():
     st = pullup_series_rc()
     res = analyse_stage(st, RX)
     for edge in ("press", "release"):
-        for corner, key, vkey in (("nominal", "nominal_s", "threshold_v"), ("slowest", "slowest_s", "threshold_slowest_v"),
+        for corner, key, vkey in (("nominal", "nominal_s", "threshold_v"),
+                                  ("slowest", "slowest_s", "threshold_slowest_v"),
                                   ("fastest", "fastest_s", "threshold_fastest_v")):
             t, v = edge_waveform(st, RX, edge, corner)
             e = res.edges[edge]

@@ -18,8 +18,8 @@ from pathlib import Path
 import pytest
 
 from drc.caching import clear_caches
-from drc.design import fixes
 from drc.checks import run_stage_rules
+from drc.design import fixes
 from drc.pipeline import CheckOptions, check_board_in_memory, effective_limits
 
 ROOT = Path(__file__).resolve().parents[2]

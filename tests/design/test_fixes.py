@@ -7,7 +7,6 @@ import pytest
 
 from drc.checks import run_stage_rules
 from drc.design.fixes import MAX_ANALYSES, propose_fixes, search, with_values
-
 from tests.checks.builders import LIMITS, analysed, hc, rc_stage
 
 SERIES = {"E12": oracle.E12, "E24": oracle.E24, "E96": oracle.E96}

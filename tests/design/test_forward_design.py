@@ -7,7 +7,6 @@ import pytest
 
 from drc.checks import run_stage_rules
 from drc.design.forward import DesignRequest, design_stage
-
 from tests.checks.builders import LIMITS, analysed, hc
 
 

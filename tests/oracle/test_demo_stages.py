@@ -43,7 +43,7 @@ STAGES = list(timed_stages())
 def compare(result, timed):
     """One deck per edge, so each edge's time step follows its own time constants."""
     out = {}
-    for edge, name in zip(("press", "release"), MEASUREMENTS):
+    for edge, name in zip(("press", "release"), MEASUREMENTS, strict=True):
         if edge in timed:
             deck = stage_deck(result.stage, result.receiver_electrical, edges=(edge,))
             out[edge] = (result.edges[edge].nominal_s, measure(deck, [name])[name])

@@ -8,8 +8,8 @@ DESIGN.md section 10 sets the agreement: within 0.5 % on both edges.
 import pytest
 
 from drc.analysis.stage_analysis import analyse_stage
-from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
 from drc.board.stage import Capacitor, Diode, RailSource, Resistor, Throw
+from drc.simulation.spice_deck import MEASUREMENTS, stage_deck
 from tests.analysis.builders import pullup_c_at_pin, pullup_series_rc, receiver_electrical, stage
 from tests.support.ngspice import measure
 
@@ -59,7 +59,7 @@ FIXTURES = list(_fixtures())
 def test_nominal_times_agree_with_ngspice(name, st, rx):
     res = analyse_stage(st, rx)
     spice = measure(stage_deck(st, rx), list(MEASUREMENTS))  # fails if a .meas printed nothing
-    for edge, meas in zip(("press", "release"), MEASUREMENTS):
+    for edge, meas in zip(("press", "release"), MEASUREMENTS, strict=True):
         ours = res.edges[edge].nominal_s
         assert ours is not None and ours > 0
         # DESIGN.md §10: agree with ngspice within 0.5 %.

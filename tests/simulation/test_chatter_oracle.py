@@ -35,7 +35,7 @@ _ROW = re.compile(r"^\d+\s+(\S+)\s+(\S+)\s*$", re.MULTILINE)
 
 
 def _count_edges(times, volts, start, stop, upper, lower, vcc):
-    points = [(t, v) for t, v in zip(times, volts) if start <= t <= stop]
+    points = [(t, v) for t, v in zip(times, volts, strict=True) if start <= t <= stop]
     v0 = points[0][1]
     high = v0 >= upper if upper == lower else (True if v0 >= upper else False if v0 < lower else v0 > vcc / 2)
     edges = 0
@@ -62,7 +62,7 @@ def test_chatter_trial_agrees_with_ngspice(board, contact, seed):
     missing = [n for n in names if n not in found]
     assert not missing, (missing[:5], proc.stdout[-2000:], proc.stderr[-2000:])
     worst = []
-    for name, t, ours in zip(names, replay.instants, replay.v_before):
+    for name, t, ours in zip(names, replay.instants, replay.v_before, strict=False):
         theirs = found[name]
         tol = max(5e-3 * abs(ours), 3e-3)
         worst.append(abs(theirs - ours) / tol)
@@ -71,7 +71,7 @@ def test_chatter_trial_agrees_with_ngspice(board, contact, seed):
     # The same trial, counted on ngspice's waveform with the same receiver model.
     rows = [(float(a), float(b)) for a, b in _ROW.findall(proc.stdout)]
     assert len(rows) > 100, proc.stdout[-2000:]
-    times, volts = zip(*rows)
+    times, volts = zip(*rows, strict=True)
     for edge, start, stop in (("press", 0.0, replay.leak_switch_s), ("release", replay.leak_switch_s, replay.t_stop)):
         spice_edges = _count_edges(times, volts, start, stop, replay.upper_v, replay.lower_v, rx.vcc)
         assert spice_edges == replay.edges[edge], (edge, spice_edges, replay.edges)

@@ -16,11 +16,11 @@ import numpy as np
 import pytest
 from rich.console import Console
 
-from drc.simulation.chatter import INTERVAL_S, BounceTrain, ChatterTrial, draw_trains
+from drc.board.stage import Capacitor, RailSource, Resistor, Throw
 from drc.errors import UsageError
 from drc.report.simulation_view import render_simulation_text, simulation_json
+from drc.simulation.chatter import INTERVAL_S, BounceTrain, ChatterTrial, draw_trains
 from drc.simulation.injection import replay_trial, simulate_stage
-from drc.board.stage import Capacitor, RailSource, Resistor, Throw
 from tests.analysis.builders import receiver_electrical, stage
 from tests.simulation.demo import demo_result
 
