@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 from enum import StrEnum
 
 from drc.analysis.receiver import ReceiverElectrical
-from drc.board.stage import Stage
+from drc.board.stage import ActuatorState, ResistorRole, Stage
 
 
 class Edge(StrEnum):
@@ -21,14 +21,16 @@ class Edge(StrEnum):
     RELEASE = "release"  # pressed -> released
 
 
-ACTUATOR_STATES = ("released", "pressed")
+ACTUATOR_STATES = (ActuatorState.RELEASED, ActuatorState.PRESSED)  # the order levels are reported in
 EDGES: tuple[Edge, ...] = tuple(Edge)
 # Each edge as (state before, state after).
-EDGE_STATES: dict[Edge, tuple[str, str]] = {Edge.PRESS: ("released", "pressed"),
-                                             Edge.RELEASE: ("pressed", "released")}
-OTHER_STATE = {"released": "pressed", "pressed": "released"}
+EDGE_STATES: dict[Edge, tuple[ActuatorState, ActuatorState]] = {
+    Edge.PRESS: (ActuatorState.RELEASED, ActuatorState.PRESSED),
+    Edge.RELEASE: (ActuatorState.PRESSED, ActuatorState.RELEASED),
+}
+OTHER_STATE = {ActuatorState.RELEASED: ActuatorState.PRESSED, ActuatorState.PRESSED: ActuatorState.RELEASED}
 # The resistors whose current `StageResult.pull_current_a` reports.
-PULL_ROLES = ("pull", "internal-pull")
+PULL_ROLES = (ResistorRole.PULL, ResistorRole.INTERNAL_PULL)
 
 
 def time_or_none(x: float | None) -> float | None:
@@ -53,7 +55,7 @@ class LevelResult:
     worst_v - required_v for high, required_v - worst_v for low.
     """
 
-    state: str
+    state: ActuatorState
     logic: str
     nominal_v: float | None
     worst_v: float | None

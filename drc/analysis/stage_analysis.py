@@ -49,7 +49,7 @@ from drc.analysis.results import (
     slope_or_none,
     time_or_none,
 )
-from drc.board.stage import Stage
+from drc.board.stage import ActuatorState, Stage
 
 # A corner: "nominal", "fastest", "slowest", or {parameter name: value} (an EdgeResult's corner).
 Corner = str | Mapping[str, float]
@@ -62,8 +62,8 @@ class EdgeSetup:
     """What defines one edge's question: states, direction, thresholds, ranges."""
 
     edge: Edge
-    from_state: str
-    to_state: str
+    from_state: ActuatorState
+    to_state: ActuatorState
     direction: int  # +1 rising, -1 falling
     threshold: tuple[float, float, float]  # (min, typ, max)
     inner_v: float  # nearest the start: fastest
@@ -156,7 +156,7 @@ def _closed_throws(model: LinearModel, state: str) -> list[int]:
     return [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
 
 
-def _level(model: LinearModel, state: str, rx: ReceiverElectrical) -> tuple[LevelResult, dict[str, Any]]:
+def _level(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical) -> tuple[LevelResult, dict[str, Any]]:
     # The level decides which leakage range applies: solve with both midpoints at once.
     boxes = {lv: make_box(model.nominal, model.lo, model.hi, model.leak_col, _level_range(rx, lv))
              for lv in ("high", "low")}
@@ -228,7 +228,7 @@ def _pull_current(model: LinearModel, dc: DcBatch) -> np.ndarray:
     return np.max(np.abs(dc.i_res[:, cols]), axis=1)
 
 
-def _contact_current(model: LinearModel, state: str, rx: ReceiverElectrical,
+def _contact_current(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical,
                      logic: str | None = None) -> float | None:
     """Smallest steady current through a throw closed in `state`, over corners."""
     closed = _closed_throws(model, state)

@@ -40,7 +40,7 @@ from drc.analysis.results import (
     slope_or_none,
     time_or_none,
 )
-from drc.board.stage import Stage, StageCircuit
+from drc.board.stage import ActuatorState, Stage, StageCircuit
 from drc.caching import Memo
 
 # One compiled model per circuit structure; shapes are few, the bound is for long-lived processes.
@@ -150,7 +150,7 @@ def _nan_low(x: np.ndarray) -> np.ndarray:
     return np.where(np.isnan(x), -np.inf, x)
 
 
-def _levels(g: _Group, state: str, rx: dict) -> dict:
+def _levels(g: _Group, state: ActuatorState, rx: dict) -> dict:
     """Steady levels of one actuator state for every stage of the group."""
     model, m, L = g.model, g.m, g.model.leak_col
     nom_h, nom_l = g.nom.copy(), g.nom.copy()
@@ -351,7 +351,7 @@ _Shared = tuple[dict[str, LevelResult], float | None, float | None, float | None
 class _RowFigures:
     """The per-stage figures of each distinct row, as plain Python values, built once per row."""
 
-    def __init__(self, lv: dict[str, dict], surge: np.ndarray | None) -> None:
+    def __init__(self, lv: dict[ActuatorState, dict], surge: np.ndarray | None) -> None:
         self.lv = lv
         # Plain Python values per distinct row, once (tolist): same figures, no numpy scalars.
         self.plain = {s: _plain_levels(lv[s]) for s in ACTUATOR_STATES}
@@ -367,7 +367,7 @@ class _RowFigures:
 
     def _build(self, j: int) -> _Shared:
         plain = self.plain
-        levels = {s: _level_result(s, plain[s], j) for s in ACTUATOR_STATES}
+        levels: dict[str, LevelResult] = {s: _level_result(s, plain[s], j) for s in ACTUATOR_STATES}
         defined = [d for d in (plain[s] for s in self.defined) if d is not None]
         max_in = max((d["max_v"][j] for d in defined), default=None)
         pulls = [d["pull_a"][j] for d in defined if math.isfinite(d["pull_a"][j])]
@@ -377,7 +377,7 @@ class _RowFigures:
                 self.surge[j] if self.surge is not None else None, max_in)
 
 
-def _level_result(state: str, d: dict | None, j: int) -> LevelResult:
+def _level_result(state: ActuatorState, d: dict | None, j: int) -> LevelResult:
     if d is None:
         return LevelResult(state, "undefined", None, None, None, None, None, None)
     return LevelResult(state, "high" if d["high"][j] else "low", d["nominal_v"][j], d["worst_v"][j],
