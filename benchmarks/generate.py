@@ -36,7 +36,7 @@ def _value(text: str, safe: bool) -> str:
         return text
     for index, char in enumerate(text):
         if char.isalpha():
-            head, letter, tail = text[:index], text[index:], ""
+            head, letter = text[:index], text[index:]
             digits = "".join(c for c in letter if c.isdigit())
             letters = "".join(c for c in letter if c.isalpha())
             if digits:

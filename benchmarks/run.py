@@ -42,7 +42,7 @@ import subprocess
 import sys
 import tempfile
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
@@ -189,11 +189,11 @@ def stage_set(count: int, seed: int = 5):
     """`count` stages of the generated board's kinds, each with its own random values."""
     from drc.analysis.receiver import receiver_electrical
     from drc.board.classify import classify
+    from drc.board.recognise import stages_for_board
     from drc.config.settings import Config
     from drc.design.fixes import with_values
-    from drc.pipeline import library
     from drc.netlist.reader import read_netlist_text
-    from drc.board.recognise import stages_for_board
+    from drc.pipeline import library
     lib = library()
     text = generate(2000, seed, contacts=40)
     netlist = read_netlist_text(text, "<bench>", keep_as_part=lib.is_known_subcircuit)

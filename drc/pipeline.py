@@ -171,7 +171,7 @@ def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[F
     """Upgrade the plain-words fix of each stage finding to concrete standard values.
 
     The search is bounded per stage and per board by a count of analyses
-    (drc/fixes.py), so the result is the same on every machine.
+    (drc/design/fixes.py), so the result is the same on every machine.
     """
     from drc.design.fixes import propose_board_fixes
     fixed = propose_board_fixes(results, findings, limits, series)
@@ -183,8 +183,8 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     and waivers applied."""
     from drc.board.classify import classify
     from drc.checks import run_rules
+    from drc.config.annotations import read_annotations
     from drc.gate.decision import judge_board
-    from drc.netlist.annotations import read_annotations
     lib = library()
     annotations = read_annotations(netlist.files) if netlist.files else None
     if annotations and annotations.contacts:

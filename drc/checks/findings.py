@@ -13,18 +13,9 @@ from dataclasses import dataclass
 from enum import StrEnum
 
 from drc.errors import SourceLocation
+from drc.severity import SEVERITIES, SEVERITY_RANK, Severity
 
-
-class Severity(StrEnum):
-    """How serious a finding is; the order note < warning < error is `rank`."""
-
-    NOTE = "note"
-    WARNING = "warning"
-    ERROR = "error"
-
-    @property
-    def rank(self) -> int:
-        return SEVERITY_RANK[self]
+__all__ = ["SEVERITIES", "SEVERITY_RANK", "Figure", "Finding", "Severity", "Suppression"]
 
 
 class Suppression(StrEnum):
@@ -33,11 +24,6 @@ class Suppression(StrEnum):
     WAIVER = "waiver"  # a [[waivers]] entry of the config, with an expiry date
     ANNOTATION = "annotation"  # a `*@drc waive` line in the netlist
     BASELINE = "baseline"  # an entry of the baseline file
-
-
-SEVERITIES: tuple[Severity, ...] = (Severity.NOTE, Severity.WARNING, Severity.ERROR)
-# Plain strings look up the same ranks: a StrEnum member hashes and compares as its value.
-SEVERITY_RANK: dict[str, int] = {name: rank for rank, name in enumerate(SEVERITIES)}
 
 
 @dataclass(frozen=True, slots=True)

@@ -85,7 +85,6 @@ from datetime import date, datetime
 from pathlib import Path
 from typing import Any, cast
 
-from drc.checks.findings import SEVERITIES
 from drc.config.settings import (
     Config,
     ContactConfig,
@@ -99,6 +98,7 @@ from drc.config.settings import (
 )
 from drc.errors import ConfigError, SourceLocation, suggest, unknown_name_message
 from drc.netlist.lines import read_regular
+from drc.severity import SEVERITIES
 from drc.units import parse_any_quantity, parse_quantity
 
 CONFIG_NAME = "drc.toml"

@@ -18,7 +18,7 @@ line and every report agree:
   errors, is the caller's: it catches DrcError).
 
 Reading the files behind these decisions stays with the files: waivers and
-severities in drc.config.loading, annotations in drc.netlist.annotations,
+severities in drc.config.loading, annotations in drc.config.annotations,
 the baseline file in drc.gate.baseline. Matching is by designators and
 finding identity, never by line numbers, so decisions survive edits that
 shift lines. A waiver that has expired (or whose date could not be read)

@@ -55,10 +55,10 @@ def test_batched_analysis_equals_one_by_one(board):
     from drc.analysis.receiver import receiver_electrical
     from drc.analysis.stage_analysis import analyse_stage, analyse_stages
     from drc.board.classify import classify
-    from drc.config.settings import Config
-    from drc.pipeline import library
-    from drc.netlist.reader import read_netlist
     from drc.board.recognise import stages_for_board
+    from drc.config.settings import Config
+    from drc.netlist.reader import read_netlist
+    from drc.pipeline import library
     lib = library()
     config = Config()
     netlist = read_netlist(str(board), keep_as_part=lib.is_known_subcircuit)

@@ -22,9 +22,9 @@ import codecs
 import os
 import stat
 import sys
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
 
 HEADER = "hostile case\n"
 # A minimal valid stage: a tactile contact pulling a 74HC14 input low through

@@ -13,17 +13,15 @@ counts are kept modest so the suite stays fast.
 from __future__ import annotations
 
 import json
-from datetime import date
-from pathlib import Path
 
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
-from drc.netlist.annotations import parse_annotations
+from drc.config.annotations import parse_annotations
+from drc.errors import DrcError
 from drc.gate.baseline import load_baseline
 from drc.gate.decision import apply_baseline
-from drc.errors import DrcError
 from drc.pipeline import CheckOptions, check_board_in_memory, load_config_file
-from drc.netlist.reader import ReaderOptions
 
 SETTINGS = settings(max_examples=120, deadline=None, derandomize=True,
                     suppress_health_check=[HealthCheck.function_scoped_fixture,

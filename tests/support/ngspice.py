@@ -50,5 +50,6 @@ def measure(deck: str, names: list[str]) -> dict[str, float]:
     found = measurements(proc.stdout + "\n" + proc.stderr)
     missing = [n for n in names if n.lower() not in found]
     if missing:
-        raise AssertionError(f"ngspice printed no value for {missing}:\n{proc.stdout[-3000:]}\n{proc.stderr[-2000:]}\n--- deck ---\n{deck}")
+        raise AssertionError(f"ngspice printed no value for {missing}:\n{proc.stdout[-3000:]}\n"
+                             f"{proc.stderr[-2000:]}\n--- deck ---\n{deck}")
     return {n: found[n.lower()] for n in names}
