@@ -43,16 +43,16 @@ class CheckOptions:
     """What a run asks for, beyond what each board's config says.
 
     config_path: an explicit config file (wins over discovery); None = discover.
-    default_bounce_s: the `--bounce` option. select / ignore: rule ids from
-    the command line (added to the config's). propose_fixes: search
+    default_bounce_s: the `--bounce` option. only_rules / skip_rules: rule ids
+    from the command line (added to the config's). propose_fixes: search
     standard-value fixes for failing stages. reader_limits: ReaderOptions
     overrides as (name, value) pairs. today: the date waivers expire against.
     """
 
     config_path: str | None = None
     default_bounce_s: float | None = None
-    select: tuple[str, ...] = ()
-    ignore: tuple[str, ...] = ()
+    only_rules: tuple[str, ...] = ()
+    skip_rules: tuple[str, ...] = ()
     propose_fixes: bool = True
     eseries: str | None = None
     include_folders: tuple[str, ...] = ()
@@ -162,9 +162,9 @@ def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
     from drc.gate.decision import resolve_selection
     ids = rule_ids()
     # Command-line ids are usage errors; the config's were checked when it loaded.
-    resolve_selection(ids, options.select, options.ignore, where="command line", error=UsageError)
-    return resolve_selection(ids, tuple(config.select) + tuple(options.select),
-                             tuple(config.ignore) + tuple(options.ignore))
+    resolve_selection(ids, options.only_rules, options.skip_rules, where="command line", error=UsageError)
+    return resolve_selection(ids, tuple(config.only_rules) + tuple(options.only_rules),
+                             tuple(config.skip_rules) + tuple(options.skip_rules))
 
 
 def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[Finding]:

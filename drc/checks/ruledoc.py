@@ -1,6 +1,6 @@
 """The self-documentation every rule carries.
 
-One text serves `drc rules`, `drc explain ID`, the SARIF `driver.rules[]`
+One text serves `drc rules`, `drc handbook ID`, the SARIF `driver.rules[]`
 and the generated docs; the examples are netlists that the test-suite runs
 (the failing one must fire the rule, the passing one must not).
 """

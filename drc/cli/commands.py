@@ -106,7 +106,7 @@ def _check_options(args):
     return CheckOptions(
         config_path=args.config,
         default_bounce_s=_quantity(args.bounce, "time", "--bounce") if args.bounce else None,
-        select=_ids(args.select), ignore=_ids(args.ignore),
+        only_rules=_ids(args.only_rules), skip_rules=_ids(args.skip_rules),
         propose_fixes=not args.no_fixes, eseries=args.eseries.upper() if args.eseries else None,
         include_folders=tuple(args.include_folder), reader_limits=_reader_limits(args),
         today=_as_of(args.as_of))
@@ -206,7 +206,7 @@ def run_check(args) -> int:
     inputs = [str(f) for f in files] + ([args.config] if args.config else [])
     if args.baseline:
         inputs.append(args.baseline)
-    resolve_selection(rule_ids(), options.select, options.ignore, where="command line", error=UsageError)
+    resolve_selection(rule_ids(), options.only_rules, options.skip_rules, where="command line", error=UsageError)
     fail_level = _run_fail_level(args, options, files)
     run = _audit(files, options, args, fail_level)
     # Nothing a board was read from (config found by discovery, included files) may be overwritten.
@@ -241,11 +241,11 @@ def run_rules(args) -> int:
         table.add_row(rule.id, rule.severity, rule.doc.title)
     with stdout_console() as console:
         console.print(table)
-        console.print("`drc explain ID` prints one rule in full.")
+        console.print("`drc handbook ID` prints one rule in full.")
     return ExitStatus.OK
 
 
-def run_explain(args) -> int:
+def run_handbook(args) -> int:
     from drc.checks import all_rules
     from drc.errors import unknown_name_message
     rules = {r.id: r for r in all_rules()}

@@ -1,4 +1,4 @@
-"""The `drc` command line: check boards, explain rules, trace a stage, design one.
+"""The `drc` command line: check boards, show the rule handbook, trace a stage, design one.
 
 Exit status: 0 nothing at or above the fail level; 1 findings at or above
 it; 2 bad input, bad config or usage (and any internal error); 130 when
@@ -48,8 +48,10 @@ def build_parser() -> argparse.ArgumentParser:
                        help="lowest severity that fails the run (default: the config's, else error)")
     check.add_argument("--report-only", action="store_true", help="report findings but always exit 0 "
                        "unless the input is bad")
-    check.add_argument("--select", action="append", metavar="IDS", help="only these rule ids (comma list)")
-    check.add_argument("--ignore", action="append", metavar="IDS", help="skip these rule ids (comma list)")
+    check.add_argument("--only-rules", action="append", metavar="IDS",
+                       help="run only these rule ids (comma list, repeatable)")
+    check.add_argument("--skip-rules", action="append", metavar="IDS",
+                       help="leave these rule ids out (comma list, repeatable)")
     check.add_argument("--config", metavar="FILE", help="config file (default: drc.toml or "
                        "pyproject.toml [tool.drc] found upward from each board)")
     check.add_argument("--bounce", metavar="TIME", help="default bounce for contacts, e.g. 5ms")
@@ -72,8 +74,8 @@ def build_parser() -> argparse.ArgumentParser:
         check.add_argument(f"--{name}", type=int, metavar="N", help=f"raise the limit on {help_text}")
 
     sub.add_parser("rules", help="list the rule catalogue")
-    explain = sub.add_parser("explain", help="print one rule's documentation")
-    explain.add_argument("rule_id", metavar="ID")
+    handbook = sub.add_parser("handbook", help="one rule's handbook page: what, why, how, fix, examples")
+    handbook.add_argument("rule_id", metavar="ID")
 
     trace = sub.add_parser("trace", help="one contact's or receiver pin's paths, stages, levels and times")
     trace.add_argument("board", metavar="BOARD")

@@ -13,8 +13,8 @@ voltages, resistances and fractions may also be plain numbers in V, Ω and ratio
     fail-level = "error"          # note | warning | error: lowest severity that fails
     default-bounce = "5 ms"       # bounce for contacts no class or pattern describes
     eseries = "E24"               # E3 E6 E12 E24 E48 E96 E192, for proposed fixes
-    select = ["bounce-window"]    # rule ids to run (empty: all)
-    ignore = ["resistance-range"] # rule ids not to run
+    only-rules = ["bounce-window"]    # rule ids to run (empty: all)
+    skip-rules = ["resistance-range"] # rule ids not to run
     include = ["lib"]             # folders searched for .include/.lib (relative to this file)
 
     [tolerances]                  # defaults for parts the netlist gives no tolerance
@@ -109,7 +109,7 @@ CONTACT_FORMS = ("SPST-NO", "SPST-NC", "SPDT")
 PULL_DIRECTIONS = ("up", "down")
 ESERIES = ("E3", "E6", "E12", "E24", "E48", "E96", "E192")
 
-_TOP_KEYS = ("fail-level", "default-bounce", "eseries", "select", "ignore", "include",
+_TOP_KEYS = ("fail-level", "default-bounce", "eseries", "only-rules", "skip-rules", "include",
              "tolerances", "rails", "contacts", "parts", "mcu", "limits", "severity", "waivers")
 _TOLERANCE_KEYS = ("resistor", "capacitor", "rail")
 _RAIL_KEYS = ("net", "voltage", "tolerance")
@@ -561,7 +561,7 @@ def load_config(path: str | os.PathLike, *, rule_ids: Iterable[str] | None = Non
     """Read `drc.toml` (or the [tool.drc] table of a pyproject.toml) into a Config.
 
     The optional vocabularies are what the caller's library knows: rule ids
-    (select, ignore, severity, waivers), limit keys (a list, or a mapping
+    (only-rules, skip-rules, severity, waivers), limit keys (a list, or a mapping
     key -> dimension such as "time" or "number"), contact classes and logic
     families. Where one is None, those names are not checked here.
     """
@@ -617,8 +617,8 @@ def _config(r: _ConfigReader, data: dict, file: Path, v: _Vocabulary) -> Config:
                                  lambda t: r.quantity(t, ("default-bounce",), "time"), None),
         limits=section("limits", lambda t: _limits(r, t, v.limit_keys), {}),
         severities=section("severity", lambda t: _severities(r, t, v.rule_ids), {}),
-        select=section("select", lambda t: _rule_list(r, t, "select", v.rule_ids), ()),
-        ignore=section("ignore", lambda t: _rule_list(r, t, "ignore", v.rule_ids), ()),
+        only_rules=section("only-rules", lambda t: _rule_list(r, t, "only-rules", v.rule_ids), ()),
+        skip_rules=section("skip-rules", lambda t: _rule_list(r, t, "skip-rules", v.rule_ids), ()),
         include_folders=section(
             "include", lambda t: tuple(str(base / p) for p in r.strings(t, ("include",))), ()),
         waivers=section("waivers", lambda t: _waivers(r, t, v.rule_ids), ()),

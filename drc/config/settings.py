@@ -95,8 +95,8 @@ class Config:
     default_bounce_s: float | None = None
     limits: dict[str, float] = field(default_factory=dict)  # overrides rules/limits.toml
     severities: dict[str, str] = field(default_factory=dict)  # rule id -> severity
-    select: tuple[str, ...] = ()
-    ignore: tuple[str, ...] = ()
+    only_rules: tuple[str, ...] = ()  # rule ids to run (empty: all)
+    skip_rules: tuple[str, ...] = ()  # rule ids not to run
     include_folders: tuple[str, ...] = ()
     waivers: tuple[Waiver, ...] = ()
     fail_level: str | None = None

@@ -4,7 +4,7 @@ A rule states what it found and how serious that is by default; everything
 after that is decided here, in one module, so that the pipeline, the command
 line and every report agree:
 
-- which rules run: `select` and `ignore`, checked against the catalogue (an
+- which rules run: `only-rules` and `skip-rules`, checked against the catalogue (an
   unknown id is an error that suggests the nearest known one);
 - the severity of each finding: the user's `[severity]` overrides;
 - which findings are accepted, each marked with its `Suppression`: netlist

@@ -1,7 +1,7 @@
 """The SARIF 2.1.0 report, for code-scanning services and other SARIF readers.
 
 One run per report. `driver.rules[]` is generated from the rule
-documentation (the same text as `drc explain`). Each result points at the
+documentation (the same text as `drc handbook`). Each result points at the
 netlist line of its first part (physical location, relative to the working
 folder), names its contact, receiver and nets as logical locations, carries
 a versioned fingerprint made of board, rule and designators (so it survives

@@ -5,7 +5,7 @@ point and one module registering a rule with `@rule(RuleDoc(...))`), installs
 them with pip into a fresh virtual environment (reusing the installed
 dependencies through --system-site-packages, so no network is needed; drc
 itself comes from this source tree through PYTHONPATH), and runs the real
-command line there: a good pack's rule is listed, explained and fires in a
+command line there: a good pack's rule is listed, shown in the handbook and fires in a
 check; a broken pack is one located error with exit status 2, no traceback.
 """
 
@@ -103,7 +103,7 @@ def test_a_rule_pack_installed_with_pip_is_loaded(tmp_path: Path):
     listed = drc("rules")
     assert listed.returncode == 0, listed.stderr
     assert "pack-demo-stage" in listed.stdout and "undebounced-input" in listed.stdout
-    explained = drc("explain", "pack-demo-stage")
+    explained = drc("handbook", "pack-demo-stage")
     assert explained.returncode == 0 and "notes every stage" in explained.stdout
     checked = drc("check", "board.cir", "--format", "json", "--no-fixes")
     assert checked.returncode == 0, checked.stderr  # notes do not fail the run

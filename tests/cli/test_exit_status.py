@@ -35,9 +35,9 @@ def test_version():
     ("warning.cir", ("--fail-level", "note"), 1),
     ("error.cir", (), 1),
     ("error.cir", ("--report-only",), 0),
-    ("error.cir", ("--ignore", "undebounced-input,floating-input"), 0),
-    ("error.cir", ("--select", "pullup-waste"), 0),
-    ("clean.cir", ("--select", "bounce-windw"), 2),    # unknown id: usage error
+    ("error.cir", ("--skip-rules", "undebounced-input,floating-input"), 0),
+    ("error.cir", ("--only-rules", "pullup-waste"), 0),
+    ("clean.cir", ("--only-rules", "bounce-windw"), 2),    # unknown id: usage error
     ("clean.cir", ("--fail-level", "fatal"), 2),
     ("clean.cir", ("--bounce", "3V3"), 2),
     ("missing.cir", (), 2),
@@ -49,8 +49,25 @@ def test_exit_status_table(boards: Path, board, args, status):
 
 
 def test_unknown_rule_suggests_the_nearest(boards: Path):
-    proc = drc("check", str(boards / "clean.cir"), "--select", "bounce-windw")
+    proc = drc("check", str(boards / "clean.cir"), "--only-rules", "bounce-windw")
     assert "bounce-window" in proc.stderr
+
+
+@pytest.mark.parametrize("args", [
+    ("check", "clean.cir", "--select", "bounce-window"),
+    ("check", "clean.cir", "--ignore", "bounce-window"),
+    ("explain", "bounce-window"),
+])
+def test_old_spellings_are_not_aliases(boards: Path, args):
+    """The rule-selection options and the handbook command have names of our own only."""
+    proc = drc(*(str(boards / a) if a.endswith(".cir") else a for a in args))
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr, proc.stderr
+
+
+def test_old_config_keys_are_refused(boards: Path):
+    (boards / "drc.toml").write_text('select = ["bounce-window"]\n')
+    proc = drc("check", str(boards / "clean.cir"))
+    assert proc.returncode == 2 and "select" in proc.stderr, proc.stderr
 
 
 def test_bad_netlist_is_located(boards: Path):
@@ -145,14 +162,14 @@ def test_annotation_waiver(boards: Path):
     assert any(s["kind"] == "inSource" for r in results for s in r["suppressions"])
 
 
-def test_rules_and_explain():
+def test_rules_and_handbook():
     proc = drc("rules")
     assert proc.returncode == 0
     for rule_id in ("undebounced-input", "bounce-window", "ambiguous-value"):
         assert rule_id in proc.stdout
-    proc = drc("explain", "slow-edge")
+    proc = drc("handbook", "slow-edge")
     assert proc.returncode == 0 and "Failing example" in proc.stdout
-    proc = drc("explain", "slow-edg")
+    proc = drc("handbook", "slow-edg")
     assert proc.returncode == 2 and "slow-edge" in proc.stderr
 
 

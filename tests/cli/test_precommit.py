@@ -35,7 +35,7 @@ def test_hook_runs_in_a_temporary_repository(tmp_path: Path):
                GIT_AUTHOR_EMAIL="t@example.invalid", GIT_COMMITTER_NAME="t",
                GIT_COMMITTER_EMAIL="t@example.invalid")
     _git("add", "panel.cir", cwd=repo)
-    run = [sys.executable, "-m", "pre_commit", "try-repo", str(ROOT), "drc-check", "--files", "panel.cir"]
+    run = [sys.executable, "-m", "pre_commit", "try-repo", str(ROOT), "drc-switch-inputs", "--files", "panel.cir"]
     ok = subprocess.run(run, cwd=repo, env=env, capture_output=True, text=True, timeout=900)
     assert ok.returncode == 0, ok.stdout[-3000:] + ok.stderr[-3000:]
     assert "drc" in ok.stdout

@@ -13,8 +13,8 @@ FULL = '''
 fail-level = "warning"
 default-bounce = "5 ms"
 eseries = "E12"
-select = []
-ignore = ["resistance-range"]
+only-rules = []
+skip-rules = ["resistance-range"]
 include = ["lib"]
 
 [tolerances]
@@ -101,7 +101,7 @@ def test_full_drc_toml(tmp_path):
     assert config.fail_level == "warning"
     assert config.default_bounce_s == pytest.approx(5e-3)
     assert config.eseries == "E12"
-    assert config.ignore == ("resistance-range",)
+    assert config.skip_rules == ("resistance-range",)
     assert config.include_folders == (str(tmp_path / "lib"),)
     assert config.tolerances.resistor == pytest.approx(0.01)
     assert config.tolerances.capacitor == pytest.approx(0.1)
@@ -163,7 +163,7 @@ def test_pyproject_without_table(tmp_path):
     ('[[mcu]]\ndesignator = "U1"\nfamily = "CMOS"\n[[mcu.pins]]\npin = 0\n', 5, "integer >= 1"),
     ('[[mcu]]\ndesignator = "U1"\nfamily = "CMOS"\n[[mcu.pins]]\npin = 3\npull = "up"\n', 6, "pull-min"),
     ('[tolerances]\nresistor = "150 %"\n', 2, "below 100 %"),
-    ('select = ["bounce-windw"]\n', 1, "did you mean 'bounce-window'"),
+    ('only-rules = ["bounce-windw"]\n', 1, "did you mean 'bounce-window'"),
     ('[severity]\nslow-edge = "fatal"\n', 2, "expected one of note, warning, error"),
     ('[severity]\nslow-egde = "note"\n', 2, "did you mean 'slow-edge'"),
     ('[limits]\nbounce-margn = 2\n', 2, "did you mean 'bounce-margin'"),

@@ -129,7 +129,7 @@ SCALARS = st.one_of(st.sampled_from(["5 ms", "3.3 V", "10 kΩ", "5 %", "E24", "e
                                      "1e999 V", "-5 V", "__import__('os')", "{p}", "5"]),
                     st.integers(-3, 40), st.floats(allow_nan=True, allow_infinity=True),
                     st.booleans())
-KEYS = st.sampled_from(["fail-level", "default-bounce", "eseries", "select", "ignore", "include",
+KEYS = st.sampled_from(["fail-level", "default-bounce", "eseries", "only-rules", "skip-rules", "include",
                         "net", "voltage", "tolerance", "designator", "class", "bounce", "form",
                         "part-number", "family", "supply", "supply-pins", "pin", "pull",
                         "pull-min", "pull-max", "debounce", "schmitt", "rule", "parts", "reason",
