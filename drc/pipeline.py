@@ -186,7 +186,7 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     from drc.config.annotations import read_annotations
     from drc.gate.decision import judge_board
     lib = library()
-    annotations = read_annotations(netlist.files) if netlist.files else None
+    annotations = read_annotations(netlist.annotation_lines) if netlist.annotation_lines else None
     if annotations and annotations.contacts:
         config = replace(config, contacts=tuple(config.contacts) + tuple(annotations.contacts))
     board = classify(netlist, lib, config, default_bounce_s=options.default_bounce_s

@@ -22,15 +22,14 @@ line and column.
 from __future__ import annotations
 
 import re
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 
 from drc.config.settings import ContactConfig
-from drc.errors import ConfigError, DrcError, SourceLocation
-from drc.netlist.lines import decode, read_regular, split_lines
+from drc.errors import ConfigError, SourceLocation
+from drc.netlist.lines import ANNOTATION_MARK, annotation_lines, normalise_newlines
 
-MARK = "*@drc"
-# The reader already refused files above its own limit; this only bounds a re-read.
-MAX_ANNOTATED_BYTES = 1 << 31
+MARK = ANNOTATION_MARK
 _REASON = re.compile(r":(?=\s|$)")
 
 
@@ -88,61 +87,50 @@ def _contact(words: list[str], make_error) -> ContactConfig:
 
 def parse_annotations(text: str, file: str) -> Annotations:
     """Every `*@drc` line of one file's text."""
-    found = Annotations()
-    if MARK not in text:
-        return found
     # The reader's own line splitting (CR, LF, CRLF only), so line numbers agree
     # with its locations even when the text holds form feeds or U+2028.
-    for line_no, line in enumerate(split_lines(text), start=1):
-        stripped = line.lstrip()
-        if not stripped.startswith(MARK):
-            continue
-        column = len(line) - len(stripped) + 1
+    return read_annotations((file, number, line) for number, line in
+                            annotation_lines(normalise_newlines(text)))
 
-        def make_error(message: str, _n=line_no, _c=column, _l=line) -> ConfigError:
-            return _error(f"annotation: {message}", file, _n, _c, _l)
 
-        body = stripped[len(MARK):]
-        # The reason follows a colon that ends a word ("SW1 R2 : why"); a pin
-        # reference such as U9:12 has no blank after its colon.
-        body, _, reason = _split_reason(body)
-        words = body.split()
-        if not words:
-            raise make_error("empty annotation; expected contact, debounce or waive")
-        verb, rest = words[0].lower(), words[1:]
-        if verb == "contact":
-            found.contacts.append(_contact(rest, make_error))
-        elif verb == "debounce":
-            if len(rest) != 2 or ":" not in rest[0]:
-                raise make_error("expected `*@drc debounce PART:PIN TIME`, e.g. `*@drc debounce U9:12 20ms`")
-            found.debounces[rest[0].casefold()] = _time(rest[1], "debounce", make_error)
-        elif verb == "waive":
-            if len(rest) < 2:
-                raise make_error("expected `*@drc waive RULE PART... : reason`")
-            if not reason.strip():
-                raise make_error("a waiver needs a reason after a colon: `*@drc waive RULE PART : why`")
-            found.waivers.append(AnnotationWaiver(rest[0], tuple(rest[1:]), reason.strip(),
-                                                  SourceLocation(file, line_no, column)))
-        else:
-            raise make_error(f"unknown annotation {verb!r}; expected contact, debounce or waive")
+def read_annotations(lines: Iterable[tuple[str, int, str]]) -> Annotations:
+    """The annotations of `*@drc` lines given as (file, line number, line): what
+    the reader collected from every file of a netlist (`Netlist.annotation_lines`),
+    so no file is read twice."""
+    found = Annotations()
+    for file, line_no, line in lines:
+        _annotation(found, file, line_no, line)
     return found
 
 
-def read_annotations(files: tuple[str, ...]) -> Annotations:
-    """Annotations of every file a netlist was read from (includes too)."""
-    merged = Annotations()
-    for file in files:
-        try:
-            # Same guards and decoding as the reader (regular files only, BOMs,
-            # Latin-1 fallback): the file was read once already, so this only
-            # fails if it changed under us, and then it is simply skipped.
-            text = decode(read_regular(file, file, MAX_ANNOTATED_BYTES))
-        except (DrcError, UnicodeDecodeError):
-            continue
-        if MARK not in text:
-            continue
-        one = parse_annotations(text, file)
-        merged.contacts.extend(one.contacts)
-        merged.debounces.update(one.debounces)
-        merged.waivers.extend(one.waivers)
-    return merged
+def _annotation(found: Annotations, file: str, line_no: int, line: str) -> None:
+    """One `*@drc` line into `found`."""
+    stripped = line.lstrip()
+    column = len(line) - len(stripped) + 1
+
+    def make_error(message: str) -> ConfigError:
+        return _error(f"annotation: {message}", file, line_no, column, line)
+
+    body = stripped[len(MARK):]
+    # The reason follows a colon that ends a word ("SW1 R2 : why"); a pin
+    # reference such as U9:12 has no blank after its colon.
+    body, _, reason = _split_reason(body)
+    words = body.split()
+    if not words:
+        raise make_error("empty annotation; expected contact, debounce or waive")
+    verb, rest = words[0].lower(), words[1:]
+    if verb == "contact":
+        found.contacts.append(_contact(rest, make_error))
+    elif verb == "debounce":
+        if len(rest) != 2 or ":" not in rest[0]:
+            raise make_error("expected `*@drc debounce PART:PIN TIME`, e.g. `*@drc debounce U9:12 20ms`")
+        found.debounces[rest[0].casefold()] = _time(rest[1], "debounce", make_error)
+    elif verb == "waive":
+        if len(rest) < 2:
+            raise make_error("expected `*@drc waive RULE PART... : reason`")
+        if not reason.strip():
+            raise make_error("a waiver needs a reason after a colon: `*@drc waive RULE PART : why`")
+        found.waivers.append(AnnotationWaiver(rest[0], tuple(rest[1:]), reason.strip(),
+                                              SourceLocation(file, line_no, column)))
+    else:
+        raise make_error(f"unknown annotation {verb!r}; expected contact, debounce or waive")

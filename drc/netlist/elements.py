@@ -190,6 +190,9 @@ class Netlist:
     diagnostics: list[Diagnostic] = field(default_factory=list)
     skipped: list[SkippedDirective] = field(default_factory=list)
     files: tuple[str, ...] = ()
+    # `*@drc` comment lines of every file read, as (file, line number, text):
+    # annotations (drc/config/annotations.py) are parsed from these.
+    annotation_lines: tuple[tuple[str, int, str], ...] = ()
 
     def nets(self) -> set[str]:
         """Every distinct net, ground included when used."""

@@ -138,6 +138,25 @@ def normalise_newlines(text: str) -> str:
     return text
 
 
+# Comment lines carrying instructions to drc (parsed by drc/config/annotations.py).
+ANNOTATION_MARK = "*@drc"
+_ANNOTATION_LINE = re.compile(r"^[^\S\n]*\*@drc.*$", re.M)
+
+
+def annotation_lines(text: str) -> list[tuple[int, str]]:
+    """(line number, line) of every `*@drc` line of `text` (LF line endings): one
+    scan, nothing when the mark does not occur."""
+    if ANNOTATION_MARK not in text:
+        return []
+    out = []
+    number, last = 1, 0
+    for match in _ANNOTATION_LINE.finditer(text):
+        number += text.count("\n", last, match.start())
+        last = match.start()
+        out.append((number, match.group()))
+    return out
+
+
 def split_lines(text: str) -> list[str]:
     """Physical lines on any mix of CRLF, CR and LF endings."""
     return normalise_newlines(text).split("\n")
@@ -178,8 +197,7 @@ def read_regular(path: str, shown: str, max_bytes: int, error: type = NetlistErr
         if info.st_size > max_bytes:
             raise too_big(f"file is {info.st_size} bytes, above the limit of {max_bytes} "
                           + hint, SourceLocation(shown))
-        with os.fdopen(os.dup(fd), "rb") as handle:
-            data = handle.read(max_bytes + 1)
+        data = _read_sized(fd, info.st_size, max_bytes)
     except OSError as exc:
         raise error(f"cannot read file: {exc.strerror or exc}", SourceLocation(shown)) from None
     finally:
@@ -188,6 +206,27 @@ def read_regular(path: str, shown: str, max_bytes: int, error: type = NetlistErr
         raise too_big(f"file is larger than the limit of {max_bytes} bytes " + hint,
                       SourceLocation(shown))
     return data
+
+
+def _read_sized(fd: int, size: int, max_bytes: int) -> bytes:
+    """Up to `max_bytes + 1` bytes of `fd`, asking for a buffer of the file's own size.
+
+    The first read asks for `size + 1` bytes (the extra byte sees the end of
+    a file that did not change); a file growing meanwhile is read on in
+    1 MiB steps. Memory follows what is really there, never the limit: a
+    buffer of the limit costs its address space even when it stays unused.
+    """
+    want = min(size, max_bytes) + 1
+    chunks: list[bytes] = []
+    total = 0
+    while total <= max_bytes:
+        step = want - total if total < want else min(1 << 20, max_bytes + 1 - total)
+        chunk = os.read(fd, step)
+        if not chunk:
+            break
+        chunks.append(chunk)
+        total += len(chunk)
+    return chunks[0] if len(chunks) == 1 else b"".join(chunks)
 
 
 def read_source(path: str, shown: str, max_bytes: int) -> SourceFile:

@@ -160,7 +160,7 @@ class NetlistLoader:
 
     def load_top(self, source: SourceFile, real: str | None) -> LoadedNetlist:
         """Load the top file (`real`: its real path, None for text without a file)."""
-        self.loaded.add_file(source.path)
+        self.loaded.add_file(source)
         # The physical lines, split once here and not kept on `source`: the
         # fast loop lets go of each line once read (peak memory of big files).
         lines = source.text.split("\n")
@@ -419,7 +419,7 @@ class NetlistLoader:
                              "included once only", line)
             return
         source = includes.source(line, real, shown)
-        self.loaded.add_file(shown)
+        self.loaded.add_file(source)
         with includes.reading(real):
             lines = includes.statements_of(line, real, source)
             try:

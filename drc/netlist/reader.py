@@ -48,6 +48,7 @@ def _read(source: SourceFile, real: str | None, folder: str, shown: str,
     netlist.diagnostics = loaded.diagnostics
     netlist.skipped = loaded.skipped
     netlist.files = tuple(loaded.files)
+    netlist.annotation_lines = tuple(loaded.annotation_lines)
     return netlist
 
 

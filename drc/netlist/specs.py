@@ -17,7 +17,7 @@ from drc.errors import SourceLocation
 from drc.netlist.elements import Diagnostic, ModelCard, SkippedDirective, Value
 from drc.netlist.expressions import Expression
 from drc.netlist.grammar import Assign
-from drc.netlist.lines import LogicalLine, SourceFile
+from drc.netlist.lines import LogicalLine, SourceFile, annotation_lines
 
 
 class ElementSpec:
@@ -141,6 +141,7 @@ class LoadedNetlist:
         self.names: dict[str, str] = {}     # model/subckt key -> first-seen spelling
         self.title = ""
         self.files: list[str] = []
+        self.annotation_lines: list[tuple[str, int, str]] = []  # (file, line, text) of `*@drc`
         self.diagnostics: list[Diagnostic] = []
         self.skipped: list[SkippedDirective] = []
 
@@ -151,6 +152,10 @@ class LoadedNetlist:
     def warn(self, message: str, line: LogicalLine) -> None:
         self.diagnostics.append(Diagnostic(message, line.location()))
 
-    def add_file(self, shown: str) -> None:
-        if shown not in self.files:
-            self.files.append(shown)
+    def add_file(self, source: SourceFile) -> None:
+        """Record a file read (once), with its `*@drc` annotation lines: the file's
+        text is read and decoded once, and nothing reads it again for them."""
+        if source.path not in self.files:
+            self.files.append(source.path)
+            self.annotation_lines.extend(
+                (source.path, number, text) for number, text in annotation_lines(source.text))
