@@ -140,10 +140,11 @@ def analyse_board(board, config: Config) -> list[StageResult]:
 
     def rx_for(stage):
         rec = stage.receiver
-        cache_key = (rec.family, round(rec.supply_v, 6), rec.schmitt)
+        cache_key = (rec.family, round(rec.supply_v, 6), rec.schmitt, rec.part_type, rec.supply_tolerance)
         rx = cache.get(cache_key)
         if rx is None:
-            rx = receiver_electrical(lib, rec.family, rec.supply_v, rec.schmitt)
+            rx = receiver_electrical(lib, rec.family, rec.supply_v, rec.schmitt, rec.part_type,
+                                     rec.supply_tolerance)
             cache[cache_key] = rx
         return rx
 

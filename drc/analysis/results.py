@@ -101,6 +101,8 @@ class StageResult:
     contact is held in its current-drawing state (rail max, R min).
     contact_current_a: smallest steady current through the closed contact
     (rail min, R max); None for a contact that carries none.
+    closed_current_a: largest steady current through the closed contact
+    (rail max, R min): a pull resistor that reads as a short shows here.
     surge_peak_a: peak current when the contact closes onto a charged
     capacitor (cap voltage / resistance between them), None if no capacitor
     discharges through the contact.
@@ -116,3 +118,4 @@ class StageResult:
     max_input_v: float | None
     receiver_electrical: ReceiverElectrical | None = None  # what the analysis used
     notes: tuple[str, ...] = ()
+    closed_current_a: float | None = None

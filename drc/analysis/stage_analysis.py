@@ -122,7 +122,7 @@ def analyse_stage(stage: Stage, rx: ReceiverElectrical) -> StageResult:
 def _analyse_one(stage: Stage, rx: ReceiverElectrical) -> StageResult:
     """The per-stage path: any structure (several capacitors, diodes, many parameters)."""
     model = compile_circuit(stage.circuit)
-    notes: list[str] = []
+    notes: list[str] = list(stage.notes)
     levels: dict[str, LevelResult] = {}
     extremes: dict[str, dict[str, Any]] = {}
     for state in ACTUATOR_STATES:
@@ -139,12 +139,14 @@ def _analyse_one(stage: Stage, rx: ReceiverElectrical) -> StageResult:
     max_in = max((extremes[s]["max_v"] for s in defined), default=None)
     pulls = [extremes[s]["pull_a"] for s in defined if extremes[s]["pull_a"] is not None]
     contacts = [extremes[s]["contact_a"] for s in extremes if extremes[s]["contact_a"] is not None]
+    closed = [extremes[s]["closed_a"] for s in extremes if extremes[s].get("closed_a") is not None]
     return StageResult(
         stage=stage, levels=levels, edges=edges,
         pull_current_a=max(pulls) if pulls else None,
         contact_current_a=min(contacts) if contacts else None,
         surge_peak_a=_surge_peak(model),
         max_input_v=max_in, receiver_electrical=rx, notes=tuple(notes),
+        closed_current_a=max(closed) if closed else None,
     )
 
 
@@ -163,7 +165,8 @@ def _level(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical) -> 
     both = dc_solve(model, state, np.vstack([boxes["high"].nominal, boxes["low"].nominal]))
     if bool(both.floating[0]):
         none = LevelResult(state, "undefined", None, None, None, None, None, None)
-        return none, {"max_v": None, "pull_a": None, "contact_a": _contact_current(model, state, rx)}
+        return none, {"max_v": None, "pull_a": None, "contact_a": _contact_current(model, state, rx),
+                      "closed_a": _contact_current(model, state, rx, largest=True)}
     logic = "high" if both.rx_v[0] > rx.vcc / 2 else "low"
     i0 = 0 if logic == "high" else 1
     box = _dc_box(model, boxes[logic])
@@ -176,6 +179,7 @@ def _level(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical) -> 
     closed = _closed_throws(model, state)
     if closed:
         objectives["contact_a"] = lambda d: -np.min(np.abs(d.i_throw[:, closed]), axis=1)
+        objectives["closed_a"] = lambda d: np.max(np.abs(d.i_throw[:, closed]), axis=1)
     ex = _dc_extremes(model, state, box, objectives)
     worst_v = float(ex["worst"][1] * sign)
     required = rx.high_required_v if logic == "high" else rx.low_required_v
@@ -185,7 +189,8 @@ def _level(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical) -> 
     pull = ex["pull_a"][1]
     extra = {"max_v": float(ex["max_v"][1]),
              "pull_a": pull if math.isfinite(pull) else None,
-             "contact_a": float(-ex["contact_a"][1]) if closed else None}
+             "contact_a": float(-ex["contact_a"][1]) if closed else None,
+             "closed_a": float(ex["closed_a"][1]) if closed else None}
     return level, extra
 
 
@@ -229,13 +234,17 @@ def _pull_current(model: LinearModel, dc: DcBatch) -> np.ndarray:
 
 
 def _contact_current(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical,
-                     logic: str | None = None) -> float | None:
-    """Smallest steady current through a throw closed in `state`, over corners."""
+                     logic: str | None = None, largest: bool = False) -> float | None:
+    """Smallest (largest) steady current through a throw closed in `state`, over corners."""
     closed = _closed_throws(model, state)
     if not closed:
         return None
     leak = _level_range(rx, logic) if logic else (0.0, 0.0)
     box = _dc_box(model, make_box(model.nominal, model.lo, model.hi, model.leak_col, leak))
+    if largest:
+        ex = _dc_extremes(model, state, box, {
+            "max_i": lambda d: np.max(np.abs(d.i_throw[:, closed]), axis=1)})
+        return float(ex["max_i"][1])
     ex = _dc_extremes(model, state, box, {
         "min_i": lambda d: -np.min(np.abs(d.i_throw[:, closed]), axis=1)})
     return float(-ex["min_i"][1])

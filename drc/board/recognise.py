@@ -62,13 +62,20 @@ def natural_key(text: str) -> tuple:
 
 
 def stages_for_board(board: Board, config: Config) -> list[Stage]:
-    """Every stage of the board, by contact designator then receiver."""
+    """Every stage of the board, by contact designator then receiver; the first
+    stage of each contact is its lead (see Stage)."""
     index = build_index(board)
     diode = _DiodeDefaults(config)
     stages = [_recognise(path, board, config, index, diode)
               for path in trace_paths(board, index)]
     stages.sort(key=lambda s: (natural_key(s.contact.designator),
                                natural_key(s.receiver.part), s.receiver.pin))
+    seen: set[str] = set()
+    for i, st in enumerate(stages):
+        contact = key(st.contact.designator)
+        if contact in seen:
+            stages[i] = replace(st, lead=False)
+        seen.add(contact)
     return stages
 
 
@@ -152,6 +159,7 @@ class _Nets:
 
 
 def _is_short(element: Element) -> bool:
+    """Inductors (ferrite beads) and 0 Ω resistors (links, common on real boards) are wires."""
     if element.kind == "L":
         return True
     return element.kind == "R" and element.value is not None and element.value.si == 0
@@ -168,6 +176,8 @@ class _Passives:
     diodes: list[Diode] = field(default_factory=list)
     parts: list[str] = field(default_factory=list)  # every designator, shorts included
     resting: set[str] = field(default_factory=set)  # other contacts, closed at rest
+    links: list[str] = field(default_factory=list)  # 0 Ω resistors and inductors: wires
+    notes: list[str] = field(default_factory=list)
 
 
 def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
@@ -205,7 +215,9 @@ def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
     kind = _kind(path, circuit, nets, index)
     return Stage(contact=contact, receiver=receiver, kind=kind,
                  parts=tuple(sorted(dict.fromkeys(found.parts), key=natural_key)),
-                 circuit=circuit, nets=circuit.nodes())
+                 circuit=circuit, nets=circuit.nodes(),
+                 links=tuple(sorted(dict.fromkeys(found.links), key=natural_key)),
+                 notes=tuple(dict.fromkeys(found.notes)))
 
 
 def _add_passive(found: _Passives, element: Element, nets: _Nets, config: Config,
@@ -213,10 +225,14 @@ def _add_passive(found: _Passives, element: Element, nets: _Nets, config: Config
     """One element of the path into the circuit: shorts merged already, a part on one net dropped."""
     found.parts.append(element.designator)
     if _is_short(element):
+        found.links.append(element.designator)
         return
     a, b = (nets.name(n) for n in element.nodes[:2])
     kind = element.kind
     value = _value(element) if kind in "RC" else 0.0
+    if kind == "C" and value == 0:
+        found.notes.append(f"{element.designator} is 0 F: read as not fitted (left out of the stage)")
+        return
     if a == b:
         return  # both ends on one net: carries nothing
     if kind == "R":
@@ -230,11 +246,17 @@ def _add_passive(found: _Passives, element: Element, nets: _Nets, config: Config
 
 
 def _value(element: Element) -> float:
-    """A resistor's or capacitor's value in SI units; a NetlistError when it has none."""
+    """A resistor's or capacitor's value in SI units; a NetlistError when it has none
+    or it is negative (no fitted part has a negative resistance or capacitance)."""
     if element.value is None:
         raise NetlistError(f"{element.designator} has no value", element.location,
                            element.text or None)
-    return element.value.si
+    value = element.value.si
+    if value < 0:
+        what = "resistance" if element.kind == "R" else "capacitance"
+        raise NetlistError(f"{element.designator} has a negative {what} ({value:g}): no part "
+                           f"has one; check the value", element.location, element.text or None)
+    return value
 
 
 def _add_resting_contacts(found: _Passives, contacts: Iterable[Contact], nets: _Nets) -> None:

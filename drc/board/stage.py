@@ -136,7 +136,11 @@ class Stage:
     """One (contact, receiver pin) input path, recognised.
 
     parts: designators of every passive part in the path (contact and
-    receiver excluded), in a stable order.
+    receiver excluded), in a stable order. A contact reaching several
+    receivers has one stage per receiver over the same circuit; the first
+    of them (in stage order) is its `lead`, where rules about the contact
+    and its pull resistors (held current, wetting, surge, shorts) report,
+    so one pull resistor gives one finding, not one per receiver.
     """
 
     contact: Contact
@@ -145,6 +149,9 @@ class Stage:
     parts: tuple[str, ...]
     circuit: StageCircuit
     nets: tuple[str, ...]
+    links: tuple[str, ...] = ()  # 0 Ω resistors and inductors on the path: wires
+    notes: tuple[str, ...] = ()  # what recognition read specially (an unfitted 0 F capacitor)
+    lead: bool = True  # the contact's first stage: contact-level findings are given here only
 
     @property
     def name(self) -> str:

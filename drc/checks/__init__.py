@@ -25,7 +25,7 @@ from drc.checks.registry import Rule, RuleKind, registered_rules, registry_gener
 # and the registration order is the catalogue order.
 BUILT_IN_RULE_MODULES = (
     "undebounced_input", "floating_input", "bounce_window", "slow_edge", "response_latency",
-    "leakage_headroom", "pullup_waste", "resistance_range", "contact_wetting", "contact_surge",
+    "leakage_headroom", "shorted_pull", "pullup_waste", "resistance_range", "contact_wetting", "contact_surge",
     "rail_mismatch", "ambiguous_value",
 )
 for _module in BUILT_IN_RULE_MODULES:

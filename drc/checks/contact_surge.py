@@ -34,7 +34,7 @@ DOC = RuleDoc(
 def check(result: StageResult, ctx: RuleContext):
     contact = result.stage.contact
     peak = result.surge_peak_a
-    if contact.rating_a is None or peak is None or peak <= contact.rating_a:
+    if not result.stage.lead or contact.rating_a is None or peak is None or peak <= contact.rating_a:
         return
     caps = tuple(c.designator for c in result.stage.circuit.capacitors)
     yield ctx.stage_finding(

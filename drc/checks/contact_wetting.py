@@ -35,7 +35,7 @@ DOC = RuleDoc(
 def check(result: StageResult, ctx: RuleContext):
     contact = result.stage.contact
     current = result.contact_current_a
-    if contact.wetting_a is None or current is None or current >= contact.wetting_a:
+    if not result.stage.lead or contact.wetting_a is None or current is None or current >= contact.wetting_a:
         return
     pulls = pull_resistors(result)
     names = ", ".join(resistor_text(r) for r in pulls) or "the pull resistor"

@@ -9,6 +9,7 @@ from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
 from drc.checks.ruledoc import RuleDoc
+from drc.checks.shorted_pull import SHORT, closed_current
 
 BUDGET = "pull_current_budget"
 
@@ -22,12 +23,14 @@ DOC = RuleDoc(
     why=("A button held down, a DIP switch left on or a reed switch that sits closed draws this "
          "current for hours; on battery boards a few low-value pull-ups can dominate the sleep "
          "current, and they warm up for nothing."),
-    how="I = V_rail,max / R_pull,min (DC nodal analysis in the closed state), compared with `pull_current_budget`.",
+    how=("I = V_rail,max / R_pull,min (DC nodal analysis in the closed state), compared with "
+         "`pull_current_budget`. From `short_current` up the contact shorts its rail: that is "
+         "shorted-pull's finding, not this one. Reported once per contact, on its first stage."),
     fix="Raise the pull resistor (keep the leakage headroom and the timing in view); drc proposes a standard value.",
     failing_example=netlist("A 3.3 kΩ pull-up draws about 1.7 mA while SW1 is held",
                             *debounced_stage(r1="3.3k")),
     passing_example=netlist("An 8.2 kΩ pull-up draws about 0.7 mA", *debounced_stage()),
-    limits=(BUDGET,),
+    limits=(BUDGET, SHORT),
 )
 
 
@@ -35,8 +38,11 @@ DOC = RuleDoc(
 def check(result: StageResult, ctx: RuleContext):
     budget = ctx.limit(BUDGET)
     current = result.pull_current_a
-    if current is None or current <= budget:
+    if not result.stage.lead or current is None or current <= budget:
         return
+    held = closed_current(result)
+    if held is not None and held >= ctx.limit(SHORT):
+        return  # a short, not waste: shorted-pull reports it
     pulls = pull_resistors(result)
     names = ", ".join(resistor_text(r) for r in pulls) or "the pull resistor"
     yield ctx.stage_finding(

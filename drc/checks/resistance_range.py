@@ -37,9 +37,12 @@ DOC = RuleDoc(
 def check(result: StageResult, ctx: RuleContext):
     low, high = ctx.limit(LOW), ctx.limit(HIGH)
     window = f"{fq(low, 'Ω')}-{fq(high, 'Ω')}"
+    lead = result.stage.lead
     for r in result.stage.circuit.resistors:
         if r.role not in ("pull", "series") or low <= r.ohms <= high:
             continue
+        if r.role == "pull" and not lead:
+            continue  # a pull resistor is the contact's: reported on its first stage only
         bound = low if r.ohms < low else high
         where = "below" if r.ohms < low else "above"
         yield ctx.stage_finding(

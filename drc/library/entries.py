@@ -158,6 +158,18 @@ class TransitionLimit:
 
 
 @dataclass(frozen=True, slots=True)
+class PartVariant:
+    """Generic part types of a family with data of their own (families.toml `part_variants`)."""
+
+    title: str
+    part_types: tuple[str, ...]
+    supply_min: float
+    supply_max: float
+    schmitt: SchmittData | None
+    source: str
+
+
+@dataclass(frozen=True, slots=True)
 class Family:
     name: str
     title: str
@@ -177,18 +189,38 @@ class Family:
     internal_pull_ohms: tuple[float, float] | None = None
     transition_note: str | None = None
     sources: tuple[tuple[str, str], ...] = ()
+    part_variants: tuple[PartVariant, ...] = ()
 
     @property
     def supply_range(self) -> tuple[float, float]:
         return (self.supply_min, self.supply_max)
 
+    def variant(self, part_type: str | None) -> PartVariant | None:
+        """The part variant covering generic part type `part_type` ("1G14"), if any."""
+        if part_type is None:
+            return None
+        wanted = part_type.casefold()
+        return next((v for v in self.part_variants
+                     if any(t.casefold() == wanted for t in v.part_types)), None)
+
+    def supply_range_for(self, part_type: str | None) -> tuple[float, float]:
+        """The supply range of a part of this family: its variant's, else the family's."""
+        v = self.variant(part_type)
+        return (v.supply_min, v.supply_max) if v is not None else self.supply_range
+
+    def schmitt_for(self, part_type: str | None) -> SchmittData | None:
+        """The Schmitt thresholds of a part of this family: its variant's, else the family's."""
+        v = self.variant(part_type)
+        return v.schmitt if v is not None and v.schmitt is not None else self.schmitt
+
     def source(self, quantity: str) -> str | None:
         """The source text of one quantity (a key of families.toml, e.g. "vih_v")."""
         return dict(self.sources).get(quantity)
 
-    def check_supply(self, vcc: float) -> None:
-        if not (self.supply_min - EPS <= vcc <= self.supply_max + EPS):
-            raise SupplyOutOfRange(self.name, vcc, self.supply_min, self.supply_max)
+    def check_supply(self, vcc: float, part_type: str | None = None) -> None:
+        lo, hi = self.supply_range_for(part_type)
+        if not (lo - EPS <= vcc <= hi + EPS):
+            raise SupplyOutOfRange(self.name, vcc, lo, hi)
 
     def vih_at(self, vcc: float) -> float:
         return self.vih.at(vcc, "high")

@@ -27,6 +27,7 @@ from drc.library.entries import (
     Family,
     Limit,
     PartType,
+    PartVariant,
     PinRole,
     PinSpec,
     PullDirection,
@@ -182,6 +183,7 @@ def parse_family(r: RulesFile, name: str, raw: Any) -> Family:
     aliases = ft.table.get("aliases", [])
     if not isinstance(aliases, list) or not all(isinstance(a, str) for a in aliases):
         raise r.error(f"{where}.aliases", "expected a list of names")
+    variants = _part_variants(r, where, ft.table.get("part_variants", []))
     family = Family(
         name=name, title=str(ft.table.get("title", name)), aliases=tuple(aliases),
         supply_min=lo, supply_max=hi, vih=vih, vil=vil,
@@ -191,10 +193,36 @@ def parse_family(r: RulesFile, name: str, raw: Any) -> Family:
         ttl_high_extra_supply_a=ft.scalar("ttl_high_extra_supply_ma", 1e-3),
         internal_pull_ohms=internal_pull,
         transition_note=ft.table.get("transition_note"),
-        sources=tuple(ft.sources),
+        sources=tuple(ft.sources), part_variants=variants,
     )
     check_family(r, family)
     return family
+
+
+def _part_variants(r: RulesFile, where: str, raw: Any) -> tuple[PartVariant, ...]:
+    """[[families.NAME.part_variants]]: part types with a supply range and thresholds of their own."""
+    if not isinstance(raw, list):
+        raise r.error(f"{where}.part_variants", "expected [[...part_variants]] tables")
+    out = []
+    for i, item in enumerate(raw):
+        here = f"{where}.part_variants[{i}]"
+        t = r.table(item, here)
+        types = t.get("part_types")
+        if not isinstance(types, list) or not types or not all(isinstance(x, str) for x in types):
+            raise r.error(f"{here}.part_types", "expected a non-empty list of generic part types")
+        supply = r.table(t.get("supply_v"), f"{here}.supply_v")
+        source = r.source(supply, f"{here}.supply_v")
+        lo = r.number(supply.get("min"), f"{here}.supply_v.min")
+        hi = r.number(supply.get("max"), f"{here}.supply_v.max")
+        if not 0 < lo <= hi:
+            raise r.error(f"{here}.supply_v", "supply range must be positive and ordered")
+        schmitt = (parse_schmitt(r, f"{here}.schmitt", r.table(t["schmitt"], f"{here}.schmitt"))
+                   if "schmitt" in t else None)
+        unknown = set(t) - {"title", "part_types", "supply_v", "schmitt"}
+        if unknown:
+            raise r.error(here, f"unknown keys {sorted(unknown)}")
+        out.append(PartVariant(str(t.get("title", ", ".join(types))), tuple(types), lo, hi, schmitt, source))
+    return tuple(out)
 
 
 def _leakage(ft: _FamilyTable, key: str) -> tuple[float, float]:
@@ -268,19 +296,28 @@ def parse_schmitt(r: RulesFile, where: str, t: dict[str, Any]) -> SchmittData:
 
 
 def check_family(r: RulesFile, f: Family) -> None:
-    """Shipped-data sanity over the supply range: ordered levels and thresholds."""
+    """Shipped-data sanity over the supply range: ordered levels and thresholds
+    (the family's own, and each part variant's over its range)."""
     where = f"families.{f.name}"
     if not 0 < f.supply_min <= f.supply_max:
         raise r.error(where, "supply range must be positive and ordered")
+    _check_levels(r, where, f, f.supply_min, f.supply_max, f.schmitt)
+    for v in f.part_variants:
+        _check_levels(r, f"{where}.part_variants ({v.title})", f, v.supply_min, v.supply_max,
+                      v.schmitt or f.schmitt)
+
+
+def _check_levels(r: RulesFile, where: str, f: Family, lo: float, hi: float,
+                  schmitt: SchmittData | None) -> None:
     steps = 12
     for i in range(steps + 1):
-        vcc = f.supply_min + (f.supply_max - f.supply_min) * i / steps
+        vcc = lo + (hi - lo) * i / steps
         vil, vih = f.vil_at(vcc), f.vih_at(vcc)
         if not 0 < vil < vih < vcc + EPS:
             raise r.error(where, f"at VCC {vcc:g} V: expected 0 < VIL {vil:g} < VIH {vih:g} <= VCC")
-        s = f.schmitt_at(vcc)
-        if s is None:
+        if schmitt is None:
             continue
+        s = schmitt.at(vcc)
         (pmin, ptyp, pmax), (mmin, mtyp, mmax) = s.vt_plus, s.vt_minus
         if not (0 < pmin <= ptyp <= pmax <= vcc + EPS and 0 < mmin <= mtyp <= mmax
                 and mmin <= pmin and mmax <= pmax):

@@ -306,3 +306,56 @@ SW1 +3V3 KEY TACTILE
     assert (pull.a, pull.b, pull.role) == ("0", "KEY", "internal-pull")
     assert stage.kind == "pull-only"
     assert throws(stage) == [("+3V3", "KEY", "pressed")]
+
+
+def test_zero_ohm_link_is_a_wire_and_is_recorded(stages):
+    # A 0 Ω resistor is a link (a wire), common on real boards: never bad input.
+    [stage] = stages("link\n" + SUPPLY + HC14.format(a="IN") + """
+R1 +5V SWN 10k
+R2 SWN MID 0
+R3 MID IN 39k
+C1 IN 0 1u
+SW1 SWN 0 TACTILE
+""")
+    assert stage.links == ("R2",)
+    assert roles(stage) == {"R1": "pull", "R3": "series"}
+    assert "R2" in stage.parts and "R2" not in roles(stage)
+
+
+def test_zero_farad_capacitor_is_not_fitted(stages):
+    # A 0 F capacitor is an unfitted part: left out, with a note.
+    [stage] = stages("unfitted\n" + SUPPLY + HC14.format(a="IN") + """
+R1 +5V SWN 10k
+R2 SWN IN 39k
+C1 IN 0 1u
+C2 IN 0 0
+SW1 SWN 0 TACTILE
+""")
+    assert [c.designator for c in stage.circuit.capacitors] == ["C1"]
+    assert any("C2 is 0 F" in n and "not fitted" in n for n in stage.notes)
+
+
+@pytest.mark.parametrize("line, what", [("R2 SWN IN -39k", "negative resistance"),
+                                        ("C1 IN 0 -1u", "negative capacitance")])
+def test_negative_resistance_or_capacitance_is_a_located_input_error(stages, line, what):
+    from drc.errors import NetlistError
+    text = "negative\n" + SUPPLY + HC14.format(a="IN") + "R1 +5V SWN 10k\nR2 SWN IN 39k\nC1 IN 0 1u\n" \
+        + "SW1 SWN 0 TACTILE\n"
+    bad = text.replace(line.split()[0] + " " + " ".join(line.split()[1:3]), "@@", 1)
+    bad = "\n".join(line if ln.startswith("@@") else ln for ln in bad.splitlines()) + "\n"
+    with pytest.raises(NetlistError) as info:
+        stages(bad)
+    assert what in str(info.value)
+    loc = info.value.location
+    assert loc is not None and loc.line == bad.splitlines().index(line) + 1 and loc.column == 1
+
+
+def test_the_first_stage_of_a_contact_is_its_lead(stages):
+    # One contact, two receivers: contact-level findings are given once, on the first stage.
+    result = stages("two receivers\n" + SUPPLY + """
+XU1 IN o1 IN o2 0 o3 0 o4 0 o5 0 o6 0 +5V 74HC14
+R1 +5V IN 10k
+C1 IN 0 100n
+SW1 IN 0 TACTILE
+""")
+    assert [s.lead for s in result] == [True, False]

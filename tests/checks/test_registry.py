@@ -17,6 +17,7 @@ from tests.checks.builders import LIMITS, result
 CATALOGUE = [
     ("undebounced-input", "error"), ("floating-input", "error"), ("bounce-window", "error"),
     ("slow-edge", "error"), ("response-latency", "warning"), ("leakage-headroom", "error"),
+    ("shorted-pull", "error"),  # issue 13, item 7: a pull resistor that reads as a short
     ("pullup-waste", "warning"), ("resistance-range", "note"), ("contact-wetting", "warning"),
     ("contact-surge", "warning"), ("rail-mismatch", "error"), ("ambiguous-value", "warning"),
 ]

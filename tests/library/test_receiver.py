@@ -67,15 +67,23 @@ def test_schmitt_inputs_have_no_transition_limit(library):
 
 
 def test_hc_schmitt_thresholds_at_table_points_and_between(library):
-    # families.md Table 2 (HC14 class), from memory, typical of the family.
+    # families.md Table 2 (HC14 class) widened to the widest range across makers
+    # (families.md Table 4: "use the widest range across makers"), from memory:
+    # VT+ min 1.55 V and VT- max 2.45 V at 4.5 V, VT- max 3.2 V at 6 V.
     e = receiver_electrical(library, "HC", 4.5, schmitt=True)
-    assert e.rising_threshold == pytest.approx((1.7, (1.7 + 3.15) / 2, 3.15))
-    assert e.falling_threshold == pytest.approx((0.9, (0.9 + 2.0) / 2, 2.0))
+    assert e.rising_threshold == pytest.approx((1.55, (1.55 + 3.15) / 2, 3.15))
+    assert e.falling_threshold == pytest.approx((0.9, (0.9 + 2.45) / 2, 2.45))
     e5 = receiver_electrical(library, "HC", 5.0, schmitt=True)
-    assert e5.rising_threshold[0] == pytest.approx(lerp(5.0, 4.5, 1.7, 6.0, 2.1))
+    assert e5.rising_threshold[0] == pytest.approx(lerp(5.0, 4.5, 1.55, 6.0, 2.1))
     assert e5.rising_threshold[2] == pytest.approx(lerp(5.0, 4.5, 3.15, 6.0, 4.2))
     assert e5.falling_threshold[0] == pytest.approx(lerp(5.0, 4.5, 0.9, 6.0, 1.2))
-    assert e5.falling_threshold[2] == pytest.approx(lerp(5.0, 4.5, 2.0, 6.0, 2.6))
+    assert e5.falling_threshold[2] == pytest.approx(lerp(5.0, 4.5, 2.45, 6.0, 3.2))
+    # Every limit at least as wide as the HC14 row of families.md Table 2.
+    table2 = {4.5: ((1.7, 3.15), (0.9, 2.0)), 6.0: ((2.1, 4.2), (1.2, 2.6)), 2.0: ((0.7, 1.5), (0.3, 0.9))}
+    for vcc, ((p_lo, p_hi), (m_lo, m_hi)) in table2.items():
+        t = receiver_electrical(library, "HC", vcc, schmitt=True)
+        assert t.rising_threshold[0] <= p_lo + 1e-12 and t.rising_threshold[2] >= p_hi - 1e-12
+        assert t.falling_threshold[0] <= m_lo + 1e-12 and t.falling_threshold[2] >= m_hi - 1e-12
     # The steady-level requirements follow the Schmitt outer limits.
     assert e5.high_required_v == e5.rising_threshold[2]
     assert e5.low_required_v == e5.falling_threshold[0]
@@ -202,3 +210,50 @@ def test_every_family_gives_ordered_figures_across_its_supply(name, position, sc
         assert lo <= hi
     limit = e.transition_limit_s_per_v
     assert limit is None or (math.isfinite(limit) and limit > 0)
+
+
+def test_single_gate_lvc_schmitt_parts_have_their_own_thresholds(library):
+    # families.md Table 4 (LVC single-gate Schmitt '1G14 '1G17 '2G14), from memory:
+    # at 3.0-3.6 V VT+ 1.3-2.2 V and VT- 0.6-1.55 V; at 5 V VT+ 2.0-3.2 V, VT- 1.0-2.2 V.
+    for part in ("1G14", "1G17", "2G14"):
+        e = receiver_electrical(library, "LVC", 3.3, schmitt=True, part_type=part)
+        assert (e.rising_threshold[0], e.rising_threshold[2]) == pytest.approx((1.3, 2.2))
+        assert (e.falling_threshold[0], e.falling_threshold[2]) == pytest.approx((0.6, 1.55))
+        assert e.hysteresis_min_v == pytest.approx(0.4)
+        # They run at 5 V, outside the multi-gate family's 1.65-3.6 V.
+        e5 = receiver_electrical(library, "LVC", 5.0, schmitt=True, part_type=part)
+        assert (e5.rising_threshold[0], e5.rising_threshold[2]) == pytest.approx((2.0, 3.2))
+        assert (e5.falling_threshold[0], e5.falling_threshold[2]) == pytest.approx((1.0, 2.2))
+        assert any("thresholds and supply range of their own" in n
+                   for n in receiver_notes(library, "LVC", 5.0, True, part_type=part))
+    assert library.family("LVC").supply_range_for("1G14") == (1.65, 5.5)
+    with pytest.raises(SupplyOutOfRange):
+        receiver_electrical(library, "LVC", 5.0, schmitt=True)  # a multi-gate LVC part
+    # Other part types of the family keep the family's data (no Schmitt table: the band).
+    plain = receiver_electrical(library, "LVC", 3.3, schmitt=True, part_type="14")
+    assert plain.rising_threshold == receiver_electrical(library, "LVC", 3.3, False).rising_threshold
+
+
+def test_hct_extra_supply_current_per_ttl_level_input(library):
+    # from memory (rechecked): HCT about 0.36 mA max at 25 C, about 0.49 mA over
+    # temperature per unit load; the 1.5 mA figure is the ACT class's.
+    assert library.family("HCT").ttl_high_extra_supply_a == pytest.approx(0.5e-3)
+    assert library.family("ACT").ttl_high_extra_supply_a == pytest.approx(1.5e-3)
+
+
+def test_thresholds_follow_the_supply_across_its_tolerance(library):
+    # families.md Table 2 (HC14 class), the VT+ min line from 2.0 V (0.7 V) to
+    # 4.5 V (1.55 V): at 3.3 V -5 % (3.135 V) it reads 1.164 V, below the
+    # 1.21 V at the nominal 3.3 V (issue 13, item 2).
+    e = receiver_electrical(library, "HC", 3.3, True, supply_tolerance=0.05)
+    assert e.tracks_supply
+    lo = e.at_supply(3.3 * 0.95)
+    assert lo.rising[0] == pytest.approx(lerp(3.135, 2.0, 0.7, 4.5, 1.55))
+    assert e.at_supply(3.3).rising == pytest.approx(e.rising_threshold)
+    # A table point inside the band is a sample point (the curve bends there).
+    e45 = receiver_electrical(library, "HC", 4.5, True, supply_tolerance=0.1)
+    assert 4.5 in [p.vcc for p in e45.supply_points]
+    assert e45.supply_breaks(4.05, 4.95) == (4.5,)
+    # Between two sample points the curve is linear: interpolation is exact.
+    mid = e45.at_supply(4.2)
+    assert mid.rising[0] == pytest.approx(lerp(4.2, 2.0, 0.7, 4.5, 1.55))

@@ -160,13 +160,14 @@ def _levels(g: _Group, state: ActuatorState, rx: dict) -> dict:
     both = dc_solve(model, state, np.vstack([nom_h, nom_l]))
     closed = [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
     if bool(both.floating[0]):  # structural: the same for every stage of the group
-        out: dict[str, Any] = {"undefined": True, "contact_a": None}
+        out: dict[str, Any] = {"undefined": True, "contact_a": None, "closed_a": None}
         if closed:
             nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, np.zeros((m, 2)))
             V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model))
             dc = dc_solve(model, state, V.reshape(-1, V.shape[2]))
-            vals = -np.min(np.abs(dc.i_throw[:, closed]), axis=1).reshape(m, -1)
-            out["contact_a"] = -vals.max(axis=1)
+            through = np.abs(dc.i_throw[:, closed])
+            out["contact_a"] = np.min(through, axis=1).reshape(m, -1).min(axis=1)
+            out["closed_a"] = np.max(through, axis=1).reshape(m, -1).max(axis=1)
         return out
     high = both.rx_v[:m] > rx["vcc"] / 2
     pick = lambda a: np.where(high, a[:m], a[m:])  # noqa: E731
@@ -184,15 +185,17 @@ def _levels(g: _Group, state: ActuatorState, rx: dict) -> dict:
         pull = np.max(np.abs(dc.i_res[:, pcols]), axis=1).reshape(m, nv).max(axis=1)
     else:
         pull = np.full(m, -np.inf)
-    contact = None
+    contact = closed_max = None
     if closed:
-        contact = -(-np.min(np.abs(dc.i_throw[:, closed]), axis=1)).reshape(m, nv).max(axis=1)
+        through = np.abs(dc.i_throw[:, closed])
+        contact = np.min(through, axis=1).reshape(m, nv).min(axis=1)
+        closed_max = np.max(through, axis=1).reshape(m, nv).max(axis=1)
     required = np.where(high, rx["high_req"], rx["low_req"])
     margin = np.where(high, worst_v - required, required - worst_v)
     return {"undefined": False, "high": high, "nominal_v": pick(both.rx_v),
             "thevenin_v": pick(both.thevenin_v), "thevenin_ohms": pick(both.thevenin_ohms),
             "worst_v": worst_v, "required": required, "margin": margin,
-            "max_v": max_v, "pull_a": pull, "contact_a": contact}
+            "max_v": max_v, "pull_a": pull, "contact_a": contact, "closed_a": closed_max}
 
 
 def _cap_cols(model: LinearModel) -> tuple[int, ...]:
@@ -310,11 +313,12 @@ def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverEle
     out = []
     for i, st in enumerate(stages):
         j = int(inverse[i])
-        levels, pull, contact, surge_j, max_in = figures.row(j)
+        levels, pull, contact, surge_j, max_in, closed_max = figures.row(j)
         out.append(StageResult(
             stage=st, levels=dict(levels), edges={e: build(j, names[i]) for e, build in builders.items()},
             pull_current_a=pull, contact_current_a=contact, surge_peak_a=surge_j,
-            max_input_v=max_in, receiver_electrical=rxs[i], notes=notes_t,
+            max_input_v=max_in, receiver_electrical=rxs[i],
+            notes=st.notes + notes_t if st.notes else notes_t, closed_current_a=closed_max,
         ))
     return out
 
@@ -344,8 +348,10 @@ def _distinct(model: LinearModel, stages: list[Stage],
     return g, inverse.ravel(), names
 
 
-# What stages of one distinct row share: levels, pull, contact and surge currents, max input.
-_Shared = tuple[dict[str, LevelResult], float | None, float | None, float | None, float | None]
+# What stages of one distinct row share: levels, pull, contact and surge currents, max input,
+# largest closed-contact current.
+_Shared = tuple[dict[str, LevelResult], float | None, float | None, float | None, float | None,
+                float | None]
 
 
 class _RowFigures:
@@ -373,8 +379,11 @@ class _RowFigures:
         pulls = [d["pull_a"][j] for d in defined if math.isfinite(d["pull_a"][j])]
         contacts = [float(self.lv[s]["contact_a"][j]) for s in ACTUATOR_STATES
                     if self.lv[s]["contact_a"] is not None]
+        closed = [float(self.lv[s]["closed_a"][j]) for s in ACTUATOR_STATES
+                  if self.lv[s]["closed_a"] is not None]
         return (levels, max(pulls) if pulls else None, min(contacts) if contacts else None,
-                self.surge[j] if self.surge is not None else None, max_in)
+                self.surge[j] if self.surge is not None else None, max_in,
+                max(closed) if closed else None)
 
 
 def _level_result(state: ActuatorState, d: dict | None, j: int) -> LevelResult:
