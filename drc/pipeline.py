@@ -79,6 +79,22 @@ class CheckedBoard:
     reader_diagnostics: tuple = ()
 
 
+# What checking a board imports, beyond this module: `preload` imports it ahead.
+_CHECK_MODULES = ("drc.netlist.reader", "drc.config.annotations", "drc.board.classify", "drc.board.recognise",
+                  "drc.analysis.receiver", "drc.analysis.stage_analysis", "drc.checks", "drc.gate.decision",
+                  "drc.design.fixes", "drc.report.run_report")
+
+
+def preload() -> None:
+    """Import everything a check uses and read the rule library, so that worker
+    processes forked after this start ready (each would otherwise pay for it)."""
+    import importlib
+    for name in _CHECK_MODULES:
+        importlib.import_module(name)
+    library()
+    rule_ids()
+
+
 def library():
     from drc.library.catalogue import load_library
     return load_library()
@@ -133,7 +149,7 @@ def _reader_options(config: Config, options: CheckOptions):
 def analyse_board(board, config: Config) -> list[StageResult]:
     """Trace, recognise and analyse every input path of a classified board."""
     from drc.analysis.receiver import receiver_electrical
-    from drc.analysis.stage_analysis import analyse_stages
+    from drc.analysis.reuse import analyse_stages_reusing
     from drc.board.recognise import stages_for_board
     lib = library()
     cache: dict[tuple, object] = {}
@@ -148,8 +164,13 @@ def analyse_board(board, config: Config) -> list[StageResult]:
             cache[cache_key] = rx
         return rx
 
-    # One batch: stages of one circuit structure are solved together (physics.batch).
-    return analyse_stages(list(stages_for_board(board, config)), rx_for)
+    def analyse(stages, rxs):
+        # One batch: stages of one circuit structure are solved together (physics.batch).
+        from drc.analysis.stage_analysis import analyse_stages
+        return analyse_stages(stages, rxs)
+
+    # A stage seen before (on this board or an earlier one of the run) is not solved again.
+    return analyse_stages_reusing(list(stages_for_board(board, config)), rx_for, analyse)
 
 
 def effective_limits(config: Config) -> dict[str, float]:
@@ -300,17 +321,20 @@ def board_files(paths: Iterable[str | Path]) -> list[Path]:
 
 def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *,
           executor: Executor | None = None, baseline_path: str | None = None,
-          fail_level: str = "error", progress: Callable[[str | None], object] | None = None) -> RunReport:
+          fail_level: str = "error", progress: Callable[[str | None], object] | None = None,
+          workers: int = 2) -> RunReport:
     """Check many boards and assemble a RunReport (results in a stable order).
 
     executor: any concurrent.futures.Executor (a process pool, a cluster's
-    executor); None runs in this process. progress: called once per board.
+    executor); None runs in this process. workers: how many workers the
+    executor runs (boards go to it in about four chunks per worker).
+    progress: called once per board.
     """
     from drc.checks import all_rules
     from drc.gate.decision import run_waiver_notes
     from drc.report.run_report import RunReport
     files = [str(f) for f in board_files(paths)]
-    summaries = _check_boards(files, options, executor, progress)
+    summaries = _check_boards(files, options, executor, progress, workers)
     notes: list[str] = [n for s in summaries for n in s.notes]
     notes += run_waiver_notes(((s.waivers, s.waiver_outcome) for s in summaries),
                               options.today or date.today())
@@ -323,22 +347,74 @@ def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *
                      waiver_notes=tuple(notes), baseline=baseline_info, fixed=tuple(fixed))
 
 
+def check_boards(paths: list[str], options: CheckOptions = CheckOptions()) -> list[BoardSummary]:
+    """`check_board` over several boards, in their order: one task of a worker
+    (top-level and picklable; one round trip per chunk of boards, not per board)."""
+    return [check_board(p, options) for p in paths]
+
+
+def _content_digest(path: str) -> str:
+    """A digest of the file's bytes (its path when it cannot be read: the check reports that)."""
+    import hashlib
+    try:
+        with open(path, "rb") as handle:
+            return hashlib.file_digest(handle, "sha256").hexdigest()
+    except OSError:
+        return "unreadable:" + path
+
+
+def chunks(items: list[str], workers: int, group=_content_digest) -> list[list[int]]:
+    """Indices of `items` cut into chunks, about four per worker (so that a slow
+    board does not leave the other workers idle for long).
+
+    Items of one group (by default: files with the same bytes) go to one chunk
+    where they fit in twice a chunk's share, so that one worker checks all the
+    copies of a board and analyses its stages once (`analysis.reuse`).
+    """
+    if not items:
+        return []
+    target = max(1, -(-len(items) // (4 * max(1, workers))))
+    groups: dict[str, list[int]] = {}
+    for i, item in enumerate(items):
+        groups.setdefault(group(item), []).append(i)
+    out: list[list[int]] = []
+    current: list[int] = []
+    for members in groups.values():
+        pieces = [members] if len(members) <= 2 * target else \
+            [members[k:k + target] for k in range(0, len(members), target)]
+        for piece in pieces:
+            if current and len(current) + len(piece) > target:
+                out.append(current)
+                current = []
+            current = current + piece
+            if len(current) >= target:
+                out.append(current)
+                current = []
+    if current:
+        out.append(current)
+    return out
+
+
 def _check_boards(files: list[str], options: CheckOptions, executor: Executor | None,
-                  progress: Callable[[str | None], object] | None) -> list[BoardSummary]:
-    """`check_board` over the files, in their order, here or on the executor."""
-    summaries: list[BoardSummary] = []
+                  progress: Callable[[str | None], object] | None, workers: int) -> list[BoardSummary]:
+    """`check_board` over the files, in their order, here or on the executor
+    (chunks of consecutive boards, one task each)."""
     if executor is None:
+        summaries: list[BoardSummary] = []
         for f in files:
             summaries.append(check_board(f, options))
             if progress:
                 progress(f)
         return summaries
-    futures = [executor.submit(check_board, f, options) for f in files]
-    for future in futures:
-        summaries.append(future.result())
-        if progress:
-            progress(None)
-    return summaries
+    parts = chunks(files, workers)
+    futures = [executor.submit(check_boards, [files[i] for i in part], options) for part in parts]
+    by_index: dict[int, BoardSummary] = {}
+    for part, future in zip(parts, futures, strict=True):
+        for i, summary in zip(part, future.result(), strict=True):
+            by_index[i] = summary
+            if progress:
+                progress(summary.report.path)
+    return [by_index[i] for i in range(len(files))]
 
 
 def _apply_baseline(reports: list[BoardReport], baseline_path: str

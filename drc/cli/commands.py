@@ -147,26 +147,55 @@ def _board_files(paths: list[str]) -> list[Path]:
     return files
 
 
-def _executor(jobs: int, boards: int):
-    """A process pool for --jobs N over several boards (its workers pause the collector)."""
-    if jobs <= 1 or boards <= 1:
+def processors() -> int:
+    """The processors this process may run on."""
+    import os
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return max(1, os.cpu_count() or 1)
+
+
+def worker_count(jobs: int, boards: int) -> tuple[int, str | None]:
+    """Workers for `--jobs N` over `boards` boards: never more than the boards or the
+    processors; with a note on standard error when the request was lowered."""
+    cpus = processors()
+    workers = max(1, min(jobs, boards, cpus))
+    if workers >= jobs:
+        return workers, None
+    reasons = []
+    if boards < jobs:
+        reasons.append(f"{boards} board{'s' if boards != 1 else ''}")
+    if cpus < jobs:
+        reasons.append(f"{cpus} processor{'s' if cpus != 1 else ''}")
+    return workers, f"drc: --jobs {jobs} lowered to {workers} ({', '.join(reasons)})"
+
+
+def _executor(workers: int):
+    """A process pool of `workers` processes (started once; they pause the collector)."""
+    if workers <= 1:
         return None
     from concurrent.futures import ProcessPoolExecutor
 
     from drc.cli.gcpause import pause_collection_in_worker
-    return ProcessPoolExecutor(max_workers=jobs, initializer=pause_collection_in_worker)
+    from drc.pipeline import preload
+    preload()  # workers forked from here start with the modules and the library loaded
+    return ProcessPoolExecutor(max_workers=workers, initializer=pause_collection_in_worker)
 
 
 def _audit(files: list[Path], options, args, fail_level: str):
     """The run over every board, on a process pool for --jobs, with a progress bar on a terminal."""
     from drc.pipeline import audit
-    executor = _executor(args.jobs, len(files))
+    workers, note = worker_count(args.jobs, len(files))
+    if note:
+        sys.stderr.write(note + "\n")
+    executor = _executor(workers)
     progress, tick = _progress(len(files))
     try:
         if progress:
             progress.start()
         return audit(files, options, executor=executor, baseline_path=args.baseline,
-                     fail_level=fail_level, progress=tick)
+                     fail_level=fail_level, progress=tick, workers=workers)
     finally:
         if progress:
             progress.stop()
