@@ -139,10 +139,12 @@ def analyse_stages_reusing(stages: Sequence[Stage], rx_for: Callable[[Stage], Re
             if key is not None and key not in _RESULTS:
                 _RESULTS.put(key, (result, _names(stages[i].circuit)))
     for i, source in later:
-        result = out[source]
-        assert result is not None
-        again = _renamed(result, _names(stages[source].circuit), stages[i], _names(stages[i].circuit))
+        first = out[source]
+        assert first is not None
+        again = _renamed(first, _names(stages[source].circuit), stages[i], _names(stages[i].circuit))
         if again is None:
             again = analyse([stages[i]], [rx_for(stages[i])])[0]
         out[i] = again
-    return [r for r in out if r is not None]
+    done = [r for r in out if r is not None]
+    assert len(done) == len(stages)
+    return done
