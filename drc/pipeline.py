@@ -26,6 +26,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from drc.analysis.results import StageResult
+from drc.caching import memoized
 from drc.checks.findings import Finding
 from drc.config.settings import Config, Waiver
 from drc.errors import DrcError
@@ -47,6 +48,8 @@ class CheckOptions:
     from the command line (added to the config's). propose_fixes: search
     standard-value fixes for failing stages. reader_limits: ReaderOptions
     overrides as (name, value) pairs. today: the date waivers expire against.
+    result_cache: keep each board's result on disk and reuse it while nothing
+    it depends on changed (drc.diskcache; the command line's default).
     """
 
     config_path: str | None = None
@@ -58,6 +61,7 @@ class CheckOptions:
     include_folders: tuple[str, ...] = ()
     reader_limits: tuple[tuple[str, int], ...] = ()
     today: date | None = None
+    result_cache: bool = False
 
 
 @dataclass(frozen=True)
@@ -284,7 +288,22 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
     """Check one board; a bad board becomes a report with an error, never an exception.
 
     Top-level and picklable, so a process pool or a cluster executor can run it.
+    With `options.result_cache`, an unchanged board's result comes from disk.
     """
+    key = _result_key(str(path), options) if options.result_cache else None
+    if key is not None:
+        from drc import diskcache
+        kept = diskcache.load("board", key)
+        if isinstance(kept, BoardSummary):
+            return kept
+    summary = _check_board_now(path, options)
+    if key is not None and not summary.failed:
+        from drc import diskcache
+        diskcache.store("board", key, summary, files=[f for f in summary.report.files if f != str(path)])
+    return summary
+
+
+def _check_board_now(path: str | Path, options: CheckOptions) -> BoardSummary:
     from drc.report.run_report import BoardReport
     try:
         check = check_board_in_memory(path, options)
@@ -293,6 +312,45 @@ def check_board(path: str | Path, options: CheckOptions = CheckOptions()) -> Boa
     notes = tuple(n.message for n in check.annotation_notes)
     waivers = tuple(check.config.waivers) if check.config else ()
     return BoardSummary(board_report(check), notes, waivers, check.waiver_outcome)
+
+
+def _result_key(path: str, options: CheckOptions) -> str | None:
+    """The disk cache key of a board's result: the board's path and bytes, the folder
+    it is read from, the config in force (path and bytes), the options (today's date
+    included: waivers expire), the rules data and the rule packs installed (the
+    tool's own fingerprint is added by drc.diskcache). Its included files are
+    checked when an entry is loaded. None when the board cannot be read."""
+    import os
+
+    from drc import diskcache
+    from drc.config import loading as loader
+    try:
+        config = options.config_path or (loader.discover_config(Path(path)) if not path.startswith("<") else None)
+        config_digest = (str(config), diskcache.file_digest(config)) if config else None
+        material = (path, os.getcwd(), diskcache.file_digest(path), config_digest,
+                    replace(options, today=options.today or date.today()), _rules_digest(), _rule_packs())
+    except (OSError, DrcError, ValueError):
+        return None
+    return diskcache.make_key("board", material)
+
+
+@memoized(1)
+def _rules_digest() -> str:
+    from drc import diskcache
+    from drc.datafiles import data_folder
+    return diskcache.folder_digest(data_folder("rules"))
+
+
+@memoized(1)
+def _rule_packs() -> tuple[tuple[str, str, str], ...]:
+    """Rule packs installed (entry point name, module, distribution version): their rules
+    change results."""
+    from importlib.metadata import entry_points
+    found = []
+    for point in entry_points(group="drc.rules"):
+        dist = getattr(point, "dist", None)
+        found.append((point.name, point.value, getattr(dist, "version", "") if dist else ""))
+    return tuple(sorted(found))
 
 
 def check_netlist_text(text: str, path: str = "<example>", config: Config | None = None,

@@ -14,7 +14,7 @@ import networkx as nx
 PACKAGE = Path(__file__).resolve().parents[1] / "drc"
 
 # Top-level leaves every subpackage may use.
-LEAVES = {"drc", "errors", "severity", "units", "caching", "datafiles", "atomic"}
+LEAVES = {"drc", "errors", "severity", "units", "caching", "datafiles", "atomic", "diskcache"}
 # subpackage (or top module) -> what else it may import, besides the leaves.
 ALLOWED: dict[str, set[str]] = {
     "netlist": set(),

@@ -61,6 +61,8 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--quiet", "-q", action="store_true", help="only errors and the summary")
     check.add_argument("--eseries", metavar="SERIES", help="series for proposed values (E12, E24, E96...)")
     check.add_argument("--no-fixes", action="store_true", help="skip the search for standard-value fixes")
+    check.add_argument("--no-cache", action="store_true", help="check every board afresh: neither read nor "
+                       "write the result cache (kept in the user's cache folder, or $DRC_CACHE_DIR)")
     check.add_argument("--include-folder", action="append", default=[], metavar="DIR",
                        help="a folder .include/.lib may read from (besides the board's own)")
     check.add_argument("--as-of", metavar="YYYY-MM-DD", help="the date waivers expire against (default today)")

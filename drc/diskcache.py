@@ -1,0 +1,280 @@
+"""Results kept on disk between runs, and never trusted blindly.
+
+Re-checking an unchanged board should cost next to nothing, so a run keeps
+each board's report record (and the parsed rule library) in the user's cache
+folder (platformdirs; `DRC_CACHE_DIR` overrides it, which the tests use),
+under a key that is a digest of everything the result depends on. The
+caller builds the key's material; this module digests it, adds the tool's
+own fingerprint (its version and the size and time of every source file, so
+an edited checkout never reads what older code wrote), and stores and loads
+entries.
+
+An entry is one file: a header line (format tag, kind, the full key, a
+SHA-256 of the payload, and the files the result was read from with their
+own digests) and the payload. Loading checks all of it (a damaged,
+truncated, foreign or stale entry is a miss, never an error) and re-hashes
+the listed files, so a change to an included file misses too. The payload
+is JSON in a typed form read by `decode`, which builds only the frozen
+records and enums of the drc package (by name, checked to be a dataclass or
+an enum defined in drc) and plain data: no pickle, no code named by the
+file is ever run. Writing is best effort (temp file and rename); a cache
+folder that cannot be written simply caches nothing.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import hashlib
+import importlib
+import math
+import os
+import sys
+import tempfile
+from collections.abc import Callable, Iterable
+from datetime import date
+from enum import Enum
+from pathlib import Path, PurePath
+from typing import Any
+
+from drc import __version__
+from drc.caching import memoized
+
+FORMAT = "drc-cache/1"
+CACHE_ENV = "DRC_CACHE_DIR"
+_PACKAGE = Path(__file__).resolve().parent
+
+
+def cache_folder() -> Path:
+    """`$DRC_CACHE_DIR`, else the user's cache folder for drc (platformdirs)."""
+    override = os.environ.get(CACHE_ENV)
+    if override:
+        return Path(override)
+    import platformdirs
+    return Path(platformdirs.user_cache_dir("drc", appauthor=False))
+
+
+@memoized(1)
+def tool_fingerprint() -> str:
+    """The version, the Python running it, and every source file's name, size and time."""
+    digest = hashlib.sha256(f"{__version__}\0{sys.version}\0{_PACKAGE}".encode())
+    for folder, dirs, files in os.walk(_PACKAGE):
+        dirs[:] = sorted(d for d in dirs if d != "__pycache__")
+        for name in sorted(files):
+            if name.endswith((".py", ".lark", ".toml", ".j2", ".css")):
+                stat = os.stat(os.path.join(folder, name))
+                digest.update(f"{folder}/{name}\0{stat.st_size}\0{stat.st_mtime_ns}\0".encode())
+    return digest.hexdigest()
+
+
+def file_digest(path: str | os.PathLike) -> str:
+    with open(path, "rb") as handle:
+        return hashlib.file_digest(handle, "sha256").hexdigest()
+
+
+def folder_digest(folder: Path, pattern: str = "*.toml") -> str:
+    """A digest of the names and bytes of the folder's files matching `pattern`."""
+    digest = hashlib.sha256()
+    for path in sorted(folder.glob(pattern)):
+        digest.update(path.name.encode() + b"\0" + file_digest(path).encode() + b"\0")
+    return digest.hexdigest()
+
+
+def make_key(kind: str, material: Iterable[object]) -> str:
+    """The key of an entry: a digest of its kind, the tool's fingerprint and `material`
+    (each item by its repr: give plain values)."""
+    digest = hashlib.sha256(f"{FORMAT}\0{kind}\0{tool_fingerprint()}".encode())
+    for item in material:
+        digest.update(b"\0" + repr(item).encode())
+    return digest.hexdigest()
+
+
+# ------------------------------------------------------------------ entries
+
+def _entry_path(kind: str, key: str) -> Path:
+    return cache_folder() / kind / key[:2] / f"{key}.json"
+
+
+def load(kind: str, key: str) -> Any | None:
+    """The value stored under `key`, or None (no entry, or one that fails any check)."""
+    import orjson
+    try:
+        with open(_entry_path(kind, key), "rb") as handle:
+            data = handle.read()
+        head, sep, payload = data.partition(b"\n")
+        if not sep:
+            return None
+        header = orjson.loads(head)
+        if (type(header) is not dict or header.get("format") != FORMAT or header.get("kind") != kind
+                or header.get("key") != key or header.get("sha256") != hashlib.sha256(payload).hexdigest()):
+            return None
+        for path, digest in header.get("files", ()):
+            if file_digest(path) != digest:
+                return None
+        return decode(orjson.loads(payload))
+    except Exception:  # a damaged or foreign entry is a miss, whatever is wrong with it
+        return None
+
+
+def store(kind: str, key: str, value: Any, files: Iterable[str] = ()) -> bool:
+    """Keep `value` under `key` (with the digests of `files`, checked on loading);
+    False when it could not be encoded or written (nothing is kept then)."""
+    import orjson
+    try:
+        payload = orjson.dumps(encode(value))
+        header = {"format": FORMAT, "kind": kind, "key": key,
+                  "sha256": hashlib.sha256(payload).hexdigest(),
+                  "files": [[str(f), file_digest(f)] for f in files]}
+        target = _entry_path(kind, key)
+        target.parent.mkdir(parents=True, exist_ok=True)
+        fd, temp = tempfile.mkstemp(dir=target.parent, prefix=".entry.", suffix=".tmp")
+        try:
+            with os.fdopen(fd, "wb") as handle:
+                handle.write(orjson.dumps(header) + b"\n" + payload)
+            os.replace(temp, target)
+        except BaseException:
+            os.unlink(temp)
+            raise
+        return True
+    except Exception:  # best effort: a read-only or full cache folder caches nothing
+        return False
+
+
+# ------------------------------------------------------------------ typed JSON
+
+_ENCODERS: dict[type, Callable[[Any], Any]] = {}
+
+
+def encode(value: Any) -> Any:
+    """`value` as JSON data that `decode` turns back into an equal value.
+
+    Handles None, bool, int, str, float (non-finite too), list, tuple, dict,
+    set, frozenset, date, paths, enums and dataclasses of the drc package;
+    TypeError for anything else.
+    """
+    kind = type(value)
+    if kind is str or kind is int or kind is bool or value is None:
+        return value
+    if kind is float:
+        return value if math.isfinite(value) else {"~f": repr(value)}
+    if kind is list:
+        return [encode(v) for v in value]
+    if kind is tuple:
+        return {"~t": [encode(v) for v in value]}
+    if kind is dict:
+        return {"~m": [[encode(k), encode(v)] for k, v in value.items()]}
+    handler = _ENCODERS.get(kind)
+    if handler is None:
+        handler = _ENCODERS[kind] = _encoder_for(kind)
+    return handler(value)
+
+
+def _class_name(kind: type) -> str:
+    if not kind.__module__.startswith("drc.") or "<" in kind.__qualname__:
+        raise TypeError(f"not a drc record: {kind.__module__}.{kind.__qualname__}")
+    return f"{kind.__module__}:{kind.__qualname__}"
+
+
+def _encoder_for(kind: type) -> Callable[[Any], Any]:
+    if issubclass(kind, Enum):
+        name = _class_name(kind)
+        return lambda v: {"~e": name, "v": v.value}
+    if dataclasses.is_dataclass(kind):
+        name = _class_name(kind)
+        fields = tuple(f.name for f in dataclasses.fields(kind))
+        return lambda v: {"~d": name, "v": [encode(getattr(v, f)) for f in fields]}
+    if issubclass(kind, (set, frozenset)):
+        tag = "~s" if issubclass(kind, frozenset) else "~S"
+        return lambda v: {tag: [encode(x) for x in v]}
+    if kind is date:
+        return lambda v: {"~date": v.isoformat()}
+    if issubclass(kind, PurePath):
+        return lambda v: {"~p": str(v)}
+    raise TypeError(f"cannot keep a {kind.__name__} in the cache")
+
+
+_CLASSES: dict[str, tuple[type, tuple[str, ...] | None]] = {}
+
+
+def _record_class(name: str) -> tuple[type, tuple[str, ...] | None]:
+    """The drc dataclass or enum called `name` ("module:Qualname") and its fields;
+    ValueError for any other name."""
+    known = _CLASSES.get(name)
+    if known is not None:
+        return known
+    module, _, qualname = name.partition(":")
+    # Only drc's own modules, never a private one (drc.cli.__main__ would run the program).
+    parts = module.split(".")
+    if parts[0] != "drc" or not all(p.isidentifier() and not p.startswith("_") for p in parts[1:]) \
+            or not qualname.isidentifier():
+        raise ValueError(f"not a drc record: {name}")
+    kind = getattr(importlib.import_module(module), qualname)
+    if not isinstance(kind, type) or kind.__module__ != module:
+        raise ValueError(f"not a drc record: {name}")
+    if issubclass(kind, Enum):
+        found: tuple[type, tuple[str, ...] | None] = (kind, None)
+    elif dataclasses.is_dataclass(kind):
+        found = (kind, tuple(f.name for f in dataclasses.fields(kind)))
+    else:
+        raise ValueError(f"not a drc record: {name}")
+    _CLASSES[name] = found
+    return found
+
+
+_new = object.__new__
+_set = object.__setattr__
+
+
+def _record(data: dict) -> object:
+    cls, fields = _record_class(data["~d"])
+    values = data["v"]
+    if fields is None or type(values) is not list or len(values) != len(fields):
+        raise ValueError("a record does not match its class")
+    record: object = _new(cls)
+    for field, value in zip(fields, values, strict=True):
+        _set(record, field, decode(value))
+    return record
+
+
+def _enum(data: dict) -> object:
+    cls, fields = _record_class(data["~e"])
+    if fields is not None:
+        raise ValueError("not an enum")
+    return cls(data["v"])
+
+
+def _float(text: str) -> float:
+    if text not in ("nan", "inf", "-inf"):
+        raise ValueError("not a float")
+    return float(text)
+
+
+# tag -> how to read its value (records and enums, with two keys, are read apart)
+_TAGS: dict[str, Callable[[Any], Any]] = {
+    "~t": lambda v: tuple(decode(x) for x in v),
+    "~m": lambda v: {decode(k): decode(x) for k, x in v},
+    "~f": _float,
+    "~s": lambda v: frozenset(decode(x) for x in v),
+    "~S": lambda v: {decode(x) for x in v},
+    "~date": date.fromisoformat,
+    "~p": Path,
+}
+
+
+def decode(data: Any) -> Any:
+    """The value `encode` wrote (ValueError, TypeError or KeyError on anything else)."""
+    kind = type(data)
+    if kind is list:
+        return [decode(v) for v in data]
+    if kind is not dict:
+        if data is None or kind is str or kind is int or kind is float or kind is bool:
+            return data
+        raise TypeError(f"unexpected {kind.__name__}")
+    if len(data) == 2:
+        if "~d" in data:
+            return _record(data)
+        if "~e" in data:
+            return _enum(data)
+    if len(data) == 1:
+        ((tag, value),) = data.items()
+        return _TAGS[tag](value)
+    raise ValueError("unknown tag")
