@@ -1,37 +1,44 @@
-"""The speed benchmarks of the README, side by side in one run.
+"""Every speed ratio of the README, measured side by side in one run.
 
-For each size (default 10k, 100k, 300k, 1M flattened elements) it generates
-a seeded board with benchmarks/generate.py (--ngspice-safe, so ngspice reads
-the very same file; contacts as X instances, every stage kind but firmware,
-a few thousand contacts at 100k, mostly flat lines) and takes the median of
-several runs of:
-
-  check      `drc check FILE --format json --no-fixes` as a subprocess (the
-             console script if installed, else `python -m drc.cli`; start-up
-             included): read, flatten, trace, analyse every stage at its
-             corners, every rule, JSON out;
-  +fixes     the same with the standard-value fix search (the default of
-             `drc check`), at the sizes given by --fix-sizes;
-  ngspice    `ngspice -n -b` on the deck with a `.control / quit / .endc`
-             block: parse and expand only;
-  split      bare Python in-process: read the file, split every line into words.
-
-Peak memory is the child's maximum resident set (resource.getrusage of
-children, one child per measurement). Children run from compiled bytecode
+Each figure is the median of several fresh processes (3 by default), run one
+at a time; times are the child's CPU time (user + system, so that other
+load on a shared machine counts less), except where parallelism is the point
+(`--jobs`), which is wall time. Every child runs `drc` from compiled bytecode
 (a cache prefix in the temporary folder, warmed once), as an installed
-package does. Then the archive (1000 demo-sized boards, `drc check DIR
---jobs 2`, start-up included, boards/s; with the fix search, the default,
-and with --no-fixes) and stage
-analysis alone (10,000 stages with distinct values, `analysis.analyse_stages`,
-in-process; plus the same count of repeated stages, as a keypad has them).
+package does, with its result cache in a temporary folder (never the user's)
+and `--no-cache` unless the measurement is the cache itself. ngspice reads
+the very same deck with a `.control / quit / .endc` block: parse and expand
+only (`ngspice -n -b`).
 
-    python benchmarks/run.py                  # everything, writes benchmarks/results.md
-    python benchmarks/run.py --sizes 10000 --runs 1 --archive 100
+What is measured (the goals of the speed issue, each a ratio):
+
+  text / json      the 100k board, `--format text` piped vs `--format json` (<= 1.3)
+  small board      each demo board (boards/lx24), `drc check BOARD` (text, fixes on,
+                   no cache) vs ngspice's parse of the same deck made readable
+                   for ngspice (2-node switches as X instances, a dummy
+                   subcircuit per unknown part) (<= 12); also with the cache warm
+  re-run           200 demo boards (boards/lx24 copied 50 times), a second check
+                   with the cache warm vs the first with it empty; the reports
+                   must be byte-identical (<= 0.25)
+  workers          the same 200 boards, `--jobs 2` vs `--jobs 1`, wall (<= 0.75);
+                   also on 200 generated demo-sized boards (distinct values)
+  fixes            the 10k board and the 200 demo boards, with the fix search vs
+                   `--no-fixes` (<= 1.5)
+  big board        100k elements, `--format json --no-fixes` vs ngspice: the
+                   generated board of benchmarks/generate.py (<= 2) and a flat
+                   board with one contact per 14 elements (<= 2.5)
+  memory           peak resident memory of the 1M-element check (< 500 MB)
+
+plus the size table (10k to 1M elements) and stage analysis alone.
+
+    python benchmarks/run.py                    # everything, writes benchmarks/results.md
+    python benchmarks/run.py --sizes 10000 --runs 1 --quick
 """
 
 from __future__ import annotations
 
 import argparse
+import json
 import os
 import platform
 import random
@@ -50,20 +57,20 @@ ROOT = HERE.parent
 sys.path.insert(0, str(HERE))
 from generate import default_contacts, generate  # noqa: E402
 
+_TMP = Path(tempfile.mkdtemp(prefix="drc-bench-"))
 _ENV = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
 # Children run from compiled bytecode, as an installed package does (pip compiles
 # it): written once, outside the source tree, even where the environment says
 # not to write bytecode (PYTHONDONTWRITEBYTECODE would make every run compile drc).
 _ENV.pop("PYTHONDONTWRITEBYTECODE", None)
 _ENV["PYTHONPYCACHEPREFIX"] = os.path.join(tempfile.gettempdir(), "drc-bench-pycache")
+_ENV["DRC_CACHE_DIR"] = str(_TMP / "cache")  # never the user's cache folder
+_ENV.pop("COVERAGE_PROCESS_START", None)
 
-
-def warm_bytecode() -> None:
-    """One untimed run that leaves the compiled modules in the cache prefix."""
-    subprocess.run(drc_command() + ["--version"], capture_output=True, env=_ENV)
-    subprocess.run([sys.executable, "-c", "import drc.pipeline, drc.cli, drc.cli.commands, drc.netlist.reader, "
-                    "drc.board.classify, drc.board.recognise, drc.analysis.stage_analysis, drc.checks, "
-                    "drc.design.fixes, drc.report.json_report, drc.library.catalogue"], capture_output=True, env=_ENV)
+# One child, and the peak resident memory of that child alone (kB on Linux).
+_PEAK = ("import resource, subprocess, sys; p = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, "
+         "stderr=subprocess.DEVNULL); print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss); "
+         "sys.exit(p.returncode)")
 
 
 def drc_command() -> list[str]:
@@ -72,102 +79,169 @@ def drc_command() -> list[str]:
     return [exe] if exe else [sys.executable, "-m", "drc.cli"]
 
 
-def _child(cmd: list[str], cwd: str, env=None) -> tuple[float, float, subprocess.CompletedProcess]:
-    """(seconds, peak RSS MB of this child, process). One child at a time, so the
-    children's maximum RSS after it is this child's (it only grows)."""
-    before = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-    start = time.perf_counter()
-    proc = subprocess.run(cmd, capture_output=True, text=True, cwd=cwd, env=env or _ENV)
-    seconds = time.perf_counter() - start
-    after = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-    peak = max(after, before) / 1024.0  # kB on Linux
-    return seconds, (peak if after > before else float("nan")), proc
-
-
-def _peak_via_time(cmd: list[str], cwd: str) -> float:
-    """Peak RSS (MB) of one run through /usr/bin/time -v, when available."""
-    if not Path("/usr/bin/time").exists():
-        return float("nan")
-    proc = subprocess.run(["/usr/bin/time", "-v"] + cmd, capture_output=True, text=True, cwd=cwd, env=_ENV)
-    for line in proc.stderr.splitlines():
-        if "Maximum resident set size" in line:
-            return int(line.split(":")[1]) / 1024.0
-    return float("nan")
+def warm_bytecode() -> None:
+    """Untimed runs that leave the compiled modules in the cache prefix."""
+    subprocess.run(drc_command() + ["--version"], capture_output=True, env=_ENV)
+    board = ROOT / "boards" / "lx24" / "front_panel.cir"
+    for fmt in ("text", "json"):
+        subprocess.run(drc_command() + ["check", str(board), "--format", fmt, "--no-cache"],
+                       capture_output=True, env=_ENV)
 
 
 @dataclass
-class Timed:
-    seconds: float
-    peak_mb: float
+class Run:
+    cpu: float  # seconds of CPU (user + system), children included
+    wall: float
+    status: int
+    stdout: bytes
 
 
-def time_check(path: Path, runs: int, fixes: bool) -> tuple[Timed, str]:
-    cmd = drc_command() + ["check", str(path), "--format", "json", "--report-only"]
+def run_once(cmd: list[str], cwd: Path | None = None, env: dict | None = None) -> Run:
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
+    start = time.perf_counter()
+    proc = subprocess.run(cmd, stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, cwd=cwd, env=env or _ENV)
+    wall = time.perf_counter() - start
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return Run(cpu, wall, proc.returncode, proc.stdout)
+
+
+@dataclass
+class Measure:
+    cpu: float
+    wall: float
+    stdout: bytes
+
+
+def measure(cmd: list[str], runs: int, cwd: Path | None = None, env: dict | None = None,
+            before_each=None, ok=(0, 1)) -> Measure:
+    """Medians of `runs` fresh processes (`before_each()` is called, untimed, before each)."""
+    got = []
+    for _ in range(runs):
+        if before_each:
+            before_each()
+        r = run_once(cmd, cwd, env)
+        if r.status not in ok:
+            raise RuntimeError(f"{' '.join(cmd)} exited {r.status}")
+        got.append(r)
+    return Measure(statistics.median(r.cpu for r in got), statistics.median(r.wall for r in got), got[-1].stdout)
+
+
+def peak_mb(cmd: list[str]) -> float:
+    proc = subprocess.run([sys.executable, "-c", _PEAK, *cmd], capture_output=True, text=True, env=_ENV)
+    try:
+        return int(proc.stdout.split()[-1]) / 1024.0
+    except (ValueError, IndexError):
+        return float("nan")
+
+
+def check_cmd(path: Path, fmt: str = "json", fixes: bool = False, cache: bool = False, *extra: str) -> list[str]:
+    cmd = drc_command() + ["check", str(path), "--format", fmt, "--report-only",
+                           "--max-elements", "10000000", *extra]
     if not fixes:
         cmd.append("--no-fixes")
-    # the reader refuses more than 1M flattened elements by default (a safety limit)
-    cmd += ["--max-elements", "10000000"]
-    times, out = [], ""
-    for _ in range(runs):
-        seconds, _, proc = _child(cmd, str(path.parent))
-        if proc.returncode not in (0, 1):
-            raise RuntimeError(f"drc check failed ({proc.returncode}): {proc.stderr[-2000:]}")
-        times.append(seconds)
-        out = proc.stdout
-    return Timed(statistics.median(times), _peak_via_time(cmd, str(path.parent))), out
+    if not cache:
+        cmd.append("--no-cache")
+    return cmd
 
 
-def ngspice_deck(path: Path, folder: Path) -> Path:
-    text = path.read_text(encoding="utf-8").rstrip()
-    if text.lower().endswith(".end"):
-        text = text[:-4]
-    deck = folder / (path.stem + "_deck.cir")
-    deck.write_text(text + "\n.control\nquit\n.endc\n.end\n", encoding="utf-8")
+# ------------------------------------------------------------------ ngspice
+
+def ngspice_deck(text: str, name: str) -> Path:
+    """The deck as ngspice reads it: a `.control / quit / .endc` block before `.end`;
+    2-node switches become X instances and every unknown subcircuit gets a dummy
+    definition (one resistor), so ngspice expands everything drc reads."""
+    lines: list[str] = []
+    for raw in text.splitlines():
+        if raw.startswith("+") and lines:
+            lines[-1] += " " + raw[1:]
+        else:
+            lines.append(raw)
+    while lines and not lines[-1].strip():
+        lines.pop()
+    if lines and lines[-1].strip().lower() == ".end":
+        lines.pop()
+    defined = {ln.split()[1].upper() for ln in lines[1:] if ln.lower().startswith(".subckt")}
+    out, needed = [lines[0]], {}
+    for line in lines[1:]:
+        words = line.split()
+        if words and words[0][0] in "Ss" and len(words) == 4 and not line.lstrip().startswith("*"):
+            line, words = "X" + line, ["X" + words[0]] + words[1:]
+        if words and words[0][0] in "Xx" and words[-1].upper() not in defined:
+            ports = len([w for w in words[1:-1] if "=" not in w])
+            needed[words[-1].upper()] = max(ports, needed.get(words[-1].upper(), 0))
+        out.append(line)
+    for part, ports in needed.items():
+        out.append(f".subckt {part} " + " ".join(f"p{k}" for k in range(1, ports + 1)))
+        out.append("Rq p1 p2 1meg" if ports >= 2 else "Rq p1 0 1meg")
+        out.append(f".ends {part}")
+    deck = _TMP / f"{name}_ngspice.cir"
+    deck.write_text("\n".join(out + [".control", "quit", ".endc", ".end"]) + "\n", encoding="utf-8")
     return deck
 
 
-def time_ngspice(path: Path, runs: int) -> Timed | None:
+def time_ngspice(deck: Path, runs: int) -> Measure | None:
     exe = shutil.which("ngspice")
     if exe is None:
         return None
-    with tempfile.TemporaryDirectory() as tmp:
-        deck = ngspice_deck(path, Path(tmp))
-        cmd = [exe, "-n", "-b", str(deck)]
-        env = dict(os.environ, HOME=tmp)
-        times = [_child(cmd, tmp, env)[0] for _ in range(runs)]
-        return Timed(statistics.median(times), _peak_via_time(cmd, tmp))
+    home = _TMP / "ngspice-home"
+    home.mkdir(exist_ok=True)
+    return measure([exe, "-n", "-b", str(deck)], runs, cwd=home, env=dict(os.environ, HOME=str(home)))
 
 
-def time_split(path: Path, runs: int) -> float:
-    times = []
-    for _ in range(runs):
-        start = time.perf_counter()
-        with open(path, encoding="utf-8") as handle:
-            words = [line.split() for line in handle]
-        times.append(time.perf_counter() - start)
-        del words
-    return statistics.median(times)
+# ------------------------------------------------------------------ archives
+
+def demo_archive(copies: int) -> Path:
+    """The demo boards copied `copies` times (with their config), as a folder."""
+    folder = _TMP / "demo-archive"
+    if not folder.exists():
+        folder.mkdir()
+        for board in sorted((ROOT / "boards" / "lx24").glob("*.cir")):
+            for i in range(copies):
+                shutil.copy(board, folder / f"{board.stem}_{i:03d}.cir")
+        shutil.copy(ROOT / "boards" / "lx24" / "drc.toml", folder / "drc.toml")
+    return folder
 
 
-def time_archive(count: int, jobs: int, runs: int, tmp: Path, fixes: bool = True) -> tuple[float, int]:
-    """boards/s for `drc check DIR --jobs N` over `count` demo-sized boards."""
-    folder = tmp / "archive"
-    folder.mkdir(exist_ok=True)
-    for i in range(count):
-        path = folder / f"board{i:04d}.cir"
-        if not path.exists():
-            path.write_text(generate(120, 1000 + i, contacts=6), encoding="utf-8")
+def generated_archive(count: int) -> Path:
+    """`count` generated demo-sized boards (120 elements, 6 contacts), each its own values."""
+    folder = _TMP / "generated-archive"
+    if not folder.exists():
+        folder.mkdir()
+        for i in range(count):
+            (folder / f"board{i:04d}.cir").write_text(generate(120, 1000 + i, contacts=6), encoding="utf-8")
+    return folder
+
+
+def archive_cmd(folder: Path, jobs: int, fixes: bool = True, cache: bool = False) -> list[str]:
     cmd = drc_command() + ["check", str(folder), "--format", "json", "--report-only", "--jobs", str(jobs)]
     if not fixes:
         cmd.append("--no-fixes")
-    times = []
-    for _ in range(runs):
-        seconds, _, proc = _child(cmd, str(tmp))
-        if proc.returncode not in (0, 1):
-            raise RuntimeError(f"archive check failed: {proc.stderr[-2000:]}")
-        times.append(seconds)
-    return count / statistics.median(times), count
+    if not cache:
+        cmd.append("--no-cache")
+    return cmd
 
+
+def empty_cache() -> None:
+    shutil.rmtree(_ENV["DRC_CACHE_DIR"], ignore_errors=True)
+
+
+def rerun(folder: Path, runs: int) -> tuple[Measure, Measure, bool]:
+    """(first check with an empty cache, second with it warm, reports byte-identical)."""
+    firsts, seconds, same = [], [], True
+    for _ in range(runs):
+        empty_cache()
+        first = run_once(archive_cmd(folder, 1, cache=True))
+        second = run_once(archive_cmd(folder, 1, cache=True))
+        fresh = run_once(archive_cmd(folder, 1, cache=False))
+        same = same and first.stdout == second.stdout == fresh.stdout
+        firsts.append(first)
+        seconds.append(second)
+    med = lambda rs: Measure(statistics.median(r.cpu for r in rs), statistics.median(r.wall for r in rs), b"")  # noqa: E731
+    return med(firsts), med(seconds), same
+
+
+# ------------------------------------------------------------------ stage analysis alone
 
 def stage_analysis(count: int) -> tuple[float, float]:
     """(seconds for `count` distinct stages, seconds for `count` repeated ones), in-process."""
@@ -217,92 +291,148 @@ def stage_set(count: int, seed: int = 5):
     return stages, rxs
 
 
-def _fmt(x: float | None, unit: str = "s") -> str:
-    if x is None or x != x:
-        return "n/a"
-    return f"{x:.2f} {unit}" if unit == "s" else f"{x:.0f} {unit}"
+# ------------------------------------------------------------------ the run
+
+@dataclass
+class Goal:
+    what: str
+    value: float
+    limit: float
+    detail: str
+    below: bool = True  # the goal is value <= limit (else value >= limit)
+
+    def line(self) -> str:
+        met = self.value <= self.limit if self.below else self.value >= self.limit
+        sign = "<=" if self.below else ">="
+        return (f"| {self.what} | {self.value:.2f} | {sign} {self.limit:g} | {'met' if met else 'not met'} "
+                f"| {self.detail} |")
+
+
+def _s(x: float) -> str:
+    return f"{x:.2f} s" if x == x else "n/a"
+
+
+def size_rows(args, goals: list[Goal]) -> list[str]:
+    rows = ["| elements (lines) | contacts / stages | drc check --no-fixes: CPU (peak) | with fixes "
+            "| ngspice parse: CPU (peak) | check / ngspice |", "|---|---|---|---|---|---|"]
+    for size in args.sizes:
+        path = _TMP / f"board{size}.cir"
+        path.write_text(generate(size, args.seed, ngspice_safe=True), encoding="utf-8")
+        runs = args.runs if size < 1_000_000 else max(1, min(args.runs, 2))
+        check = measure(check_cmd(path), runs)
+        stages = sum(len(b.get("stages", [])) for b in json.loads(check.stdout)["boards"])
+        peak = peak_mb(check_cmd(path))
+        fixes = measure(check_cmd(path, fixes=True), runs) if size in args.fix_sizes else None
+        deck = ngspice_deck(path.read_text(encoding="utf-8"), path.stem)
+        spice = time_ngspice(deck, runs)
+        spice_peak = peak_mb(["ngspice", "-n", "-b", str(deck)]) if spice else float("nan")
+        lines = sum(1 for _ in open(path, encoding="utf-8"))
+        ratio = check.cpu / spice.cpu if spice else float("nan")
+        rows.append(f"| {size:,} ({lines:,}) | {default_contacts(size):,} / {stages:,} | {_s(check.cpu)} "
+                    f"({peak:.0f} MB) | {_s(fixes.cpu) if fixes else 'not run'} | "
+                    f"{_s(spice.cpu) if spice else 'n/a'} ({spice_peak:.0f} MB) | {ratio:.2f} |")
+        print(rows[-1], flush=True)
+        if size == 100_000:
+            if spice:
+                goals.append(Goal("big board: 100k generated, check (JSON, no fixes) / ngspice", ratio, 2.0,
+                                  f"{_s(check.cpu)} / {_s(spice.cpu)}"))
+            text = measure(check_cmd(path, "text"), runs)
+            goals.append(Goal("text / JSON, 100k board, piped", text.cpu / check.cpu, 1.3,
+                              f"{_s(text.cpu)} / {_s(check.cpu)}"))
+        if fixes:
+            goals.append(Goal(f"fixes: {size:,} board, with / without", fixes.cpu / check.cpu, 1.5,
+                              f"{_s(fixes.cpu)} / {_s(check.cpu)}"))
+        if size == 1_000_000:
+            goals.append(Goal("memory: peak of the 1M check, MB", peak, 500, f"{peak:.0f} MB"))
+    return rows
+
+
+def flat_board(args, goals: list[Goal]) -> None:
+    size = 100_000
+    path = _TMP / "flat100k.cir"
+    path.write_text(generate(size, args.seed, ngspice_safe=True, contacts=size // 14, sheet_share=0.0),
+                    encoding="utf-8")
+    check = measure(check_cmd(path), args.runs)
+    spice = time_ngspice(ngspice_deck(path.read_text(encoding="utf-8"), path.stem), args.runs)
+    if spice:
+        goals.append(Goal("big board: 100k flat, one contact per 14 elements, check / ngspice",
+                          check.cpu / spice.cpu, 2.5, f"{_s(check.cpu)} / {_s(spice.cpu)}"))
+
+
+def small_boards(args, goals: list[Goal]) -> None:
+    for board in sorted((ROOT / "boards" / "lx24").glob("*.cir")):
+        cmd = drc_command() + ["check", str(board), "--report-only"]
+        cold = measure(cmd + ["--no-cache"], args.runs)
+        empty_cache()
+        run_once(cmd)  # fills the cache
+        warm = measure(cmd, args.runs)
+        spice = time_ngspice(ngspice_deck(board.read_text(encoding="utf-8"), board.stem), max(args.runs, 9))
+        if spice:
+            goals.append(Goal(f"small board: {board.name}, check / ngspice", cold.cpu / spice.cpu, 12,
+                              f"{_s(cold.cpu)} / {spice.cpu * 1000:.0f} ms; cache warm {_s(warm.cpu)} "
+                              f"({warm.cpu / spice.cpu:.1f}x)"))
+
+
+def archives(args, goals: list[Goal]) -> None:
+    demo = demo_archive(args.archive // 4)
+    first, second, same = rerun(demo, args.runs)
+    goals.append(Goal(f"re-run: {args.archive} demo boards, warm cache / first check", second.cpu / first.cpu,
+                      0.25, f"{_s(second.cpu)} / {_s(first.cpu)}; reports byte-identical: {'yes' if same else 'NO'}"))
+    one = measure(archive_cmd(demo, 1), args.runs)
+    two = measure(archive_cmd(demo, args.jobs), args.runs)
+    goals.append(Goal(f"workers: {args.archive} demo boards, --jobs {args.jobs} / --jobs 1 (wall)",
+                      two.wall / one.wall, 0.75, f"{_s(two.wall)} / {_s(one.wall)}"))
+    plain = measure(archive_cmd(demo, 1, fixes=False), args.runs)
+    goals.append(Goal(f"fixes: {args.archive} demo boards, with / without", one.cpu / plain.cpu, 1.5,
+                      f"{_s(one.cpu)} / {_s(plain.cpu)}"))
+    if args.quick:
+        return
+    generated = generated_archive(args.archive)
+    one = measure(archive_cmd(generated, 1, fixes=False), args.runs)
+    two = measure(archive_cmd(generated, args.jobs, fixes=False), args.runs)
+    goals.append(Goal(f"workers: {args.archive} generated demo-sized boards (distinct values, --no-fixes), "
+                      f"--jobs {args.jobs} / --jobs 1 (wall)", two.wall / one.wall, 0.75,
+                      f"{_s(two.wall)} / {_s(one.wall)}"))
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description="drc speed benchmarks")
-    parser.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 300_000, 1_000_000])
+    parser.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
     parser.add_argument("--fix-sizes", type=int, nargs="*", default=[10_000],
                         help="sizes also timed with the fix search on")
-    parser.add_argument("--runs", type=int, default=3, help="runs per measurement (median)")
+    parser.add_argument("--runs", type=int, default=3, help="fresh processes per measurement (median)")
     parser.add_argument("--seed", type=int, default=1)
-    parser.add_argument("--archive", type=int, default=1000, help="boards in the archive run (0: skip)")
+    parser.add_argument("--archive", type=int, default=200, help="boards in the archive runs")
     parser.add_argument("--jobs", type=int, default=2)
-    parser.add_argument("--stages", type=int, default=10_000, help="stages for the analysis-alone run")
+    parser.add_argument("--stages", type=int, default=10_000, help="stages for the analysis-alone run (0: skip)")
+    parser.add_argument("--quick", action="store_true", help="skip the flat board and the generated archive")
     parser.add_argument("--output", default=str(HERE / "results.md"))
     args = parser.parse_args(argv)
 
     warm_bytecode()
-    rows, notes = [], []
-    checks: dict[int, Timed] = {}
-    spices: dict[int, Timed] = {}
-    with tempfile.TemporaryDirectory() as tmpname:
-        tmp = Path(tmpname)
-        for size in args.sizes:
-            path = tmp / f"board{size}.cir"
-            path.write_text(generate(size, args.seed, ngspice_safe=True), encoding="utf-8")
-            runs = args.runs if size < 1_000_000 else max(1, min(args.runs, 2))
-            check, out = time_check(path, runs, fixes=False)
-            checks[size] = check
-            import json
-            doc = json.loads(out)
-            stages = sum(len(b.get("stages", [])) for b in doc["boards"])
-            fix = time_check(path, 1, fixes=True)[0] if size in args.fix_sizes else None
-            spice = time_ngspice(path, runs)
-            if spice:
-                spices[size] = spice
-            split = time_split(path, runs)
-            lines = sum(1 for _ in open(path, encoding="utf-8"))
-            rows.append((size, lines, default_contacts(size), stages, check, fix, spice, split))
-            print(f"{size}: check {check.seconds:.2f} s, ngspice "
-                  f"{spice.seconds if spice else float('nan'):.2f} s, split {split:.3f} s", flush=True)
-        archive = time_archive(args.archive, args.jobs, max(1, min(args.runs, 2)), tmp) if args.archive else None
-        archive_plain = (time_archive(args.archive, args.jobs, max(1, min(args.runs, 2)), tmp, fixes=False)
-                         if args.archive else None)
-        if archive:
-            print(f"archive: {archive[0]:.1f} boards/s, --no-fixes {archive_plain[0]:.1f} boards/s", flush=True)
+    goals: list[Goal] = []
+    try:
+        rows = size_rows(args, goals)
+        if not args.quick:
+            flat_board(args, goals)
+        small_boards(args, goals)
+        archives(args, goals)
+    finally:
+        shutil.rmtree(_TMP, ignore_errors=True)
     distinct, repeated = stage_analysis(args.stages) if args.stages else (None, None)
 
-    table = ["| elements (lines) | contacts / stages | drc check --no-fixes (peak) | drc check with fixes "
-             "| ngspice parse (peak) | Python read+split | check / ngspice | check / split |",
-             "|---|---|---|---|---|---|---|---|"]
-    for size, lines, contacts, stages, check, fix, spice, split in rows:
-        ratio_spice = f"{check.seconds / spice.seconds:.2f}" if spice else "n/a"
-        table.append(f"| {size:,} ({lines:,}) | {contacts:,} / {stages:,} | {_fmt(check.seconds)} "
-                     f"({_fmt(check.peak_mb, 'MB')}) | {_fmt(fix.seconds) if fix else 'not run'} | "
-                     f"{_fmt(spice.seconds) if spice else 'n/a'} ({_fmt(spice.peak_mb, 'MB') if spice else 'n/a'}) | "
-                     f"{split:.3f} s | {ratio_spice} | {check.seconds / split:.1f} |")
-    goals = []
-    if 100_000 in checks and 100_000 in spices:
-        r = checks[100_000].seconds / spices[100_000].seconds
-        goals.append(f"- check(100k) / ngspice(100k) = {r:.2f} (goal <= 0.5): {'met' if r <= 0.5 else 'not met'}")
-        split100 = [row for row in rows if row[0] == 100_000][0][7]
-        r2 = checks[100_000].seconds / split100
-        goals.append(f"- check(100k) / split(100k) = {r2:.1f} (goal <= 4): {'met' if r2 <= 4 else 'not met'}")
-    if 100_000 in checks and 1_000_000 in checks:
-        r = checks[1_000_000].seconds / checks[100_000].seconds
-        goals.append(f"- time(1M) / time(100k) = {r:.1f} (goal <= 11): {'met' if r <= 11 else 'not met'}")
-    if 1_000_000 in checks and 300_000 in spices:
-        a, b = checks[1_000_000].peak_mb, spices[300_000].peak_mb
-        goals.append(f"- peak memory check(1M) = {a:.0f} MB vs ngspice(300k) = {b:.0f} MB: "
-                     f"{'met' if a < b else 'not met'}")
-    if archive:
-        goals.append(f"- archive: {archive[1]} demo-sized boards, --jobs {args.jobs}: {archive[0]:.1f} boards/s "
-                     f"(goal >= 50): {'met' if archive[0] >= 50 else 'not met'}; with --no-fixes "
-                     f"{archive_plain[0]:.1f} boards/s")
-    if distinct is not None:
-        goals.append(f"- stage analysis alone: {args.stages:,} stages with distinct values in {distinct:.2f} s "
-                     f"(goal < 1 s): {'met' if distinct < 1 else 'not met'}; "
-                     f"{args.stages:,} stages repeating 40 designs in {repeated:.2f} s")
     head = (f"Machine: {platform.machine()}, {os.cpu_count()} CPUs, Python {platform.python_version()}, "
-            f"{time.strftime('%Y-%m-%d')}; medians of {args.runs} runs (1M: at most 2); "
-            f"seed {args.seed}; command `{' '.join(Path(c).name for c in drc_command())} check FILE "
-            f"--format json`; start-up included, from compiled bytecode as installed.")
-    text = "\n".join(["# drc benchmarks", "", head, ""] + table + ["", "Goals:", ""] + goals + notes) + "\n"
+            f"{time.strftime('%Y-%m-%d')}, load average before the run "
+            f"{os.getloadavg()[0]:.1f}; medians of {args.runs} fresh processes (1M: at most 2); seed "
+            f"{args.seed}; CPU time (user + system) unless marked wall; start-up included, from compiled "
+            f"bytecode as installed; `--no-cache` except where the cache is measured.")
+    table = ["| goal | ratio | limit | | measured |", "|---|---|---|---|---|"] + [g.line() for g in goals]
+    extra = []
+    if distinct is not None:
+        extra = ["", f"Stage analysis alone (in-process): {args.stages:,} stages with distinct values in "
+                 f"{distinct:.2f} s; {args.stages:,} stages repeating 40 designs in {repeated:.2f} s."]
+    text = "\n".join(["# drc benchmarks", "", head, "", *table, "", "Sizes (generated boards, "
+                      "`drc check FILE --format json --no-fixes`):", "", *rows, *extra]) + "\n"
     print(text)
     Path(args.output).write_text(text, encoding="utf-8")
     return 0
