@@ -363,13 +363,15 @@ def small_boards(args, goals: list[Goal]) -> None:
     for board in sorted((ROOT / "boards" / "lx24").glob("*.cir")):
         cmd = drc_command() + ["check", str(board), "--report-only"]
         cold = measure(cmd + ["--no-cache"], args.runs)
+        plain = measure(cmd + ["--no-cache", "--no-fixes"], args.runs)
         empty_cache()
         run_once(cmd)  # fills the cache
         warm = measure(cmd, args.runs)
         spice = time_ngspice(ngspice_deck(board.read_text(encoding="utf-8"), board.stem), max(args.runs, 9))
         if spice:
             goals.append(Goal(f"small board: {board.name}, check / ngspice", cold.cpu / spice.cpu, 12,
-                              f"{_s(cold.cpu)} / {spice.cpu * 1000:.0f} ms; cache warm {_s(warm.cpu)} "
+                              f"{_s(cold.cpu)} / {spice.cpu * 1000:.0f} ms; --no-fixes {_s(plain.cpu)} "
+                              f"({plain.cpu / spice.cpu:.1f}x); cache warm {_s(warm.cpu)} "
                               f"({warm.cpu / spice.cpu:.1f}x)"))
 
 

@@ -28,6 +28,7 @@ import hashlib
 import importlib
 import math
 import os
+import stat
 import sys
 import tempfile
 from collections.abc import Callable, Iterable
@@ -67,8 +68,16 @@ def tool_fingerprint() -> str:
 
 
 def file_digest(path: str | os.PathLike) -> str:
-    with open(path, "rb") as handle:
-        return hashlib.file_digest(handle, "sha256").hexdigest()
+    """SHA-256 of a regular file's bytes; OSError for anything else (a FIFO or a
+    device is never read here: opened without blocking, refused by its type)."""
+    fd = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+    try:
+        if not stat.S_ISREG(os.fstat(fd).st_mode):
+            raise OSError(f"{os.fspath(path)}: not a regular file")
+        with os.fdopen(fd, "rb", closefd=False) as handle:
+            return hashlib.file_digest(handle, "sha256").hexdigest()
+    finally:
+        os.close(fd)
 
 
 def folder_digest(folder: Path, pattern: str = "*.toml") -> str:

@@ -183,3 +183,33 @@ def test_cli_cached_and_uncached_reports_are_byte_identical(tmp_path, monkeypatc
         assert fresh.returncode == first.returncode == second.returncode == 0
         assert fresh.stdout == first.stdout == second.stdout
     assert len(list(env_cache.rglob("*.json"))) >= 4
+
+
+def test_rule_library_from_the_cache_equals_the_parsed_one(cache):
+    """The library read back from its cache entry has the content of one parsed from
+    rules/*.toml (the fingerprint digests every record), and a damaged entry is re-parsed."""
+    from drc.datafiles import data_folder
+    from drc.library.catalogue import _load_folder, load_library
+    parsed = _load_folder(data_folder("rules"))
+    first = load_library()
+    (entry,) = sorted(p for p in cache.rglob("*.json") if "library" in p.parts)
+    clear_caches()
+    from_disk = load_library()
+    assert from_disk is not first and from_disk.fingerprint == first.fingerprint == parsed.fingerprint
+    assert from_disk.records == parsed.records
+    entry.write_bytes(entry.read_bytes()[:-10])
+    clear_caches()
+    assert load_library().fingerprint == parsed.fingerprint
+
+
+def test_an_included_file_turned_into_a_fifo_is_not_read_by_the_cache(cache, board, fresh_checks):
+    """Validating an entry never opens a FIFO for a blocking read (it would hang); the
+    board is checked afresh and the reader reports the FIFO."""
+    import os
+    check_board(board, CACHED)
+    include = board.parent / "filter.inc"
+    include.unlink()
+    os.mkfifo(include)
+    again = check_board(board, CACHED)
+    assert len(fresh_checks) == 2
+    assert again.failed and "filter.inc" in again.report.error

@@ -24,7 +24,6 @@ from drc.datafiles import data_folder
 from drc.library.contact_names import ContactNames
 from drc.library.entries import ContactClass, ContactMatch, Family, Limit, PartType, ResolvedPart, UnknownFamily
 from drc.library.part_numbers import PartNumbers
-from drc.library.rules_files import RulesFile, parse_contact, parse_family, parse_form_words, parse_limit, parse_part
 
 # Lookups by name recur for every instance of a board: (library, name...) -> (answer,).
 _PARTS: Memo[tuple[str, str], tuple[ResolvedPart | None]] = Memo("library.resolve_part", 50_000)
@@ -52,6 +51,9 @@ class Library:
                 self._family_index[label.casefold()] = family.name
         self._part_numbers = PartNumbers(families, part_types, self._family_index)
         self._contact_names = ContactNames(contact_classes.values(), form_words)
+        # What the library is made of, as given: kept on disk by `load_library`
+        # (drc.diskcache) and passed back to this constructor. Every argument goes here.
+        self.records = (families, part_types, contact_classes, limits, dict(form_words))
         content = (families, part_types, contact_classes, limits,
                    sorted((k, sorted(v)) for k, v in form_words.items()))
         self.fingerprint = hashlib.sha256(repr(content).encode()).hexdigest()
@@ -126,6 +128,14 @@ class Library:
 
 
 def _load_folder(folder: Path) -> Library:
+    from drc.library.rules_files import (
+        RulesFile,
+        parse_contact,
+        parse_family,
+        parse_form_words,
+        parse_limit,
+        parse_part,
+    )
     fam_r = RulesFile(folder / "families.toml")
     families = {name: parse_family(fam_r, name, raw)
                 for name, raw in fam_r.table(fam_r.data.get("families"), "families").items()}
@@ -157,7 +167,19 @@ def _load_folder(folder: Path) -> Library:
 
 @memoized(limit=64)
 def _load_cached(folder: Path) -> Library:
-    return _load_folder(folder)
+    """The folder's library: from the disk cache when its files are unchanged (keyed by
+    their bytes and the tool), else parsed and kept there."""
+    from drc import diskcache
+    key = diskcache.make_key("library", (str(folder), diskcache.folder_digest(folder)))
+    kept = diskcache.load("library", key)
+    if type(kept) is tuple and len(kept) == 5:
+        try:
+            return Library(*kept)
+        except (TypeError, ValueError, AttributeError):
+            pass  # an entry of another shape: parse the files
+    library = _load_folder(folder)
+    diskcache.store("library", key, library.records)
+    return library
 
 
 def load_library(rules_dir: Path | None = None) -> Library:
