@@ -109,7 +109,7 @@ def test_changed_rules_data_misses(cache, board, fresh_checks, tmp_path, monkeyp
 
 def test_other_options_miss(cache, board, fresh_checks):
     check_board(board, CACHED)
-    check_board(board, CheckOptions(result_cache=True, propose_fixes=False, ignore=("slow-edge",)))
+    check_board(board, CheckOptions(result_cache=True, propose_fixes=False, skip_rules=("slow-edge",)))
     assert len(fresh_checks) == 2
 
 
