@@ -3,28 +3,30 @@
 Rules describe a fix in plain words; this separate step upgrades the fix of
 value-related findings (bounce-window, slow-edge, response-latency,
 leakage-headroom, pullup-waste, resistance-range) to named values, e.g.
-"R2 4.7 kΩ → 22 kΩ (press 11.8 ms ≥ 10 ms at fastest corner)". It
-re-runs `analysis.analyse_stage` on stages with one or two values replaced
-(dataclasses.replace on the Resistor/Capacitor) and the stage rules on the
-results, so the rules stay pure and cheap and the analysis stays the only
-authority on the figures.
+"R2 4.7 kΩ → 22 kΩ (press 11.8 ms ≥ 10 ms at fastest corner)". The analysis
+stays the only authority on the figures: every proposal is a stage analysed
+with the new values (`analysis.analyse_stages`) on which the stage rules
+fire nothing new (rules that fire today and no value changes are tolerated).
 
-Search: each rule's verdict is monotonic in each value (a larger R or C
-never makes an RC edge faster, a larger pull resistor never wastes more
-current), so for one value the passing values form an interval. The solver
-finds its ends by bisection over the series (the verdicts at the two ends of
-the range say which way each rule passes), then takes the value in the
-interval nearest the present one and confirms it with a full run. Preference:
-fewest parts changed, then the smallest change (sum of |log ratio|). Two-part
-changes walk the first part's values nearest-first and stop as soon as that
-change alone exceeds the best total found. A stage gets at most
-`budget` analyses (`FIX_BUDGET` in a board check, `MAX_ANALYSES` for forward
-design), and a stage whose edges need the exact event-driven solver (several
-capacitors, diodes: tens of milliseconds per analysis) gets
-1/`SLOW_ANALYSIS_COST` of that, so a check's time stays bounded: about
-0.2 s for a closed-form stage and 1 s for any other at worst. The bound is a
-count, not a clock, so the proposals are the same on every machine. When
-nothing passes within it the text says so.
+Which change, and where it is looked for (the stated ranges):
+- one or two parts among the stage's pull and series resistors and its
+  capacitors; other parts are held;
+- resistors take the values of the series (E24 by default, `eseries` in
+  drc.toml) inside the resistance-range window (1 kΩ-50 kΩ by default: a
+  value outside it fails that rule); capacitors the values of the capacitor
+  series (E12, or the resistors' series when that is E3 or E6), 1 pF-10 mF;
+- preferred: fewest parts changed, then the smallest total change (sum of
+  |ln(new / old)|), then the parts first in the stage's order, then the lower
+  values.
+
+Single-capacitor stages (closed-form edges) get the complete search of
+drc.design.complete: if any one- or two-part change in those ranges passes,
+the preferred one is proposed, and "no change passes" is a statement about
+all of them. The searches of a board's failing stages run in lockstep, one
+analysis batch per round. Other stages (several capacitors, diodes, plain
+inputs with a transition limit) get the bounded bisection search of
+drc.design.bisection, whose "nothing found" says how many analyses it tried.
+Identical stages (a keypad) are searched once (a memo keyed by values).
 """
 
 from __future__ import annotations
@@ -33,27 +35,37 @@ import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
 
-from drc.analysis.physics.batch import batchable, structure_key, template
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import EDGES, EdgeResult, StageResult
-from drc.analysis.stage_analysis import analyse_stage, analyse_stages
+from drc.analysis.stage_analysis import analyse_stage
 from drc.board.stage import Stage
 from drc.caching import Memo
 from drc.checks import run_stage_rules
 from drc.checks.findings import Finding
-from drc.library import eseries
+from drc.design import bisection
+from drc.design.complete import (
+    CompleteSearch,
+    Found,
+    Move,
+    Var,
+    ranges_text,
+    run_lockstep,
+    search_vars,
+    with_values,
+)
+from drc.design.screen import Screen
 from drc.units import format_quantity as fq
+
+__all__ = ["FIXABLE", "MAX_ANALYSES", "Change", "Solution", "capacitor_series", "propose_board_fixes",
+           "propose_fixes", "rule_figure", "search", "with_values"]
 
 FIXABLE = ("bounce-window", "slow-edge", "response-latency", "leakage-headroom",
            "pullup-waste", "resistance-range")
-MAX_ANALYSES = 300
-# Board checks: a failing closed-form stage costs about 2 ms per analysis.
+MAX_ANALYSES = bisection.MAX_ANALYSES
+# The bisection search (stages the complete search cannot screen): analyses per stage in
+# a board check, and per board in all.
 FIX_BUDGET = 100
-# An analysis on the exact event-driven path costs about this many closed-form ones.
-SLOW_ANALYSIS_COST = 25
-# Values searched, as a ratio either side of the present value and absolute bounds.
-RESISTOR_SPAN, RESISTOR_BOUNDS = 1000.0, (10.0, 10e6)
-CAPACITOR_SPAN, CAPACITOR_BOUNDS = 1000.0, (1e-12, 10e-3)
+BOARD_FIX_BUDGET = 2000
 # Capacitors are rarely stocked finer than E12 (common practice, no source).
 _CAPACITOR_SERIES = {"E3": "E3", "E6": "E6", "E12": "E12"}
 
@@ -90,407 +102,94 @@ class Solution:
 
 
 @dataclass(frozen=True, slots=True)
-class Variable:
-    designator: str
-    present: float
-    candidates: tuple[float, ...]  # ascending series values
-    unit: str
+class _Job:
+    """One distinct search: a stage, its receiver, what it tolerates, and how to search it."""
+
+    stage: Stage
+    rx: ReceiverElectrical
+    limits: Mapping[str, float]
+    series: str
+    tolerated: frozenset[str]
+    vars_: tuple[Var, ...]
+    present: StageResult
+    fired: frozenset[str]
 
 
-def with_values(stage: Stage, values: Mapping[str, float]) -> Stage:
-    """`stage` with the named resistors' ohms / capacitors' farads replaced."""
-    circuit = stage.circuit
-    resistors = tuple(replace(r, ohms=values[r.designator]) if r.designator in values else r
-                      for r in circuit.resistors)
-    capacitors = tuple(replace(c, farads=values[c.designator]) if c.designator in values else c
-                       for c in circuit.capacitors)
-    return replace(stage, circuit=replace(circuit, resistors=resistors, capacitors=capacitors))
+@dataclass(frozen=True, slots=True)
+class _Outcome:
+    """A search's answer by variable index (so identical stages can share it)."""
+
+    moves: tuple[tuple[int, float], ...] | None  # None: nothing passes / nothing found
+    result: StageResult | None
+    analyses: int
+    screened: int
+    complete: bool  # the complete search ran to the end of its order
 
 
-class Evaluator:
-    """Analyses a stage with values replaced and runs the stage rules; cached and budgeted.
-
-    Speed: analysing one stage alone costs about as much as analysing a
-    dozen of one structure together (physics.batch), so `prefetch` analyses
-    the values a search is about to ask for in one batch. A prefetched
-    analysis counts against the budget only when `fired` asks for it, so the
-    search, its answer and its count are those of one analysis at a time.
-    """
-
-    def __init__(self, stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], tolerated: set[str],
-                 budget: int = MAX_ANALYSES) -> None:
-        self.stage, self.rx, self.limits = stage, rx, limits
-        self.tolerated = tolerated  # rule ids that fire today and no value can change
-        fast = batchable(template(structure_key(stage.circuit), stage.circuit))
-        self.fast = fast  # closed-form edges: batches pay off (the exact path runs one by one)
-        self.budget = budget if fast else max(1, budget // SLOW_ANALYSIS_COST)
-        self.count = 0
-        self._cache: dict[tuple, tuple[frozenset[str], StageResult]] = {}
-        self._pending: dict[tuple, StageResult] = {}  # analysed ahead, not asked for yet
-
-    @property
-    def exhausted(self) -> bool:
-        return self.count >= self.budget
-
-    def known(self, values: Mapping[str, float]) -> bool:
-        """Whether `values` was analysed already (asked for or prefetched)."""
-        key = tuple(sorted(values.items()))
-        return key in self._cache or key in self._pending
-
-    def prefetch(self, many: Sequence[Mapping[str, float]]) -> None:
-        """Analyse these value sets together, ahead of `fired` (closed-form stages only)."""
-        if not self.fast:
-            return
-        todo: dict[tuple, Mapping[str, float]] = {}
-        for values in many:
-            key = tuple(sorted(values.items()))
-            if key not in self._cache and key not in self._pending:
-                todo.setdefault(key, values)
-        if len(todo) < 2:
-            return
-        results = analyse_stages([with_values(self.stage, v) for v in todo.values()],
-                                 [self.rx] * len(todo))
-        self._pending.update(zip(todo, results, strict=True))
-
-    def fired(self, values: Mapping[str, float]) -> tuple[frozenset[str], StageResult] | None:
-        """Rule ids that fire (tolerated ones removed), or None when out of budget."""
-        key = tuple(sorted(values.items()))
-        if key in self._cache:
-            return self._cache[key]
-        if self.exhausted:
-            return None
-        self.count += 1
-        result = self._pending.pop(key, None)
-        if result is None:
-            result = analyse_stage(with_values(self.stage, values), self.rx)
-        if result.receiver_electrical is None:
-            result = replace(result, receiver_electrical=self.rx)
-        ids = frozenset(f.rule for f in run_stage_rules(result, self.limits)) - self.tolerated
-        self._cache[key] = (ids, result)
-        return self._cache[key]
+def _changes(job: _Job, moves: tuple[tuple[int, float], ...]) -> tuple[Change, ...]:
+    return tuple(Change(job.vars_[i].designator, job.vars_[i].present, new, job.vars_[i].unit)
+                 for i, new in moves)
 
 
-# Prefetch shape: the first levels of a bisection over an unknown stretch of
-# candidates, or the whole stretch once it is this short (measured on the
-# archive benchmark: small batches win, as a batch's cost grows with its size).
-_PREFETCH_DEPTH = 2
-_PREFETCH_FILL = 8
+def _by_index(job: _Job, moves: Sequence[Move]) -> tuple[tuple[int, float], ...]:
+    names = [v.designator for v in job.vars_]
+    return tuple((names.index(m.designator), m.new) for m in moves)
 
 
-def _bisection_points(a: int, b: int, depth: int, out: list[int]) -> None:
-    """The midpoints `_boundary` may visit in (a, b), `depth` levels deep."""
-    if depth == 0 or b - a <= 1:
-        return
-    mid = (a + b) // 2
-    out.append(mid)
-    _bisection_points(a, mid, depth - 1, out)
-    _bisection_points(mid, b, depth - 1, out)
-
-
-def _prefetch_for(ev: Evaluator, var: Variable, fixed: Mapping[str, float], i: int) -> None:
-    """Before asking for candidate i: analyse it with its likely successors in one batch.
-
-    Around i lies a stretch of candidates not analysed yet; a search goes on
-    inside it (bisection) or next to i (the nearest passing value), so the
-    batch is the stretch's bisection points, or all of it when short, plus
-    both ends of the list. Only an order of analyses is guessed: the answers
-    and the budget count are the same as without it.
-    """
-    cand = var.candidates
-    n = len(cand)
-
-    def values(j: int) -> dict[str, float]:
-        return {**fixed, var.designator: cand[j]}
-
-    if not ev.fast or ev.known(values(i)):
-        return
-    lo = i - 1
-    while lo >= 0 and not ev.known(values(lo)):
-        lo -= 1
-    hi = i + 1
-    while hi < n and not ev.known(values(hi)):
-        hi += 1
-    if hi - lo - 1 <= _PREFETCH_FILL:
-        picks = list(range(lo + 1, hi))
-    else:
-        # Both ends, the probes of a rule failing at both ends, the neighbours of
-        # the present value, and the first bisection points.
-        here = min(range(n), key=lambda j: abs(math.log(cand[j] / var.present)))
-        picks = [i, 0, n - 1, n // 2, n // 4, 3 * n // 4]
-        picks += [j for j in range(here - 2, here + 3) if 0 <= j < n]
-        _bisection_points(max(lo, 0), min(hi, n - 1), _PREFETCH_DEPTH, picks)
-    # No more than the budget could still ask for (with room for a few misses).
-    room = 2 * (ev.budget - ev.count) + 2
-    picks = list(dict.fromkeys(picks))[:room]
-    ev.prefetch([values(j) for j in picks])
-
-
-def variables(stage: Stage, series: str) -> list[Variable]:
-    """The stage's pull/series resistors and capacitors with their candidate values."""
-    out: list[Variable] = []
-    for r in stage.circuit.resistors:
-        if r.role in ("pull", "series") and r.ohms > 0:
-            lo = max(RESISTOR_BOUNDS[0], r.ohms / RESISTOR_SPAN)
-            hi = min(RESISTOR_BOUNDS[1], r.ohms * RESISTOR_SPAN)
-            if lo > hi:  # far outside the searched bounds (1M read as milliohms): no candidates
-                continue
-            out.append(Variable(r.designator, r.ohms, tuple(eseries.values_between(series, lo, hi)), "Ω"))
-    cap_series = capacitor_series(series)
-    for c in stage.circuit.capacitors:
-        if c.farads > 0:
-            lo = max(CAPACITOR_BOUNDS[0], c.farads / CAPACITOR_SPAN)
-            hi = min(CAPACITOR_BOUNDS[1], c.farads * CAPACITOR_SPAN)
-            if lo > hi:
-                continue
-            out.append(Variable(c.designator, c.farads, tuple(eseries.values_between(cap_series, lo, hi)), "F"))
+def _run_jobs(jobs: Sequence[_Job], budgets: Sequence[int]) -> list[_Outcome]:
+    """Every job searched: complete searches in lockstep, the others by bisection."""
+    complete: dict[int, CompleteSearch] = {}
+    for i, job in enumerate(jobs):
+        screen = Screen.build(job.stage, job.rx, job.limits, job.tolerated)
+        if screen is not None:
+            complete[i] = CompleteSearch(job.stage, job.rx, job.limits, job.tolerated, screen, list(job.vars_),
+                                         job.present, job.fired)
+    run_lockstep(list(complete.values()))
+    out: list[_Outcome] = []
+    for i, job in enumerate(jobs):
+        search_ = complete.get(i)
+        if search_ is not None and search_.trusted and search_.found is not None:
+            out.append(_outcome(job, search_.found))
+        else:
+            moves, result, count = bisection.search(job.stage, job.rx, job.limits, job.vars_,
+                                                    set(job.tolerated), budgets[i])
+            out.append(_Outcome(None if moves is None else _by_index(job, moves), result, count, 0, False))
     return out
 
 
-# The rule ids that fire at candidate i (None: out of budget).
-Verdict = Callable[[int], frozenset[str] | None]
+def _outcome(job: _Job, found: Found) -> _Outcome:
+    moves = _by_index(job, found.moves) if found.result is not None else None
+    return _Outcome(moves, found.result, found.analyses, found.screened, not found.exhausted)
 
 
-def _nearest_index(var: Variable, indices: range) -> int:
-    """The candidate among `indices` nearest the present value (log scale)."""
-    cand = var.candidates
-    return min(indices, key=lambda i: abs(math.log(cand[i] / var.present)))
-
-
-def best_single(ev: Evaluator, var: Variable, fixed: Mapping[str, float]) -> tuple[float, StageResult] | None:
-    """The passing value of `var` nearest its present value, others held at `fixed`.
-
-    Bisection per rule over the candidate list (see the module docstring);
-    None when no candidate passes or the budget ran out.
-    """
-    cand = var.candidates
-    if not cand:
-        return None
-
-    def verdict(i: int) -> frozenset[str] | None:
-        _prefetch_for(ev, var, fixed, i)
-        got = ev.fired({**fixed, var.designator: cand[i]})
-        return None if got is None else got[0]
-
-    n = len(cand)
-    lo_fired, hi_fired = verdict(0), verdict(n - 1)
-    if lo_fired is None or hi_fired is None:
-        return None
-    span = _passing_span(verdict, var, lo_fired, hi_fired)
-    if span is None:
-        return None
-    regions = _outside_inner_failures(verdict, var, span, lo_fired | hi_fired)
-    if regions is None:
-        return None
-    return _nearest_passing(ev, var, fixed, regions)
-
-
-def _passing_span(verdict: Verdict, var: Variable, lo_fired: frozenset[str],
-                  hi_fired: frozenset[str]) -> tuple[int, int] | None:
-    """[first, last]: the candidates every rule firing at an end of the list passes on.
-
-    None when that is empty or the budget ran out.
-    """
-    n = len(var.candidates)
-    first, last = 0, n - 1
-    # Sorted: a set's order changes with the process's string hashing, and with a
-    # budget the order of the bisections decides what is found.
-    for rule_id in sorted(lo_fired | hi_fired):
-        if rule_id in lo_fired and rule_id in hi_fired:
-            inner = _inner_interval(verdict, var, rule_id)
-            if inner is None:
-                return None
-            first, last = max(first, inner[0]), min(last, inner[1])
-            continue
-        passes_high = rule_id in lo_fired
-        bound = _boundary(verdict, rule_id, 0, n - 1, passes_high)
-        if bound is None:
-            return None
-        if passes_high:
-            first = max(first, bound)
-        else:
-            last = min(last, bound)
-    if first > last:
-        return None
-    return first, last
-
-
-def _inner_interval(verdict: Verdict, var: Variable, rule_id: str) -> tuple[int, int] | None:
-    """Where a rule failing at both ends passes: probe for one passing point (the
-    present value first), then bisect each side. None if no probe passes."""
-    n = len(var.candidates)
-    here = _nearest_index(var, range(n))
-    inside = None
-    for i in dict.fromkeys((here, n // 2, n // 4, 3 * n // 4)):
-        got = verdict(i)
-        if got is None:
-            return None
-        if rule_id not in got:
-            inside = i
-            break
-    if inside is None:
-        return None
-    lo_b = _boundary(verdict, rule_id, 0, inside, passes_high=True)
-    hi_b = _boundary(verdict, rule_id, inside, n - 1, passes_high=False)
-    if lo_b is None or hi_b is None:
-        return None
-    return lo_b, hi_b
-
-
-def _outside_inner_failures(verdict: Verdict, var: Variable, span: tuple[int, int],
-                            at_ends: frozenset[str]) -> list[tuple[int, int]] | None:
-    """The parts of `span` outside the stretches where a rule passing at both ends fails.
-
-    Such a rule may still fail in between (a level that changes logic as a
-    divider moves): if it fails near the present value, find where it stops
-    failing on each side. None when the budget ran out.
-    """
-    n = len(var.candidates)
-    first, last = span
-    here = _nearest_index(var, range(first, last + 1))
-    regions = [(first, last)]
-    got = verdict(here)
-    if got is None:
-        return None
-    for rule_id in sorted(got - at_ends):
-        below = _boundary(verdict, rule_id, 0, here, passes_high=False)
-        above = _boundary(verdict, rule_id, here, n - 1, passes_high=True)
-        if below is None or above is None:
-            return None
-        regions = [(max(a, lo), min(b, hi)) for a, b in regions for lo, hi in ((0, below), (above, n - 1))]
-        regions = [(a, b) for a, b in regions if a <= b]
-    return regions
-
-
-def _nearest_passing(ev: Evaluator, var: Variable, fixed: Mapping[str, float],
-                     regions: list[tuple[int, int]]) -> tuple[float, StageResult] | None:
-    """The nearest passing value in `regions`; a few neighbours if a verdict was not monotonic."""
-    cand = var.candidates
-    indices = sorted({i for a, b in regions for i in range(a, b + 1)},
-                     key=lambda i: (abs(math.log(cand[i] / var.present)), cand[i]))
-    for i in indices[:4]:
-        _prefetch_for(ev, var, fixed, i)
-        got = ev.fired({**fixed, var.designator: cand[i]})
-        if got is None:
-            return None
-        if not got[0]:
-            return cand[i], got[1]
-    return None
-
-
-def _boundary(verdict: Verdict, rule_id: str, a: int, b: int, passes_high: bool) -> int | None:
-    """Bisect [a, b] where `rule_id` fails at one end and passes at the other.
-
-    Returns the passing index next to the boundary: the lowest passing index
-    when it passes towards b (passes_high), else the highest. None when the
-    budget runs out.
-    """
-    while b - a > 1:
-        mid = (a + b) // 2
-        got = verdict(mid)
-        if got is None:
-            return None
-        fails_mid = rule_id in got
-        if passes_high:
-            a, b = (mid, b) if fails_mid else (a, mid)
-        else:
-            a, b = (a, mid) if fails_mid else (mid, b)
-    return b if passes_high else a
+def _job(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
+         tolerated: frozenset[str], present: StageResult | None, fixed_parts: Sequence[str] = (),
+         present_rules: frozenset[str] | None = None) -> _Job:
+    series = series.upper()
+    if present is None:
+        present = analyse_stage(stage, rx)
+    if present.receiver_electrical is None:
+        present = replace(present, receiver_electrical=rx)
+    if present_rules is None:
+        present_rules = frozenset(f.rule for f in run_stage_rules(present, limits))
+    fired = present_rules - tolerated
+    vars_ = tuple(search_vars(stage, series, capacitor_series(series), limits, fixed_parts))
+    return _Job(stage, rx, dict(limits), series, tolerated, vars_, present, fired)
 
 
 def search(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str = "E24",
            tolerated: set[str] | None = None, budget: int = MAX_ANALYSES,
            fixed_parts: Sequence[str] = ()) -> tuple[Solution | None, int]:
-    """The cheapest one- or two-part change that passes every stage rule; (solution, analyses)."""
-    ev = Evaluator(stage, rx, limits, tolerated or set(), budget)
-    vars_ = [v for v in variables(stage, series) if v.designator not in fixed_parts]
-    best = _best_one_part(ev, vars_)
-    if best is not None:
-        return best, ev.count
-    return _best_two_parts(ev, vars_), ev.count
+    """The preferred one- or two-part change that passes every stage rule; (solution, analyses).
 
-
-def _best_one_part(ev: Evaluator, vars_: list[Variable]) -> Solution | None:
-    best: Solution | None = None
-    for var in vars_:
-        found = best_single(ev, var, {})
-        if found is not None:
-            sol = Solution((Change(var.designator, var.present, found[0], var.unit),), found[1], ev.count)
-            if best is None or sol.cost < best.cost:
-                best = sol
-    return best
-
-
-def _best_two_parts(ev: Evaluator, vars_: list[Variable]) -> Solution | None:
-    """Two-part changes: the first part's values nearest-first, stopping once that
-    change alone exceeds the best total found."""
-    best: Solution | None = None
-    for outer in vars_:
-        for inner in vars_:
-            if inner is outer:
-                continue
-            for value in sorted(outer.candidates, key=lambda v: abs(math.log(v / outer.present))):
-                step = abs(math.log(value / outer.present))
-                if step == 0.0:
-                    continue
-                if (best is not None and step >= best.cost[1]) or ev.exhausted:
-                    break
-                found = best_single(ev, inner, {outer.designator: value})
-                if found is None:
-                    continue
-                changes = (Change(outer.designator, outer.present, value, outer.unit),
-                           Change(inner.designator, inner.present, found[0], inner.unit))
-                sol = Solution(changes, found[1], ev.count)
-                if best is None or sol.cost < best.cost:
-                    best = sol
-    return best
-
-
-# Boards repeat one input design many times (a keypad): the search runs once per
-# distinct (structure, values, contact and receiver data, limits) and its answer is
-# renamed for every other stage of that kind: (moves as (variable index, new value),
-# the result, analyses). Bounded for long-lived processes.
-_Moves = tuple[tuple[int, float], ...]
-_SEARCHES: Memo[tuple, tuple[_Moves | None, StageResult | None, int]] = Memo("design.fix_searches", 4096)
-
-
-def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
-              tolerated: set[str], budget: int) -> tuple:
-    c, k, r = stage.circuit, stage.contact, stage.receiver
-    return (
-        structure_key(c), stage.kind,
-        tuple((x.ohms, x.tol_minus, x.tol_plus) for x in c.resistors),
-        tuple((x.farads, x.tol_minus, x.tol_plus) for x in c.capacitors),
-        tuple((x.volts, x.tolerance) for x in c.rails),
-        (k.contact_class, k.form, k.bounce_s, k.wetting_a, k.rating_a, k.origin, k.closed_resistance),
-        (r.part_type, r.family, r.schmitt, r.edge_sensitive, r.function, r.supply_v, r.supply_tolerance,
-         r.internal_pull, r.firmware_debounce_s, r.dedicated_debounce),
-        rx, tuple(sorted(limits.items())), series, frozenset(tolerated), budget,
-    )
-
-
-def _search_memo_keyed(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
-                       tolerated: set[str], budget: int) -> tuple[Solution | None, int, tuple | None]:
-    """`search`, answered from the memo when an identical stage was searched before;
-    and the memo key (None when the stage has no memo key)."""
-    try:
-        key = _memo_key(stage, rx, limits, series, tolerated, budget)
-        hash(key)
-    except TypeError:  # an unhashable field somewhere: no memo, same answer
-        return (*search(stage, rx, limits, series, tolerated, budget), None)
-    vars_ = variables(stage, series)
-    hit = _SEARCHES.get(key)
-    if hit is None:
-        solution, count = search(stage, rx, limits, series, tolerated, budget)
-        names = [v.designator for v in vars_]
-        moves = None if solution is None else tuple((names.index(ch.designator), ch.new)
-                                                    for ch in solution.changes)
-        _SEARCHES.put(key, (moves, None if solution is None else solution.result, count))
-        return solution, count, key
-    moves, res, count = hit
-    if moves is None or res is None:
-        return None, count, key
-    changes = tuple(Change(vars_[i].designator, vars_[i].present, new, vars_[i].unit) for i, new in moves)
-    return Solution(changes, res, count), count, key
+    `budget` bounds the bisection search only (stages the complete search
+    cannot screen); `fixed_parts` are held at their values.
+    """
+    job = _job(stage, rx, limits, series, frozenset(tolerated or ()), None, fixed_parts)
+    outcome = _run_jobs([job], [budget])[0]
+    if outcome.moves is None or outcome.result is None:
+        return None, outcome.analyses
+    return Solution(_changes(job, outcome.moves), outcome.result, outcome.analyses), outcome.analyses
 
 
 def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
@@ -577,79 +276,154 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
 
     `findings` may hold findings of other stages; only this stage's are used.
     """
-    return _propose(result, findings, limits, series, budget, None)[0]
+    return propose_board_fixes([result], findings, limits, series, board_budget=budget)
 
 
-def _propose(result: StageResult, findings: Sequence[Finding], limits: Mapping[str, float],
-             series: str, budget: int, searched: set[tuple] | None) -> tuple[dict[Finding, str], int]:
-    """propose_fixes, and the analyses its search costs the board's budget.
+# Boards repeat one input design many times (a keypad): a search runs once per distinct
+# (structure, values, contact and receiver data, limits) and its answer is renamed for
+# every other stage of that kind. Bounded for long-lived processes.
+_SEARCHES: Memo[tuple, _Outcome] = Memo("design.fix_searches", 4096)
 
-    searched: memo keys this board searched already; a repeat costs nothing,
-    a search first done for another board costs what it cost there, so a
-    board's fixes are the same in a fresh process and in a long-lived worker.
-    """
+
+def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
+              tolerated: frozenset[str], budget: int) -> tuple | None:
+    c, k, r = stage.circuit, stage.contact, stage.receiver
+    key = (
+        structure_key_of(stage), stage.kind,
+        tuple((x.ohms, x.tol_minus, x.tol_plus) for x in c.resistors),
+        tuple((x.farads, x.tol_minus, x.tol_plus) for x in c.capacitors),
+        tuple((x.volts, x.tolerance) for x in c.rails),
+        (k.contact_class, k.form, k.bounce_s, k.wetting_a, k.rating_a, k.origin, k.closed_resistance),
+        (r.part_type, r.family, r.schmitt, r.edge_sensitive, r.function, r.supply_v, r.supply_tolerance,
+         r.internal_pull, r.firmware_debounce_s, r.dedicated_debounce),
+        rx, tuple(sorted(limits.items())), series, tolerated, budget,
+    )
+    try:
+        hash(key)
+    except TypeError:  # an unhashable field somewhere: no memo, same answer
+        return None
+    return key
+
+
+def structure_key_of(stage: Stage) -> tuple:
+    from drc.analysis.physics.batch import structure_key
+    return structure_key(stage.circuit)
+
+
+def _mine(result: StageResult, findings: Sequence[Finding]) -> list[Finding]:
     stage = result.stage
-    mine = [f for f in findings if f.rule in FIXABLE and f.contact == stage.contact.designator
+    return [f for f in findings if f.rule in FIXABLE and f.contact == stage.contact.designator
             and f.receiver == stage.receiver.ref]
-    if not mine or result.receiver_electrical is None:
-        return {}, 0
-    series = series.upper()
-    if any(f.rule == "slow-edge" for f in mine):
-        text = _plain_input_fix(result)
-        if text:
-            return {f: text for f in mine}, 0
-    present = {f.rule for f in run_stage_rules(result, limits)}
-    solution, count, key = _search_memo_keyed(stage, result.receiver_electrical, limits, series,
-                                              present - set(FIXABLE), budget)
-    charged = count
-    if searched is not None and key is not None:
-        charged = 0 if key in searched else count
-        searched.add(key)
-    if solution is None:
-        return _no_change_texts(mine, stage, series, count), charged
-    change_text = ", ".join(c.text() for c in solution.changes)
-    return {f: f"{change_text} ({rule_figure(f.rule, solution.result, limits, _edge_of(f))})"
-            for f in mine}, charged
-
-
-def _no_change_texts(mine: list[Finding], stage: Stage, series: str, count: int) -> dict[Finding, str]:
-    """The plain-words fix, and honestly why no values are proposed."""
-    names = ", ".join(v.designator for v in variables(stage, series)) or "the stage's parts"
-    honest = (f"no {series} value change of one or two of {names} passes every rule at worst case "
-              f"({count} analyses tried)")
-    return {f: f"{f.fix}; {honest}" if f.fix else honest for f in mine}
-
-
-# A board check searches fixes for at most this many analyses in all (about 2 ms each
-# for closed-form stages): a board with hundreds of distinct failing stages gets
-# concrete values for the first ones, in board order, and the plain-words fix after.
-BOARD_FIX_BUDGET = 2000
 
 
 def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Finding],
                         limits: Mapping[str, float], series: str = "E24",
                         board_budget: int = BOARD_FIX_BUDGET) -> dict[Finding, str]:
-    """Fix texts for a whole board, keyed by finding; bounded by `board_budget` analyses.
+    """Fix texts for a whole board, keyed by finding.
 
-    Same texts as `propose_fixes` per stage, while the board's budget lasts
-    (a stage never gets more than `FIX_BUDGET`); deterministic, since the
-    bound counts analyses, not seconds. Findings are values: two equal
-    findings get the same text.
+    Every failing stage's search runs together (drc.design.complete.run_lockstep);
+    identical stages share one search. `board_budget` bounds the analyses of the
+    bisection searches (a stage never gets more than `FIX_BUDGET`); the bound
+    counts analyses, not seconds, so the texts are the same on every machine.
+    A search first done for another board in the same process costs what it
+    cost there, so a board's texts do not depend on what was checked before.
     """
+    series = series.upper()
     by_stage: dict[tuple, list[Finding]] = {}
     for f in findings:
-        if f.contact is not None and f.receiver is not None:
+        if f.contact is not None and f.receiver is not None and f.rule in FIXABLE:
             by_stage.setdefault((f.contact, f.receiver), []).append(f)
     out: dict[Finding, str] = {}
-    left = board_budget
-    searched: set[tuple] = set()
+    todo: list[tuple[StageResult, list[Finding], tuple | None, _Job]] = []
     for result in results:
-        mine = by_stage.get((result.stage.contact.designator, result.stage.receiver.ref))
-        if not mine or left <= 0:
+        mine = _mine(result, by_stage.get((result.stage.contact.designator, result.stage.receiver.ref), []))
+        if not mine or result.receiver_electrical is None:
             continue
-        texts, charged = _propose(result, mine, limits, series, min(FIX_BUDGET, left), searched)
-        out.update(texts)
-        # Charged as the search cost when first run (the memo may answer it here
-        # from another board): the budget, hence the texts, depend on this board alone.
-        left -= charged
+        if any(f.rule == "slow-edge" for f in mine):
+            text = _plain_input_fix(result)
+            if text:
+                out.update({f: text for f in mine})
+                continue
+        present_rules = frozenset(f.rule for f in run_stage_rules(result, limits))
+        tolerated = frozenset(present_rules - set(FIXABLE))
+        job = _job(result.stage, result.receiver_electrical, limits, series, tolerated, result,
+                   present_rules=present_rules)
+        todo.append((result, mine, _memo_key(result.stage, result.receiver_electrical, limits, series,
+                                             tolerated, FIX_BUDGET), job))
+    outcomes = _board_outcomes(todo, board_budget)
+    for (_result, mine, _key, job), outcome in zip(todo, outcomes, strict=True):
+        out.update(_texts(job, mine, outcome))
     return out
+
+
+def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple | None, _Job]],
+                    board_budget: int) -> list[_Outcome | None]:
+    """Each stage's outcome: from the memo, or searched (distinct searches once, in lockstep)."""
+    outcomes: list[_Outcome | None] = [None] * len(todo)
+    fresh: dict[tuple | int, list[int]] = {}
+    for i, (_r, _m, key, _job) in enumerate(todo):
+        hit = _SEARCHES.get(key) if key is not None else None
+        if hit is not None:
+            outcomes[i] = hit
+        else:
+            fresh.setdefault(key if key is not None else i, []).append(i)
+    firsts = [idx[0] for idx in fresh.values()]
+    jobs = [todo[i][3] for i in firsts]
+    budgets = _bisection_budgets(jobs, board_budget)
+    for idx, outcome in zip(fresh.values(), _run_jobs(jobs, budgets), strict=True):
+        key = todo[idx[0]][2]
+        if key is not None:
+            _SEARCHES.put(key, outcome)
+        for i in idx:
+            outcomes[i] = outcome
+    return _charge(todo, outcomes, board_budget)
+
+
+def _bisection_budgets(jobs: Sequence[_Job], board_budget: int) -> list[int]:
+    """Each job's analyses if it falls back to bisection: FIX_BUDGET while the board's lasts."""
+    return [FIX_BUDGET] * len(jobs) if board_budget > 0 else [0] * len(jobs)
+
+
+def _charge(todo, outcomes: list[_Outcome | None], board_budget: int) -> list[_Outcome | None]:
+    """The board budget over the bisection searches, in board order: once it is spent,
+    later bisection-searched stages get the plain-words fix (None). Charged as each
+    search cost when first run, so the texts depend on this board alone."""
+    left = board_budget
+    seen: set = set()
+    for i, outcome in enumerate(outcomes):
+        if outcome is None or outcome.complete or outcome.screened:
+            continue
+        key = todo[i][2] if todo[i][2] is not None else i
+        if left <= 0:
+            outcomes[i] = None
+            continue
+        if key not in seen:
+            seen.add(key)
+            left -= outcome.analyses
+    return outcomes
+
+
+def _texts(job: _Job, mine: list[Finding], outcome: _Outcome | None) -> dict[Finding, str]:
+    if outcome is None:
+        return {}
+    if outcome.moves is None or outcome.result is None:
+        return _no_change_texts(mine, job, outcome)
+    changes = _changes(job, outcome.moves)
+    change_text = ", ".join(c.text() for c in changes)
+    return {f: f"{change_text} ({rule_figure(f.rule, outcome.result, job.limits, _edge_of(f))})"
+            for f in mine}
+
+
+def _no_change_texts(mine: list[Finding], job: _Job, outcome: _Outcome) -> dict[Finding, str]:
+    """The plain-words fix, and honestly why no values are proposed."""
+    names = ", ".join(v.designator for v in job.vars_) or "the stage's parts"
+    ranges = ranges_text(job.series, capacitor_series(job.series), job.limits)
+    if outcome.complete:
+        honest = f"no change of one or two of {names} passes every rule at worst case ({ranges})"
+    elif outcome.screened:
+        honest = (f"no change of one or two of {names} confirmed within {outcome.analyses} analyses "
+                  f"({ranges})")
+    else:
+        honest = (f"no {job.series} value change of one or two of {names} found to pass every rule at "
+                  f"worst case ({outcome.analyses} analyses tried)")
+    return {f: f"{f.fix}; {honest}" if f.fix else honest for f in mine}

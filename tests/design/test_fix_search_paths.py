@@ -1,10 +1,13 @@
 """The fix search's speed paths change nothing (never a time).
 
-Prefetching analyses in batches (fixes.Evaluator.prefetch) must give the
-same solution and the same analysis count as asking for one analysis at a
-time, and a board's proposed values must not depend on what the process
-searched before (the memo shared by a worker's boards) nor on the order
-Python happens to iterate a set of rule ids in. The reference is the
+Searches of a board run in lockstep (drc.design.complete.run_lockstep): the
+screens of stages of one circuit structure share their solves and every
+round's confirmations are one analysis batch. The answers must be those of
+each search run alone. The bisection fallback prefetches analyses in batches
+(bisection.Evaluator.prefetch): same solution and analysis count as asking
+one at a time. And a board's proposed values must not depend on what the
+process searched before (the memo shared by a worker's boards) nor on the
+order Python happens to iterate a set of rule ids in. The reference is the
 one-at-a-time search itself: these are agreement checks between two paths
 of drc, as tests/bench/test_benchmark_path.py does for the batched analysis.
 """
@@ -19,7 +22,7 @@ import pytest
 
 from drc.caching import clear_caches
 from drc.checks import run_stage_rules
-from drc.design import fixes
+from drc.design import bisection, fixes
 from drc.pipeline import CheckOptions, check_board_in_memory, effective_limits
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -49,20 +52,29 @@ def _failing(path):
     return out
 
 
-def test_prefetched_search_equals_one_at_a_time(boards, monkeypatch):
-    cases = [c for path in boards for c in _failing(path)][:6]
-    assert cases, "the demo boards have failing stages to fix"
+def test_lockstep_equals_each_search_alone(boards):
+    cases = [c for path in boards for c in _failing(path)]
+    assert len(cases) >= 4, "the demo boards have failing stages to fix"
+    jobs = [fixes._job(r.stage, r.receiver_electrical, lim, "E24", frozenset(tol), r) for r, lim, tol in cases]
+    together = fixes._run_jobs(jobs, [100] * len(jobs))
+    for job, joint in zip(jobs, together, strict=True):
+        alone = fixes._run_jobs([job], [100])[0]
+        assert (joint.moves, joint.analyses, joint.screened, joint.complete) == \
+            (alone.moves, alone.analyses, alone.screened, alone.complete)
+        assert joint.result == alone.result
+
+
+def test_bisection_prefetch_equals_one_at_a_time(boards, monkeypatch):
+    cases = [c for path in boards for c in _failing(path)][:4]
     for result, limits, tolerated in cases:
-        args = (result.stage, result.receiver_electrical, limits, "E24", tolerated, 100)
-        batched = fixes.search(*args)
+        job = fixes._job(result.stage, result.receiver_electrical, limits, "E24", frozenset(tolerated), result)
+        args = (job.stage, job.rx, limits, job.vars_, set(tolerated), 100)
+        batched = bisection.search(*args)
         with monkeypatch.context() as m:
-            m.setattr(fixes, "_prefetch_for", lambda *a: None)
-            single = fixes.search(*args)
+            m.setattr(bisection, "_prefetch_for", lambda *a: None)
+            single = bisection.search(*args)
+        assert batched[0] == single[0] and batched[2] == single[2]
         assert batched[1] == single[1]
-        assert (batched[0] is None) == (single[0] is None)
-        if batched[0] is not None:
-            assert batched[0].changes == single[0].changes
-            assert batched[0].result == single[0].result
 
 
 def _fix_texts(path):
@@ -81,10 +93,8 @@ def test_board_fixes_do_not_depend_on_earlier_boards(boards):
 
 def test_fix_texts_do_not_depend_on_string_hashing(tmp_path):
     # Sets of rule ids iterate in an order set by the process's string hashing;
-    # with a budget, the order of the bisections decides what is found, so the
-    # search visits them sorted. On the benchmark's 10k-element board, hash
-    # seeds 1 and 4 gave different fix texts before that (the board's fix
-    # budget runs out part-way, so every search's analysis count matters).
+    # the searches visit them sorted, so the texts are the same under any seed
+    # (on the benchmark's 10k-element board, seeds 1 and 4 once gave different texts).
     board = tmp_path / "board10k.cir"
     board.write_text(gen.generate(10_000, 1, ngspice_safe=True), encoding="utf-8")
     outputs = set()

@@ -72,12 +72,16 @@ def test_plain_input_gets_an_honest_fix():
 
 
 def test_no_fix_found_says_so():
-    # Everything out of the window at once: one or two changes cannot repair three parts.
+    # Both resistors outside the 1 kOhm-50 kOhm window and the latency over its limit:
+    # at least three parts must change, so no one- or two-part change passes, and the
+    # text says so with the ranges searched (the search is complete over them).
     stage = rc_stage(r1=82e3, r2=390e3, c1=100e-9)
     res = analysed(stage)
     findings = run_stage_rules(res, LIMITS)
+    assert {"resistance-range", "response-latency"} <= {f.rule for f in findings}
     texts = propose_fixes(res, findings, LIMITS, budget=60)
-    assert texts and all("passes every rule" in t and "no E24 value change" in t for t in texts.values())
+    assert texts and all("no change of one or two of R1, R2, C1 passes every rule at worst case" in t
+                         and "resistors E24 1 kΩ-50 kΩ" in t for t in texts.values())
 
 
 def test_findings_of_other_rules_or_stages_are_left_alone():
