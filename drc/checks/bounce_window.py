@@ -51,11 +51,11 @@ def check(result: StageResult, ctx: RuleContext):
             continue
         margin_text = f" × margin {margin:g}" if margin != 1.0 else ""
         yield ctx.stage_finding(
-            result, parts=timing_parts(result),
+            result, parts=timing_parts(result, name),
             measured=figure(edge.fastest_s, "s"), limit=figure(needed, "s"),
             message=(f"{name} edge reaches {threshold_name(result, edge)} "
                      f"{fq(edge.threshold_fastest_v, 'V')} in {fq(edge.fastest_s, 's')} at the "
                      f"fastest corner, under the {fq(stage.contact.bounce_s, 's')} bounce of "
                      f"{contact_name(result)}{margin_text}"),
             fix=(f"slow the {name} edge to at least {fq(needed, 's')} at the fastest corner: raise "
-                 f"the resistance or capacitance of {timing_text(result)}"))
+                 f"the resistance or capacitance of {timing_text(result, name)}"))

@@ -2,11 +2,13 @@
 
 Messages must read without the documentation, so every rule names things the
 same way: "SW3 (tactile)", "VT- 1.35 V", "R2 4.7 kΩ". These helpers only
-format what a StageResult already holds; they compute nothing new.
+format what a StageResult already holds (and, for an edge's parts, the
+stage's topology: drc.analysis.charging); they solve nothing.
 """
 
 from __future__ import annotations
 
+from drc.analysis.charging import charging_parts
 from drc.analysis.results import EdgeResult, StageResult
 from drc.board.stage import Capacitor, Resistor
 from drc.checks.context import quantity_text as fq
@@ -47,18 +49,24 @@ def pull_resistors(result: StageResult) -> tuple[Resistor, ...]:
     return tuple(r for r in result.stage.circuit.resistors if r.role == "pull")
 
 
-def timing_parts(result: StageResult) -> tuple[str, ...]:
-    """Designators of the resistors and capacitors that set the stage's timing."""
+def timing_parts(result: StageResult, edge: str | None = None) -> tuple[str, ...]:
+    """Designators of the resistors and capacitors that set the stage's timing; with an
+    edge, only those its capacitor charges through (drc.analysis.charging), when any."""
     circuit = result.stage.circuit
-    return tuple(r.designator for r in circuit.resistors if r.role in ("pull", "series", "other")) + \
+    parts = tuple(r.designator for r in circuit.resistors if r.role in ("pull", "series", "other")) + \
         tuple(c.designator for c in circuit.capacitors)
+    if edge is None:
+        return parts
+    path = set(charging_parts(circuit, edge))
+    return tuple(p for p in parts if p in path) or parts
 
 
-def timing_text(result: StageResult) -> str:
-    """"R1 10 kΩ, R2 39 kΩ, C1 1 µF" for the parts that set the timing."""
+def timing_text(result: StageResult, edge: str | None = None) -> str:
+    """"R1 10 kΩ, R2 39 kΩ, C1 1 µF" for the parts that set the timing (of `edge`)."""
     circuit = result.stage.circuit
-    texts = [resistor_text(r) for r in circuit.resistors if r.role in ("pull", "series", "other")]
-    texts += [capacitor_text(c) for c in circuit.capacitors]
+    wanted = set(timing_parts(result, edge))
+    texts = [resistor_text(r) for r in circuit.resistors if r.designator in wanted]
+    texts += [capacitor_text(c) for c in circuit.capacitors if c.designator in wanted]
     return ", ".join(texts)
 
 

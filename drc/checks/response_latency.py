@@ -49,7 +49,7 @@ def check(result: StageResult, ctx: RuleContext):
             continue
         if edge.slowest_s is None:
             yield ctx.stage_finding(
-                result, parts=timing_parts(result), measured=None, limit=figure(limit, "s"),
+                result, parts=timing_parts(result, name), measured=None, limit=figure(limit, "s"),
                 message=(f"{name} edge of {contact_name(result)} never reaches {th} at "
                          f"{result.stage.receiver.ref} at the slowest corner (it settles at "
                          f"{fq(edge.final_v, 'V')} nominal)"),
@@ -57,9 +57,9 @@ def check(result: StageResult, ctx: RuleContext):
                      "or remove the divider that holds it short of the threshold"))
         elif edge.slowest_s > limit:
             yield ctx.stage_finding(
-                result, parts=timing_parts(result),
+                result, parts=timing_parts(result, name),
                 measured=figure(edge.slowest_s, "s"), limit=figure(limit, "s"),
                 message=(f"{name} edge of {contact_name(result)} reaches {th} at "
                          f"{result.stage.receiver.ref} in {fq(edge.slowest_s, 's')} at the slowest "
                          f"corner, over the {fq(limit, 's')} latency limit"),
-                fix=f"speed the {name} edge up: lower the resistance or capacitance of {timing_text(result)}")
+                fix=f"speed the {name} edge up: lower the resistance or capacitance of {timing_text(result, name)}")

@@ -51,7 +51,7 @@ def check(result: StageResult, ctx: RuleContext):
         if rate <= limit:
             continue
         yield ctx.stage_finding(
-            result, parts=timing_parts(result),
+            result, parts=timing_parts(result, name),
             measured=figure(rate, "s/V"), limit=figure(limit, "s/V"),
             message=(f"{name} edge from {contact_name(result)} crosses the threshold of plain input "
                      f"{stage.receiver.ref} ({rx.family}) at {fq(rate, 's/V')}, "

@@ -383,9 +383,14 @@ def run_design(args) -> int:
     except KeyError:
         from drc.errors import unknown_name_message
         raise UsageError(unknown_name_message("logic family", args.family, lib.families)) from None
+    contact_class = (args.contact or "tactile").lower()
+    if contact_class not in lib.contact_classes:
+        from drc.errors import unknown_name_message
+        raise UsageError(unknown_name_message("contact class", contact_class, lib.contact_classes))
     request = DesignRequest(rail, family, not args.plain, bounce, latency, series=args.series,
                             capacitor=capacitor, resistor=resistor,
-                            topology="pull-down" if args.pull_down else "pull-up")
+                            topology="pull-down" if args.pull_down else "pull-up",
+                            contact_class=contact_class, bounce_given=bool(args.bounce))
     try:
         result = design_stage(request)
     except DesignError as exc:
@@ -394,6 +399,6 @@ def run_design(args) -> int:
         for line in design_lines(result):
             console.print(line, markup=False)
         if args.netlist:
-            console.print(result.netlist_fragment(), markup=False)
+            console.print(result.netlist_fragment(), markup=False, soft_wrap=True)
         console.print("Guidance from models and typical data: verify on the real board.", style="dim")
     return ExitStatus.OK if result.ok else ExitStatus.FINDINGS

@@ -32,7 +32,7 @@ from __future__ import annotations
 import math
 from collections.abc import Generator, Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
@@ -540,7 +540,7 @@ def run_lockstep(searches: Sequence[CompleteSearch]) -> None:
         keys = list(live)
         screens = [k for k in keys if isinstance(live[k][2], Request)]
         answers: dict[int, Any] = {}
-        got = screen_all([live[k][2] for k in screens])  # type: ignore[misc]
+        got = screen_all([cast(Request, live[k][2]) for k in screens])
         answers.update(zip(screens, got, strict=True))
         asks = [(k, values) for k in keys if isinstance(ask := live[k][2], Analyse) for values in ask.values]
         if asks:
@@ -550,6 +550,11 @@ def run_lockstep(searches: Sequence[CompleteSearch]) -> None:
                 answers.setdefault(k, []).append(r)
         for k in keys:
             s, steps, _ = live[k]
+            if answers[k] is None:  # the screen cannot answer: this search falls back
+                s.trusted, s.found = False, None
+                steps.close()
+                del live[k]
+                continue
             try:
                 live[k] = (s, steps, steps.send(answers[k]))
             except StopIteration:

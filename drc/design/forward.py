@@ -75,6 +75,8 @@ class DesignRequest:
     topology: DesignTopology = "pull-up"
     budget: int = MAX_ANALYSES
     design_budget: int = 1200
+    contact_class: str = "tactile"
+    bounce_given: bool = False  # the bounce is not the class's own: the fragment states it
 
     def __post_init__(self) -> None:
         if self.rail_v <= 0 or self.bounce_s <= 0 or self.latency_s <= 0:
@@ -135,6 +137,8 @@ class DesignResult:
     margins: tuple[Margin, ...]
     failing_rules: tuple[str, ...]
     analyses: int
+    contact_class: str = "tactile"
+    bounce_given: bool = False
 
     def part(self, designator: str) -> Resistor | Capacitor:
         parts: tuple[Resistor | Capacitor, ...] = (*self.stage.circuit.resistors, *self.stage.circuit.capacitors)
@@ -162,11 +166,20 @@ class DesignResult:
         head = (f"* drc design: {self.topology} stage, {fq(self.rail_v, 'V')} rail, {self.family} {kind} "
                 f"input, bounce {fq(self.bounce_s, 's')}, values from {self.series}"
                 + ("" if self.ok else f"\n* NOT PASSING: {self.reason}"))
-        sw = "SW1 n1 0 TACTILE" if self.topology == "pull-up" else "SW1 vcc n1 TACTILE"
+        model = contact_model(self.contact_class)
+        sw = f"SW1 n1 0 {model}" if self.topology == "pull-up" else f"SW1 vcc n1 {model}"
         r1_line = f"R1 vcc n1 {_spice(r1.ohms)}" if self.topology == "pull-up" else f"R1 n1 0 {_spice(r1.ohms)}"
-        return "\n".join([head, f"V1 vcc 0 DC {self.rail_v:g}", r1_line, sw,
+        bounce = f" bounce={_spice(self.bounce_s)}s" if self.bounce_given else ""
+        return "\n".join([head, f"*@drc contact SW1 class={self.contact_class}{bounce}",
+                          f"V1 vcc 0 DC {self.rail_v:g}", r1_line, sw,
                           f"R2 n1 in {_spice(r2.ohms)}", f"C1 in 0 {_spice(c1.farads)}",
                           "* connect net 'in' to the receiver input"]) + "\n"
+
+
+def contact_model(contact_class: str) -> str:
+    """The switch's type name in the fragment: the class in capitals ("relay-power" ->
+    "RELAY_POWER"); the `*@drc contact` line above it states the class outright."""
+    return contact_class.upper().replace("-", "_")
 
 
 def _resistor(stage: Stage, designator: str) -> Resistor:
@@ -201,8 +214,8 @@ def build_stage(request: DesignRequest, r_pull: float, r_series: float, c: float
     circuit = StageCircuit((r1, Resistor("R2", "n1", "in", r_series, rt, rt, role=ResistorRole.SERIES)),
                            (Capacitor("C1", "in", "0", c, ct, ct),), (),
                            (RailSource("vcc", request.rail_v, vt),), (throw,), "in")
-    contact = Contact("SW1", "design", ContactForm.SPST_NO, ("n1", "0"), request.bounce_s, None, None, _LOC,
-                      ContactOrigin.CONFIG)
+    contact = Contact("SW1", request.contact_class, ContactForm.SPST_NO, ("n1", "0"), request.bounce_s,
+                      None, None, _LOC, ContactOrigin.CONFIG)
     receiver = Receiver("U1", 1, "in", "design", request.family, request.schmitt, False, "data",
                         request.rail_v, vt, _LOC)
     kind = StageKind.RC_SCHMITT if request.schmitt else StageKind.RC
@@ -251,7 +264,8 @@ def design_stage(request: DesignRequest, *, rx: ReceiverElectrical | None = None
         rail_v=request.rail_v, family=request.family, schmitt=request.schmitt,
         bounce_s=request.bounce_s, series=plan.series, stage=stage, result=result,
         edges=tuple(EdgeTimes(e.edge, e.nominal_s, e.fastest_s, e.slowest_s) for e in result.edges.values()),
-        margins=_margins(result, plan.limits), failing_rules=failing, analyses=count)
+        margins=_margins(result, plan.limits), failing_rules=failing, analyses=count,
+        contact_class=request.contact_class, bounce_given=request.bounce_given)
 
 
 def _plan(request: DesignRequest, rx: ReceiverElectrical | None,

@@ -257,16 +257,24 @@ class Screen:
 
 # ---------------------------------------------------------------- many stages at once
 
-def screen_all(requests: Sequence[Request]) -> list[Screened]:
-    """Answer requests of many stages; those of one circuit structure share each solve."""
+def screen_all(requests: Sequence[Request]) -> list[Screened | None]:
+    """Answer requests of many stages; those of one circuit structure share each solve.
+
+    None for the requests of a structure whose closed form does not apply after all
+    (the searches asking fall back; the full analysis stays the authority).
+    """
     out: list[Screened | None] = [None] * len(requests)
     groups: dict[int, list[int]] = {}
     for i, req in enumerate(requests):
         groups.setdefault(id(req.screen.model), []).append(i)
     for idx in groups.values():
-        for i, got in zip(idx, _group([requests[i] for i in idx]), strict=True):
+        try:
+            answers = _group([requests[i] for i in idx])
+        except (ValueError, IndexError, FloatingPointError, np.linalg.LinAlgError):
+            continue
+        for i, got in zip(idx, answers, strict=True):
             out[i] = got
-    return [o for o in out if o is not None]
+    return out
 
 
 class _Limits:

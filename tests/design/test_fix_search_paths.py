@@ -107,3 +107,22 @@ def test_fix_texts_do_not_depend_on_string_hashing(tmp_path):
         doc = json.loads(proc.stdout)
         outputs.add(tuple(f["fix"] for b in doc["boards"] for f in b["findings"]))
     assert len(outputs) == 1
+
+
+def test_the_generated_and_demo_boards_are_searched_completely(boards):
+    # Single-capacitor stages get the complete search: the screen must agree with the
+    # full analysis on their present values (else a search silently falls back).
+    from drc.design import complete
+    stages = [c for path in boards for c in _failing(path)]
+    stages += [c for path in sorted((ROOT / "boards").rglob("*.cir")) for c in _failing(path)]
+    jobs = [fixes._job(r.stage, r.receiver_electrical, lim, "E24", frozenset(tol), r) for r, lim, tol in stages]
+    searches = []
+    for job in jobs:
+        screen = fixes.Screen.build(job.stage, job.rx, job.limits, job.tolerated)
+        if screen is not None:
+            searches.append(complete.CompleteSearch(job.stage, job.rx, job.limits, job.tolerated, screen,
+                                                    list(job.vars_), job.present, job.fired))
+    assert len(searches) >= 10
+    complete.run_lockstep(searches)
+    untrusted = [s.stage.name for s in searches if not s.trusted]
+    assert not untrusted, untrusted

@@ -45,6 +45,8 @@ def test_plain_input_design_is_refused_honestly():
 def test_netlist_fragment_follows_our_conventions():
     d = design_stage(DesignRequest(5.0, "HC", True, 0.010, 0.100), rx=hc(), limits=LIMITS)
     lines = d.netlist_fragment().splitlines()
+    assert lines[1] == "*@drc contact SW1 class=tactile"
+    lines = lines[1:]
     assert lines[1] == "V1 vcc 0 DC 5"
     assert lines[3] == "SW1 n1 0 TACTILE"
     assert lines[2].startswith("R1 vcc n1 ") and lines[4].startswith("R2 n1 in ") and lines[5].startswith("C1 in 0 ")
@@ -52,3 +54,22 @@ def test_netlist_fragment_follows_our_conventions():
     assert parse_value(lines[2].split()[3]).si == pytest.approx(d.pull.ohms)
     assert parse_value(lines[5].split()[3]).si == pytest.approx(d.capacitor.farads)
     assert not parse_value(lines[2].split()[3]).differs_from_spice
+
+
+@pytest.mark.parametrize("contact_class", ["tactile", "reed", "relay-power", "toggle"])
+def test_netlist_fragment_keeps_the_contact_class_asked_for(contact_class, tmp_path):
+    # Reading the fragment back (with a 74HC14 on net 'in') gives the class and bounce asked for:
+    # the bounce is the class's own from rules/contacts.toml, or the one given.
+    from drc.library.catalogue import load_library
+    from drc.pipeline import CheckOptions, check_board_in_memory
+    lib = load_library()
+    for bounce, given in ((lib.contact_classes[contact_class].bounce_s, False), (0.0035, True)):
+        d = design_stage(DesignRequest(5.0, "HC", True, bounce, 0.100, contact_class=contact_class,
+                                       bounce_given=given), rx=hc(), limits=LIMITS)
+        board = tmp_path / f"{contact_class}{int(given)}.cir"
+        board.write_text("* design read back\n" + d.netlist_fragment()
+                         + "XU1 in out 0 0 0 0 0 0 0 0 0 0 0 vcc 74HC14\n.end\n", encoding="utf-8")
+        results = check_board_in_memory(board, CheckOptions(propose_fixes=False)).results
+        [result] = [r for r in results if r.stage.contact.designator == "SW1"]
+        assert result.stage.contact.contact_class == contact_class
+        assert result.stage.contact.bounce_s == pytest.approx(bounce)
