@@ -334,8 +334,9 @@ def run_trace(args) -> int:
 def run_simulate(args) -> int:
     import json
 
+    from drc.library.catalogue import load_library
     from drc.report.simulation_view import render_simulation_text, simulation_json
-    from drc.simulation.injection import chatter_deck, simulate_stage
+    from drc.simulation.injection import chatter_deck, latch_gates, simulate_stage
     if args.trials < 1:
         raise UsageError("--trials must be at least 1")
     check = _board_stages(args.board, args.config, args.bounce)
@@ -344,7 +345,10 @@ def run_simulate(args) -> int:
         raise _no_match(check, args.ref)
     result = results[0]
     rx = result.receiver_electrical
-    sim = simulate_stage(result.stage, rx, trials=args.trials, seed=args.seed)
+    latch = latch_gates(result.stage, load_library()) if result.stage.kind == "latch" else None
+    sim = simulate_stage(result.stage, rx, trials=args.trials, seed=args.seed, latch=latch)
+    if args.spice and not sim.simulated:
+        raise UsageError(f"cannot write a chatter deck for {result.stage.name}: it was not simulated")
     if args.spice:
         from drc.atomic import write_atomic
         deck = chatter_deck(result.stage, rx, sim.trial(sim.worst_trial))

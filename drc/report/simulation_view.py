@@ -25,13 +25,21 @@ _COLUMNS: tuple[tuple[str, Literal["left", "right"]], ...] = (
 
 
 def simulation_json(result: SimulationResult) -> dict[str, Any]:
-    """The result as plain JSON data (trials and clean trials per edge and in total)."""
+    """The result as plain JSON data (trials and clean trials per edge and in total).
+
+    simulated: false when the stage was not simulated (notes say why; no verdict).
+    band_v / linger_limit_s: a plain input's undefined band and the longest stay
+    in it an actuation may make; lingering_trials: actuations that stayed longer.
+    """
     return {
         "stage": result.stage, "kind": result.kind, "contact_class": result.contact_class,
+        "simulated": result.simulated,
         "trials": result.trials, "seed": result.seed, "bounce_s": result.bounce_s,
         "receiver_model": result.receiver_model, "upper_v": result.upper_v, "lower_v": result.lower_v,
+        "band_v": list(result.band_v) if result.band_v else None, "linger_limit_s": result.linger_limit_s,
         "clean_trials": result.clean_trials,
         "edges": {e: {"trials": s.trials, "clean_trials": s.clean_trials, "missed_trials": s.missed_trials,
+                      "lingering_trials": s.lingering_trials, "longest_stay_s": s.longest_stay_s,
                       "max_edges": s.max_edges, "mean_edges": round(s.mean_edges, 6),
                       "histogram": {str(k): v for k, v in sorted(s.histogram.items())}}
                   for e, s in result.edges.items()},
@@ -52,26 +60,43 @@ def histogram_bins(histogram: dict[int, int]) -> list[tuple[str, int]]:
     return out
 
 
+def _model_text(result: SimulationResult) -> str:
+    fq = format_quantity
+    if result.receiver_model in ("schmitt", "latch"):
+        model = f"Schmitt VT+ {fq(result.upper_v, 'V')}, VT- {fq(result.lower_v, 'V')}" \
+            if result.upper_v != result.lower_v else f"inputs switching at {fq(result.upper_v, 'V')}"
+        return f"cross-coupled latch, {model}" if result.receiver_model == "latch" else model
+    text = f"plain input, switching at {fq(result.upper_v, 'V')}"
+    if result.band_v and result.linger_limit_s is not None:
+        text += (f", undefined {fq(result.band_v[0], 'V')}-{fq(result.band_v[1], 'V')} "
+                 f"(at most {fq(result.linger_limit_s, 's')} there)")
+    return text
+
+
 def render_simulation_text(result: SimulationResult, console: Console) -> None:
     """Print the result to a rich Console: a table per actuation and a verdict."""
-    model = (f"Schmitt VT+ {format_quantity(result.upper_v, 'V')}, VT- {format_quantity(result.lower_v, 'V')}"
-             if result.receiver_model == "schmitt" else
-             f"plain input, switching at {format_quantity(result.upper_v, 'V')}")
     console.print(Text(f"{result.stage} ({result.kind}, {result.contact_class})", style="bold"))
+    if not result.simulated:
+        for note in result.notes:
+            console.print(Text(note, style="bold yellow"))
+        return
     console.print(f"{result.trials} trials, seed {result.seed}, bursts up to "
-                  f"{format_quantity(result.bounce_s, 's')}; {model}; nominal corner")
+                  f"{format_quantity(result.bounce_s, 's')}; {_model_text(result)}; nominal corner")
+    lingers = result.band_v is not None
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
-    for name, justify in _COLUMNS:
+    for name, justify in _COLUMNS[:3] + ((("lingering", "right"),) if lingers else ()) + _COLUMNS[3:]:
         table.add_column(name, justify=justify)
     for edge, s in result.edges.items():
         hist = "  ".join(f"{k}:{v}" for k, v in histogram_bins(s.histogram))
         style = "green" if s.clean_trials == s.trials else "bold red"
-        table.add_row(edge, Text(f"{s.clean_trials}/{s.trials}", style=style), str(s.missed_trials),
-                      str(s.max_edges), f"{s.mean_edges:.2f}", hist)
+        cells: list[str | Text] = [edge, Text(f"{s.clean_trials}/{s.trials}", style=style), str(s.missed_trials)]
+        cells += [str(s.lingering_trials)] if lingers else []
+        table.add_row(*cells, str(s.max_edges), f"{s.mean_edges:.2f}", hist)
     console.print(table)
     worst = ", ".join(f"{e} {n}" for e, n in result.worst_edges.items())
     verdict_ok = result.clean_trials == result.trials
-    console.print(Text(f"clean trials (one edge per press and per release): {result.clean_trials}/{result.trials}",
+    words = "one edge per press and per release" + (", no lingering in the band" if lingers else "")
+    console.print(Text(f"clean trials ({words}): {result.clean_trials}/{result.trials}",
                        style="green" if verdict_ok else "bold red"))
     console.print(f"worst trial: #{result.worst_trial} ({worst} output edges)")
     for note in result.notes:

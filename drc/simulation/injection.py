@@ -4,23 +4,27 @@ The analysis answers "how long does an edge take"; this module answers the
 question a designer then asks: "does the receiver's output switch exactly once
 when this contact bounces?". Each trial draws a press and a release bounce
 train (drc.simulation.chatter) and integrates the stage's circuit exactly between the
-switching instants: between two toggles the circuit is linear, so with the
-capacitor voltages u carried across each toggle, the reduced system of the
-physics package (C du/dt = h - Y u, receiver voltage cv + Mv u, from
-drc.analysis.physics.mna.reduce_dynamic) is solved in closed form by its
-eigen-decomposition, for all trials at once. The receiver is a Schmitt input
-(output rises at VT+ typ, falls at VT- typ) or a plain input with one switching
-point (the typical threshold, where every crossing counts). Between two
-instants the receiver voltage is a sum of exponentials: with one capacitor it
-is monotonic, with two its single stationary point is found in closed form, so
-checking the thresholds at the instants and at that point catches every
-crossing exactly; three or more capacitors are sampled on a grid of their
-time constants inside each interval (noted in the result).
+switching instants (drc.simulation.modes: closed form per linear state, all
+trials at once). How the pin reads its voltage is drc.simulation.readers:
+
+- a Schmitt input switches at VT+ typ going up and VT- typ going down;
+- a plain input switches at the middle of its VIL-VIH band, and an actuation
+  whose voltage stays inside the band longer than the family's transition
+  limit allows (its s/V limit times the band's width) is not clean whatever
+  its edge count: the same story as the slow-edge rule tells of the check;
+- a latch stage simulates the latch: both inputs of the cross-coupled pair
+  (this pin and the contact's other throw, through the same circuit), the
+  gates' truth table at every input change, and the stage's own gate's
+  output edges counted; a latch whose gates or other input are not known is
+  reported as not simulated, never as unclean.
 
 While the contact bounces during a press it alternates between its pressed
 state and "no throw closed" (a changeover's common between its throws); a
 contact whose new state closes nothing (a normally-open contact released)
-re-makes into its old state instead. Leakage and the starting steady state
+re-makes into its old state instead. Bursts are made of intervals of at
+least 1 µs (chatter.INTERVAL_S, the analysis' minimum closure for a
+first-edge stage; `min_closure_s` sets another), so a stage with a capacitor
+across its contact is counted by the same reading the check applies. Leakage and the starting steady state
 follow the analysis' convention for each edge (drc.analysis.stage_analysis.edge_setup),
 at the nominal corner. `chatter_deck` writes one recorded trial as an ngspice
 deck (drc.simulation.spice_deck's element lines, with the chatter as PWL
@@ -35,14 +39,17 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from drc.analysis.physics.compiled import LinearModel, compile_circuit
-from drc.analysis.physics.mna import cap_voltages, dc_solve, reduce_dynamic
+from drc.analysis.physics.compiled import compile_circuit
+from drc.analysis.physics.mna import cap_voltages, dc_solve
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import EDGE_STATES, Edge
 from drc.analysis.stage_analysis import EdgeSetup, edge_setup
 from drc.board.stage import Stage
 from drc.errors import UsageError
-from drc.simulation.chatter import ChatterTrial, draw_trains, train_from_row
+from drc.library.catalogue import Library
+from drc.simulation.chatter import INTERVAL_S, ChatterTrial, draw_trains, train_from_row
+from drc.simulation.modes import Mode
+from drc.simulation.readers import Band, Latch, Thresholds
 from drc.simulation.spice_deck import deck_number, stage_deck
 
 TRANSIT = "transit"  # no throw closed: a topology state the model builds like any other
@@ -51,7 +58,6 @@ _DECK_SETTLE_TAUS = 16.0  # e^-16 = 1e-7 of the swing left when the deck's next 
 _DECK_PRESS_AT = 100e-6  # s: the deck's first toggle, after a short quiet start
 _DECK_HALF_EDGE = 0.5e-9  # s: half the PWL control ramp; the switch flips mid-ramp, at the instant
 _DECK_MAX_POINTS = 250_000
-_GRID_FRACTIONS = np.array([0.03, 0.1, 0.3, 1.0, 3.0])  # multiples of each tau, 3+ capacitors
 
 
 # ---------------------------------------------------------------- results
@@ -60,8 +66,11 @@ _GRID_FRACTIONS = np.array([0.03, 0.1, 0.3, 1.0, 3.0])  # multiples of each tau,
 class EdgeStatistics:
     """Output edges per actuation of one kind over all trials.
 
-    clean_trials: exactly one output edge; missed_trials: none at all (the
-    level never crosses); histogram: number of output edges -> trials.
+    clean_trials: exactly one output edge and no lingering; missed_trials: none
+    at all (the level never crosses); lingering_trials: the input stayed in a
+    plain input's undefined band longer than the transition limit allows
+    (longest_stay_s: the longest such stay of any trial); histogram: number of
+    output edges -> trials.
     """
 
     edge: Edge
@@ -71,11 +80,29 @@ class EdgeStatistics:
     max_edges: int
     mean_edges: float
     histogram: dict[int, int]
+    lingering_trials: int = 0
+    longest_stay_s: float = 0.0  # the longest stay in a plain input's band, over all trials
+
+
+@dataclass(frozen=True, slots=True)
+class LatchGates:
+    """What a latch stage's simulation needs beyond the stage: the net of the other gate's
+    input (the contact's other throw) and the gates' logic, "nand" or "nor"."""
+
+    partner_net: str
+    logic: str
 
 
 @dataclass(frozen=True, eq=False)
 class SimulationResult:
-    """The outcome of `simulate_stage`. clean_trials: both actuations clean."""
+    """The outcome of `simulate_stage`. clean_trials: both actuations clean.
+
+    simulated: False when the stage could not be simulated as what it is (a
+    latch whose gates are not known): no trials were run and `notes` says why.
+    receiver_model: "schmitt", "plain" (one switching point and the undefined
+    VIL-VIH band) or "latch". band_v / linger_limit_s: a plain input's band and
+    the longest stay in it an actuation may make (None: no limit known).
+    """
 
     stage: str
     kind: str
@@ -83,7 +110,7 @@ class SimulationResult:
     trials: int
     seed: int
     bounce_s: float
-    receiver_model: str  # "schmitt" or "single-threshold"
+    receiver_model: str
     upper_v: float  # VT+ typ (or the single threshold)
     lower_v: float  # VT- typ (or the single threshold)
     edges: dict[Edge, EdgeStatistics]
@@ -92,6 +119,9 @@ class SimulationResult:
     worst_edges: dict[Edge, int]
     notes: tuple[str, ...] = ()
     trains: dict[Edge, np.ndarray] = field(default_factory=dict, repr=False)
+    simulated: bool = True
+    band_v: tuple[float, float] | None = None
+    linger_limit_s: float | None = None
 
     def trial(self, index: int) -> ChatterTrial:
         """The recorded bounce trains of one trial (e.g. the worst) for replay or a deck."""
@@ -119,115 +149,12 @@ class TrialReplay:
     receiver_model: str
 
 
-# ---------------------------------------------------------------- the linear system per state
-
-class _Mode:
-    """One linear configuration (actuator state, leakage) diagonalised once.
-
-    z = Q^T (u / d) with d = C^-1/2 decouples C du/dt = h - Y u into
-    dz/dt = r - lam z; the receiver voltage is c + w . z.
-    """
-
-    def __init__(self, model: LinearModel, state: str, row: np.ndarray):
-        red = reduce_dynamic(model, model.topology(state, ()), row[None, :])
-        k = model.k
-        if model.rx >= 0:
-            c = float(red.cv[0, model.rx])
-            m_rx = red.Mv[0, model.rx]
-        else:  # the receiver sits on a rail or ground
-            c = float(red.vfix[0, -1 - model.rx])
-            m_rx = np.zeros(k)
-        self.c = c
-        if k == 0:
-            self.d = self.lam = self.r = self.w = self.zinf = np.zeros(0)
-            self.Q, self.pos = np.zeros((0, 0)), np.zeros(0, dtype=bool)
-            return
-        C = red.C[0]
-        d = 1.0 / np.sqrt(C)
-        S = d[:, None] * red.Y[0] * d[None, :]
-        lam, Q = np.linalg.eigh((S + S.T) * 0.5)
-        scale = max(float(np.max(np.abs(lam))), 1e-300)
-        lam = np.where(lam < 1e-12 * scale, 0.0, lam)  # no decay: a floating capacitor
-        pos = lam > 0
-        r = Q.T @ (d * red.h[0])
-        self.d, self.Q, self.lam, self.pos, self.r = d, Q, lam, pos, r
-        self.zinf = np.where(pos, r / np.where(pos, lam, 1.0), 0.0)
-        self.w = (np.nan_to_num(m_rx) * d) @ Q
-
-    def taus(self) -> list[float]:
-        return [1.0 / x for x in self.lam[self.pos]]
-
-    def to_z(self, u: np.ndarray) -> np.ndarray:
-        return (u / self.d) @ self.Q if self.d.size else u
-
-    def to_u(self, z: np.ndarray) -> np.ndarray:
-        return self.d * (z @ self.Q.T) if self.d.size else z
-
-    def advance(self, z0: np.ndarray, t: np.ndarray) -> np.ndarray:
-        """z after t seconds (t broadcast over trials)."""
-        t = t[:, None]
-        decay = self.zinf + (z0 - self.zinf) * np.exp(-self.lam * t)
-        return np.where(self.pos, decay, z0 + self.r * t)
-
-    def rx_v(self, z: np.ndarray) -> np.ndarray:
-        return self.c + z @ self.w
-
-    def stationary_v(self, z0: np.ndarray, dt: np.ndarray) -> np.ndarray:
-        """(N, j) receiver voltages at interior points that split each interval into monotonic pieces."""
-        n = z0.shape[0]
-        k = self.lam.size
-        if k <= 1:
-            return np.zeros((n, 0))
-        if k == 2:
-            a = np.where(self.pos, self.w * (z0 - self.zinf), 0.0)
-            s = float(np.dot(self.w[~self.pos], self.r[~self.pos]))
-            l1, l2 = self.lam
-            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-                if self.pos.all() and l1 != l2:
-                    # f'(t) = -l1 a1 e^(-l1 t) - l2 a2 e^(-l2 t) = 0
-                    t = np.log(-(l1 * a[:, 0]) / (l2 * a[:, 1])) / (l1 - l2)
-                elif self.pos.any() and not self.pos.all():
-                    i = int(np.flatnonzero(self.pos)[0])
-                    # f'(t) = -lam a e^(-lam t) + s = 0
-                    t = np.log(self.lam[i] * a[:, i] / s) / self.lam[i]
-                else:
-                    return np.zeros((n, 0))
-            ok = np.isfinite(t) & (t > 0) & (t < dt)
-            t = np.where(ok, t, 0.0)
-            v = self.rx_v(self.advance(z0, t))
-            return np.where(ok, v, np.nan)[:, None]
-        # Three or more capacitors: sample on multiples of each time constant.
-        pts = np.unique(np.concatenate([tau * _GRID_FRACTIONS for tau in self.taus()] or [np.zeros(0)]))
-        out = np.full((n, pts.size), np.nan)
-        for j, tp in enumerate(pts):
-            inside = tp < dt
-            out[:, j] = np.where(inside, self.rx_v(self.advance(z0, np.full(n, tp))), np.nan)
-        return out
-
-
-class _Receiver:
-    """Output state with hysteresis (upper > lower) or one switching point (equal)."""
-
-    def __init__(self, upper: float, lower: float, vcc: float):
-        self.upper, self.lower, self.vcc = upper, lower, vcc
-
-    def initial(self, v: np.ndarray) -> np.ndarray:
-        between = np.where(v >= self.upper, True, np.where(v < self.lower, False, v > self.vcc / 2))
-        return between if self.upper != self.lower else v >= self.upper
-
-    def step(self, out: np.ndarray, edges: np.ndarray, v: np.ndarray) -> None:
-        """Apply one voltage point (NaN: no change); one monotonic piece ends at each point."""
-        rise = ~out & (v >= self.upper)
-        fall = out & (v < self.lower)
-        flip = rise | fall
-        out ^= flip
-        edges += flip
-
+# ---------------------------------------------------------------- the stage
 
 class _StageSystem:
-    """A compiled stage with its modes, thresholds and per-edge parameter rows."""
+    """A compiled stage with its modes, how its pins read, and per-edge parameter rows."""
 
-    def __init__(self, stage: Stage, rx: ReceiverElectrical):
+    def __init__(self, stage: Stage, rx: ReceiverElectrical, latch: LatchGates | None = None):
         self.stage = stage
         self.model = compile_circuit(stage.circuit)
         if self.model.has_diodes:
@@ -241,10 +168,20 @@ class _StageSystem:
                 raise UsageError(f"cannot simulate {stage.name}: {exc}") from None
         self.schmitt = rx.schmitt
         if rx.schmitt:
-            self.receiver = _Receiver(rx.rising_threshold[1], rx.falling_threshold[1], rx.vcc)
+            self.reader = Thresholds(rx.rising_threshold[1], rx.falling_threshold[1], rx.vcc)
         else:
-            self.receiver = _Receiver(rx.rising_threshold[1], rx.rising_threshold[1], rx.vcc)
-        self._modes: dict[tuple, _Mode] = {}
+            self.reader = Thresholds(rx.rising_threshold[1], rx.rising_threshold[1], rx.vcc)
+        # A plain input's undefined band and the longest stay in it the transition limit allows.
+        self.band: tuple[float, float, float] | None = None
+        if not rx.schmitt and rx.transition_limit_s_per_v is not None:
+            low, high = rx.vil_max, rx.vih_min
+            self.band = (low, high, rx.transition_limit_s_per_v * (high - low))
+        self.latch = latch
+        nodes = [self.model.node_code(stage.circuit.receiver_node)]
+        if latch is not None:
+            nodes.append(self.model.node_code(latch.partner_net))
+        self.nodes = tuple(nodes)
+        self._modes: dict[tuple, Mode] = {}
         throws = stage.circuit.throws
         self.alternate: dict[Edge, str] = {}
         for edge, (a, b) in EDGE_STATES.items():
@@ -252,22 +189,28 @@ class _StageSystem:
             # closes nothing can only re-make into the old one.
             self.alternate[edge] = TRANSIT if any(t.closed_when == b for t in throws) else a
 
+    @property
+    def model_name(self) -> str:
+        return "latch" if self.latch else ("schmitt" if self.schmitt else "plain")
+
     def row(self, edge: Edge) -> np.ndarray:
         return self.setups[edge].box.nominal
 
-    def mode(self, state: str, edge: Edge) -> _Mode:
+    def mode(self, state: str, edge: Edge) -> Mode:
         key = (state, edge)
         if key not in self._modes:
-            self._modes[key] = _Mode(self.model, state, self.row(edge))
+            self._modes[key] = Mode(self.model, state, self.row(edge), self.nodes)
         return self._modes[key]
 
-    def modes_for(self, edge: Edge) -> tuple[_Mode, _Mode]:
+    def modes_for(self, edge: Edge) -> tuple[Mode, Mode]:
         """(the new state, the bounce state) of an actuation."""
         return self.mode(EDGE_STATES[edge][1], edge), self.mode(self.alternate[edge], edge)
 
-    def start_u(self, edge: Edge) -> tuple[np.ndarray, float]:
+    def start(self, edge: Edge) -> tuple[np.ndarray, np.ndarray]:
+        """Capacitor voltages and watched voltages of the steady state before `edge`."""
         dc = dc_solve(self.model, EDGE_STATES[edge][0], self.row(edge)[None, :])
-        return cap_voltages(self.model, dc)[0], float(dc.rx_v[0])
+        volts = np.array([dc.v[0, n] if n >= 0 else dc.vfix[0, -1 - n] for n in self.nodes])
+        return cap_voltages(self.model, dc)[0], volts
 
     def taus(self) -> list[float]:
         out = []
@@ -278,36 +221,107 @@ class _StageSystem:
         return [t for t in out if math.isfinite(t) and t > 0]
 
 
-def _integrate(modes: list[_Mode], dt: np.ndarray, u0: np.ndarray, receiver: _Receiver,
-               out: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Run N trials through columns of intervals; column j uses modes[j], NaN dt skips.
+# ---------------------------------------------------------------- one actuation for many trials
 
-    Returns (edges per trial, receiver voltage at the end of each interval
-    (N, M), final u, final output state). Every value between two checked
-    points is monotonic, so checking the thresholds at the points is exact.
-    """
-    n, m = dt.shape
-    u = np.array(np.broadcast_to(u0, (n, u0.shape[-1])), dtype=float)
-    edges = np.zeros(n, dtype=np.int64)
-    v_end = np.full((n, m), np.nan)
-    for j in range(m):
-        mode = modes[j]
-        step = dt[:, j]
-        valid = ~np.isnan(step)
-        if not valid.any():
-            continue
-        span = np.where(valid, step, 0.0)
+class _Run:
+    """The pins' readings, the output edges and the band stays of N trials, across intervals."""
+
+    def __init__(self, system: _StageSystem, volts: np.ndarray):
+        self.system = system
+        n = volts.shape[0]
+        reader = system.reader
+        self.state = [reader.initial(volts[:, j]) for j in range(volts.shape[1])]
+        self.edges = np.zeros(n, dtype=np.int64)
+        self.band = Band(system.band[0], system.band[1], n) if system.band else None
+        self.latch = Latch(system.latch.logic, self.state[0], self.state[1]) if system.latch else None
+
+    def begin_actuation(self) -> None:
+        self.edges = np.zeros_like(self.edges)
+        if self.band is not None:
+            self.band.reset()
+
+    def lingering(self) -> np.ndarray:
+        if self.band is None or self.system.band is None:
+            return np.zeros(self.edges.shape[0], dtype=bool)
+        return self.band.longest > self.system.band[2]
+
+    def interval(self, mode: Mode, u: np.ndarray, dt: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Run every valid trial (dt not NaN) through one interval of `mode`; returns
+        (capacitor voltages after it, receiver voltage at its end)."""
+        valid = ~np.isnan(dt)
+        span = np.where(valid, dt, 0.0)
         z0 = mode.to_z(u)
-        v0 = np.where(valid, mode.rx_v(z0), np.nan)
-        receiver.step(out, edges, v0)  # the jump at the toggle itself
-        for v in mode.stationary_v(z0, span).T:
-            receiver.step(out, edges, np.where(valid, v, np.nan))
+        v0 = mode.volts(z0)
+        self._jump(v0, valid)  # the toggle itself
+        cuts = mode.pieces(z0, span)
+        points = np.column_stack([np.zeros_like(span), cuts, span])
+        ta, va = points[:, 0], v0
+        for j in range(1, points.shape[1]):
+            tb = points[:, j]
+            ok = valid & ~np.isnan(tb)
+            tb_safe = np.where(ok, tb, ta)
+            vb = mode.at(z0, tb_safe)
+            self._piece(mode, z0, ta, tb_safe, va, vb, ok)
+            ta, va = np.where(ok, tb_safe, ta), np.where(ok[:, None], vb, va)
         z1 = mode.advance(z0, span)
-        v1 = np.where(valid, mode.rx_v(z1), np.nan)
-        receiver.step(out, edges, v1)
-        v_end[:, j] = v1
-        u = np.where(valid[:, None], mode.to_u(z1), u)
-    return edges, v_end, u, out
+        u1 = np.where(valid[:, None], mode.to_u(z1), u)
+        return u1, np.where(valid, mode.volts(z1)[:, 0], np.nan)
+
+    def _jump(self, v: np.ndarray, valid: np.ndarray) -> None:
+        flips = [self.system.reader.flips(s, v[:, j]) & valid for j, s in enumerate(self.state)]
+        self._apply(flips)
+        if self.band is not None:  # a jump out of the band ends a stay
+            self.band.run = np.where(valid & ~self.band.inside(v[:, 0]), 0.0, self.band.run)
+
+    def _piece(self, mode: Mode, z0: np.ndarray, ta: np.ndarray, tb: np.ndarray, va: np.ndarray,
+               vb: np.ndarray, ok: np.ndarray) -> None:
+        """One piece where every watched voltage is monotonic."""
+        if self.band is not None:
+            enter, leave = self._band_stay(mode, z0, ta, tb, va[:, 0], vb[:, 0], ok)
+            self.band.piece(ta, tb, enter, leave, ok)
+        reader = self.system.reader
+        flips = [reader.flips(s, vb[:, j]) & ok for j, s in enumerate(self.state)]
+        if len(flips) == 1:
+            self._apply(flips)
+            return
+        both = flips[0] & flips[1]
+        first_this = np.ones_like(both)
+        if both.any():
+            idx = np.flatnonzero(both)
+            times = [mode.crossing(z0[idx], j, ta[idx], tb[idx], reader.level(self.state[j][idx]),
+                                   vb[idx, j] > va[idx, j]) for j in (0, 1)]
+            first_this[idx] = times[0] <= times[1]
+        self._apply([flips[0] & (~flips[1] | first_this), flips[1] & (~flips[0] | ~first_this)])
+        self._apply([both & ~first_this, both & first_this])
+
+    def _apply(self, flips: list[np.ndarray]) -> None:
+        """Flip the readings where given; count the edges of the stage's output."""
+        for j, f in enumerate(flips):
+            self.state[j] = self.state[j] ^ f
+        if self.latch is None:
+            self.edges += flips[0]
+            return
+        changed = self.latch.update(self.latch.asserted(self.state[0]), self.latch.asserted(self.state[1]))
+        self.edges += changed & (flips[0] | flips[1])
+
+    def _band_stay(self, mode: Mode, z0: np.ndarray, ta: np.ndarray, tb: np.ndarray, va: np.ndarray,
+                   vb: np.ndarray, ok: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """[enter, leave] of the receiver voltage's stay in the band during a monotonic piece."""
+        assert self.band is not None
+        low, high = self.band.low, self.band.high
+        up = vb >= va
+        touches = ok & np.where(up, (va <= high) & (vb >= low), (va >= low) & (vb <= high))
+        edge_in = np.where(up, low, high)  # the band edge it comes in through
+        edge_out = np.where(up, high, low)
+        starts_in = np.where(up, va >= low, va <= high)
+        ends_in = np.where(up, vb <= high, vb >= low)
+        enter = np.where(touches & starts_in, ta, np.nan)
+        leave = np.where(touches & ends_in, tb, np.nan)
+        for target, level, want in ((enter, edge_in, touches & ~starts_in), (leave, edge_out, touches & ~ends_in)):
+            idx = np.flatnonzero(want)
+            if idx.size:
+                target[idx] = mode.crossing(z0[idx], 0, ta[idx], tb[idx], level[idx], up[idx])
+        return enter, leave
 
 
 def _settle_s(system: _StageSystem, bounce_s: float) -> float:
@@ -315,63 +329,108 @@ def _settle_s(system: _StageSystem, bounce_s: float) -> float:
     return SETTLE_TAUS * max(taus) if taus else max(bounce_s, 1e-6)
 
 
-def _actuation_columns(system: _StageSystem, edge: Edge, toggles: np.ndarray,
-                       tail_s: np.ndarray) -> tuple[list[_Mode], np.ndarray]:
-    """Modes and interval lengths of one actuation: toggles (N, M) NaN-padded, tail after the last."""
+def _actuation(run: _Run, system: _StageSystem, edge: Edge, toggles: np.ndarray, tail_s: np.ndarray,
+               u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """One actuation (toggles (N, M) NaN-padded, then `tail_s`): the capacitor voltages after
+    it and the receiver voltage at the end of each interval (N, M)."""
     new, bounce = system.modes_for(edge)
     nxt = np.concatenate([toggles[:, 1:], np.full((toggles.shape[0], 1), np.nan)], axis=1)
     dt = nxt - toggles
     last = ~np.isnan(toggles) & np.isnan(nxt)
     dt = np.where(last, tail_s[:, None], dt)
-    modes = [new if j % 2 == 0 else bounce for j in range(toggles.shape[1])]
-    return modes, dt
+    v_end = np.full(toggles.shape, np.nan)
+    for j in range(toggles.shape[1]):
+        if np.isnan(dt[:, j]).all():
+            continue
+        u, v_end[:, j] = run.interval(new if j % 2 == 0 else bounce, u, dt[:, j])
+    return u, v_end
 
 
-def _statistics(edge: Edge, counts: np.ndarray) -> EdgeStatistics:
+def _statistics(edge: Edge, counts: np.ndarray, lingering: np.ndarray, stays: np.ndarray) -> EdgeStatistics:
     values, freq = np.unique(counts, return_counts=True)
     return EdgeStatistics(
-        edge=edge, trials=int(counts.size), clean_trials=int(np.sum(counts == 1)),
+        edge=edge, trials=int(counts.size), clean_trials=int(np.sum((counts == 1) & ~lingering)),
         missed_trials=int(np.sum(counts == 0)), max_edges=int(counts.max(initial=0)),
         mean_edges=float(counts.mean()) if counts.size else 0.0,
-        histogram={int(v): int(f) for v, f in zip(values, freq, strict=True)})
+        histogram={int(v): int(f) for v, f in zip(values, freq, strict=True)},
+        lingering_trials=int(np.sum(lingering)), longest_stay_s=float(stays.max(initial=0.0)))
+
+
+def latch_gates(stage: Stage, library: Library) -> LatchGates | None:
+    """A latch stage's gates: the logic from its part's title ("NAND", "NOR" in
+    rules/parts.toml) and the other input's net (the free end of the contact's other
+    throw). None when either is not known."""
+    part = library.part_types.get(stage.receiver.part_type)
+    title = part.title.upper() if part else ""
+    logic = "nand" if "NAND" in title else ("nor" if "NOR" in title else None)
+    fixed = {"0", *(r.net for r in stage.circuit.rails)}
+    ends = [t.b if t.a in fixed else t.a for t in stage.circuit.throws]
+    node = stage.circuit.receiver_node
+    if logic is None or len(ends) != 2 or node not in ends or ends[0] == ends[1]:
+        return None
+    return LatchGates(ends[1] if ends[0] == node else ends[0], logic)
+
+
+def not_simulated(stage: Stage, rx: ReceiverElectrical, reason: str, seed: int = 0,
+                  bounce_s: float | None = None) -> SimulationResult:
+    """A result that says the stage was not simulated, and why (no trials, no verdict)."""
+    empty = {e: EdgeStatistics(e, 0, 0, 0, 0, 0.0, {}) for e in EDGE_STATES}
+    return SimulationResult(
+        stage=stage.name, kind=stage.kind, contact_class=stage.contact.contact_class, trials=0, seed=seed,
+        bounce_s=stage.contact.bounce_s if bounce_s is None else float(bounce_s),
+        receiver_model="latch" if stage.kind == "latch" else ("schmitt" if rx.schmitt else "plain"),
+        upper_v=rx.rising_threshold[1], lower_v=rx.falling_threshold[1], edges=empty, clean_trials=0,
+        worst_trial=0, worst_edges={e: 0 for e in EDGE_STATES}, notes=(f"not simulated: {reason}",),
+        simulated=False)
 
 
 def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, seed: int = 0,
-                   bounce_s: float | None = None) -> SimulationResult:
+                   bounce_s: float | None = None, latch: LatchGates | None = None,
+                   min_closure_s: float | None = None) -> SimulationResult:
     """Inject `trials` random press and release bounce trains; count the receiver's output edges.
 
-    bounce_s: the longest burst (default: the contact's bounce time). The
-    nominal corner is simulated (typical thresholds, nominal parts).
+    bounce_s: the longest burst (default: the contact's bounce time). latch: for a
+    latch stage, its gates (without them the result says "not simulated").
+    min_closure_s: the shortest make or break interval (default 1 µs, the analysis'
+    minimum closure). The nominal corner is simulated (typical thresholds, nominal parts).
     """
     if trials < 1:
         raise UsageError(f"trials must be at least 1, not {trials}")
-    system = _StageSystem(stage, rx)
+    if stage.kind == "latch" and latch is None:
+        return not_simulated(stage, rx, "a latch stage needs its gates (their logic and the other input); "
+                                        "none are known for this stage", seed, bounce_s)
+    system = _StageSystem(stage, rx, latch)
     bounce = stage.contact.bounce_s if bounce_s is None else float(bounce_s)
     if not (bounce >= 0 and math.isfinite(bounce)):
         raise UsageError(f"bounce time must be a non-negative number of seconds, not {bounce_s!r}")
+    interval = (min_closure_s or INTERVAL_S[0], INTERVAL_S[1])
     rng = np.random.default_rng(seed)
     settle = _settle_s(system, bounce)
     trains: dict[Edge, np.ndarray] = {}
     counts: dict[Edge, np.ndarray] = {}
+    lingering: dict[Edge, np.ndarray] = {}
+    stays: dict[Edge, np.ndarray] = {}
     for edge in EDGE_STATES:
-        toggles = draw_trains(rng, trials, bounce)
+        toggles = draw_trains(rng, trials, bounce, interval_s=interval)
         trains[edge] = toggles
-        modes, dt = _actuation_columns(system, edge, toggles, np.full(trials, settle))
-        u0, v0 = system.start_u(edge)
-        out = system.receiver.initial(np.full(trials, v0))
-        counts[edge] = _integrate(modes, dt, u0, system.receiver, out)[0]
+        u0, v0 = system.start(edge)
+        run = _Run(system, np.tile(v0, (trials, 1)))
+        _actuation(run, system, edge, toggles, np.full(trials, settle), np.tile(u0, (trials, 1)))
+        counts[edge], lingering[edge] = run.edges, run.lingering()
+        stays[edge] = run.band.longest if run.band is not None else np.zeros(trials)
+    clean_each = {e: (counts[e] == 1) & ~lingering[e] for e in EDGE_STATES}
     total = counts[Edge.PRESS] + counts[Edge.RELEASE]
-    clean = int(np.sum((counts[Edge.PRESS] == 1) & (counts[Edge.RELEASE] == 1)))
+    clean = int(np.sum(clean_each[Edge.PRESS] & clean_each[Edge.RELEASE]))
     worst = int(np.argmax(total))
-    notes = list(_notes(stage, system))
     return SimulationResult(
         stage=stage.name, kind=stage.kind, contact_class=stage.contact.contact_class,
-        trials=trials, seed=seed, bounce_s=bounce,
-        receiver_model="schmitt" if system.schmitt else "single-threshold",
-        upper_v=system.receiver.upper, lower_v=system.receiver.lower,
-        edges={e: _statistics(e, counts[e]) for e in EDGE_STATES}, clean_trials=clean,
+        trials=trials, seed=seed, bounce_s=bounce, receiver_model=system.model_name,
+        upper_v=system.reader.upper, lower_v=system.reader.lower,
+        edges={e: _statistics(e, counts[e], lingering[e], stays[e]) for e in EDGE_STATES}, clean_trials=clean,
         worst_trial=worst, worst_edges={e: int(counts[e][worst]) for e in EDGE_STATES},
-        notes=tuple(notes), trains=trains)
+        notes=tuple(_notes(stage, system)), trains=trains,
+        band_v=(system.band[0], system.band[1]) if system.band else None,
+        linger_limit_s=system.band[2] if system.band else None)
 
 
 def _notes(stage: Stage, system: _StageSystem) -> list[str]:
@@ -379,9 +438,12 @@ def _notes(stage: Stage, system: _StageSystem) -> list[str]:
     if system.model.k >= 3:
         notes.append("three or more capacitors: crossings inside an interval are checked on a grid "
                      "of the stage's time constants, not exactly")
-    if stage.kind == "latch":
-        notes.append("latch: edges are counted at this input pin; the cross-coupled pair that "
-                     "absorbs them is not simulated")
+    if system.latch is not None:
+        notes.append(f"latch: the cross-coupled {system.latch.logic.upper()} pair is simulated with both "
+                     f"inputs (this pin and {system.latch.partner_net}); edges are the output of this "
+                     f"pin's gate")
+    if not system.schmitt and system.band is None:
+        notes.append("plain input with no transition limit known: the VIL-VIH band is not timed")
     if stage.kind == "firmware":
         notes.append("firmware: edges are counted at the pin, before the firmware's debounce")
     if stage.kind == "dedicated":
@@ -411,37 +473,39 @@ def _schedule(system: _StageSystem, trial: ChatterTrial) -> _Schedule:
                      release_at + trial.release.duration_s + settle, settle)
 
 
-def replay_trial(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> TrialReplay:
+def replay_trial(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial,
+                 latch: LatchGates | None = None) -> TrialReplay:
     """Integrate one trial on the same schedule `chatter_deck` writes (press, hold, release)."""
-    system = _StageSystem(stage, rx)
+    system = _StageSystem(stage, rx, latch)
     sch = _schedule(system, trial)
-    receiver = system.receiver
-    u, v0 = system.start_u(Edge.PRESS)
-    out = receiver.initial(np.array([v0]))
+    u, v0 = system.start(Edge.PRESS)
+    run = _Run(system, v0[None, :])
+    u = u[None, :]
     edges: dict[Edge, int] = {}
-    v_before = [v0]
+    v_before = [float(v0[0])]
     # press: its toggles, the last interval running to the leakage switch
     tp = np.array([trial.press.toggles])
-    modes, dt = _actuation_columns(system, Edge.PRESS, tp, np.array([sch.leak_switch - sch.press_at - tp[0, -1]]))
-    count, v_end, u, out = _integrate(modes, dt, u, receiver, out)
-    edges[Edge.PRESS] = int(count[0])
+    u, v_end = _actuation(run, system, Edge.PRESS, tp, np.array([sch.leak_switch - sch.press_at - tp[0, -1]]), u)
+    edges[Edge.PRESS] = int(run.edges[0])
     v_before += [float(x) for x in v_end[0, :-1]]
     # hold: pressed, with the release edge's leakage, until the release train starts
+    run.begin_actuation()
     held = system.mode(EDGE_STATES[Edge.RELEASE][0], Edge.RELEASE)
-    count, v_end, u, out = _integrate([held], np.array([[sch.release_at - sch.leak_switch]]), u[0], receiver, out)
-    hold_edges = int(count[0])
-    v_before.append(float(v_end[0, 0]))
+    u, v_held = run.interval(held, u, np.array([sch.release_at - sch.leak_switch]))
+    hold_edges = int(run.edges[0])
+    v_before.append(float(v_held[0]))
+    run.begin_actuation()
     tr = np.array([trial.release.toggles])
-    modes, dt = _actuation_columns(system, Edge.RELEASE, tr, np.array([sch.t_stop - sch.release_at - tr[0, -1]]))
-    count, v_end, u, out = _integrate(modes, dt, u[0], receiver, out)
-    edges[Edge.RELEASE] = int(count[0]) + hold_edges  # a late edge while held belongs to neither: counted with release
+    u, v_end = _actuation(run, system, Edge.RELEASE, tr, np.array([sch.t_stop - sch.release_at - tr[0, -1]]), u)
+    # A late edge while held belongs to neither actuation: it is counted with the release.
+    edges[Edge.RELEASE] = int(run.edges[0]) + hold_edges
     v_before += [float(x) for x in v_end[0, :-1]]
     instants = tuple(sch.press_at + t for t in trial.press.toggles) + \
         tuple(sch.release_at + t for t in trial.release.toggles)
     return TrialReplay(instants=instants, v_before=tuple(v_before), v_end=float(v_end[0, -1]),
                        t_stop=sch.t_stop, leak_switch_s=sch.leak_switch, release_at=sch.release_at,
-                       edges=edges, upper_v=receiver.upper, lower_v=receiver.lower,
-                       receiver_model="schmitt" if system.schmitt else "single-threshold")
+                       edges=edges, upper_v=system.reader.upper, lower_v=system.reader.lower,
+                       receiver_model=system.model_name)
 
 
 # ---------------------------------------------------------------- the ngspice deck of one trial
@@ -555,4 +619,5 @@ def chatter_deck(stage: Stage, rx: ReceiverElectrical, trial: ChatterTrial) -> s
     return "\n".join(lines) + "\n"
 
 
-__all__ = ["EdgeStatistics", "SimulationResult", "TrialReplay", "chatter_deck", "replay_trial", "simulate_stage"]
+__all__ = ["EdgeStatistics", "LatchGates", "SimulationResult", "TrialReplay", "chatter_deck", "latch_gates",
+           "not_simulated", "replay_trial", "simulate_stage"]
