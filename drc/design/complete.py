@@ -57,6 +57,7 @@ MAX_CONFIRMATIONS = 12
 _FIRST_ROUND, _LATER_ROUNDS = 1, 3  # confirmations proposed per round
 _COST_DIGITS = 9  # costs equal to this many decimals are a tie
 _LEAF = 16  # a box of pair values this small is screened whole
+_GRID = 4  # a larger box is cut into _GRID x _GRID cells, their corners screened together
 
 
 @dataclass(frozen=True, slots=True)
@@ -203,7 +204,9 @@ class CompleteSearch:
         self.r_order = np.array([self.order[v.designator] for v in self.rvars] + [-1], dtype=float)
         self.r_cols = [screen.column[v.designator] for v in self.rvars]
         lo, hi = self.window
-        searched = [r for r in stage.circuit.resistors if r.role in SEARCHED_ROLES and r.ohms > 0]
+        # resistance-range checks a pull resistor on the contact's lead stage only.
+        checked = (ResistorRole.PULL, ResistorRole.SERIES) if stage.lead else (ResistorRole.SERIES,)
+        searched = [r for r in stage.circuit.resistors if r.role in checked and r.ohms > 0]
         self.forced_names = {r.designator for r in searched if not lo <= r.ohms <= hi}
         names = [v.designator for v in self.rvars]
         self.forced = {names.index(d) for d in self.forced_names if d in names}
@@ -302,10 +305,10 @@ class CompleteSearch:
     def _pairs(self, bound: float, above: float) -> Generator[Ask, Any, _Block]:
         """Pairs of resistors whose change costs more than `above` and at most `bound`.
 
-        Each pair's plane of values is cut into boxes; a box where one figure fails
-        its limit at all four corners fails everywhere inside (each figure being
-        monotonic in each value, as the worst-case corners already assume) and is
-        dropped; boxes of at most `_LEAF` rows are kept whole.
+        Each pair's plane of values is cut into cells on a grid; a cell where one
+        figure fails its limit at all four corners fails everywhere inside (each
+        figure being monotonic in each value, as the worst-case corners already
+        assume) and is dropped; cells of at most `_LEAF` rows are kept whole.
         """
         planes = [(i, j) for i in range(len(self.rvars)) for j in range(i + 1, len(self.rvars))
                   if not self.forced - {i, j}]
@@ -343,25 +346,30 @@ class CompleteSearch:
 
     def _split_live(self, big: dict[tuple[int, int], list[_Box]]
                     ) -> Generator[Ask, Any, dict[tuple[int, int], list[_Box]]]:
-        """Screen the corners of every box (one request); split the boxes no figure rules out."""
+        """Screen a grid of points over every box (one request); keep the grid's cells
+        where no figure fails at all four corners."""
         flat = [(pl, bx) for pl, bxs in big.items() for bx in bxs]
         if not flat:
             return {}
-        X = self.screen.rows(4 * len(flat))
-        for k, ((i, j), (a0, a1, b0, b1)) in enumerate(flat):
-            X[4 * k:4 * k + 4, self.r_cols[i]] = self.rvars[i].candidates[[a0, a0, a1, a1]]
-            X[4 * k:4 * k + 4, self.r_cols[j]] = self.rvars[j].candidates[[b0, b1, b0, b1]]
+        grids = [(_grid(bx[0], bx[1]), _grid(bx[2], bx[3])) for _pl, bx in flat]
+        X = self.screen.rows(sum(ga.size * gb.size for ga, gb in grids))
+        at = 0
+        for ((i, j), _bx), (ga, gb) in zip(flat, grids, strict=True):
+            n = ga.size * gb.size
+            X[at:at + n, self.r_cols[i]] = np.repeat(self.rvars[i].candidates[ga], gb.size)
+            X[at:at + n, self.r_cols[j]] = np.tile(self.rvars[j].candidates[gb], ga.size)
+            at += n
         self.corner_rows += X.shape[0]
         got = yield Request(self.screen, X, every_figure=True)
-        dead = got.verdicts.fails.reshape(len(flat), 4, -1).all(axis=1).any(axis=1)
         out: dict[tuple[int, int], list[_Box]] = {}
-        for ((pl, (a0, a1, b0, b1)), gone) in zip(flat, dead, strict=True):
-            if gone:
-                continue
-            am, bm = (a0 + a1) // 2, (b0 + b1) // 2
-            for box in ((a0, am, b0, bm), (am + 1, a1, b0, bm), (a0, am, bm + 1, b1), (am + 1, a1, bm + 1, b1)):
-                if box[0] <= box[1] and box[2] <= box[3]:
-                    out.setdefault(pl, []).append(box)
+        at = 0
+        for (pl, _bx), (ga, gb) in zip(flat, grids, strict=True):
+            n = ga.size * gb.size
+            F = got.verdicts.fails[at:at + n].reshape(ga.size, gb.size, -1)
+            at += n
+            dead = (F[:-1, :-1] & F[1:, :-1] & F[:-1, 1:] & F[1:, 1:]).any(axis=2)
+            for k, m in zip(*np.nonzero(~dead), strict=True):
+                out.setdefault(pl, []).append((int(ga[k]), int(ga[k + 1]), int(gb[m]), int(gb[m + 1])))
         return out
 
     def _block(self, var: np.ndarray, val: np.ndarray) -> _Block:
@@ -515,6 +523,13 @@ class CompleteSearch:
 
 
 _Box = tuple[int, int, int, int]  # candidate index ranges [a0, a1] x [b0, b1] of a plane
+
+
+def _grid(lo: int, hi: int) -> np.ndarray:
+    """Up to `_GRID` + 1 indices from lo to hi, both included (a point twice if lo == hi)."""
+    if lo == hi:
+        return np.array([lo, lo])
+    return np.unique(np.round(np.linspace(lo, hi, min(_GRID, hi - lo) + 1)).astype(int))
 
 
 def _split_verdicts(v: Verdicts, sizes: list[int]) -> list[Verdicts]:

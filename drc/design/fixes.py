@@ -2,7 +2,7 @@
 
 Rules describe a fix in plain words; this separate step upgrades the fix of
 value-related findings (bounce-window, slow-edge, response-latency,
-leakage-headroom, pullup-waste, resistance-range) to named values, e.g.
+leakage-headroom, pullup-waste, shorted-pull, resistance-range) to named values, e.g.
 "R2 4.7 kΩ → 22 kΩ (press 11.8 ms ≥ 10 ms at fastest corner)". The analysis
 stays the only authority on the figures: every proposal is a stage analysed
 with the new values (`analysis.analyse_stages`) on which the stage rules
@@ -60,7 +60,7 @@ __all__ = ["FIXABLE", "MAX_ANALYSES", "Change", "Solution", "capacitor_series", 
            "propose_fixes", "rule_figure", "search", "with_values"]
 
 FIXABLE = ("bounce-window", "slow-edge", "response-latency", "leakage-headroom",
-           "pullup-waste", "resistance-range")
+           "pullup-waste", "shorted-pull", "resistance-range")
 MAX_ANALYSES = bisection.MAX_ANALYSES
 # The bisection search (stages the complete search cannot screen): analyses per stage in
 # a board check, and per board in all.
@@ -241,6 +241,13 @@ def _range_figure(result: StageResult, limits: Mapping[str, float], edges: list[
     return f"within {fq(limits['resistance_min'], 'Ω')}-{fq(limits['resistance_max'], 'Ω')}"
 
 
+def _short_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
+    held = [x for x in (result.closed_current_a, result.pull_current_a) if x is not None]
+    if not held or "short_current" not in limits:
+        return "no short"
+    return f"held {fq(max(held), 'A')} < {fq(limits['short_current'], 'A')}"
+
+
 def _slow_edge_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
     return "edge rate within the transition limit"
 
@@ -252,6 +259,7 @@ _FIGURES: dict[str, Callable[[StageResult, Mapping[str, float], list[EdgeResult]
     "pullup-waste": _pull_figure,
     "resistance-range": _range_figure,
     "slow-edge": _slow_edge_figure,
+    "shorted-pull": _short_figure,
 }
 
 
@@ -335,6 +343,7 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
             by_stage.setdefault((f.contact, f.receiver), []).append(f)
     out: dict[Finding, str] = {}
     todo: list[tuple[StageResult, list[Finding], tuple | None, _Job]] = []
+    fired_by_design: dict[tuple, frozenset[str]] = {}
     for result in results:
         mine = _mine(result, by_stage.get((result.stage.contact.designator, result.stage.receiver.ref), []))
         if not mine or result.receiver_electrical is None:
@@ -344,7 +353,13 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
             if text:
                 out.update({f: text for f in mine})
                 continue
-        present_rules = frozenset(f.rule for f in run_stage_rules(result, limits))
+        # Identical stages (a keypad) fire the same rules: run them once per design.
+        value_key = _memo_key(result.stage, result.receiver_electrical, limits, series, frozenset(), 0)
+        present_rules = fired_by_design.get(value_key) if value_key is not None else None
+        if present_rules is None:
+            present_rules = frozenset(f.rule for f in run_stage_rules(result, limits))
+            if value_key is not None:
+                fired_by_design[value_key] = present_rules
         tolerated = frozenset(present_rules - set(FIXABLE))
         job = _job(result.stage, result.receiver_electrical, limits, series, tolerated, result,
                    present_rules=present_rules)

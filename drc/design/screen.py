@@ -21,7 +21,8 @@ candidates of every stage of one circuit structure in the same solves
   evaluation gives the exact interval of capacitor values (as a factor on the
   present one) that passes the timing rules, without trying any.
 - The value rules' conditions are restated here (bounce-window,
-  response-latency, leakage-headroom, pullup-waste, contact-wetting; the
+  response-latency, leakage-headroom, pullup-waste, shorted-pull,
+  contact-wetting; contact-level rules only on the contact's lead stage; the
   resistance window is a pure value test, left to the search). Before a
   screen is trusted, its exact figures on the present values are compared
   with the full analysis and its verdict with the rules (`agrees`); a rule or
@@ -51,8 +52,10 @@ from drc.analysis.results import ACTUATOR_STATES, EDGE_STATES, PULL_ROLES, Edge,
 from drc.board.stage import ActuatorState, Stage
 
 # The rules whose conditions the screen restates (and the limits they read).
-SCREENED_RULES = ("bounce-window", "response-latency", "leakage-headroom", "pullup-waste", "contact-wetting")
+SCREENED_RULES = ("bounce-window", "response-latency", "leakage-headroom", "pullup-waste", "shorted-pull",
+                  "contact-wetting")
 _LIMIT_KEYS = ("bounce_margin", "latency_limit", "leakage_headroom_margin", "pull_current_budget")
+_OPTIONAL_KEYS = ("short_current",)
 _RC_KINDS = ("rc", "rc-schmitt")  # the stage kinds bounce-window reads (checks.common.RC_KINDS)
 # Comparisons lean to passing by this relative slack: a candidate exactly on a
 # boundary is sent to the full analysis rather than screened out by rounding.
@@ -90,7 +93,8 @@ class Figures:
     worst: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # level badness, larger is worse
     high: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # the logic each row reads
     pull: dict[ActuatorState, np.ndarray] = field(default_factory=dict)
-    contact: dict[ActuatorState, np.ndarray] = field(default_factory=dict)
+    contact: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # least through the contact
+    closed: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # most through the contact
     fast: dict[Edge, np.ndarray] = field(default_factory=dict)
     slow: dict[Edge, np.ndarray] = field(default_factory=dict)
     rising: dict[Edge, np.ndarray] = field(default_factory=dict)
@@ -124,7 +128,7 @@ class Screen:
     def __init__(self, stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float],
                  tolerated: frozenset[str], model: LinearModel) -> None:
         self.stage, self.rx, self.model = stage, rx, model
-        self.limits = {k: float(limits[k]) for k in _LIMIT_KEYS}
+        self.limits = {k: float(limits[k]) for k in _LIMIT_KEYS + _OPTIONAL_KEYS if k in limits}
         self.tolerated = tolerated
         self.names, self.nominal, self.f_lo, self.f_hi = _tolerance_factors(stage)
         self.column = {name: j for j, name in enumerate(self.names)}
@@ -141,6 +145,7 @@ class Screen:
         lv = self.limit_values()
         self.learns_pull = bool(self.pull_cols) and math.isfinite(lv["budget"])
         self.learns_contact = math.isfinite(lv["wetting"])
+        self.learns_closed = math.isfinite(lv["short"])
 
     @classmethod
     def build(cls, stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float],
@@ -200,11 +205,17 @@ class Screen:
         value that never fails (so that the rows of many stages are judged in one go)."""
         rx, lim, t = self.rx, self.limits, self.tolerated
         wetting = self.stage.contact.wetting_a
+        lead = self.stage.lead  # contact-level rules speak on the contact's first stage only
+        # A short is reported by shorted-pull, not pullup-waste: while a short is tolerated,
+        # waste depends on a figure the screen cannot bound from above, so it is not screened.
+        waste = lead and "pullup-waste" not in t and "shorted-pull" not in t
+        short = lead and "shorted-pull" not in t and "short_current" in lim
         return {
             "vcc": rx.vcc, "high_req": rx.high_required_v, "low_req": rx.low_required_v,
             "headroom": lim["leakage_headroom_margin"] if "leakage-headroom" not in t else -np.inf,
-            "budget": lim["pull_current_budget"] if "pullup-waste" not in t else np.inf,
-            "wetting": wetting if wetting is not None and "contact-wetting" not in t else -np.inf,
+            "budget": lim["pull_current_budget"] if waste else np.inf,
+            "short": lim["short_current"] if short else np.inf,
+            "wetting": wetting if lead and wetting is not None and "contact-wetting" not in t else -np.inf,
             "need": (self.stage.contact.bounce_s * lim["bounce_margin"]
                      if "bounce-window" not in t and self.stage.kind in _RC_KINDS else 0.0),
             "latency": lim["latency_limit"] if "response-latency" not in t else np.inf,
@@ -238,8 +249,10 @@ class Screen:
     def _currents_agree(self, exact: Figures, present: StageResult) -> bool:
         pulls = [float(p[0]) for p in exact.pull.values() if math.isfinite(float(p[0]))]
         contacts = [float(exact.contact[s][0]) for s in exact.contact if self.closed[s]]
+        closed = [float(exact.closed[s][0]) for s in exact.closed if self.closed[s]]
         return (_close(max(pulls) if pulls else None, present.pull_current_a)
-                and _close(min(contacts) if contacts else None, present.contact_current_a))
+                and _close(min(contacts) if contacts else None, present.contact_current_a)
+                and _close(max(closed) if closed else None, present.closed_current_a))
 
     def _edges_agree(self, exact: Figures, present: StageResult) -> bool:
         if set(self.timed) != set(present.edges):
@@ -287,7 +300,7 @@ class _Limits:
 
 
 def _level_fails(f: Figures, lim: _Limits) -> list[np.ndarray]:
-    """Leakage-headroom, pullup-waste and contact-wetting per state: True where failing."""
+    """Leakage-headroom, pullup-waste, contact-wetting and shorted-pull per state: True where failing."""
     v, sc = lim.v, lim.screen
     fails: list[np.ndarray] = []
     for s in f.worst:  # leakage-headroom
@@ -301,6 +314,8 @@ def _level_fails(f: Figures, lim: _Limits) -> list[np.ndarray]:
     if sc.pull_cols:  # pullup-waste
         fails += [f.pull[s] > v["budget"] * (1 + _SLACK) for s in f.pull]
     fails += [f.contact[s] < v["wetting"] * (1 - _SLACK) for s in f.contact if sc.closed[s]]  # contact-wetting
+    fails += [np.maximum(f.closed[s], f.pull[s]) >= v["short"] * (1 + _SLACK)  # shorted-pull
+              for s in f.closed if sc.closed[s]]
     return fails
 
 
@@ -397,7 +412,7 @@ def _group(reqs: Sequence[Request]) -> list[Screened]:
     parts = zip(*(split(a) for a in (verdicts.fixed_ok, verdicts.scale_lo, verdicts.scale_hi,
                                      verdicts.fails)), strict=True)
     figures = [Figures() for _ in reqs]
-    for name in ("worst", "high", "pull", "contact", "fast", "slow", "rising", "start"):
+    for name in ("worst", "high", "pull", "contact", "closed", "fast", "slow", "rising", "start"):
         for key, a in getattr(whole, name).items():
             for f, piece in zip(figures, split(a), strict=True):
                 getattr(f, name)[key] = piece
@@ -434,9 +449,11 @@ def _levels(model: LinearModel, rows: _Rows, reqs: Sequence[Request], s: Actuato
     pull = (np.max(np.abs(dc.i_res[:, sc.pull_cols]), axis=1).reshape(n, m) if sc.pull_cols
             else np.full((n, m), -np.inf))
     closed = sc.closed[s]
-    contact = (np.min(np.abs(dc.i_throw[:, closed]), axis=1).reshape(n, m) if closed
-               else np.full((n, m), np.inf))
-    f.high[s], f.worst[s], f.pull[s], f.contact[s] = is_high, bad.max(axis=1), pull.max(axis=1), contact.min(axis=1)
+    through = np.abs(dc.i_throw[:, closed]) if closed else None
+    contact = through.min(axis=1).reshape(n, m) if through is not None else np.full((n, m), np.inf)
+    most = through.max(axis=1).reshape(n, m) if through is not None else np.full((n, m), -np.inf)
+    f.high[s], f.worst[s], f.pull[s] = is_high, bad.max(axis=1), pull.max(axis=1)
+    f.contact[s], f.closed[s] = contact.min(axis=1), most.max(axis=1)
     first = np.cumsum([0] + rows.sizes[:-1])
     for k, r in enumerate(reqs):
         if r.full:
@@ -446,6 +463,8 @@ def _levels(model: LinearModel, rows: _Rows, reqs: Sequence[Request], s: Actuato
                 picks.add(int(np.argmax(pull[i0])))
             if r.screen.learns_contact and closed:
                 picks.add(int(np.argmin(contact[i0])))
+            if r.screen.learns_closed and closed:
+                picks.add(int(np.argmax(most[i0])))
             for i in picks:
                 learned[k] |= _add(r.screen.dc_bits[s], b[i] if i < b.shape[0] else b[0])
 
