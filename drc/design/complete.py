@@ -315,20 +315,20 @@ class CompleteSearch:
         costs = {pl: self._costs(pl) for pl in planes}
         nearest = {pl: (int(np.argmin(c[0])), int(np.argmin(c[1]))) for pl, c in costs.items()}
         kept = {pl: np.zeros((c[0].size, c[1].size), dtype=bool) for pl, c in costs.items()}
-        boxes = {pl: [(0, c[0].size - 1, 0, c[1].size - 1)] for pl, c in costs.items()}
-        while any(boxes.values()):
-            big: dict[tuple[int, int], list[_Box]] = {}
-            for pl, bxs in boxes.items():
-                ca, cb = costs[pl]
-                pa, pb = nearest[pl]
-                for a0, a1, b0, b1 in bxs:
-                    # The cheapest value of a range is the one nearest the present value.
-                    if ca[min(max(pa, a0), a1)] + cb[min(max(pb, b0), b1)] > bound + 1e-9:
-                        continue
-                    if (a1 - a0 + 1) * (b1 - b0 + 1) > _LEAF:
-                        big.setdefault(pl, []).append((a0, a1, b0, b1))
-                    else:
-                        kept[pl][a0:a1 + 1, b0:b1 + 1] = True
+        boxes = {pl: np.array([[0, c[0].size - 1, 0, c[1].size - 1]]) for pl, c in costs.items()}
+        while any(b.size for b in boxes.values()):
+            big: dict[tuple[int, int], np.ndarray] = {}
+            for pl, bx in boxes.items():
+                if not bx.size:
+                    continue
+                (ca, cb), (pa, pb) = costs[pl], nearest[pl]
+                # The cheapest value of a range is the one nearest the present value.
+                cheapest = ca[np.clip(pa, bx[:, 0], bx[:, 1])] + cb[np.clip(pb, bx[:, 2], bx[:, 3])]
+                bx = bx[cheapest <= bound + 1e-9]
+                area = (bx[:, 1] - bx[:, 0] + 1) * (bx[:, 3] - bx[:, 2] + 1)
+                for a0, a1, b0, b1 in bx[area <= _LEAF]:
+                    kept[pl][a0:a1 + 1, b0:b1 + 1] = True
+                big[pl] = bx[area > _LEAF]
             boxes = yield from self._split_live(big)
         var: list[np.ndarray] = [np.zeros((0, 2), dtype=int)]
         val: list[np.ndarray] = [np.zeros((0, 2))]
@@ -344,33 +344,36 @@ class CompleteSearch:
         a, b = self.rvars[plane[0]], self.rvars[plane[1]]
         return np.abs(np.log(a.candidates / a.present)), np.abs(np.log(b.candidates / b.present))
 
-    def _split_live(self, big: dict[tuple[int, int], list[_Box]]
-                    ) -> Generator[Ask, Any, dict[tuple[int, int], list[_Box]]]:
+    def _split_live(self, big: dict[tuple[int, int], np.ndarray]
+                    ) -> Generator[Ask, Any, dict[tuple[int, int], np.ndarray]]:
         """Screen a grid of points over every box (one request); keep the grid's cells
         where no figure fails at all four corners."""
-        flat = [(pl, bx) for pl, bxs in big.items() for bx in bxs]
+        flat = [(pl, box) for pl, bx in big.items() for box in bx]
         if not flat:
             return {}
-        grids = [(_grid(bx[0], bx[1]), _grid(bx[2], bx[3])) for _pl, bx in flat]
-        X = self.screen.rows(sum(ga.size * gb.size for ga, gb in grids))
-        at = 0
+        grids = [(_grid(int(bx[0]), int(bx[1])), _grid(int(bx[2]), int(bx[3]))) for _pl, bx in flat]
+        parts_a, parts_b, cols = [], [], []
         for ((i, j), _bx), (ga, gb) in zip(flat, grids, strict=True):
-            n = ga.size * gb.size
-            X[at:at + n, self.r_cols[i]] = np.repeat(self.rvars[i].candidates[ga], gb.size)
-            X[at:at + n, self.r_cols[j]] = np.tile(self.rvars[j].candidates[gb], ga.size)
+            parts_a.append(np.repeat(self.rvars[i].candidates[ga], gb.size))
+            parts_b.append(np.tile(self.rvars[j].candidates[gb], ga.size))
+            cols.append((self.r_cols[i], self.r_cols[j], ga.size * gb.size))
+        X = self.screen.rows(sum(c[2] for c in cols))
+        at = 0
+        for (ci, cj, n), va, vb in zip(cols, parts_a, parts_b, strict=True):
+            X[at:at + n, ci], X[at:at + n, cj] = va, vb
             at += n
         self.corner_rows += X.shape[0]
         got = yield Request(self.screen, X, every_figure=True)
-        out: dict[tuple[int, int], list[_Box]] = {}
+        out: dict[tuple[int, int], list[np.ndarray]] = {}
         at = 0
         for (pl, _bx), (ga, gb) in zip(flat, grids, strict=True):
             n = ga.size * gb.size
             F = got.verdicts.fails[at:at + n].reshape(ga.size, gb.size, -1)
             at += n
             dead = (F[:-1, :-1] & F[1:, :-1] & F[:-1, 1:] & F[1:, 1:]).any(axis=2)
-            for k, m in zip(*np.nonzero(~dead), strict=True):
-                out.setdefault(pl, []).append((int(ga[k]), int(ga[k + 1]), int(gb[m]), int(gb[m + 1])))
-        return out
+            k, m = np.nonzero(~dead)
+            out.setdefault(pl, []).append(np.column_stack([ga[k], ga[k + 1], gb[m], gb[m + 1]]))
+        return {pl: np.vstack(v) for pl, v in out.items()}
 
     def _block(self, var: np.ndarray, val: np.ndarray) -> _Block:
         var = var.astype(int)
@@ -417,9 +420,11 @@ class CompleteSearch:
     def _block_table(self, bi: int) -> np.ndarray:
         block, verdict = self.blocks[bi], self.verdicts[bi]
         if verdict is None:
+            return np.zeros((0, 10))  # 8 keys, row, capacitor
+        usable = block.range_ok & verdict.fixed_ok
+        if not usable.any():
             return np.zeros((0, 10))
         nmoves = (block.var >= 0).sum(axis=1)
-        usable = block.range_ok & verdict.fixed_ok
         lo, hi = verdict.scale_lo, verdict.scale_hi
         plain = usable & (lo <= 1.0) & (1.0 <= hi) & (nmoves >= 1)
         rows = [self._option_rows(bi, np.flatnonzero(plain), np.full(int(plain.sum()), np.nan))]

@@ -115,7 +115,8 @@ class Request:
 
 @dataclass(frozen=True, slots=True)
 class Screened:
-    """A request's answer: its verdicts, and (full requests) whether vertices were learned."""
+    """A request's answer: its verdicts, and (full requests) its figures and whether
+    vertices were learned."""
 
     verdicts: Verdicts
     figures: Figures
@@ -143,6 +144,10 @@ class Screen:
         self.dc_bits: dict[ActuatorState, list[np.ndarray]] = {s: [] for s in ACTUATOR_STATES}
         self.edge_bits: dict[Edge, list[np.ndarray]] = {e: [] for e in EDGE_STATES}
         lv = self.limit_values()
+        self.limit_row = [float(lv[k]) for k in _LIMIT_NAMES]
+        # The receiver's data and the tolerance factors, as one row (see _Rows).
+        self.row_data = np.concatenate([[rx.vcc], sorted(rx.leak_high_a), sorted(rx.leak_low_a),
+                                        rx.rising_threshold, rx.falling_threshold, self.f_lo, self.f_hi])
         self.learns_pull = bool(self.pull_cols) and math.isfinite(lv["budget"])
         self.learns_contact = math.isfinite(lv["wetting"])
         self.learns_closed = math.isfinite(lv["short"])
@@ -290,12 +295,16 @@ def screen_all(requests: Sequence[Request]) -> list[Screened | None]:
     return out
 
 
+_LIMIT_NAMES = ("vcc", "high_req", "low_req", "headroom", "budget", "short", "wetting", "need", "latency",
+                "outer_r", "outer_f")
+
+
 class _Limits:
     """Each row's limits (`Screen.limit_values`), for rows of several stages of one structure."""
 
     def __init__(self, screens: Sequence[Screen], sizes: Sequence[int]) -> None:
-        values = [sc.limit_values() for sc in screens]
-        self.v = {k: np.repeat(np.array([d[k] for d in values], dtype=float), sizes) for k in values[0]}
+        table = np.repeat(np.array([sc.limit_row for sc in screens]), sizes, axis=0)
+        self.v = {k: table[:, i] for i, k in enumerate(_LIMIT_NAMES)}
         self.screen = screens[0]  # structure: the same states, throws and pull resistors for all
 
 
@@ -352,15 +361,12 @@ class _Rows:
         self.reqs = reqs
         self.sizes = [r.X.shape[0] for r in reqs]
         self.X = np.vstack([r.X for r in reqs])
-        rxs = [r.screen.rx for r in reqs]
-        rep = lambda values: np.repeat(np.array(values, dtype=float), self.sizes, axis=0)  # noqa: E731
-        self.vcc = rep([rx.vcc for rx in rxs])
-        self.leak_high = rep([sorted(rx.leak_high_a) for rx in rxs])
-        self.leak_low = rep([sorted(rx.leak_low_a) for rx in rxs])
-        self.rising_thr = rep([rx.rising_threshold for rx in rxs])
-        self.falling_thr = rep([rx.falling_threshold for rx in rxs])
-        self.f_lo = rep([r.screen.f_lo for r in reqs])
-        self.f_hi = rep([r.screen.f_hi for r in reqs])
+        p = self.X.shape[1]
+        table = np.repeat(np.array([r.screen.row_data for r in reqs]), self.sizes, axis=0)
+        self.vcc = table[:, 0]
+        self.leak_high, self.leak_low = table[:, 1:3], table[:, 3:5]
+        self.rising_thr, self.falling_thr = table[:, 5:8], table[:, 8:11]
+        self.f_lo, self.f_hi = table[:, 11:11 + p], table[:, 11 + p:11 + 2 * p]
         self.leak_col = reqs[0].screen.leak
 
     def split(self, a: np.ndarray) -> list[np.ndarray]:
@@ -411,11 +417,14 @@ def _group(reqs: Sequence[Request]) -> list[Screened]:
     split = lambda a: np.split(a, cuts)  # noqa: E731
     parts = zip(*(split(a) for a in (verdicts.fixed_ok, verdicts.scale_lo, verdicts.scale_hi,
                                      verdicts.fails)), strict=True)
+    # Figures go back to full requests only (the trust check reads them); the rest need verdicts.
     figures = [Figures() for _ in reqs]
-    for name in ("worst", "high", "pull", "contact", "closed", "fast", "slow", "rising", "start"):
-        for key, a in getattr(whole, name).items():
-            for f, piece in zip(figures, split(a), strict=True):
-                getattr(f, name)[key] = piece
+    starts = np.cumsum([0] + rows.sizes[:-1])
+    for k, r in enumerate(reqs):
+        if r.full:
+            sel = slice(int(starts[k]), int(starts[k]) + r.X.shape[0])
+            for name in ("worst", "high", "pull", "contact", "closed", "fast", "slow", "rising", "start"):
+                getattr(figures[k], name).update({key: a[sel] for key, a in getattr(whole, name).items()})
     return [Screened(Verdicts(*p), f, got) for p, f, got in zip(parts, figures, learned, strict=True)]
 
 
@@ -500,11 +509,10 @@ def _edges(model: LinearModel, rows: _Rows, reqs: Sequence[Request], edge: Edge,
     f.fast[edge][idx] = fast.min(axis=1)
     f.slow[edge] = np.zeros(n)
     f.slow[edge][idx] = slow.max(axis=1)
-    where = {int(i): j for j, i in enumerate(idx)}
     first = np.cumsum([0] + rows.sizes[:-1])
     for q, r in enumerate(reqs):
         if r.all_edges:
-            j, bt = where[int(first[q])], bits[q]
+            j, bt = int(np.searchsorted(idx, first[q])), bits[q]
             for i in {int(np.argmin(fast[j])), int(np.argmax(slow[j]))}:
                 learned[q] |= _add(r.screen.edge_bits[edge], bt[i] if i < bt.shape[0] else bt[0])
 
