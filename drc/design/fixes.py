@@ -23,9 +23,10 @@ Single-capacitor stages (closed-form edges) get the complete search of
 drc.design.complete: if any one- or two-part change in those ranges passes,
 the preferred one is proposed, and "no change passes" is a statement about
 all of them. The searches of a board's failing stages run in lockstep, one
-analysis batch per round. Other stages (several capacitors, diodes, plain
-inputs with a transition limit) get the bounded bisection search of
-drc.design.bisection, whose "nothing found" says how many analyses it tried.
+analysis batch per round. Closed-form stages the screen does not trust get
+the bounded bisection search of drc.design.bisection, whose "nothing found"
+says how many analyses it tried; stages on the exact event solver (several
+capacitors, diodes) are not searched in a board check, and say so.
 Identical stages (a keypad) are searched once (a memo keyed by values).
 """
 
@@ -35,6 +36,7 @@ import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
 
+from drc.analysis.physics.batch import batchable, structure_key, template
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import EDGES, EdgeResult, StageResult
 from drc.analysis.stage_analysis import analyse_stage
@@ -124,6 +126,7 @@ class _Outcome:
     analyses: int
     screened: int
     complete: bool  # the complete search ran to the end of its order
+    searched: bool = True  # False: not searched at all (see _bisection_budgets)
 
 
 def _changes(job: _Job, moves: tuple[tuple[int, float], ...]) -> tuple[Change, ...]:
@@ -150,6 +153,8 @@ def _run_jobs(jobs: Sequence[_Job], budgets: Sequence[int]) -> list[_Outcome]:
         search_ = complete.get(i)
         if search_ is not None and search_.trusted and search_.found is not None:
             out.append(_outcome(job, search_.found))
+        elif budgets[i] <= 0:
+            out.append(_Outcome(None, None, 0, 0, False, searched=False))
         else:
             moves, result, count = bisection.search(job.stage, job.rx, job.limits, job.vars_,
                                                     set(job.tolerated), budgets[i])
@@ -314,7 +319,6 @@ def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float],
 
 
 def structure_key_of(stage: Stage) -> tuple:
-    from drc.analysis.physics.batch import structure_key
     return structure_key(stage.circuit)
 
 
@@ -395,8 +399,16 @@ def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple | None, _
 
 
 def _bisection_budgets(jobs: Sequence[_Job], board_budget: int) -> list[int]:
-    """Each job's analyses if it falls back to bisection: FIX_BUDGET while the board's lasts."""
-    return [FIX_BUDGET] * len(jobs) if board_budget > 0 else [0] * len(jobs)
+    """Each job's analyses if it falls back to bisection: FIX_BUDGET while the board's lasts.
+
+    A stage whose edges need the exact event solver (several capacitors, diodes) is not
+    searched in a board check: at tens of milliseconds an analysis, the few a check can
+    afford never finish a bisection (its text says values were not searched).
+    """
+    if board_budget <= 0:
+        return [0] * len(jobs)
+    return [FIX_BUDGET if batchable(template(structure_key(j.stage.circuit), j.stage.circuit)) else 0
+            for j in jobs]
 
 
 def _charge(todo, outcomes: list[_Outcome | None], board_budget: int) -> list[_Outcome | None]:
@@ -406,7 +418,7 @@ def _charge(todo, outcomes: list[_Outcome | None], board_budget: int) -> list[_O
     left = board_budget
     seen: set = set()
     for i, outcome in enumerate(outcomes):
-        if outcome is None or outcome.complete or outcome.screened:
+        if outcome is None or outcome.complete or outcome.screened or not outcome.searched:
             continue
         key = todo[i][2] if todo[i][2] is not None else i
         if left <= 0:
@@ -433,7 +445,10 @@ def _no_change_texts(mine: list[Finding], job: _Job, outcome: _Outcome) -> dict[
     """The plain-words fix, and honestly why no values are proposed."""
     names = ", ".join(v.designator for v in job.vars_) or "the stage's parts"
     ranges = ranges_text(job.series, capacitor_series(job.series), job.limits)
-    if outcome.complete:
+    if not outcome.searched:
+        honest = ("values not searched: this stage needs the exact event solver (several capacitors "
+                  "or diodes), too slow to search within a check")
+    elif outcome.complete:
         honest = f"no change of one or two of {names} passes every rule at worst case ({ranges})"
     elif outcome.screened:
         honest = (f"no change of one or two of {names} confirmed within {outcome.analyses} analyses "

@@ -89,3 +89,15 @@ def test_findings_of_other_rules_or_stages_are_left_alone():
     findings = run_stage_rules(res, LIMITS)
     assert {f.rule for f in findings} == {"undebounced-input"}
     assert propose_fixes(res, findings, LIMITS) == {}
+
+
+def test_a_stage_needing_the_exact_solver_says_its_values_were_not_searched():
+    # Two capacitors: every analysis runs the event solver (tens of ms); a board check does not
+    # search its values and says so rather than claim nothing passes.
+    from drc.board.stage import Capacitor
+    stage = rc_stage(r1=10e3, r2=1e3, c1=100e-9, extra_caps=(Capacitor("C2", "n1", "0", 10e-9),))
+    res = analysed(stage)
+    findings = run_stage_rules(res, LIMITS)
+    assert "bounce-window" in {f.rule for f in findings}
+    texts = propose_fixes(res, findings, LIMITS)
+    assert texts and all("values not searched" in t and "exact event solver" in t for t in texts.values())
