@@ -344,14 +344,15 @@ class CompleteSearch:
         a, b = self.rvars[plane[0]], self.rvars[plane[1]]
         return np.abs(np.log(a.candidates / a.present)), np.abs(np.log(b.candidates / b.present))
 
-    def _split_live(self, big: dict[tuple[int, int], np.ndarray]
+    def _split_live(self, big: dict[tuple[int, int], np.ndarray], grid: int = 0
                     ) -> Generator[Ask, Any, dict[tuple[int, int], np.ndarray]]:
-        """Screen a grid of points over every box (one request); keep the grid's cells
-        where no figure fails at all four corners."""
+        """Screen a grid of points over every box (one request; `grid` cells a side,
+        `_GRID` by default); keep the grid's cells where no figure fails at all four corners."""
         flat = [(pl, box) for pl, bx in big.items() for box in bx]
         if not flat:
             return {}
-        grids = [(_grid(int(bx[0]), int(bx[1])), _grid(int(bx[2]), int(bx[3]))) for _pl, bx in flat]
+        g = grid or _GRID
+        grids = [(_grid(int(bx[0]), int(bx[1]), g), _grid(int(bx[2]), int(bx[3]), g)) for _pl, bx in flat]
         parts_a, parts_b, cols = [], [], []
         for ((i, j), _bx), (ga, gb) in zip(flat, grids, strict=True):
             parts_a.append(np.repeat(self.rvars[i].candidates[ga], gb.size))
@@ -530,11 +531,11 @@ class CompleteSearch:
 _Box = tuple[int, int, int, int]  # candidate index ranges [a0, a1] x [b0, b1] of a plane
 
 
-def _grid(lo: int, hi: int) -> np.ndarray:
-    """Up to `_GRID` + 1 indices from lo to hi, both included (a point twice if lo == hi)."""
+def _grid(lo: int, hi: int, cells: int) -> np.ndarray:
+    """Up to `cells` + 1 indices from lo to hi, both included (a point twice if lo == hi)."""
     if lo == hi:
         return np.array([lo, lo])
-    return np.unique(np.round(np.linspace(lo, hi, min(_GRID, hi - lo) + 1)).astype(int))
+    return np.unique(np.round(np.linspace(lo, hi, min(cells, hi - lo) + 1)).astype(int))
 
 
 def _split_verdicts(v: Verdicts, sizes: list[int]) -> list[Verdicts]:
