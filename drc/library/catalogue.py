@@ -16,19 +16,33 @@ from __future__ import annotations
 
 import difflib
 import hashlib
+import re
 from collections.abc import Mapping
+from fnmatch import fnmatchcase
 from pathlib import Path
 
 from drc.caching import Memo, memoized
 from drc.datafiles import data_folder
 from drc.library.contact_names import ContactNames
-from drc.library.entries import ContactClass, ContactMatch, Family, Limit, PartType, ResolvedPart, UnknownFamily
+from drc.library.entries import (
+    ContactClass,
+    ContactMatch,
+    Family,
+    Limit,
+    OtherPart,
+    PartType,
+    PinNames,
+    ResolvedPart,
+    UnknownFamily,
+)
 from drc.library.part_numbers import PartNumbers
 
 # Lookups by name recur for every instance of a board: (library, name...) -> (answer,).
 _PARTS: Memo[tuple[str, str], tuple[ResolvedPart | None]] = Memo("library.resolve_part", 50_000)
 _CONTACTS: Memo[tuple[str, str, int | None], tuple[ContactMatch | None]] = Memo(
     "library.contact_class_for", 50_000)
+_OTHERS: Memo[tuple[str, str, str], tuple[OtherPart | None]] = Memo("library.other_part_for", 50_000)
+_DESIGNATOR_LETTERS = re.compile(r"^([A-Za-z]+)\d")
 
 
 class Library:
@@ -40,11 +54,16 @@ class Library:
 
     def __init__(self, families: dict[str, Family], part_types: dict[str, PartType],
                  contact_classes: dict[str, ContactClass], limits: dict[str, Limit],
-                 form_words: Mapping[str, frozenset[str]]) -> None:
+                 form_words: Mapping[str, frozenset[str]],
+                 other_parts: dict[str, OtherPart] | None = None,
+                 pin_names: PinNames | None = None) -> None:
         self.families = families
         self.part_types = part_types
         self.contact_classes = contact_classes
         self.limits = limits
+        self.other_parts = other_parts or {}
+        self.pin_names = pin_names or PinNames(frozenset(), frozenset(), frozenset(), frozenset(),
+                                               (), "none given")
         self._family_index: dict[str, str] = {}
         for family in families.values():
             for label in (family.name, *family.aliases):
@@ -53,9 +72,11 @@ class Library:
         self._contact_names = ContactNames(contact_classes.values(), form_words)
         # What the library is made of, as given: kept on disk by `load_library`
         # (drc.diskcache) and passed back to this constructor. Every argument goes here.
-        self.records = (families, part_types, contact_classes, limits, dict(form_words))
+        self.records = (families, part_types, contact_classes, limits, dict(form_words),
+                        self.other_parts, self.pin_names)
         content = (families, part_types, contact_classes, limits,
-                   sorted((k, sorted(v)) for k, v in form_words.items()))
+                   sorted((k, sorted(v)) for k, v in form_words.items()), self.other_parts,
+                   self.pin_names)
         self.fingerprint = hashlib.sha256(repr(content).encode()).hexdigest()
 
     def __eq__(self, other: object) -> bool:
@@ -95,6 +116,11 @@ class Library:
             found = _PARTS.put(memo_key, (self._part_numbers.resolve(name),))
         return found[0]
 
+    def families_of(self, part_type: PartType) -> tuple[str, ...]:
+        """The families a part number of `part_type` resolves in (the library's size is
+        the sum over part types)."""
+        return self._part_numbers.families_of(part_type)
+
     # -- contacts
 
     def contact_class_for(self, name: str, terminals: int | None = None) -> ContactMatch | None:
@@ -110,9 +136,36 @@ class Library:
             found = _CONTACTS.put(memo_key, (self._contact_names.match(name, terminals),))
         return found[0]
 
+    # -- parts that are not logic inputs
+
+    def other_part_for(self, designator: str, model: str | None) -> OtherPart | None:
+        """The load or connection a part is, by its model name (first) or its
+        designator letters (`LP1` -> LP), or None."""
+        memo_key = (self.fingerprint, designator, model or "")
+        found = _OTHERS.get(memo_key)
+        if found is None:
+            found = _OTHERS.put(memo_key, (self._other_part(designator, model),))
+        return found[0]
+
+    def _other_part(self, designator: str, model: str | None) -> OtherPart | None:
+        if model:
+            upper = model.upper()
+            for other in self.other_parts.values():
+                if any(fnmatchcase(upper, pattern) for pattern in other.models):
+                    return other
+        letters = _DESIGNATOR_LETTERS.match(designator.rsplit("/", 1)[-1])
+        if letters:
+            word = letters.group(1).upper()
+            for other in self.other_parts.values():
+                if word in other.designators:
+                    return other
+        return None
+
     def is_known_subcircuit(self, name: str) -> bool:
-        """True for a part number or a contact name: the reader keeps such X instances."""
-        return self.resolve_part(name) is not None or self.contact_class_for(name) is not None
+        """True for a part number, a contact name or a load's or connection's model
+        name: the reader keeps such X instances as parts, unexpanded."""
+        return (self.resolve_part(name) is not None or self.contact_class_for(name) is not None
+                or self.other_part_for("", name) is not None)
 
     # -- limits
 
@@ -134,7 +187,9 @@ def _load_folder(folder: Path) -> Library:
         parse_family,
         parse_form_words,
         parse_limit,
+        parse_other_parts,
         parse_part,
+        parse_pin_names,
     )
     fam_r = RulesFile(folder / "families.toml")
     families = {name: parse_family(fam_r, name, raw)
@@ -144,9 +199,11 @@ def _load_folder(folder: Path) -> Library:
     part_types = {name: parse_part(parts_r, name, raw)
                   for name, raw in parts_r.table(parts_r.data.get("parts"), "parts").items()}
     for part in part_types.values():
-        for fam in part.families or ():
+        for fam in (*(part.families or ()), *((part.family,) if part.family else ())):
             if fam not in families:
                 raise parts_r.error(f'parts."{part.name}".families', f"unknown family {fam}")
+    other_parts = parse_other_parts(parts_r)
+    pin_names = parse_pin_names(parts_r)
 
     con_r = RulesFile(folder / "contacts.toml")
     classes = {name: parse_contact(con_r, name, raw)
@@ -162,7 +219,7 @@ def _load_folder(folder: Path) -> Library:
 
     lim_r = RulesFile(folder / "limits.toml")
     limits = {key: parse_limit(lim_r, key, raw) for key, raw in lim_r.data.items()}
-    return Library(families, part_types, classes, limits, form_words)
+    return Library(families, part_types, classes, limits, form_words, other_parts, pin_names)
 
 
 @memoized(limit=64)
@@ -172,7 +229,7 @@ def _load_cached(folder: Path) -> Library:
     from drc import diskcache
     key = diskcache.make_key("library", (str(folder), diskcache.folder_digest(folder)))
     kept = diskcache.load("library", key)
-    if type(kept) is tuple and len(kept) == 5:
+    if type(kept) is tuple and len(kept) == 7:
         try:
             return Library(*kept)
         except (TypeError, ValueError, AttributeError):

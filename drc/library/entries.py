@@ -29,6 +29,33 @@ class PinRole(StrEnum):
     SUPPLY = "supply"
     GROUND = "ground"
     NC = "nc"
+    # An analog switch's channel or common pin (4051, 4067): it passes a level
+    # on and has no threshold of its own.
+    ANALOG = "analog"
+    # The input side of an isolation barrier: an optocoupler's LED.
+    ISOLATED = "isolated"
+
+
+class PartKind(StrEnum):
+    """What a part type is (parts.toml `kind`): how its inputs are judged."""
+
+    LOGIC = "logic"  # thresholds from its logic family
+    COMPARATOR = "comparator"  # thresholds from the resistors around it and its supply
+    OPTOCOUPLER = "optocoupler"  # an isolated input: the stage behind it is not checked
+
+
+class ComparatorOutput(StrEnum):
+    """How a comparator's output drives: a transistor to ground, or both ways."""
+
+    OPEN_COLLECTOR = "open-collector"
+    PUSH_PULL = "push-pull"
+
+
+class OtherKind(StrEnum):
+    """Parts that are not logic inputs (parts.toml [loads] and [connections])."""
+
+    LOAD = "load"  # a lamp, motor, relay coil, LED...: what the contact drives
+    CONNECTION = "connection"  # a connector or test point: the net passes through
 
 
 class ContactForm(StrEnum):
@@ -50,8 +77,10 @@ class PullDirection(StrEnum):
 ROLES = tuple(role.value for role in PinRole)
 FORMS = tuple(form.value for form in ContactForm)
 
-# A logic part's numbering: 74/54 series or CMOS 4000 series.
-Series = Literal["74", "4000"]
+# A part's numbering: 74/54 series, CMOS 4000 series, or a name of its own
+# (comparators, optocouplers: LM393, PC817) read as maker letters + name + suffix.
+Series = Literal["74", "4000", "name"]
+SERIES: tuple[Series, ...] = ("74", "4000", "name")
 # How families.toml gives an input transition limit: a 10-90 % rise time or a dt/dV slope.
 TransitionKind = Literal["rise_time", "slope"]
 
@@ -262,7 +291,26 @@ class GateSpec:
 
 
 @dataclass(frozen=True, slots=True)
+class ComparatorData:
+    """What the thresholds of a comparator stage need beyond its resistors.
+
+    offset_v: the input offset voltage, worst case (either sign); output_low_v:
+    the output's low level, worst case (the low level is 0 .. output_low_v).
+    """
+
+    output: ComparatorOutput
+    offset_v: float
+    output_low_v: float
+    source: str
+
+
+@dataclass(frozen=True, slots=True)
 class PartType:
+    """A generic part type. series: its main numbering; numberings: every
+    numbering it resolves in (a 4000-series function also made as 74HC4051).
+    families: the only 74-series families it is made in (None: any); a part
+    of kind comparator or optocoupler names its own family."""
+
     name: str
     title: str
     series: Series
@@ -272,6 +320,11 @@ class PartType:
     source: str
     aliases: tuple[str, ...] = ()
     families: tuple[str, ...] | None = None  # None: any family of the series
+    numberings: tuple[Series, ...] = ()
+    kind: PartKind = PartKind.LOGIC
+    latch: bool = False  # each gate is a set-reset latch ('279, 4043, 4044)
+    family: str | None = None  # the family of a part with a name of its own
+    comparator: ComparatorData | None = None
 
     def inputs(self) -> tuple[PinSpec, ...]:
         return tuple(p for p in self.pins.values() if p.role == PinRole.INPUT)
@@ -292,9 +345,47 @@ class PartType:
 
 @dataclass(frozen=True, slots=True)
 class ResolvedPart:
+    """A part number read: its type, family, the number as written, and how it was read."""
+
     part_type: PartType
     family: str
     part_number: str
+    how: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class OtherPart:
+    """A kind of part that is not a logic input: a load (lamp, motor, relay
+    coil, LED) or a connection (connector, test point), known by its model
+    name or its designator letters."""
+
+    name: str
+    title: str
+    kind: OtherKind
+    models: tuple[str, ...]  # case-insensitive globs on the model / subcircuit name
+    designators: tuple[str, ...]  # designator letters, followed by a digit (LP1, DS3)
+    source: str
+
+
+@dataclass(frozen=True, slots=True)
+class PinNames:
+    """Port names of a `.subckt` line (or a config `pins` list) and the roles they
+    name: supply, ground, generic input and output words, and groups of names
+    that name one pin (CK, CP and CLOCK name CLK)."""
+
+    supply: frozenset[str]
+    ground: frozenset[str]
+    inputs: frozenset[str]
+    outputs: frozenset[str]
+    synonyms: tuple[frozenset[str], ...]
+    source: str
+
+    def group(self, name: str) -> frozenset[str]:
+        """The names that name the same pin as `name` (itself included)."""
+        for group in self.synonyms:
+            if name in group:
+                return group
+        return frozenset((name,))
 
 
 # ------------------------------------------------------------------ contacts

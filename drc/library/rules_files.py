@@ -14,24 +14,32 @@ import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, cast
 
 from drc.errors import LibraryError, SourceLocation
 from drc.library.curves import EPS, Band, Bands, Curve, Fixed, Fraction, Table
 from drc.library.entries import (
     FORMS,
     ROLES,
+    SERIES,
     AbsMaxInput,
+    ComparatorData,
+    ComparatorOutput,
     ContactClass,
     ContactForm,
     Family,
     Limit,
+    OtherKind,
+    OtherPart,
+    PartKind,
     PartType,
     PartVariant,
+    PinNames,
     PinRole,
     PinSpec,
     PullDirection,
     SchmittData,
+    Series,
     TransitionLimit,
 )
 
@@ -333,9 +341,7 @@ def parse_part(r: RulesFile, name: str, raw: Any) -> PartType:
     t = r.table(raw, where)
     source = r.source(t, where)
     schmitt_default = t.get("schmitt_inputs", False)
-    series = t.get("series")
-    if series not in ("74", "4000"):
-        raise r.error(where, "series must be \"74\" or \"4000\"")
+    numberings = _numberings(r, where, t.get("series"))
     if not isinstance(t.get("debounces"), bool) or not isinstance(schmitt_default, bool):
         raise r.error(where, "`debounces` and `schmitt_inputs` must be true or false")
     pins: dict[int, PinSpec] = {}
@@ -350,13 +356,48 @@ def parse_part(r: RulesFile, name: str, raw: Any) -> PartType:
     if not pins or sorted(pins) != list(range(1, len(pins) + 1)):
         raise r.error(where, "pins must be numbered 1..N with none missing")
     families = t.get("families")
+    kind = t.get("kind", PartKind.LOGIC.value)
+    if kind not in tuple(PartKind):
+        raise r.error(where, f"kind must be one of {tuple(k.value for k in PartKind)}")
+    latch = t.get("latch", False)
+    if not isinstance(latch, bool):
+        raise r.error(where, "`latch` must be true or false")
+    own_family = t.get("family")
+    if (own_family is None) == (kind == PartKind.COMPARATOR):
+        raise r.error(where, "a comparator names its `family`; other parts take it from the part number")
     return PartType(
-        name=name, title=str(t.get("title", name)), series=series,
+        name=name, title=str(t.get("title", name)), series=numberings[0],
         pin_count=len(pins), pins=dict(sorted(pins.items())),
         debounces=t["debounces"], source=source,
         aliases=tuple(t.get("aliases", ())),
         families=None if families is None else tuple(families),
+        numberings=numberings, kind=PartKind(kind), latch=latch,
+        family=None if own_family is None else str(own_family),
+        comparator=_comparator(r, where, t) if kind == PartKind.COMPARATOR else None,
     )
+
+
+def _numberings(r: RulesFile, where: str, raw: Any) -> tuple[Series, ...]:
+    """`series = "74"`, or a list when a function is numbered in several series."""
+    items = raw if isinstance(raw, list) else [raw]
+    if not items or any(item not in SERIES for item in items):
+        raise r.error(where, f"series must be one of {SERIES} (or a list of them)")
+    return tuple(cast("Series", item) for item in items)
+
+
+def _comparator(r: RulesFile, where: str, t: dict[str, Any]) -> ComparatorData:
+    """The [parts.NAME.comparator] table: output type, offset and output low level."""
+    at = f"{where}.comparator"
+    c = r.table(t.get("comparator"), at)
+    output = c.get("output")
+    if output not in tuple(ComparatorOutput):
+        raise r.error(at, f"output must be one of {tuple(o.value for o in ComparatorOutput)}")
+    offset = r.table(c.get("offset_mv"), f"{at}.offset_mv")
+    low = r.table(c.get("output_low_v"), f"{at}.output_low_v")
+    sources = (f"offset: {r.source(offset, f'{at}.offset_mv')}; "
+               f"output low: {r.source(low, f'{at}.output_low_v')}")
+    return ComparatorData(ComparatorOutput(output), r.number(offset.get("max"), f"{at}.offset_mv") * 1e-3,
+                          r.number(low.get("max"), f"{at}.output_low_v"), sources)
 
 
 def _parse_pin(r: RulesFile, where: str, number: int, p: dict[str, Any],
@@ -376,6 +417,47 @@ def _parse_pin(r: RulesFile, where: str, number: int, p: dict[str, Any],
         active_low=bool(p.get("active_low", False)),
         internal_pull=None if pull is None else PullDirection(pull),
     )
+
+
+def parse_other_parts(r: RulesFile) -> dict[str, OtherPart]:
+    """The [loads.NAME] and [connections.NAME] tables of parts.toml."""
+    out: dict[str, OtherPart] = {}
+    for section, kind in (("loads", OtherKind.LOAD), ("connections", OtherKind.CONNECTION)):
+        for name, raw in r.table(r.data.get(section, {}), section).items():
+            where = f"{section}.{name}"
+            t = r.table(raw, where)
+            models = t.get("models", [])
+            letters = t.get("designators", [])
+            for key, value in (("models", models), ("designators", letters)):
+                if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
+                    raise r.error(f"{where}.{key}", "expected a list of names")
+            if not models and not letters:
+                raise r.error(where, "give `models` or `designators`")
+            if name in out:
+                raise r.error(where, f"{name} is both a load and a connection")
+            out[name] = OtherPart(name, str(t.get("title", name)), kind,
+                                  tuple(m.upper() for m in models),
+                                  tuple(d.upper() for d in letters), r.source(t, where))
+    return out
+
+
+def parse_pin_names(r: RulesFile) -> PinNames:
+    """The [pin_names] table of parts.toml: port names and the roles they name."""
+    t = r.table(r.data.get("pin_names", {}), "pin_names")
+    source = r.source(t, "pin_names")
+
+    def words(key: str) -> frozenset[str]:
+        value = t.get(key, [])
+        if not isinstance(value, list) or not all(isinstance(v, str) and v for v in value):
+            raise r.error(f"pin_names.{key}", "expected a list of names")
+        return frozenset(v.upper() for v in value)
+
+    groups = t.get("synonyms", [])
+    if not isinstance(groups, list) or not all(
+            isinstance(g, list) and all(isinstance(v, str) and v for v in g) for g in groups):
+        raise r.error("pin_names.synonyms", "expected a list of lists of names")
+    return PinNames(words("supply"), words("ground"), words("inputs"), words("outputs"),
+                    tuple(frozenset(v.upper() for v in g) for g in groups), source)
 
 
 # ------------------------------------------------------------------ contacts

@@ -81,6 +81,9 @@ class Element:
       (one shared read-only empty mapping when there are none).
     text: the statement as read (after continuation joining and comment removal).
     instance_path: the X instances this element was expanded through, outermost first.
+    problem: why the element cannot be evaluated (a value that cannot be
+      computed, a construct the reader skips), or None. Such an element keeps
+      its nodes so that tracing can tell whether it lies on a contact's path.
 
     A plain slotted class rather than a dataclass so that a million elements
     stay small: the reader may pass `location` as a bare line number with the
@@ -90,12 +93,13 @@ class Element:
     """
 
     __slots__ = ("designator", "kind", "nodes", "value", "model", "_where", "params",
-                 "_text", "instance_path", "_origin")
+                 "_text", "instance_path", "_origin", "problem")
 
     def __init__(self, designator: str, kind: str, nodes: tuple[str, ...],
                  value: Value | None, model: str | None, location: SourceLocation | int,
                  params: dict[str, float | str] = NO_PARAMS, text: str | None = "",
-                 instance_path: tuple[str, ...] = (), origin=None) -> None:
+                 instance_path: tuple[str, ...] = (), origin=None,
+                 problem: str | None = None) -> None:
         self.designator = designator
         self.kind = kind
         self.nodes = nodes
@@ -106,6 +110,7 @@ class Element:
         self._text = text
         self.instance_path = instance_path
         self._origin = origin
+        self.problem = problem
 
     @property
     def location(self) -> SourceLocation:
@@ -131,7 +136,7 @@ class Element:
 
     def _fields(self) -> tuple:
         return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
-                self.params, self.text, self.instance_path)
+                self.params, self.text, self.instance_path, self.problem)
 
     def __eq__(self, other: object) -> bool:
         if not isinstance(other, Element) or other.__class__ is not self.__class__:
@@ -142,13 +147,14 @@ class Element:
 
     def __repr__(self) -> str:
         names = ("designator", "kind", "nodes", "value", "model", "location", "params", "text",
-                 "instance_path")
+                 "instance_path", "problem")
         inner = ", ".join(f"{n}={v!r}" for n, v in zip(names, self._fields(), strict=True))
         return f"Element({inner})"
 
     def __getstate__(self) -> tuple:
         return (self.designator, self.kind, self.nodes, self.value, self.model, self.location,
-                dict(self.params) if self.params else NO_PARAMS, self.text, self.instance_path)
+                dict(self.params) if self.params else NO_PARAMS, self.text, self.instance_path,
+                None, self.problem)
 
     def __setstate__(self, state: tuple) -> None:
         Element.__init__(self, *state)
@@ -179,6 +185,20 @@ class SkippedDirective:
     location: SourceLocation
 
 
+@dataclass(frozen=True, slots=True)
+class SubcircuitPorts:
+    """A `.subckt` line as the netlist (or an included file) defines it.
+
+    ports: the port names in order; kinds: the element letters of its body
+    (an "S" or "W" among them makes it a simulated switch, whatever its name).
+    """
+
+    name: str
+    ports: tuple[str, ...]
+    kinds: frozenset[str]
+    location: SourceLocation
+
+
 @dataclass(slots=True)
 class Netlist:
     path: str
@@ -187,6 +207,8 @@ class Netlist:
     models: dict[str, ModelCard] = field(default_factory=dict)
     global_nets: tuple[str, ...] = ()
     subcircuit_names: tuple[str, ...] = ()
+    # key(name) -> its definition line; the first definition of a name wins.
+    subcircuits: dict[str, SubcircuitPorts] = field(default_factory=dict)
     diagnostics: list[Diagnostic] = field(default_factory=list)
     skipped: list[SkippedDirective] = field(default_factory=list)
     files: tuple[str, ...] = ()

@@ -24,7 +24,7 @@ import os
 from collections.abc import Callable
 
 from drc.errors import LimitError, SourceLocation
-from drc.netlist.elements import Netlist
+from drc.netlist.elements import Netlist, SubcircuitPorts
 from drc.netlist.flatten import SubcircuitFlattener
 from drc.netlist.includes import sandbox_roots
 from drc.netlist.lines import SourceFile, limit_hint, read_source, source_from_text
@@ -45,6 +45,11 @@ def _read(source: SourceFile, real: str | None, folder: str, shown: str,
     netlist.global_nets = tuple(flattener.canon.get(key, name)
                                 for key, name in loaded.globals.items())
     netlist.subcircuit_names = tuple(d.name for d in loaded.definitions)
+    for d in loaded.definitions:
+        if d.line is not None:
+            netlist.subcircuits.setdefault(d.name.casefold(), SubcircuitPorts(
+                d.name, tuple(d.ports), frozenset(record.kind for record in d.body),
+                SourceLocation(d.line.source.path, d.line.line, d.line.column)))
     netlist.diagnostics = loaded.diagnostics
     netlist.skipped = loaded.skipped
     netlist.files = tuple(loaded.files)
