@@ -17,6 +17,25 @@ from drc.library.entries import ContactForm, PinRole, PullDirection
 from drc.netlist.elements import Diagnostic, Netlist
 
 
+class UncheckedReason(StrEnum):
+    """Why a contact's input could not be checked (the `unchecked-input` rule's reasons).
+
+    The values are the words every report prints.
+    """
+
+    UNKNOWN_RECEIVER = "unknown-receiver"  # a part the library, config and netlist do not describe
+    UNKNOWN_PIN_ORDER = "unknown-pin-order"  # a known part whose instance's pin order is not known
+    UNEVALUABLE_ELEMENT = "unevaluable-element"  # an element on the path the reader could not evaluate
+    NO_PATH = "no-path"  # the contact reaches no logic input and no known load
+    ISOLATED_INPUT = "isolated-input"  # an optocoupler between the contact and the logic
+    SUPPLY_OUT_OF_RANGE = "supply-out-of-range"  # the receiver's VCC is outside its family's range
+    UNKNOWN_SUPPLY = "unknown-supply"  # the receiver's supply pin is on no rail of known voltage
+    ANALOG_INPUT = "analog-input"  # an analog switch channel (4051, 4067): no threshold of its own
+    DISCRETE_INPUT = "discrete-input"  # a transistor's base or gate: discrete receivers are not modelled
+    FEEDBACK_INPUT = "feedback-input"  # a comparator input carrying positive feedback from its output
+    UNKNOWN_THRESHOLD = "unknown-threshold"  # a comparator whose reference level cannot be computed
+
+
 class ContactOrigin(StrEnum):
     """What made an element a contact."""
 
@@ -91,6 +110,11 @@ class Receiver:
     firmware_debounce_s: float | None = None
     dedicated_debounce: bool = False
     gate: str | None = None  # which gate/section of the part the pin belongs to
+    # Thresholds computed for this pin (a comparator's, from its resistors and
+    # supply): (rising (min, typ, max), falling (min, typ, max)), volts; None:
+    # the family's. threshold_note says how they were found.
+    thresholds: tuple[tuple[float, float, float], tuple[float, float, float]] | None = None
+    threshold_note: str | None = None
 
     @property
     def ref(self) -> str:
@@ -115,13 +139,46 @@ class Part:
     family: str
     pins: tuple[PartPin, ...]
     location: SourceLocation
+    resolution: str = ""  # how the part number and the pins were read (for `drc trace`)
+    latch: bool = False  # each gate is a set-reset latch ('279)
+
+
+@dataclass(frozen=True, slots=True)
+class UncheckablePart:
+    """A part (or element) whose inputs a contact may reach but the checker cannot judge.
+
+    pins: (name shown as the receiver, net) of the pins a contact may reach;
+    beyond: nets on the far side (an optocoupler's output), to name the logic
+    input behind it.
+    """
+
+    designator: str
+    model: str
+    reason: UncheckedReason
+    detail: str
+    pins: tuple[tuple[str, str], ...]
+    location: SourceLocation
+    beyond: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Load:
+    """A part that is not a logic input but that a contact may drive (a lamp, a motor...)."""
+
+    designator: str
+    model: str
+    title: str  # "lamp", "relay coil", "LED"
+    nets: tuple[str, ...]
+    location: SourceLocation
 
 
 @dataclass(frozen=True, slots=True)
 class Board:
     """A classified netlist. Built whole by `classify`; the lists are not changed afterwards.
 
-    rails: key(net) -> Rail; parts: key(designator) -> Part.
+    rails: key(net) -> Rail; parts: key(designator) -> Part. uncheckable:
+    parts whose inputs cannot be judged (with why); loads: parts a contact may
+    drive that are not logic inputs.
     """
 
     path: str
@@ -132,3 +189,5 @@ class Board:
     parts: dict[str, Part] = field(default_factory=dict)
     diagnostics: list[Diagnostic] = field(default_factory=list)
     config_path: str | None = None
+    uncheckable: list[UncheckablePart] = field(default_factory=list)
+    loads: list[Load] = field(default_factory=list)

@@ -25,7 +25,21 @@ from fnmatch import fnmatchcase
 from itertools import chain
 from typing import TypeVar
 
-from drc.board.board import Board, Contact, ContactOrigin, InternalPull, Part, PartPin, Rail, Receiver
+from drc.board.board import (
+    Board,
+    Contact,
+    ContactOrigin,
+    InternalPull,
+    Load,
+    Part,
+    PartPin,
+    Rail,
+    Receiver,
+    UncheckablePart,
+    UncheckedReason,
+)
+from drc.board.comparator import NotComputed, ResistorIndex, Section, input_thresholds
+from drc.board.part_pins import PinPlan, plan_pins
 from drc.config.settings import Config, ContactConfig, McuConfig, McuPinConfig, PartConfig, RailConfig
 from drc.errors import ConfigError, SourceLocation
 from drc.library.catalogue import Library
@@ -34,6 +48,9 @@ from drc.library.entries import (
     ContactClass,
     ContactForm,
     ContactMatch,
+    OtherKind,
+    PartKind,
+    PartType,
     PinRole,
     PinSpec,
     PullDirection,
@@ -53,6 +70,23 @@ _RAIL_NAME = re.compile(
 
 # Element letters that are never contacts, even when a config glob names them.
 _NEVER_CONTACT = frozenset("RCLDVI")
+
+# Elements that are not parts of a stage yet may sit on a contact's net: what
+# their input nodes are (node indices) and why a contact reaching them cannot
+# be checked. Transistors are discrete receivers; controlled sources, XSPICE
+# and digital primitives are simulator constructs.
+_DISCRETE = UncheckedReason.DISCRETE_INPUT
+_SIMULATOR = UncheckedReason.UNKNOWN_RECEIVER
+_OTHER_INPUTS: dict[str, tuple[slice, UncheckedReason, str]] = {
+    "Q": (slice(1, 2), _DISCRETE, "the base of transistor {name}: discrete receivers are not modelled"),
+    "M": (slice(1, 2), _DISCRETE, "the gate of MOSFET {name}: discrete receivers are not modelled"),
+    "J": (slice(1, 2), _DISCRETE, "the gate of JFET {name}: discrete receivers are not modelled"),
+    "E": (slice(2, None), _SIMULATOR, "the control input of controlled source {name} (a simulator construct)"),
+    "G": (slice(2, None), _SIMULATOR, "the control input of controlled source {name} (a simulator construct)"),
+    "A": (slice(0, None), _SIMULATOR, "XSPICE device {name} (a simulator model, not a described part)"),
+    "U": (slice(0, None), _SIMULATOR, "digital primitive {name} (a simulator model, not a described part)"),
+    "S": (slice(2, 4), _SIMULATOR, "the control input of simulated switch {name}"),
+}
 
 
 def looks_like_rail(net: str) -> bool:
@@ -103,12 +137,12 @@ def classify(netlist: Netlist, library: Library, config: Config, *,
             _classify_element(ctx, element, unknown)
     for name, location in unknown.items():
         diagnostics.append(Diagnostic(
-            f"subcircuit {name} is not a known logic part or contact type; its "
+            f"subcircuit {name} is not a known logic part, load or contact type; its "
             f"instances are not checked (name it in rules/ or map it in the config)",
             location))
     return Board(path=netlist.path, netlist=netlist, rails=rails, contacts=ctx.contacts,
                  receivers=ctx.receivers, parts=ctx.parts, diagnostics=diagnostics,
-                 config_path=config.path)
+                 config_path=config.path, uncheckable=ctx.uncheckable, loads=ctx.loads)
 
 
 # ---------------------------------------------------------------- nets, rails
@@ -266,6 +300,39 @@ class _Context:
     diagnostics: list[Diagnostic] = field(default_factory=list)
     defined: frozenset[str] | None = None
     notes: set[str] = field(default_factory=set)  # once-per-board diagnostics given
+    uncheckable: list[UncheckablePart] = field(default_factory=list)
+    loads: list[Load] = field(default_factory=list)
+    resistor_index: ResistorIndex | None = None  # built when a comparator needs it
+    pin_plans: dict[tuple, PinPlan] = field(default_factory=dict)  # instances of one model share one
+
+    def pin_plan(self, part_type: PartType, nodes: int, model: str,
+                 config_pins: tuple[str, ...] | None) -> PinPlan:
+        plan_key = (part_type.name, nodes, key(model), config_pins)
+        found = self.pin_plans.get(plan_key)
+        if found is None:
+            found = self.pin_plans[plan_key] = plan_pins(
+                self.library, part_type, nodes, model, config_pins,
+                self.netlist.subcircuits.get(key(model)) if model else None)
+        return found
+
+    def resistors(self) -> ResistorIndex:
+        if self.resistor_index is None:
+            default = self.config.tolerances.resistor
+
+            def tolerance_of(element: Element) -> float:
+                found = _tolerance_param(element)
+                return default if found is None else found
+
+            self.resistor_index = ResistorIndex(self.netlist.elements, tolerance_of)
+        return self.resistor_index
+
+    def block(self, element: Element, name: str, reason: UncheckedReason, detail: str,
+              pins: Iterable[tuple[str, str]], beyond: Iterable[str] = ()) -> None:
+        """Record a part whose inputs a contact may reach but that cannot be checked."""
+        self.uncheckable.append(UncheckablePart(
+            name, element.model or element.kind, reason, detail,
+            tuple(dict.fromkeys((ref, self.net(net)) for ref, net in pins)), element.location,
+            tuple(dict.fromkeys(self.net(n) for n in beyond))))
 
     def is_defined_subcircuit(self, name: str) -> bool:
         if self.defined is None:
@@ -307,6 +374,19 @@ def _classify_element(ctx: _Context, element: Element,
         settings = _contact_settings(ctx.config.contacts, element)
         if settings is not None:
             _add_contacts(ctx, element, element.nodes, None, settings, ContactOrigin.CONFIG)
+        else:
+            _other_element(ctx, element)
+
+
+def _other_element(ctx: _Context, element: Element) -> None:
+    """A transistor or simulator element: its input nodes are not a checkable receiver."""
+    found = _OTHER_INPUTS.get(element.kind)
+    if found is None:
+        return
+    inputs, reason, detail = found
+    name = element.designator
+    ctx.block(element, name, reason, detail.format(name=name),
+              ((name, net) for net in element.nodes[inputs]))
 
 
 _Entry = TypeVar("_Entry", ContactConfig, PartConfig)
@@ -345,6 +425,10 @@ def _classify_s(ctx: _Context, element: Element) -> None:
         # A SPICE switch (nodes: switch+, switch-, control+, control-) the config
         # declares to be a real contact: its first two nodes are the contact.
         _add_contacts(ctx, element, element.nodes[:2], None, settings, ContactOrigin.CONFIG)
+    else:
+        # A 4-node switch is a simulated switch whatever its name: its control
+        # input is a simulator construct, not a receiver.
+        _other_element(ctx, element)
 
 
 def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocation]) -> None:
@@ -361,10 +445,12 @@ def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocati
             raise ConfigError(
                 f"part {part_cfg.part_number} (given for {display_designator(element)}) "
                 f"is not a part number the library knows", ctx.config_location())
-        _add_part(ctx, element, resolved, part_cfg.family)
+        _add_part(ctx, element, resolved, part_cfg.family, part_cfg)
         return
     model = element.model or ""
     settings = _contact_settings(config.contacts, element)
+    if settings is None and _simulated_switch(ctx, element, model):
+        return
     match = lib.contact_class_for(model, len(element.nodes)) if model else None
     if match is not None:
         if ctx.is_defined_subcircuit(model):
@@ -376,12 +462,43 @@ def _classify_x(ctx: _Context, element: Element, unknown: dict[str, SourceLocati
         return
     resolved = lib.resolve_part(model) if model else None
     if resolved is not None:
-        _add_part(ctx, element, resolved, part_cfg.family if part_cfg else None)
+        _add_part(ctx, element, resolved, part_cfg.family if part_cfg else None, part_cfg)
         return
     if settings is not None:
         _add_contacts(ctx, element, element.nodes, None, settings, ContactOrigin.CONFIG)
         return
+    _not_logic(ctx, element, model, unknown)
+
+
+def _simulated_switch(ctx: _Context, element: Element, model: str) -> bool:
+    """True (recorded) when the netlist itself defines the model as a controlled
+    switch: a simulated switch, not a mechanical contact, whatever its name says."""
+    defined = ctx.netlist.subcircuits.get(key(model)) if model else None
+    if defined is None or not defined.kinds & {"S", "W"}:
+        return False
+    name = display_designator(element)
+    ctx.note(f"{name}: subcircuit {model} holds a controlled switch ({defined.location}): "
+             f"a simulated switch, not a mechanical contact", element.location)
+    ctx.block(element, name, UncheckedReason.UNKNOWN_RECEIVER,
+              f"{name} is a simulated switch (subcircuit {model} holds an S/W element), "
+              f"not a described part", ((name, n) for n in element.nodes))
+    return True
+
+
+def _not_logic(ctx: _Context, element: Element, model: str, unknown: dict[str, SourceLocation]) -> None:
+    """An X instance that is no logic part or contact: a load, a connection, or unknown."""
+    name = display_designator(element)
+    other = ctx.library.other_part_for(name, model)
+    if other is not None:
+        if other.kind == OtherKind.LOAD:
+            ctx.loads.append(Load(name, model, other.title, tuple(ctx.net(n) for n in element.nodes),
+                                  element.location))
+        return  # a connection: the net passes through it
     unknown.setdefault(model or element.designator, element.location)
+    ctx.block(element, name, UncheckedReason.UNKNOWN_RECEIVER,
+              f"{name} ({model or 'no model'}) is not a logic part, load or contact the library "
+              f"knows; name it in the config ([[parts]] part-number, pins) or in rules/",
+              ((name, n) for n in element.nodes))
 
 
 def _part_settings(entries: Iterable[PartConfig], element: Element) -> PartConfig | None:
@@ -497,36 +614,145 @@ def _family_name(ctx: _Context, name: str, what: str) -> str:
     return family.name
 
 
-def _add_part(ctx: _Context, element: Element, resolved: ResolvedPart, family_override: str | None) -> None:
+def _add_part(ctx: _Context, element: Element, resolved: ResolvedPart, family_override: str | None,
+              part_cfg: PartConfig | None = None) -> None:
+    """A part the library resolved: its pins by the pin plan, then its receivers."""
     part_type = resolved.part_type
     name = display_designator(element)
     family = _family_name(ctx, family_override, name) if family_override else resolved.family
-    if len(element.nodes) != part_type.pin_count:
-        ctx.note(f"{name}: {element.model} has {part_type.pin_count} pins but the instance "
-                 f"connects {len(element.nodes)}; not checked", element.location)
+    model = element.model or ""
+    plan = ctx.pin_plan(part_type, len(element.nodes), model,
+                        part_cfg.pins if part_cfg is not None else None)
+    if plan.config_unknown:
+        raise ConfigError(f"{name}: {plan.how}", ctx.config_location())
+    if plan.pins is None:
+        ctx.note(f"{name}: {model}: {plan.how}; not checked", element.location)
+        ctx.block(element, name, UncheckedReason.UNKNOWN_PIN_ORDER, f"{name} ({model}): {plan.how}",
+                  ((name, n) for n in element.nodes))
         return
-    pins = tuple(
-        PartPin(number, ctx.net(element.nodes[number - 1]), spec.role, spec.name)
-        for number, spec in sorted(part_type.pins.items()))
-    ctx.parts[key(name)] = Part(name, part_type.name, resolved.part_number or element.model or "",
-                                family, pins, element.location)
+    specs = plan.pins
+    pins = tuple(PartPin(spec.number, ctx.net(element.nodes[spec.number - 1]), spec.role, spec.name)
+                 for spec in specs)
+    resolution = f"{resolved.how}; {plan.how}" if resolved.how else plan.how
+    ctx.parts[key(name)] = Part(name, part_type.name, resolved.part_number or model,
+                                family, pins, element.location, resolution, part_type.latch)
+    if part_type.kind == PartKind.OPTOCOUPLER:
+        ctx.block(element, name, UncheckedReason.ISOLATED_INPUT,
+                  f"{name} ({model}) is an optocoupler: the contact drives its LED, and the logic "
+                  f"input sits behind the isolation barrier; isolated inputs are not checked yet",
+                  ((name, p.net) for p in pins if p.role == PinRole.ISOLATED),
+                  beyond=(p.net for p in pins if p.role == PinRole.OUTPUT))
+        return
+    supply = _checkable_supply(ctx, element, name, family, specs, pins)
+    if supply is not None:
+        _add_receivers(ctx, element, name, part_type, family, specs, pins, supply)
+
+
+def _checkable_supply(ctx: _Context, element: Element, name: str, family: str,
+                      specs: tuple[PinSpec, ...], pins: tuple[PartPin, ...]) -> Rail | None:
+    """The part's supply rail when its inputs can be judged; else None, with each
+    reason recorded (analog channels, no known supply, a supply out of range)."""
+    model = element.model or ""
+    inputs = [spec for spec in specs if spec.role == PinRole.INPUT]
+    analog = [spec for spec in specs if spec.role == PinRole.ANALOG]
+    if analog:
+        ctx.block(element, name, UncheckedReason.ANALOG_INPUT,
+                  f"{name} ({model}): an analog switch channel passes the level on and has no "
+                  f"threshold of its own; what reads its common pin is not traced",
+                  ((f"{name}:{spec.number}", element.nodes[spec.number - 1]) for spec in analog))
     supply = _supply_rail(ctx, pins)
     if supply is None:
         ctx.note(f"{name}: its supply pin is not on a rail with a known voltage; its "
                  f"inputs are not checked", element.location)
-        return
-    for number, spec in sorted(part_type.pins.items()):
+        ctx.block(element, name, UncheckedReason.UNKNOWN_SUPPLY,
+                  f"{name} ({model}): its supply pin is not on a rail with a known voltage; give "
+                  f"the rail's voltage in the config's [[rails]]",
+                  ((f"{name}:{spec.number}", element.nodes[spec.number - 1]) for spec in inputs))
+        return None
+    if _supply_out_of_range(ctx, element, name, family, supply.voltage, inputs):
+        return None
+    return supply
+
+
+def _add_receivers(ctx: _Context, element: Element, name: str, part_type: PartType, family: str,
+                   specs: tuple[PinSpec, ...], pins: tuple[PartPin, ...], supply: Rail) -> None:
+    """One Receiver per logic input pin (a comparator's with its computed thresholds)."""
+    comparator = part_type.kind == PartKind.COMPARATOR
+    sections = _comparator_sections(name, part_type, specs, pins, supply) if comparator else {}
+    for spec in specs:
         if spec.role != PinRole.INPUT:
             continue
-        pull = _part_pin_pull(ctx, name, element, spec, family)
+        number = spec.number
+        thresholds = _comparator_input(ctx, element, name, number, sections.get(number)) \
+            if comparator else None
+        if comparator and thresholds is None:
+            continue
         ctx.receivers.append(Receiver(
             part=name, pin=number, net=ctx.net(element.nodes[number - 1]),
-            part_type=part_type.name, family=family, schmitt=bool(spec.schmitt),
+            part_type=part_type.name, family=family,
+            schmitt=bool(spec.schmitt) if thresholds is None else thresholds.hysteresis,
             edge_sensitive=bool(spec.edge_sensitive), function=spec.function or "data",
             supply_v=supply.voltage, supply_tolerance=supply.tolerance,
-            location=element.location, internal_pull=pull,
+            location=element.location, internal_pull=_part_pin_pull(ctx, name, element, spec, family),
             firmware_debounce_s=ctx.firmware_debounce(name, number, None),
-            dedicated_debounce=bool(part_type.debounces), gate=spec.gate))
+            dedicated_debounce=bool(part_type.debounces), gate=spec.gate,
+            thresholds=None if thresholds is None else (thresholds.rising, thresholds.falling),
+            threshold_note=None if thresholds is None else thresholds.note))
+
+
+def _supply_out_of_range(ctx: _Context, element: Element, name: str, family: str, vcc: float,
+                         inputs: Iterable[PinSpec]) -> bool:
+    """True (and the inputs recorded as unchecked) when VCC is outside the family's range."""
+    fam = ctx.library.family(family)
+    low, high = fam.supply_range
+    if low - 1e-9 <= vcc <= high + 1e-9:
+        return False
+    ctx.block(element, name, UncheckedReason.SUPPLY_OUT_OF_RANGE,
+              f"{name}: VCC {vcc:g} V is outside the {fam.name} supply range {low:g}-{high:g} V; "
+              f"its thresholds are not defined there",
+              ((f"{name}:{spec.number}", element.nodes[spec.number - 1]) for spec in inputs))
+    return True
+
+
+def _comparator_sections(name: str, part_type: PartType, specs: tuple[PinSpec, ...],
+                         pins: tuple[PartPin, ...], supply: Rail) -> dict[int, Section | str]:
+    """Input pin number -> its comparator section, or why the section is incomplete."""
+    data = part_type.comparator
+    by_gate: dict[str | None, dict[str, PartPin]] = {}
+    for spec, pin in zip(specs, pins, strict=True):
+        if spec.role in (PinRole.INPUT, PinRole.OUTPUT):
+            role = spec.function if spec.role == PinRole.INPUT else "output"
+            by_gate.setdefault(spec.gate, {})[role] = pin
+    out: dict[int, Section | str] = {}
+    for gate in by_gate.values():
+        plus, minus, output = gate.get("noninverting"), gate.get("inverting"), gate.get("output")
+        pairs: tuple[tuple[PartPin | None, PartPin | None, bool], ...] = (
+            (minus, plus, True), (plus, minus, False))
+        for here, other, inverting in pairs:
+            if here is None:
+                continue
+            if other is None or output is None or data is None:
+                out[here.number] = (f"{name}: the section of pin {here.number} has no other input "
+                                    f"or no output in the pin plan")
+            else:
+                out[here.number] = Section(name, here.net, other.net, inverting, output.net,
+                                           supply, data)
+    return out
+
+
+def _comparator_input(ctx: _Context, element: Element, name: str, number: int,
+                      section: Section | str | None):
+    """The computed thresholds of one comparator input, or None (recorded as unchecked)."""
+    if isinstance(section, Section):
+        found = input_thresholds(section, ctx.resistors(), ctx.rails)
+        if not isinstance(found, NotComputed):
+            return found
+        reason, detail = found.reason, found.detail
+    else:
+        reason = UncheckedReason.UNKNOWN_THRESHOLD
+        detail = section or f"{name}: pin {number} belongs to no comparator section"
+    ctx.block(element, name, reason, detail, ((f"{name}:{number}", element.nodes[number - 1]),))
+    return None
 
 
 def _family_pull_range(ctx: _Context, family: str) -> tuple[float, float] | None:
@@ -589,9 +815,16 @@ def _add_mcu(ctx: _Context, element: Element, mcu: McuConfig) -> None:
         receiver = _mcu_receiver(ctx, element, name, mcu, pin, net, family_default, supply_rail)
         if receiver is not None:
             ctx.receivers.append(receiver)
+    described = {p.number for p in pins}
+    others = [(f"{name}:{number}", node) for number, node in enumerate(nodes, start=1)
+              if number not in described]
+    if others:
+        ctx.block(element, name, UncheckedReason.UNKNOWN_RECEIVER,
+                  f"{name}: a pin the config's [[mcu.pins]] does not describe (family, Schmitt, "
+                  f"pull, debounce)", others)
     ctx.parts[key(name)] = Part(name, "mcu", element.model or "", family_default or "",
                                 tuple(sorted(pins, key=lambda p: p.number)),
-                                element.location)
+                                element.location, "a microcontroller described by the config's [[mcu]]")
 
 
 def _mcu_receiver(ctx: _Context, element: Element, name: str, mcu: McuConfig, pin: McuPinConfig,
@@ -604,6 +837,13 @@ def _mcu_receiver(ctx: _Context, element: Element, name: str, mcu: McuConfig, pi
         ctx.note(f"{name} pin {pin.pin}: the config gives no "
                  f"{'family' if family is None else 'supply voltage'}; not checked",
                  element.location)
+        ctx.block(element, name, UncheckedReason.UNKNOWN_SUPPLY if family is not None
+                  else UncheckedReason.UNKNOWN_RECEIVER,
+                  f"{name} pin {pin.pin}: the config gives no "
+                  f"{'family' if family is None else 'supply voltage'}", ((f"{name}:{pin.pin}", net),))
+        return None
+    spec = PinSpec(pin.pin, f"P{pin.pin}", PinRole.INPUT, pin.schmitt, pin.edge_sensitive, "gpio", None)
+    if _supply_out_of_range(ctx, element, name, family, supply_v, (spec,)):
         return None
     tolerance = supply_rail.tolerance if supply_rail else ctx.config.tolerances.rail
     return Receiver(

@@ -61,13 +61,17 @@ def natural_key(text: str) -> tuple:
     return found
 
 
-def stages_for_board(board: Board, config: Config) -> list[Stage]:
-    """Every stage of the board, by contact designator then receiver; the first
-    stage of each contact is its lead (see Stage)."""
-    index = build_index(board)
+def stages_for_board(board: Board, config: Config,
+                     paths: Iterable[InputPath] | None = None) -> list[Stage]:
+    """Every stage of the board (or of the given paths: the ones the survey found
+    checkable, drc/board/coverage.py), by contact designator then receiver; the
+    first stage of each contact is its lead (see Stage)."""
     diode = _DiodeDefaults(config)
-    stages = [_recognise(path, board, config, index, diode)
-              for path in trace_paths(board, index)]
+    if paths is None:
+        index = build_index(board)
+        paths = trace_paths(board, index)
+    stages = [_recognise(path, board, config, path.index or build_index(board), diode)
+              for path in paths]
     stages.sort(key=lambda s: (natural_key(s.contact.designator),
                                natural_key(s.receiver.part), s.receiver.pin))
     seen: set[str] = set()
@@ -444,6 +448,8 @@ def _is_latch(path: InputPath, index: TraceIndex) -> bool:
     else:
         return False
     mine = (key(receiver.part), gate)
+    if _is_latch_part(path, index, mine, other_side):
+        return True
     for other in path.reached:
         if other.gate is None:
             continue
@@ -453,6 +459,17 @@ def _is_latch(path: InputPath, index: TraceIndex) -> bool:
         if _feeds(index, mine[0], theirs) and _feeds(index, theirs[0], mine):
             return True
     return False
+
+
+def _is_latch_part(path: InputPath, index: TraceIndex, mine: tuple[str, str],
+                   other_side: set[str]) -> bool:
+    """The two throws reach the set and the reset input of one latch inside a part ('279)."""
+    part = index.board.parts.get(mine[0])
+    if part is None or not part.latch or path.receiver.function not in ("set", "reset"):
+        return False
+    wanted = {"set", "reset"} - {path.receiver.function}
+    return any((key(other.part), other.gate) == mine and other.function in wanted
+               and key(other.net) in other_side for other in path.reached)
 
 
 def _feeds(index: TraceIndex, part_key: str, gate: tuple[str, str]) -> bool:

@@ -85,6 +85,10 @@ class TraceIndex:
         k = key(net)
         return k in self.stops or k in self.driven
 
+    def region_nets(self, rid: int) -> list[str]:
+        """The interior net keys of region `rid` (see region_id)."""
+        return self._regions[rid].nets
+
     def region_id(self, start: str) -> int:
         """The number of the connected passive region containing interior net key `start`.
 
@@ -173,14 +177,35 @@ def _receiver_order(receiver: Receiver) -> tuple:
 
 
 # What the contacts of one set of regions share: element ids, interior net
-# names, boundary net names, contact ids, receivers reached.
+# names, boundary net names, contact ids, receivers reached, and the keys of
+# the nets a contact there drives (interior nets and output-driven nets it
+# lands on).
 _RegionSummary = tuple[tuple[int, ...], tuple[str, ...], tuple[str, ...], tuple[int, ...],
-                       tuple[Receiver, ...]]
+                       tuple[Receiver, ...], tuple[str, ...]]
 
 
 def trace_contact(index: TraceIndex, contact_index: int,
                   cache: dict[tuple, _RegionSummary] | None = None) -> list[InputPath]:
     """The input paths of one contact (board.contacts[contact_index])."""
+    contact = index.board.contacts[contact_index]
+    memo_key, shared = contact_region(index, contact_index, cache)
+    element_ids, interior, boundary, contact_ids, reached, _driven = shared
+    if not reached:
+        return []
+    elements = tuple(index.elements[i] for i in element_ids)
+    others = tuple(index.board.contacts[i] for i in contact_ids if i != contact_index)
+    nets = interior + boundary
+    return [InputPath(contact, receiver, elements, nets, boundary, others, reached, index)
+            for receiver in reached]
+
+
+def contact_region(index: TraceIndex, contact_index: int,
+                   cache: dict[tuple, _RegionSummary] | None = None) -> tuple[tuple, _RegionSummary]:
+    """(the key contacts of one region share, what that region holds) for one contact.
+
+    The summary: element ids, interior net names, boundary net names, ids of
+    the contacts in it, receivers reached, keys of the nets the contact drives.
+    """
     contact = index.board.contacts[contact_index]
     region_ids: list[int] = []
     leaves: set[str] = set()
@@ -201,14 +226,7 @@ def trace_contact(index: TraceIndex, contact_index: int,
         shared = _region_summary(index, region_ids, landed_driven, leaves)
         if cache is not None:
             cache[memo_key] = shared
-    element_ids, interior, boundary, contact_ids, reached = shared
-    if not reached:
-        return []
-    elements = tuple(index.elements[i] for i in element_ids)
-    others = tuple(index.board.contacts[i] for i in contact_ids if i != contact_index)
-    nets = interior + boundary
-    return [InputPath(contact, receiver, elements, nets, boundary, others, reached, index)
-            for receiver in reached]
+    return memo_key, shared
 
 
 def _region_summary(index: TraceIndex, region_ids: list[int], landed_driven: list[str],
@@ -240,7 +258,8 @@ def _region_summary(index: TraceIndex, region_ids: list[int], landed_driven: lis
     if ground in boundary:
         boundary_names += (GROUND,)
     return (tuple(sorted(element_ids)), tuple(index.name(n) for n in interior),
-            boundary_names, tuple(sorted(contact_ids)), tuple(reached))
+            boundary_names, tuple(sorted(contact_ids)), tuple(reached),
+            tuple(interior) + tuple(landed_driven))
 
 
 def trace_paths(board: Board, index: TraceIndex | None = None) -> list[InputPath]:

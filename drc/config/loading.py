@@ -37,6 +37,7 @@ voltages, resistances and fractions may also be plain numbers in V, Ω and ratio
     designator = "U7"
     part-number = "74HC14"        # optional
     family = "HC"                 # optional
+    pins = ["A", "Y", "VCC", "GND"]   # optional: pin names in node order (one gate per instance)
 
     [[mcu]]                       # microcontroller input pins
     designator = "U1"
@@ -114,7 +115,7 @@ _TOP_KEYS = ("fail-level", "default-bounce", "eseries", "only-rules", "skip-rule
 _TOLERANCE_KEYS = ("resistor", "capacitor", "rail")
 _RAIL_KEYS = ("net", "voltage", "tolerance")
 _CONTACT_KEYS = ("designator", "class", "bounce", "form")
-_PART_KEYS = ("designator", "part-number", "family")
+_PART_KEYS = ("designator", "part-number", "family", "pins")
 _MCU_KEYS = ("designator", "family", "supply", "supply-pins", "ground-pins", "pins")
 _PIN_KEYS = ("pin", "family", "schmitt", "pull", "pull-min", "pull-max", "debounce", "supply",
              "edge-sensitive")
@@ -378,9 +379,10 @@ def _parts(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tu
         number = r.string(t["part-number"], p + ("part-number",)) if "part-number" in t else None
         family = (r.string(t["family"], p + ("family",), families, what="logic family")
                   if "family" in t else None)
-        if number is None and family is None:
-            raise r.error(p, "a part entry needs 'part-number' or 'family'")
-        out.append(PartConfig(pattern=pattern, part_number=number, family=family))
+        pins = r.strings(t["pins"], p + ("pins",), non_empty=True) if "pins" in t else None
+        if number is None and family is None and pins is None:
+            raise r.error(p, "a part entry needs 'part-number', 'family' or 'pins'")
+        out.append(PartConfig(pattern=pattern, part_number=number, family=family, pins=pins))
     return tuple(out)
 
 

@@ -36,6 +36,9 @@ class PartConfig:
     pattern: str
     part_number: str | None = None
     family: str | None = None
+    # Pin names in the instance line's node order (per-gate instances): each
+    # names a pin of the part type (`A`, `1Y`) or a role (`VCC`, `GND`).
+    pins: tuple[str, ...] | None = None
 
 
 @dataclass(frozen=True, slots=True)
