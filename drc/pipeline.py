@@ -34,6 +34,7 @@ if TYPE_CHECKING:
     from concurrent.futures import Executor
 
     from drc.board.board import Board
+    from drc.board.coverage import Survey
     from drc.gate.decision import WaiverNote, WaiverOutcome
     from drc.report.run_report import BaselineInfo, BoardReport, Inventory, RunReport
 
@@ -82,6 +83,7 @@ class CheckedBoard:
     annotation_notes: tuple[WaiverNote, ...] = ()
     files: tuple[str, ...] = ()
     reader_diagnostics: tuple = ()
+    survey: Survey | None = None  # what became of every contact (drc/board/coverage.py)
 
 
 # What checking a board imports, beyond this module: `preload` imports it ahead.
@@ -151,8 +153,9 @@ def _reader_options(config: Config, options: CheckOptions):
     return ReaderOptions(include_folders=folders, **kwargs) if (folders or kwargs) else None
 
 
-def analyse_board(board, config: Config) -> list[StageResult]:
-    """Trace, recognise and analyse every input path of a classified board."""
+def analyse_board(board, config: Config, paths=None) -> list[StageResult]:
+    """Trace, recognise and analyse the input paths of a classified board (all of them,
+    or `paths`: the ones the survey found checkable)."""
     from drc.analysis.receiver import receiver_electrical
     from drc.analysis.reuse import analyse_stages_reusing
     from drc.board.recognise import stages_for_board
@@ -161,11 +164,17 @@ def analyse_board(board, config: Config) -> list[StageResult]:
 
     def rx_for(stage):
         rec = stage.receiver
-        cache_key = (rec.family, round(rec.supply_v, 6), rec.schmitt, rec.part_type, rec.supply_tolerance)
+        cache_key = (rec.family, round(rec.supply_v, 6), rec.schmitt, rec.part_type, rec.supply_tolerance,
+                     rec.thresholds)
         rx = cache.get(cache_key)
         if rx is None:
             rx = receiver_electrical(lib, rec.family, rec.supply_v, rec.schmitt, rec.part_type,
                                      rec.supply_tolerance)
+            if rec.thresholds is not None:
+                # A comparator's thresholds follow from its own resistors (drc/board/comparator.py).
+                rising, falling = rec.thresholds
+                rx = replace(rx, rising_threshold=rising, falling_threshold=falling,
+                             vih_min=rising[2], vil_max=falling[0])
             cache[cache_key] = rx
         return rx
 
@@ -175,7 +184,7 @@ def analyse_board(board, config: Config) -> list[StageResult]:
         return analyse_stages(stages, rxs)
 
     # A stage seen before (on this board or an earlier one of the run) is not solved again.
-    return analyse_stages_reusing(list(stages_for_board(board, config)), rx_for, analyse)
+    return analyse_stages_reusing(list(stages_for_board(board, config, paths)), rx_for, analyse)
 
 
 def effective_limits(config: Config) -> dict[str, float]:
@@ -209,6 +218,7 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     """Classify, analyse and check one read netlist; the gate's severities, annotations
     and waivers applied."""
     from drc.board.classify import classify
+    from drc.board.coverage import survey_board
     from drc.checks import run_rules
     from drc.config.annotations import read_annotations
     from drc.gate.decision import judge_board
@@ -219,10 +229,11 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     board = classify(netlist, lib, config, default_bounce_s=options.default_bounce_s
                      if options.default_bounce_s is not None else config.default_bounce_s,
                      debounces=annotations.debounces if annotations else None)
-    results = analyse_board(board, config)
+    survey = survey_board(board, lib)
+    results = analyse_board(board, config, survey.paths)
     limits = effective_limits(config)
     selected = selected_rule_ids(config, options)
-    findings = run_rules(board, results, limits, selected)
+    findings = run_rules(board, results, limits, selected, survey.unchecked)
     if options.propose_fixes and findings:
         findings = _with_fixes(results, findings, limits, options.eseries or config.eseries)
     waived = [(w.rule, w.parts, w.reason, w.location) for w in annotations.waivers] if annotations else []
@@ -231,7 +242,7 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     return CheckedBoard(path=path, board=board, results=results, findings=list(judged.findings),
                         config=config, waiver_outcome=judged.waiver_outcome,
                         annotation_notes=judged.annotation_notes, files=tuple(netlist.files),
-                        reader_diagnostics=tuple(netlist.diagnostics))
+                        reader_diagnostics=tuple(netlist.diagnostics), survey=survey)
 
 
 def read_board(path: str, config: Config, options: CheckOptions):
@@ -253,13 +264,24 @@ def board_report(check: CheckedBoard) -> BoardReport:
     from drc.report.run_report import BoardReport
     board = check.board
     kinds: Counter[str] = Counter(r.stage.kind for r in check.results)
+    coverage = contact_coverage(check.survey) if check.survey is not None else None
     seen: dict[str, None] = {}
     for d in (*check.reader_diagnostics, *getattr(board, "diagnostics", ())):
         seen.setdefault(f"{d.location}: {d.message}")
     return BoardReport(path=check.path, stages=tuple(check.results), findings=tuple(check.findings),
                        contacts=len(board.contacts), stage_kinds=dict(kinds),
                        diagnostics=tuple(seen), config_path=check.config.path if check.config else None,
-                       files=check.files, inventory=inventory(board))
+                       files=check.files, inventory=inventory(board), coverage=coverage)
+
+
+def contact_coverage(survey: Survey):
+    """The report record of what became of a board's contacts."""
+    from drc.board.coverage import ContactStatus
+    from drc.report.run_report import Coverage
+    loads = tuple((o.contact, o.loads) for o in survey.outcomes if o.loads)
+    return Coverage(checked=survey.count(ContactStatus.CHECKED),
+                    not_checked=survey.count(ContactStatus.NOT_CHECKED),
+                    load_only=survey.count(ContactStatus.LOAD_ONLY), loads=loads)
 
 
 def inventory(board: Board) -> Inventory:

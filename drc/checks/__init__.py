@@ -24,8 +24,9 @@ from drc.checks.registry import Rule, RuleKind, registered_rules, registry_gener
 # The built-in rules in catalogue order: importing a module registers its rule,
 # and the registration order is the catalogue order.
 BUILT_IN_RULE_MODULES = (
-    "undebounced_input", "floating_input", "bounce_window", "slow_edge", "response_latency",
-    "leakage_headroom", "shorted_pull", "pullup_waste", "resistance_range", "contact_wetting", "contact_surge",
+    "unchecked_input", "undebounced_input", "floating_input", "bounce_window", "slow_edge",
+    "response_latency", "leakage_headroom", "shorted_pull", "pullup_waste", "resistance_range",
+    "contact_wetting", "contact_surge",
     "rail_mismatch", "ambiguous_value",
 )
 for _module in BUILT_IN_RULE_MODULES:
@@ -60,12 +61,14 @@ def _selected(selected_ids: Iterable[str] | None, kind: str | None = None) -> li
 
 
 def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float],
-              selected_ids: Iterable[str] | None = None) -> list[Finding]:
+              selected_ids: Iterable[str] | None = None, unchecked: Iterable = ()) -> list[Finding]:
     """Run the selected rules (None = all) on one board; findings in a stable order.
 
     Order: stage by stage (in the order of `results`), rules in catalogue
-    order within a stage; then the board rules. Each finding has its rule's
-    severity; the user's overrides are the gate's (drc.gate.decision).
+    order within a stage; then the input rules over `unchecked` (the
+    UncheckedInputs of drc/board/coverage.py); then the board rules. Each
+    finding has its rule's severity; the user's overrides are the gate's
+    (drc.gate.decision).
     """
     rules = _selected(selected_ids)
     locations = locations_of(board)
@@ -76,6 +79,10 @@ def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float]
     for result in results:
         for r, ctx in stage_rules:
             findings.extend(r.check(result, ctx))
+    input_rules = [(r, c) for r, c in contexts if r.kind == RuleKind.INPUT]
+    for item in unchecked if input_rules else ():
+        for r, ctx in input_rules:
+            findings.extend(r.check(item, ctx))
     for r, ctx in contexts:
         if r.kind == RuleKind.BOARD and board is not None:
             findings.extend(r.check(board, ctx))

@@ -140,7 +140,8 @@ class RuleContext:
                 contact: str | None = None, receiver: str | None = None,
                 nets: tuple[str, ...] = (), severity: str | None = None,
                 location: SourceLocation | None = None,
-                related: tuple[SourceLocation, ...] | None = None) -> Finding:
+                related: tuple[SourceLocation, ...] | None = None,
+                reason: str | None = None) -> Finding:
         """A Finding located at its first part, related to the others'."""
         if location is None and parts:
             location = self.location(parts[0])
@@ -150,7 +151,7 @@ class RuleContext:
         return Finding(rule=self.rule_id, severity=self.severity(severity), board=self.board_name,
                        contact=contact, receiver=receiver, parts=tuple(parts), nets=tuple(nets),
                        measured=measured, limit=limit, message=message, fix=fix,
-                       location=location, related=related)
+                       location=location, related=related, reason=reason)
 
     def stage_finding(self, result: StageResult, *, parts: tuple[str, ...] | None = None,
                       **kwargs) -> Finding:

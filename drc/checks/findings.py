@@ -56,6 +56,8 @@ class Finding:
     # Set by the gate (waivers, annotations, baselines), never by rules.
     suppression: Suppression | None = None
     justification: str | None = None
+    # Why an input was not checked (the unchecked-input rule's reason word), else None.
+    reason: str | None = None
 
     def identity(self) -> tuple:
         """What a baseline or waiver matches on: no line numbers."""

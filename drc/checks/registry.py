@@ -2,7 +2,8 @@
 
 A rule is a plain function plus its `RuleDoc`, registered with the `rule`
 decorator. Stage rules read one `StageResult`; board rules read the `Board`
-(its netlist's elements). The catalogue order is the registration order, so
+(its netlist's elements); input rules read one contact input the checker
+could not check (`UncheckedInput`, drc/board/coverage.py). The catalogue order is the registration order, so
 the built-in modules are imported (by drc.checks) in the order of the
 published catalogue.
 
@@ -34,6 +35,7 @@ class RuleKind(StrEnum):
 
     STAGE = "stage"  # one StageResult
     BOARD = "board"  # the whole Board
+    INPUT = "input"  # one contact input that could not be checked (board.coverage.UncheckedInput)
 
 
 RULE_KINDS: tuple[str, ...] = tuple(kind.value for kind in RuleKind)
@@ -45,8 +47,8 @@ class Rule:
     """One registered rule: its documentation, its kind and its check function.
 
     check(subject, ctx) -> iterable of Findings, where subject is a
-    StageResult for a "stage" rule and a Board for a "board" rule, and ctx a
-    `checks.context.RuleContext`.
+    StageResult for a "stage" rule, a Board for a "board" rule and an
+    UncheckedInput for an "input" rule, and ctx a `checks.context.RuleContext`.
     """
 
     doc: RuleDoc

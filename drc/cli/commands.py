@@ -316,18 +316,34 @@ def matching_results(results, ref: str):
 def _no_match(check, ref: str) -> UsageError:
     from drc.errors import unknown_name_message
     names = sorted({r.stage.contact.designator for r in check.results}
-                   | {r.stage.receiver.ref for r in check.results})
+                   | {r.stage.receiver.ref for r in check.results}
+                   | {c.designator for c in check.board.contacts})
     return UsageError(unknown_name_message(f"contact or receiver in {check.path}", ref, names))
 
 
+def _matching_coverage(check, ref: str) -> tuple[list, list]:
+    """The unchecked inputs and the outcomes (with loads) of contact or receiver `ref`."""
+    if check.survey is None:
+        return [], []
+    want = ref.casefold()
+    items = [u for u in check.survey.unchecked
+             if want in (u.contact.designator.casefold(), (u.receiver or "").casefold(),
+                         (u.receiver or "").split(":")[0].casefold())]
+    outcomes = [o for o in check.survey.outcomes if o.contact.casefold() == want and o.loads]
+    return items, outcomes
+
+
 def run_trace(args) -> int:
-    from drc.report.trace_view import print_trace
+    from drc.report.trace_view import print_trace, print_unchecked
     check = _board_stages(args.board, args.config, args.bounce)
     results = matching_results(check.results, args.ref)
-    if not results:
+    items, outcomes = _matching_coverage(check, args.ref)
+    if not (results or items or outcomes):
         raise _no_match(check, args.ref)
     with stdout_console() as console:
-        print_trace(console, check, results)
+        if results:
+            print_trace(console, check, results)
+        print_unchecked(console, items, outcomes)
     return ExitStatus.OK
 
 

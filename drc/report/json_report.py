@@ -129,6 +129,7 @@ def finding_json(finding: Finding) -> dict:
         "location": location_json(finding.location),
         "related": [location_json(r) for r in finding.related],
         "suppressed": suppressed,
+        "reason": finding.reason,
     }
 
 
@@ -138,6 +139,7 @@ def board_json(board: BoardReport) -> dict:
         "config": board.config_path,
         "error": board.error,
         "contacts": board.contacts,
+        "coverage": board.coverage.as_json() if board.coverage is not None else None,
         "stage_kinds": dict(board.stage_kinds),
         "diagnostics": list(board.diagnostics),
         "inventory": board.inventory.as_json() if board.inventory is not None else None,
@@ -162,7 +164,10 @@ def report_document(run: RunReport) -> dict:
         "boards": [board_json(b) for b in run.boards],
         "waiver_notes": list(run.waiver_notes),
         "baseline": baseline,
-        "summary": {**run.counts(), "boards": len(run.boards)},
+        "summary": {**run.counts(), "boards": len(run.boards),
+                    "contacts_checked": run.coverage().checked,
+                    "contacts_not_checked": run.coverage().not_checked,
+                    "contacts_non_logic_load": run.coverage().load_only},
     }
 
 

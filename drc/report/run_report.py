@@ -52,7 +52,7 @@ def finding_sort_key(finding: Finding) -> tuple:
             _figure_key(finding.measured), _figure_key(finding.limit), finding.nets,
             (location.file, location.line, location.column) if location else ("", 0, 0),
             tuple((r.file, r.line, r.column) for r in finding.related),
-            finding.suppression or "", finding.justification or "")
+            finding.suppression or "", finding.justification or "", finding.reason or "")
 
 
 def stage_sort_key(result: StageResult) -> tuple:
@@ -87,6 +87,39 @@ class Inventory:
 
 
 @dataclass(frozen=True, slots=True)
+class Coverage:
+    """What became of a board's contacts (drc/board/coverage.py), or of a run's.
+
+    checked: every input the contact reaches is a checked stage; not_checked:
+    at least one input could not be checked (an unchecked-input finding);
+    load_only: the contact drives only loads that are not logic inputs.
+    loads: (contact, loads it drives, e.g. "lamp LP1") for every contact
+    that drives a non-logic load.
+    """
+
+    checked: int = 0
+    not_checked: int = 0
+    load_only: int = 0
+    loads: tuple[tuple[str, tuple[str, ...]], ...] = ()
+
+    def __add__(self, other: Coverage) -> Coverage:
+        return Coverage(self.checked + other.checked, self.not_checked + other.not_checked,
+                        self.load_only + other.load_only, self.loads + other.loads)
+
+    def as_json(self) -> dict:
+        return {"checked": self.checked, "not_checked": self.not_checked,
+                "non_logic_load": self.load_only,
+                "loads": {contact: list(loads) for contact, loads in self.loads}}
+
+    def text(self) -> str:
+        """"contacts: 3 checked, 1 not checked, 1 non-logic load only"."""
+        text = f"contacts: {self.checked} checked, {self.not_checked} not checked"
+        if self.load_only:
+            text += f", {self.load_only} non-logic load only"
+        return text
+
+
+@dataclass(frozen=True, slots=True)
 class BoardReport:
     """One board's results. error: why the board could not be checked (then no stages)."""
 
@@ -100,6 +133,7 @@ class BoardReport:
     error: str | None = None
     files: tuple[str, ...] = ()  # every file the netlist was read from (includes too)
     inventory: Inventory | None = None  # what the netlist holds (None when it was not read)
+    coverage: Coverage | None = None  # what became of the contacts (None when not checked)
 
     def __post_init__(self) -> None:
         # Frozen record: normalise once here so every format sees the same order.
@@ -165,6 +199,14 @@ class RunReport:
         for board in self.boards:
             total.update(board.counts())
         return {str(key): total.get(key, 0) for key in (*SEVERITIES, "suppressed")}
+
+    def coverage(self) -> Coverage:
+        """Contacts checked / not checked over every board that was checked."""
+        total = Coverage()
+        for board in self.boards:
+            if board.coverage is not None:
+                total = total + board.coverage
+        return total
 
     def rule_doc(self, rule_id: str) -> RuleDoc | None:
         for doc in self.rule_docs:

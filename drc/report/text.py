@@ -111,6 +111,12 @@ def _board_block(board: BoardReport, console: Console, quiet: bool) -> None:
             console.print(Text.assemble(("  warning", "yellow"), f": {diagnostic}"))
     if shown:
         console.print(_finding_rows(shown))
+    if board.coverage is not None:
+        line = board.coverage.text()
+        if not quiet and board.coverage.loads:
+            line += "; non-logic loads: " + "; ".join(
+                f"{contact} drives {', '.join(loads)}" for contact, loads in board.coverage.loads)
+        console.print(Text("  " + line, style="dim" if not board.coverage.not_checked else ""))
     console.print(Text("  " + board_summary(board), style="dim" if not board.active() else ""))
 
 
@@ -140,6 +146,9 @@ def render_text(run: RunReport, console: Console, *, quiet: bool = False) -> Non
                     else entry.contact or entry.receiver or ", ".join(entry.parts)
                 console.print(Text(f"  fixed: {entry.board} {entry.rule} {who}", style="green"))
     console.print(Text(total_line(run), style="bold"))
+    coverage = run.coverage()
+    if len(run.boards) > 1 or coverage.not_checked:
+        console.print(Text(f"{coverage.text()} (all boards)", style="bold" if coverage.not_checked else ""))
     console.print(Text(CAUTION_SHORT, style="dim"))
 
 

@@ -68,6 +68,21 @@ def _edges_table(result) -> Table:
     return table
 
 
+def print_unchecked(console, items, outcomes) -> None:
+    """What `drc trace` shows of a contact with inputs it could not check, or loads only."""
+    for item in items:
+        target = f" -> {item.receiver}" if item.receiver else ""
+        console.rule(Text(f"{item.contact.designator}{target}: not checked", style="bold"))
+        console.print(f"reason: [bold]{item.reason}[/]", highlight=False)
+        console.print(item.detail, highlight=False)
+        if item.nets:
+            console.print(f"nets: {', '.join(item.nets)}", highlight=False)
+    for outcome in outcomes:
+        if outcome.loads:
+            console.print(f"{outcome.contact} drives loads that are not logic inputs: "
+                          f"{', '.join(outcome.loads)}", highlight=False)
+
+
 def print_trace(console, check, results) -> None:
     for result in results:
         stage = result.stage
@@ -84,6 +99,11 @@ def print_trace(console, check, results) -> None:
             part_type = "'" + part_type  # the 74-series function number: '14, '74
         console.print(f"receiver {receiver.ref}: {part_type} {receiver.function} input, "
                       f"{receiver.family} {kind}{extra}, VCC {fq(receiver.supply_v, 'V')}", highlight=False)
+        part = check.board.parts.get(receiver.part.casefold()) if check is not None else None
+        if part is not None and part.resolution:
+            console.print(f"part {part.designator}: {part.resolution}", highlight=False)
+        if receiver.threshold_note:
+            console.print(f"thresholds: {receiver.threshold_note}", highlight=False)
         if receiver.firmware_debounce_s:
             console.print(f"firmware debounce: {fq(receiver.firmware_debounce_s, 's')}")
         console.print(f"nets: {', '.join(stage.nets)}", highlight=False)

@@ -13,9 +13,11 @@ from drc.datafiles import rules_path
 from drc.errors import LibraryError
 from tests.checks.builders import LIMITS, result
 
-# The catalogue of DESIGN.md section 7, in its order, with its default severities.
+# The catalogue of DESIGN.md section 7, in its order, with its default severities;
+# the fail-closed rule of issue 12 first.
 CATALOGUE = [
-    ("undebounced-input", "error"), ("floating-input", "error"), ("bounce-window", "error"),
+    ("unchecked-input", "error"), ("undebounced-input", "error"), ("floating-input", "error"),
+    ("bounce-window", "error"),
     ("slow-edge", "error"), ("response-latency", "warning"), ("leakage-headroom", "error"),
     ("shorted-pull", "error"),  # issue 13, item 7: a pull resistor that reads as a short
     ("pullup-waste", "warning"), ("resistance-range", "note"), ("contact-wetting", "warning"),

@@ -13,7 +13,7 @@ from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit
 from drc.checks.findings import Figure, Finding
 from drc.checks.ruledoc import RuleDoc
 from drc.errors import SourceLocation
-from drc.report.run_report import BoardReport, Inventory, RunReport
+from drc.report.run_report import BoardReport, Coverage, Inventory, RunReport
 
 BOARD = "boards/panel.cir"
 
@@ -106,7 +106,8 @@ def board_report(board: str = BOARD, findings: list[Finding] | None = None, **kw
                        config_path=kw.pop("config_path", "drc.toml"), error=kw.pop("error", None),
                        inventory=kw.pop("inventory", None if kw.get("error") else Inventory(
                            parts={"R": 4, "C": 2, "S": 2, "V": 1, "X": 1}, nets=7,
-                           rails={"vcc": 5.0}, instances=0)))
+                           rails={"vcc": 5.0}, instances=0)),
+                       coverage=kw.pop("coverage", Coverage(checked=3)))
 
 
 def run_report(boards: list[BoardReport] | None = None, **kw) -> RunReport:

@@ -79,6 +79,7 @@ def written_tables(document: dict) -> dict[str, set[str]]:
         "Tool": set(document["tool"]),
         "Board": set(board),
         "Inventory": set(board["inventory"]),
+        "Coverage": set(board["coverage"]),
         "Stage": set(stage),
         "Edge": set(stage["edges"]["press"]),
         "Level": set(stage["levels"]["pressed"]),
