@@ -643,12 +643,12 @@ def _add_part(ctx: _Context, element: Element, resolved: ResolvedPart, family_ov
                   ((name, p.net) for p in pins if p.role == PinRole.ISOLATED),
                   beyond=(p.net for p in pins if p.role == PinRole.OUTPUT))
         return
-    supply = _checkable_supply(ctx, element, name, family, specs, pins)
+    supply = _checkable_supply(ctx, element, name, family, part_type.name, specs, pins)
     if supply is not None:
         _add_receivers(ctx, element, name, part_type, family, specs, pins, supply)
 
 
-def _checkable_supply(ctx: _Context, element: Element, name: str, family: str,
+def _checkable_supply(ctx: _Context, element: Element, name: str, family: str, part_type: str,
                       specs: tuple[PinSpec, ...], pins: tuple[PartPin, ...]) -> Rail | None:
     """The part's supply rail when its inputs can be judged; else None, with each
     reason recorded (analog channels, no known supply, a supply out of range)."""
@@ -669,7 +669,7 @@ def _checkable_supply(ctx: _Context, element: Element, name: str, family: str,
                   f"the rail's voltage in the config's [[rails]]",
                   ((f"{name}:{spec.number}", element.nodes[spec.number - 1]) for spec in inputs))
         return None
-    if _supply_out_of_range(ctx, element, name, family, supply.voltage, inputs):
+    if _supply_out_of_range(ctx, element, name, family, supply.voltage, inputs, part_type):
         return None
     return supply
 
@@ -701,10 +701,11 @@ def _add_receivers(ctx: _Context, element: Element, name: str, part_type: PartTy
 
 
 def _supply_out_of_range(ctx: _Context, element: Element, name: str, family: str, vcc: float,
-                         inputs: Iterable[PinSpec]) -> bool:
-    """True (and the inputs recorded as unchecked) when VCC is outside the family's range."""
+                         inputs: Iterable[PinSpec], part_type: str | None = None) -> bool:
+    """True (and the inputs recorded as unchecked) when VCC is outside the range of the
+    family (or of the part's own variant: single-gate parts, families.toml part_variants)."""
     fam = ctx.library.family(family)
-    low, high = fam.supply_range
+    low, high = fam.supply_range_for(part_type)
     if low - 1e-9 <= vcc <= high + 1e-9:
         return False
     ctx.block(element, name, UncheckedReason.SUPPLY_OUT_OF_RANGE,

@@ -30,8 +30,8 @@ from drc.board.board import Board, Contact, Load, UncheckablePart, UncheckedReas
 from drc.board.trace import InputPath, TraceIndex, build_index, contact_region
 from drc.errors import SourceLocation
 from drc.library.catalogue import Library
-from drc.library.entries import OtherKind
-from drc.netlist.elements import Element, key
+from drc.library.entries import OtherKind, PinRole
+from drc.netlist.elements import GROUND, Element, key
 
 
 class ContactStatus(StrEnum):
@@ -103,6 +103,12 @@ class _Attachments:
         for load in board.loads:
             for net in dict.fromkeys(load.nets):
                 self.loads[key(net)].append(load)
+        # A contact that switches a part's supply is a power switch, not an input.
+        for part in board.parts.values():
+            for pin in part.pins:
+                if pin.role == PinRole.SUPPLY:
+                    self.loads[key(pin.net)].append(Load(part.designator, part.part_number,
+                                                         "supply of", (pin.net,), part.location))
         self.problems: defaultdict[str, list[Element]] = defaultdict(list)
         for element in index.elements:
             if element.problem is not None:
@@ -177,10 +183,13 @@ def _contact_outcome(index: TraceIndex, contact_index: int, shared: tuple, hangi
     elif hanging.problems:
         here.append(_unevaluable(contact, hanging.problems, None, interior))
     here.extend(_blocked(contact, part, ref, net, index) for part, ref, net in hanging.blocked)
-    if not (reached or hanging.blocked or hanging.loads or hanging.problems):
+    loads = tuple(f"{load.title} {load.designator}" for load in hanging.loads)
+    if not interior and not _driven:
+        # Every terminal on a rail or ground: a power switch between supplies.
+        loads += tuple(f"supply rail {net}" for net in boundary if key(net) != key(GROUND))
+    if not (reached or hanging.blocked or loads or hanging.problems):
         here.append(_no_path(contact, interior, boundary))
     unchecked.extend(here)
-    loads = tuple(f"{load.title} {load.designator}" for load in hanging.loads)
     status = (ContactStatus.NOT_CHECKED if here else
               ContactStatus.CHECKED if checked else ContactStatus.LOAD_ONLY)
     return ContactOutcome(contact.designator, status, checked, loads,

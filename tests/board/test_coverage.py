@@ -114,3 +114,22 @@ XU1 v33 other k 0 STM_LIKE
 """, config)
     survey = survey_board(board, lib)
     assert [(u.receiver, u.reason) for u in survey.unchecked] == [("U1:3", UncheckedReason.UNKNOWN_RECEIVER)]
+
+
+def test_a_switched_logic_supply_is_a_load(board_of, lib):
+    board = board_of("""* a power switch in front of a gate's supply
+V1 v5 0 DC 5
+SW1 v5 vsw TOGGLE
+XU1 0 y1 0 y2 0 y3 0 y4 0 y5 0 y6 0 vsw 74HC14
+.end
+""")
+    survey = survey_board(board, lib)
+    assert [(o.contact, o.status, o.loads) for o in survey.outcomes] == [
+        ("SW1", ContactStatus.LOAD_ONLY, ("supply of U1",))]
+
+
+def test_a_switch_between_rails_is_a_power_switch(board_of, lib):
+    board = board_of("* battery switch\nV1 vbat 0 DC 9\nV2 v5 0 DC 5\nSW1 vbat v5 TOGGLE\n.end\n")
+    survey = survey_board(board, lib)
+    assert [(o.status, o.loads) for o in survey.outcomes] == [
+        (ContactStatus.LOAD_ONLY, ("supply rail v5", "supply rail vbat"))]
