@@ -662,11 +662,12 @@ def _checkable_supply(ctx: _Context, element: Element, name: str, family: str, p
                   ((f"{name}:{spec.number}", element.nodes[spec.number - 1]) for spec in analog))
     supply = _supply_rail(ctx, pins)
     if supply is None:
-        ctx.note(f"{name}: its supply pin is not on a rail with a known voltage; its "
-                 f"inputs are not checked", element.location)
-        ctx.block(element, name, UncheckedReason.UNKNOWN_SUPPLY,
-                  f"{name} ({model}): its supply pin is not on a rail with a known voltage; give "
-                  f"the rail's voltage in the config's [[rails]]",
+        why = ("its supply pin is not on a rail with a known voltage; give the rail's voltage in "
+               "the config's [[rails]]" if any(p.role == PinRole.SUPPLY for p in pins) else
+               "its pins name no supply pin (a model with implicit power); name the pins, VCC "
+               "included, in the .subckt line or the config's [[parts]] pins")
+        ctx.note(f"{name}: {why}; its inputs are not checked", element.location)
+        ctx.block(element, name, UncheckedReason.UNKNOWN_SUPPLY, f"{name} ({model}): {why}",
                   ((f"{name}:{spec.number}", element.nodes[spec.number - 1]) for spec in inputs))
         return None
     if _supply_out_of_range(ctx, element, name, family, supply.voltage, inputs, part_type):

@@ -104,11 +104,11 @@ class _Attachments:
             for net in dict.fromkeys(load.nets):
                 self.loads[key(net)].append(load)
         # A contact that switches a part's supply is a power switch, not an input.
-        for part in board.parts.values():
-            for pin in part.pins:
+        for logic in board.parts.values():
+            for pin in logic.pins:
                 if pin.role == PinRole.SUPPLY:
-                    self.loads[key(pin.net)].append(Load(part.designator, part.part_number,
-                                                         "supply of", (pin.net,), part.location))
+                    self.loads[key(pin.net)].append(Load(logic.designator, logic.part_number,
+                                                         "supply of", (pin.net,), logic.location))
         self.problems: defaultdict[str, list[Element]] = defaultdict(list)
         for element in index.elements:
             if element.problem is not None:
@@ -183,10 +183,7 @@ def _contact_outcome(index: TraceIndex, contact_index: int, shared: tuple, hangi
     elif hanging.problems:
         here.append(_unevaluable(contact, hanging.problems, None, interior))
     here.extend(_blocked(contact, part, ref, net, index) for part, ref, net in hanging.blocked)
-    loads = tuple(f"{load.title} {load.designator}" for load in hanging.loads)
-    if not interior and not _driven:
-        # Every terminal on a rail or ground: a power switch between supplies.
-        loads += tuple(f"supply rail {net}" for net in boundary if key(net) != key(GROUND))
+    loads = _loads(hanging, interior, _driven, boundary)
     if not (reached or hanging.blocked or loads or hanging.problems):
         here.append(_no_path(contact, interior, boundary))
     unchecked.extend(here)
@@ -194,6 +191,16 @@ def _contact_outcome(index: TraceIndex, contact_index: int, shared: tuple, hangi
               ContactStatus.CHECKED if checked else ContactStatus.LOAD_ONLY)
     return ContactOutcome(contact.designator, status, checked, loads,
                           tuple(dict.fromkeys(u.reason for u in here)))
+
+
+def _loads(hanging: _Hanging, interior: tuple[str, ...], driven: tuple[str, ...],
+           boundary: tuple[str, ...]) -> tuple[str, ...]:
+    """The non-logic loads a contact drives ("lamp LP1"); a contact with every terminal
+    on a rail or ground is a power switch between supplies."""
+    loads = tuple(f"{load.title} {load.designator}" for load in hanging.loads)
+    if not interior and not driven:
+        loads += tuple(f"supply rail {net}" for net in boundary if key(net) != key(GROUND))
+    return loads
 
 
 def _unevaluable(contact: Contact, problems: tuple[Element, ...], receiver: str | None,

@@ -76,7 +76,7 @@ class Library:
                         self.other_parts, self.pin_names)
         content = (families, part_types, contact_classes, limits,
                    sorted((k, sorted(v)) for k, v in form_words.items()), self.other_parts,
-                   self.pin_names)
+                   _sorted_pin_names(self.pin_names))
         self.fingerprint = hashlib.sha256(repr(content).encode()).hexdigest()
 
     def __eq__(self, other: object) -> bool:
@@ -175,6 +175,12 @@ class Library:
             return self.limits[key].value
         except KeyError:
             raise KeyError(f"unknown limit '{key}'") from None
+
+
+def _sorted_pin_names(names: PinNames) -> tuple:
+    """The port-name table with its sets sorted: a set's order varies between processes."""
+    return (sorted(names.supply), sorted(names.ground), sorted(names.inputs), sorted(names.outputs),
+            sorted(sorted(group) for group in names.synonyms), names.source)
 
 
 # ------------------------------------------------------------------ loading
