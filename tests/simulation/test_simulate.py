@@ -228,3 +228,33 @@ def test_a_latch_without_its_gates_is_not_simulated():
     assert not sim.simulated and sim.trials == 0 and "not simulated" in sim.notes[0]
     doc = simulation_json(sim)
     assert doc["simulated"] is False and doc["clean_trials"] == 0
+
+
+# ---------------------------------------------------------------- first-edge stages
+
+@pytest.mark.parametrize("c", [1e-6, 10e-9])
+def test_a_capacitor_across_the_contact_is_counted_by_the_closure_and_opening_reading(c):
+    # 10 kOhm pull-up, C straight across the contact, into a Schmitt input (VT+ 2.9 V typ here).
+    # Each make (at least 1 us, chatter.INTERVAL_S) empties C through the bare contact (tau 0.1 Ohm x C);
+    # an opening recharges it from ~0 V: 5 (1 - exp(-t/RC)) crosses VT+ after
+    # T = RC ln(5 / (5 - 2.9)) (Lessons In Electric Circuits Vol. I ch. 16). So a press gives one edge
+    # plus two for every opening longer than T, a release one plus two for every opening but the last.
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3, role="pull"),),
+               capacitors=(Capacitor("C1", "rx", "0", c),),
+               rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("rx", "0", "pressed", 0.1),))
+    rx = receiver_electrical(leak_high=(0.0, 0.0), leak_low=(0.0, 0.0))
+    sim = simulate_stage(st, rx, trials=300, seed=9)
+    vt = sim.upper_v
+    cross = 10e3 * c * math.log(5.0 / (5.0 - vt))
+    for edge, first_break in (("press", 1), ("release", 0)):
+        rows = sim.trains[edge]
+        expected = []
+        for row in rows:
+            t = row[~np.isnan(row)]
+            gaps = np.diff(t)
+            breaks = gaps[first_break::2]  # the last opening of a release never ends: not a gap
+            expected.append(1 + 2 * int(np.sum(breaks > cross)))
+        counted = [k for k, n in sim.edges[edge].histogram.items() for _ in range(n)]
+        assert sorted(counted) == sorted(expected), edge
+    if c == 1e-6:  # T = 7.5 ms, longer than any opening (at most 1 ms): every trial clean
+        assert sim.clean_trials == 300
