@@ -124,9 +124,14 @@ def _thresholds(fam: Family, schmitt_data: SchmittData | None, vcc: float,
 
 
 def _bends(curve: Curve) -> tuple[tuple[float, bool], ...]:
-    """(VCC, jumps) where a curve bends (table points) or jumps (band edges)."""
+    """(VCC, jumps) where a curve bends (a table point where the slope changes; outside
+    the table the end value scales with VCC) or jumps (band edges)."""
     if isinstance(curve, Table):
-        return tuple((x, False) for x in curve.vcc)
+        xs, ys = curve.vcc, curve.values
+        slopes = [ys[0] / xs[0]] + [(ys[i + 1] - ys[i]) / (xs[i + 1] - xs[i]) for i in range(len(xs) - 1)]
+        slopes.append(ys[-1] / xs[-1])
+        return tuple((x, False) for i, x in enumerate(xs)
+                     if abs(slopes[i + 1] - slopes[i]) > 1e-9 * max(1.0, abs(slopes[i])))
     if isinstance(curve, Bands):
         return tuple((x, True) for b in curve.bands for x in (b.vcc_min, b.vcc_max))
     return ()
@@ -140,7 +145,7 @@ def _supply_points(fam: Family, schmitt_data: SchmittData | None, vcc: float, to
     curves: list[Curve] = [fam.vih, fam.vil]
     if schmitt and schmitt_data is not None:
         curves += [c for _, c in schmitt_data.curves]
-    points = {lo, hi, vcc}
+    points = {lo, hi}
     for curve in curves:
         for x, jumps in _bends(curve):
             for p in ((x - _JUMP, x, x + _JUMP) if jumps else (x,)):

@@ -30,6 +30,7 @@ from drc.board.stage import (
     ActuatorState,
     Capacitor,
     Diode,
+    InputLoad,
     RailSource,
     Resistor,
     ResistorRole,
@@ -43,7 +44,7 @@ from drc.board.trace import InputPath, TraceIndex, build_index, trace_paths
 from drc.caching import Memo, memoized
 from drc.config.settings import Config
 from drc.errors import NetlistError
-from drc.library.entries import ContactForm, PinRole, PullDirection
+from drc.library.entries import ContactForm, Family, PinRole, PullDirection
 from drc.netlist.elements import GROUND, Element, key
 
 _DIGITS = re.compile(r"(\d+)")
@@ -93,11 +94,15 @@ def recognise(path: InputPath, board: Board, config: Config) -> Stage:
 
 class _DiodeDefaults:
     """(forward_v, on_ohms) of the piecewise-linear diode from rules/limits.toml
-    and the config's limits; read only when a path has a diode."""
+    and the config's limits; read only when a path has a diode. Also holds, for
+    one board, what every stage of a receiver asks again: its supply rail and
+    its family's record."""
 
     def __init__(self, config: Config) -> None:
         self.config = config
         self.value: tuple[float, float] | None = None
+        self.supplies: dict[tuple[str, int], str | None] = {}  # (part, pin) -> rail key
+        self.families: dict[str, Family] = {}
 
     def get(self) -> tuple[float, float]:
         if self.value is None:
@@ -106,11 +111,16 @@ class _DiodeDefaults:
             self.value = (limits["diode_forward_voltage"], limits["diode_on_resistance"])
         return self.value
 
+    def family(self, name: str) -> Family:
+        found = self.families.get(name)
+        if found is None:
+            found = self.families[name] = _library().family(name)
+        return found
+
 
 @memoized(limit=1)
 def _library_limits() -> tuple[tuple[str, float], ...]:
-    from drc.library.catalogue import load_library
-    return tuple((k, v.value) for k, v in load_library().limits.items())
+    return tuple((k, v.value) for k, v in _library().limits.items())
 
 
 def _tolerance(element: Element, default: float) -> float:
@@ -199,6 +209,7 @@ def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
 
     rails_used: dict[str, RailSource] = {}
     internal = _internal_pull(receiver, receiver_node, board, nets, rails_used)
+    loads = _loads(path, board, nets, diode_defaults)
     throws = _throws(contact, nets)
     resistors = _with_roles(found.resistors, throws, receiver_node, nets)
     # A resting contact is neither a pull nor a series resistor for the rules.
@@ -212,14 +223,19 @@ def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
         rail = nets.rail(net)
         if rail is not None and net not in rails_used:
             rails_used[net] = RailSource(net, rail.voltage, rail.tolerance)
+    # The loads' supplies join the rails; a supply no part touches is not one of the stage's nets.
+    supply_only = [n for n in loads.supplies if n not in rails_used]
+    for net, supply in loads.supplies.items():
+        rails_used.setdefault(net, supply)
     circuit = StageCircuit(
         resistors=tuple(resistors), capacitors=tuple(found.capacitors), diodes=tuple(found.diodes),
         rails=tuple(rails_used[n] for n in sorted(rails_used, key=natural_key)),
-        throws=throws, receiver_node=receiver_node)
+        throws=throws, receiver_node=receiver_node, loads=loads.loads)
+    nodes = circuit.nodes()
     kind = _kind(path, circuit, nets, index)
     return Stage(contact=contact, receiver=receiver, kind=kind,
                  parts=tuple(sorted(dict.fromkeys(found.parts), key=natural_key)),
-                 circuit=circuit, nets=circuit.nodes(),
+                 circuit=circuit, nets=tuple(n for n in nodes if n not in supply_only) if supply_only else nodes,
                  links=tuple(sorted(dict.fromkeys(found.links), key=natural_key)),
                  notes=tuple(dict.fromkeys(found.notes)))
 
@@ -285,6 +301,45 @@ def _throws(contact: Contact, nets: _Nets) -> tuple[Throw, ...]:
                 Throw(t[0], t[2], ActuatorState.PRESSED, ohms))
     state = ActuatorState.RELEASED if contact.form == ContactForm.SPST_NC else ActuatorState.PRESSED
     return (Throw(t[0], t[1], state, ohms),)
+
+
+@dataclass(frozen=True, slots=True)
+class _Loads:
+    loads: tuple[InputLoad, ...]
+    supplies: dict[str, RailSource]  # the rails the loads' parts are supplied from
+
+
+def _loads(path: InputPath, board: Board, nets: _Nets, shared: _DiodeDefaults) -> _Loads:
+    """Every receiver input the contact reaches, as loads: the stage's own receiver first."""
+    own = path.receiver
+    others = [r for r in path.reached if r is not own and r.ref != own.ref]
+    loads: list[InputLoad] = []
+    supplies: dict[str, RailSource] = {}
+    for r in (own, *others):
+        where = (r.part, r.pin)
+        if where not in shared.supplies:
+            found = _supply_net(r, board, nets)
+            shared.supplies[where] = None if found is None else key(found)
+        rail_key = shared.supplies[where]
+        supply = None if rail_key is None else nets.name(rail_key)
+        if supply is None:
+            # No rail net: a rail of the part's own, at its VCC and tolerance.
+            supply = f"{r.part}:VDD"
+            supplies[supply] = RailSource(supply, r.supply_v, r.supply_tolerance)
+        else:
+            rail = nets.rail(supply)
+            assert rail is not None  # _supply_net names rails only
+            supplies[supply] = RailSource(supply, rail.voltage, rail.tolerance)
+        family = shared.family(r.family)
+        loads.append(InputLoad(r.ref, nets.name(r.net), family.name, supply,
+                               family.leak_high_a, family.leak_low_a))
+    return _Loads(tuple(loads), supplies)
+
+
+@memoized(limit=1)
+def _library():
+    from drc.library.catalogue import load_library
+    return load_library()
 
 
 def _internal_pull(receiver: Receiver, node: str, board: Board, nets: _Nets,

@@ -1,10 +1,13 @@
-"""A recognised input stage and the small linear circuit it reduces to.
+"""A recognised input stage and the small circuit it reduces to.
 
-The circuit holds only what lies between one contact and one receiver pin:
-resistors, capacitors, diodes (piecewise linear: Vf in series with Ron when
-forward biased, open otherwise), rails as fixed node voltages, and the
-contact's throws as switches. Ground is the net "0". Tolerances are fractions
-(0.05 = ±5 %), possibly asymmetric.
+The circuit holds what lies between one contact and one receiver pin:
+resistors, capacitors, diodes, rails as fixed node voltages, the contact's
+throws as switches, and every receiver input on those nets as a load (its
+leakage, a TTL input's current, its clamp diodes), the stage's own receiver
+first. A load's supply is a rail of the circuit: the pull rail itself where
+the receiver's part is supplied from it (one physical rail, one corner
+variable), else a rail of its own with that rail's tolerance. Ground is the
+net "0". Tolerances are fractions (0.05 = ±5 %), possibly asymmetric.
 """
 
 from __future__ import annotations
@@ -78,6 +81,26 @@ class Diode:
 
 
 @dataclass(frozen=True, slots=True)
+class InputLoad:
+    """One receiver input on the stage's nets, as the network sees it.
+
+    ref: "U1:3"; node: its net in the circuit; supply_net: the rail of the
+    circuit its part is supplied from. leak_high_a / leak_low_a: the current
+    into the pin (negative: out of it) as a (min, max) range at a high and a
+    low level, as rules/families.toml gives them. A load is linear (a
+    constant current) unless its family's inputs need more (see the
+    analysis).
+    """
+
+    ref: str
+    node: str
+    family: str
+    supply_net: str
+    leak_high_a: tuple[float, float]
+    leak_low_a: tuple[float, float]
+
+
+@dataclass(frozen=True, slots=True)
 class RailSource:
     net: str
     volts: float
@@ -113,12 +136,17 @@ def two_terminal_nets(resistors: Iterable[Resistor], capacitors: Iterable[Capaci
 
 @dataclass(frozen=True, slots=True)
 class StageCircuit:
+    """The stage's network. loads: every receiver input on its nets, the stage's
+    own receiver first; none (hand-built circuits) means one load at
+    receiver_node whose leakage the receiver's data gives."""
+
     resistors: tuple[Resistor, ...]
     capacitors: tuple[Capacitor, ...]
     diodes: tuple[Diode, ...]
     rails: tuple[RailSource, ...]
     throws: tuple[Throw, ...]
     receiver_node: str
+    loads: tuple[InputLoad, ...] = ()
 
     def nodes(self) -> tuple[str, ...]:
         """Every non-ground net of the circuit, in a stable order."""
@@ -127,8 +155,14 @@ class StageCircuit:
         for s in self.rails:
             seen.setdefault(s.net)
         seen.setdefault(self.receiver_node)
+        for load in self.loads:
+            seen.setdefault(load.node)
         seen.pop("0", None)
         return tuple(seen)
+
+    def supply_of_receiver(self) -> str | None:
+        """The rail the stage's own receiver is supplied from, when the circuit says."""
+        return self.loads[0].supply_net if self.loads else None
 
 
 @dataclass(frozen=True, slots=True)

@@ -24,6 +24,7 @@ from drc.board.board import Contact, ContactOrigin, Receiver
 from drc.board.stage import (
     ActuatorState,
     Capacitor,
+    InputLoad,
     RailSource,
     Resistor,
     ResistorRole,
@@ -196,8 +197,11 @@ def _spice(value: float) -> str:
 
 
 def build_stage(request: DesignRequest, r_pull: float, r_series: float, c: float,
-                limits: Mapping[str, float]) -> Stage:
-    """The designed stage: R1 pull at n1, SW1 at n1, R2 n1-in, C1 in-0."""
+                limits: Mapping[str, float],
+                leak: tuple[tuple[float, float], tuple[float, float]] | None = None) -> Stage:
+    """The designed stage: R1 pull at n1, SW1 at n1, R2 n1-in, C1 in-0. leak: the
+    receiver's (high, low) leakage ranges; given, the receiver is a load supplied
+    from the pull rail (its thresholds then follow that rail's corners)."""
     topology = request.topology
     if topology not in TOPOLOGIES:
         raise UsageError(f"topology must be one of {', '.join(TOPOLOGIES)}, got {topology!r}")
@@ -211,9 +215,12 @@ def build_stage(request: DesignRequest, r_pull: float, r_series: float, c: float
     else:
         r1 = Resistor("R1", "n1", "0", r_pull, rt, rt, role=ResistorRole.PULL)
         throw = Throw("vcc", "n1", ActuatorState.PRESSED, closed)
+    # The receiver is supplied from the rail it is pulled to: one rail, one corner variable.
+    load = InputLoad("U1:1", "in", request.family, "vcc", leak[0], leak[1]) if leak else None
     circuit = StageCircuit((r1, Resistor("R2", "n1", "in", r_series, rt, rt, role=ResistorRole.SERIES)),
                            (Capacitor("C1", "in", "0", c, ct, ct),), (),
-                           (RailSource("vcc", request.rail_v, vt),), (throw,), "in")
+                           (RailSource("vcc", request.rail_v, vt),), (throw,), "in",
+                           (load,) if load else ())
     contact = Contact("SW1", request.contact_class, ContactForm.SPST_NO, ("n1", "0"), request.bounce_s,
                       None, None, _LOC, ContactOrigin.CONFIG)
     receiver = Receiver("U1", 1, "in", "design", request.family, request.schmitt, False, "data",
@@ -278,8 +285,11 @@ def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
         if rx is None or limits is None:
             from drc.library.catalogue import load_library
             lib = load_library()
-            rx = rx if rx is not None else receiver_electrical(lib, request.family, request.rail_v, request.schmitt)
             limits = limits if limits is not None else {k: v.value for k, v in lib.limits.items()}
+            # The receiver is supplied from the designed rail: its thresholds follow that rail.
+            rx = rx if rx is not None else receiver_electrical(
+                lib, request.family, request.rail_v, request.schmitt,
+                supply_tolerance=float(limits.get("tolerance_rail", 0.05)))
         limits = {**limits, "latency_limit": request.latency_s}
         r_pull = (eseries.nearest(series, request.resistor) if request.resistor
                   else _start_pull(series, request.rail_v, limits))
@@ -288,7 +298,7 @@ def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
                                   else _START_TAU_PER_BOUNCE * request.bounce_s / r_series)
     except (ValueError, KeyError) as exc:  # the library's and the E-series' own refusals
         raise DesignError(str(exc)) from exc
-    base = build_stage(request, r_pull, r_series, c_start, limits)
+    base = build_stage(request, r_pull, r_series, c_start, limits, (rx.leak_high_a, rx.leak_low_a))
     return _Plan(request, series, cap_series, rx, limits, c_start, base)
 
 

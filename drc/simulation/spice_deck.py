@@ -82,8 +82,7 @@ def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner: Corner = "nomina
     ]
     lines += _element_lines(circuit, names, value)
     lines += _control_lines(timing)
-    if circuit.receiver_node != "0":
-        lines += _leak_lines(model, names[circuit.receiver_node], rows, timing)
+    lines += _leak_lines(model, names, rows, timing)
     if timing.capped:
         lines.append("* time constants far apart: max step capped at t_stop/250000, above the fastest tau/50")
     lines.append(f".tran {deck_number(timing.t_max)} {deck_number(timing.t_stop)} 0 {deck_number(timing.t_max)}")
@@ -153,17 +152,22 @@ def _control_lines(timing: _Timing) -> list[str]:
     ]
 
 
-def _leak_lines(model: LinearModel, node: str, rows: Mapping[Edge, tuple[np.ndarray, float]],
+def _leak_lines(model: LinearModel, names: Mapping[str, str], rows: Mapping[Edge, tuple[np.ndarray, float]],
                 timing: _Timing) -> list[str]:
-    """The receiver's leakage: the press edge's, then the release edge's from mid-hold."""
-    leak_p = float(rows[Edge.PRESS][0][model.leak_col])
-    leak_r = float(rows[Edge.RELEASE][0][model.leak_col])
+    """Each load's leakage: the press edge's, then the release edge's from mid-hold."""
+    circuit = model.circuit
+    nodes = [ld.node for ld in circuit.loads] if circuit.loads else [circuit.receiver_node]
+    lines = ["* receiver leakage, one source per input on the nets: current into the pin "
+             "(positive leaves the node)"]
     switch = timing.leak_switch
-    return [
-        "* receiver leakage: current into the pin (positive leaves the node)",
-        f"I_leak {node} 0 PWL(0 {deck_number(leak_p)} {deck_number(switch)} "
-        f"{deck_number(leak_p)} {deck_number(switch + _EDGE_TIME)} {deck_number(leak_r)})",
-    ]
+    for j, (col, node) in enumerate(zip(model.leak_cols, nodes, strict=True)):
+        if node == "0" or node not in names or model.node_code(node) < 0:
+            continue  # an input on a rail or ground: its leakage moves nothing
+        leak_p = float(rows[Edge.PRESS][0][col])
+        leak_r = float(rows[Edge.RELEASE][0][col])
+        lines.append(f"I_leak{j} {names[node]} 0 PWL(0 {deck_number(leak_p)} {deck_number(switch)} "
+                     f"{deck_number(leak_p)} {deck_number(switch + _EDGE_TIME)} {deck_number(leak_r)})")
+    return lines
 
 
 def _measure_lines(node: str, setups: Mapping[Edge, EdgeSetup], rows: Mapping[Edge, tuple[np.ndarray, float]],

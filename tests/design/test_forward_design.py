@@ -73,3 +73,29 @@ def test_netlist_fragment_keeps_the_contact_class_asked_for(contact_class, tmp_p
         [result] = [r for r in results if r.stage.contact.designator == "SW1"]
         assert result.stage.contact.contact_class == contact_class
         assert result.stage.contact.bounce_s == pytest.approx(bounce)
+
+
+def test_a_12_v_4000b_toggle_stage_has_a_passing_design():
+    # Issue 13, item 3: with the receiver on the pulled-up rail, its thresholds are
+    # those of the corner's VCC (one rail, one variable); pairing a high rail with
+    # the nominal 12 V's thresholds left no passing design. The library's data
+    # (rules/families.toml 4000B, rules/contacts.toml toggle 20 ms) and limits.
+    from drc.library.catalogue import load_library
+    lib = load_library()
+    limits = {k: v.value for k, v in lib.limits.items()}
+    req = DesignRequest(rail_v=12.0, family="4000B", schmitt=True, bounce_s=0.020,
+                        latency_s=limits["latency_limit"])
+    res = design_stage(req)
+    assert res.ok, res.reason
+    assert not run_stage_rules(res.result, {**limits, "latency_limit": req.latency_s})
+    # The designed receiver is supplied from the designed rail.
+    assert res.stage.circuit.supply_of_receiver() == "vcc"
+    assert res.result.receiver_electrical.tracks_supply
+
+
+def test_drc_design_finds_the_12_v_4000b_toggle_stage():
+    # The same request through the command line, as a user asks it: exit 0 on a pass.
+    from tests.cli.helpers import drc
+    proc = drc("design", "--rail", "12V", "--family", "4000B", "--contact", "toggle")
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    assert "not passing" not in proc.stdout

@@ -23,9 +23,10 @@ from typing import Any
 
 import numpy as np
 
-from drc.analysis.physics.compiled import GROUND, THRESHOLD, LinearModel, compile_circuit, param_table
+from drc.analysis.physics.compiled import GROUND, THRESHOLD, LinearModel, compile_circuit, param_table, rail_param
 from drc.analysis.physics.corners import ENUMERATE_MAX, vertex_bits
 from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
+from drc.analysis.physics.supply import SupplyTable, supply_table
 from drc.analysis.physics.transient import single_cap_parts, single_cap_times
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import (
@@ -73,6 +74,7 @@ def structure_key(circuit: StageCircuit) -> tuple:
         tuple((code[d.anode], code[d.cathode], d.forward_v, d.on_ohms) for d in circuit.diodes),
         tuple((code[t.a], code[t.b], t.closed_when, t.closed_ohms) for t in circuit.throws),
         code[circuit.receiver_node],
+        tuple((code[ld.node], code[ld.supply_net]) for ld in circuit.loads),
     )
 
 
@@ -91,7 +93,11 @@ def batchable(model: LinearModel) -> bool:
 
 @dataclass
 class _Group:
-    """The stacked values of m stages of one structure."""
+    """The stacked values of m stages of one structure.
+
+    leak_high / leak_low: each load's leakage range at a high and a low
+    level, per stage (m, loads, 2).
+    """
 
     model: LinearModel
     stages: list[Stage]
@@ -100,17 +106,25 @@ class _Group:
     nom: np.ndarray  # (m, p)
     lo: np.ndarray
     hi: np.ndarray
+    leak_high: np.ndarray
+    leak_low: np.ndarray
 
     @property
     def m(self) -> int:
         return len(self.stages)
 
 
+def _load_ranges(stage: Stage, rx: ReceiverElectrical) -> tuple[tuple[tuple[float, float], ...], ...]:
+    """((high range, low range) per load): the loads' own data, the receiver's without loads."""
+    loads = stage.circuit.loads
+    if not loads:
+        return ((rx.leak_high_a, rx.leak_low_a),)
+    return tuple((ld.leak_high_a, ld.leak_low_a) for ld in loads)
+
+
 def _rx_arrays(rxs: list[ReceiverElectrical]) -> dict[str, np.ndarray]:
     return {
         "vcc": np.array([r.vcc for r in rxs]),
-        "leak_high": np.array([r.leak_high_a for r in rxs], dtype=float).reshape(-1, 2),
-        "leak_low": np.array([r.leak_low_a for r in rxs], dtype=float).reshape(-1, 2),
         "rising": np.array([r.rising_threshold for r in rxs], dtype=float).reshape(-1, 3),
         "falling": np.array([r.falling_threshold for r in rxs], dtype=float).reshape(-1, 3),
         "high_req": np.array([r.high_required_v for r in rxs], dtype=float),
@@ -118,31 +132,35 @@ def _rx_arrays(rxs: list[ReceiverElectrical]) -> dict[str, np.ndarray]:
     }
 
 
-def _with_leak(nom: np.ndarray, lo: np.ndarray, hi: np.ndarray, col: int,
+def _with_leak(g: _Group, nom: np.ndarray, lo: np.ndarray, hi: np.ndarray,
                leak: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """make_box over rows: the leakage range (m, 2) filled in, nominal its midpoint."""
+    """make_box over rows: each load's leakage range (m, loads, 2) filled in, nominal its midpoint."""
     nom, lo, hi = nom.copy(), lo.copy(), hi.copy()
-    lo[:, col] = leak.min(axis=1)
-    hi[:, col] = leak.max(axis=1)
-    nom[:, col] = 0.5 * (lo[:, col] + hi[:, col])
+    cols = list(g.model.leak_cols)
+    lo[:, cols] = leak.min(axis=2)
+    hi[:, cols] = leak.max(axis=2)
+    nom[:, cols] = 0.5 * (lo[:, cols] + hi[:, cols])
     return nom, lo, hi
 
 
-def _vertex_rows(nom: np.ndarray, lo: np.ndarray, hi: np.ndarray,
-                 exclude: tuple[int, ...] = ()) -> tuple[np.ndarray, tuple[int, ...]]:
+def _vertex_rows(nom: np.ndarray, lo: np.ndarray, hi: np.ndarray, exclude: tuple[int, ...] = (),
+                 tied: tuple[int, ...] = ()) -> tuple[np.ndarray, tuple[int, ...]]:
     """(m, 2**u, p) vertices over the columns varying in any row (u = their count).
 
-    A column fixed in one stage but varying in another gives that stage
-    duplicate vertices; the first of each duplicate pair comes first in the
-    order, so argmin/argmax pick the vertex the per-stage enumeration picks.
+    The `tied` columns (the loads' leakages) are one axis: all at lo or all
+    at hi, as corners.make_box ties them. A column fixed in one stage but
+    varying in another gives that stage duplicate vertices; the first of
+    each duplicate pair comes first in the order, so argmin/argmax pick the
+    vertex the per-stage enumeration picks.
     """
-    varying = np.flatnonzero(np.any(hi != lo, axis=0))
-    cols = tuple(int(i) for i in varying if int(i) not in exclude)
+    varying = [int(i) for i in np.flatnonzero(np.any(hi != lo, axis=0)) if int(i) not in exclude]
+    leaking = [c for c in tied if c in varying]
+    cols = tuple(c for c in varying if c not in leaking[1:])
     bits = vertex_bits(len(cols))
     V = np.repeat(nom[:, None, :], bits.shape[0], axis=1)
-    if cols:
-        c = list(cols)
-        V[:, :, c] = lo[:, None, c] + bits[None, :, :] * (hi[:, None, c] - lo[:, None, c])
+    for j, c in enumerate(cols):
+        for cc in (leaking if c in leaking else [c]):
+            V[:, :, cc] = lo[:, None, cc] + bits[None, :, j] * (hi[:, None, cc] - lo[:, None, cc])
     return V, cols
 
 
@@ -150,35 +168,76 @@ def _nan_low(x: np.ndarray) -> np.ndarray:
     return np.where(np.isnan(x), -np.inf, x)
 
 
+def _per_vertex(g: _Group, V: np.ndarray, pick: Callable[[SupplyTable], np.ndarray],
+                fixed: np.ndarray) -> np.ndarray:
+    """(m, nv) thresholds at each vertex's supply voltage; `fixed` (m,) where they do not follow it."""
+    col = g.model.supply_col
+    out = np.repeat(fixed[:, None], V.shape[1], axis=1)
+    if col is None:
+        return out
+    by_rx: dict[ReceiverElectrical, list[int]] = {}
+    for i, rx in enumerate(g.rxs):
+        if rx.tracks_supply:
+            by_rx.setdefault(rx, []).append(i)
+    for rx, rows in by_rx.items():  # a board has a handful of receiver kinds
+        table = supply_table(rx)
+        out[rows] = np.interp(V[rows, :, col], table.vcc, pick(table))
+    return out
+
+
+def _logic(g: _Group, state: ActuatorState) -> tuple[bool, np.ndarray]:
+    """(floating, (m, loads) True where a load sits high) at the nominal corner without leakage."""
+    model, m = g.model, g.m
+    rows = g.nom.copy()
+    rows[:, list(model.leak_cols)] = 0.0
+    dc = dc_solve(model, state, rows)
+    if bool(dc.floating[0]):  # structural: the same for every stage of the group
+        return True, np.zeros((m, len(model.leak_cols)), dtype=bool)
+    high = np.empty((m, len(model.leak_cols)), dtype=bool)
+    vcc = np.array([r.vcc for r in g.rxs])
+    for j, node in enumerate(model.leak_nodes):
+        v = node_voltage(model, dc.v, dc.vfix, node)
+        if node == model.rx or not model.loads:
+            half = vcc / 2
+        else:
+            name = rail_param(model.loads[j].supply_net)
+            half = g.nom[:, model.column(name)] / 2 if name in model.param_names else vcc / 2
+        high[:, j] = v > half
+    return False, high
+
+
 def _levels(g: _Group, state: ActuatorState, rx: dict) -> dict:
     """Steady levels of one actuator state for every stage of the group."""
-    model, m, L = g.model, g.m, g.model.leak_col
-    nom_h, nom_l = g.nom.copy(), g.nom.copy()
-    # as make_box: the midpoint is 0.5 * (lo + hi) of the ordered range
-    nom_h[:, L] = 0.5 * (rx["leak_high"].min(axis=1) + rx["leak_high"].max(axis=1))
-    nom_l[:, L] = 0.5 * (rx["leak_low"].min(axis=1) + rx["leak_low"].max(axis=1))
-    both = dc_solve(model, state, np.vstack([nom_h, nom_l]))
+    model, m = g.model, g.m
+    floating, high_all = _logic(g, state)
     closed = [j for j, t in enumerate(model.circuit.throws) if t.closed_when == state]
-    if bool(both.floating[0]):  # structural: the same for every stage of the group
+    tied = model.leak_cols
+    if floating:
         out: dict[str, Any] = {"undefined": True, "contact_a": None, "closed_a": None}
         if closed:
-            nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, np.zeros((m, 2)))
-            V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model))
+            nom, lo, hi = _with_leak(g, g.nom, g.lo, g.hi, np.zeros((m, len(tied), 2)))
+            V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model), tied)
             dc = dc_solve(model, state, V.reshape(-1, V.shape[2]))
             through = np.abs(dc.i_throw[:, closed])
             out["contact_a"] = np.min(through, axis=1).reshape(m, -1).min(axis=1)
             out["closed_a"] = np.max(through, axis=1).reshape(m, -1).max(axis=1)
         return out
-    high = both.rx_v[:m] > rx["vcc"] / 2
-    pick = lambda a: np.where(high, a[:m], a[m:])  # noqa: E731
-    leak = np.where(high[:, None], rx["leak_high"], rx["leak_low"])
-    nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, leak)
-    V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model))
+    high = high_all[:, 0]
+    leak = np.where(high_all[:, :, None], g.leak_high, g.leak_low)
+    nom, lo, hi = _with_leak(g, g.nom, g.lo, g.hi, leak)
+    nominal = dc_solve(model, state, nom)
+    V, _ = _vertex_rows(nom, lo, hi, _cap_cols(model), tied)
     nv = V.shape[1]
     dc = dc_solve(model, state, V.reshape(-1, V.shape[2]))
     rx_v = dc.rx_v.reshape(m, nv)
+    # The margin at each vertex against the threshold the part has at that vertex's supply.
+    req_h = _per_vertex(g, V, lambda t: t.high_required, rx["high_req"])
+    req_l = _per_vertex(g, V, lambda t: t.low_required, rx["low_req"])
+    req = np.where(high[:, None], req_h, req_l)
     sign = np.where(high, -1.0, 1.0)
-    worst_v = (_nan_low(sign[:, None] * rx_v).max(axis=1)) * sign
+    ar = np.arange(m)
+    i_w = np.argmax(_nan_low(sign[:, None] * (rx_v - req)), axis=1)
+    worst_v, required = rx_v[ar, i_w], req[ar, i_w]
     max_v = _nan_low(rx_v).max(axis=1)
     pcols = [i for i, r in enumerate(model.circuit.resistors) if r.role in PULL_ROLES]
     if pcols:
@@ -190,10 +249,9 @@ def _levels(g: _Group, state: ActuatorState, rx: dict) -> dict:
         through = np.abs(dc.i_throw[:, closed])
         contact = np.min(through, axis=1).reshape(m, nv).min(axis=1)
         closed_max = np.max(through, axis=1).reshape(m, nv).max(axis=1)
-    required = np.where(high, rx["high_req"], rx["low_req"])
     margin = np.where(high, worst_v - required, required - worst_v)
-    return {"undefined": False, "high": high, "nominal_v": pick(both.rx_v),
-            "thevenin_v": pick(both.thevenin_v), "thevenin_ohms": pick(both.thevenin_ohms),
+    return {"undefined": False, "high": high, "high_all": high_all, "nominal_v": nominal.rx_v,
+            "thevenin_v": nominal.thevenin_v, "thevenin_ohms": nominal.thevenin_ohms,
             "worst_v": worst_v, "required": required, "margin": margin,
             "max_v": max_v, "pull_a": pull, "contact_a": contact, "closed_a": closed_max}
 
@@ -206,19 +264,26 @@ def _cap_cols(model: LinearModel) -> tuple[int, ...]:
 def _edges(g: _Group, edge: Edge, lv: dict, rx: dict) -> EdgeBuilder | None:
     """One edge for every row: a builder (row, names) -> EdgeResult, or None
     when the closed form does not apply."""
-    model, m, L = g.model, g.m, g.model.leak_col
+    model, m = g.model, g.m
     a, b = EDGE_STATES[edge]
     va, vb = lv[a]["nominal_v"], lv[b]["nominal_v"]
     rising = np.where(vb != va, vb > va, lv[b]["high"])
     thr = np.where(rising[:, None], rx["rising"], rx["falling"])
-    leak = np.where(rising[:, None], rx["leak_high"], rx["leak_low"])
-    nom, lo, hi = _with_leak(g.nom, g.lo, g.hi, L, leak)
-    inner = np.where(rising, thr[:, 0], thr[:, 2])
-    outer = np.where(rising, thr[:, 2], thr[:, 0])
+    # Each load's range at its level in the state the edge goes to; the own receiver's
+    # follows the edge's direction (as stage_analysis.edge_setup).
+    high_all = lv[b]["high_all"].copy()
+    high_all[:, 0] = rising
+    leak = np.where(high_all[:, :, None], g.leak_high, g.leak_low)
+    nom, lo, hi = _with_leak(g, g.nom, g.lo, g.hi, leak)
     typ = thr[:, 1]
-    V, cols = _vertex_rows(nom, lo, hi)
+    V, cols = _vertex_rows(nom, lo, hi, (), model.leak_cols)
     if len(cols) > ENUMERATE_MAX:
         return None
+    up = rising[:, None]
+    inner_v = np.where(up, _per_vertex(g, V, lambda t: t.rising[:, 0], thr[:, 0]),
+                       _per_vertex(g, V, lambda t: t.falling[:, 2], thr[:, 2]))
+    outer_v = np.where(up, _per_vertex(g, V, lambda t: t.rising[:, 2], thr[:, 2]),
+                       _per_vertex(g, V, lambda t: t.falling[:, 0], thr[:, 0]))
     nv = V.shape[1]
     rows = np.concatenate([nom[:, None, :], V], axis=1)  # (m, 1 + nv, p)
     P = rows.reshape(-1, rows.shape[2])
@@ -226,9 +291,9 @@ def _edges(g: _Group, edge: Edge, lv: dict, rx: dict) -> EdgeBuilder | None:
     if parts is None:
         return None
     direction = np.repeat(np.where(rising, 1.0, -1.0), nv + 1)
-    vth_f = np.repeat(inner, nv + 1)
-    vth_f[::nv + 1] = typ  # the nominal row of each stage: its typical threshold
-    vth_s = np.repeat(outer, nv + 1)
+    # The nominal row of each stage: its typical threshold at the nominal supply.
+    vth_f = np.concatenate([typ[:, None], inner_v], axis=1).ravel()
+    vth_s = np.concatenate([typ[:, None], outer_v], axis=1).ravel()
     ef = single_cap_times(parts, vth_f, direction)
     es = single_cap_times(parts, vth_s, direction)
     t_f, t_s = ef.t.reshape(m, nv + 1), es.t.reshape(m, nv + 1)
@@ -241,6 +306,7 @@ def _edges(g: _Group, edge: Edge, lv: dict, rx: dict) -> EdgeBuilder | None:
     ar = np.arange(m)
     t_fast, t_slow = tf[ar, i_f], ts[ar, i_s]
     slope_slow = s_s[ar, 1 + i_s]
+    inner, outer = inner_v[ar, i_f], outer_v[ar, i_s]
     # Plain Python floats once per group (tolist), not a numpy scalar per figure:
     # the same values, at a fraction of the cost over thousands of stages.
     columns = [rising, start, final, typ, inner, outer, t_f[:, 0], t_fast, t_slow, s_f[:, 0], slope_slow]
@@ -272,7 +338,7 @@ def _surge(g: _Group) -> np.ndarray | None:
     row = g.lo.copy()
     rp = model.rail_params
     row[:, rp] = g.hi[:, rp]
-    row[:, model.leak_col] = 0.0
+    row[:, list(model.leak_cols)] = 0.0
     peaks = []
     for t in model.circuit.throws:
         ends = {n for n in (t.a, t.b) if n in model.free}
@@ -293,7 +359,8 @@ def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverEle
     g, inverse, names = _distinct(model, stages, rxs)
     # The steady-level search leaves capacitors out; more columns go per stage.
     dc_cols = np.flatnonzero(np.any(g.hi != g.lo, axis=0))
-    if len([c for c in dc_cols if c not in _cap_cols(model)]) + 1 > ENUMERATE_MAX:
+    skip = set(_cap_cols(model)) | set(model.leak_cols)
+    if len([c for c in dc_cols if c not in skip]) + 1 > ENUMERATE_MAX:  # + 1: the loads' leakage
         return None
     rx = _rx_arrays(g.rxs)
     lv = {s: _levels(g, s, rx) for s in ACTUATOR_STATES}
@@ -337,14 +404,18 @@ def _distinct(model: LinearModel, stages: list[Stage],
         nom.append(a_)
         lo.append(b_)
         hi.append(c_)
-    rx_ids: dict[ReceiverElectrical, int] = {}
-    rx_col = [rx_ids.setdefault(r, len(rx_ids)) for r in rxs]
+    # The receiver's data and the loads' leakage ranges are part of what makes a row distinct.
+    ids: dict[tuple, int] = {}
+    ranges = [_load_ranges(st, r) for st, r in zip(stages, rxs, strict=True)]
+    rx_col = [ids.setdefault((r, lr), len(ids)) for r, lr in zip(rxs, ranges, strict=True)]
     table = np.column_stack([np.array(nom, dtype=float), np.array(lo, dtype=float),
                              np.array(hi, dtype=float), np.array(rx_col, dtype=float)])
     uniq, first, inverse = np.unique(table, axis=0, return_index=True, return_inverse=True)
     p = len(names[0])
+    leak = np.array([ranges[i] for i in first], dtype=float)  # (m, loads, 2 levels, 2)
     g = _Group(model, [stages[i] for i in first], [rxs[i] for i in first], [names[i] for i in first],
-               uniq[:, :p].copy(), uniq[:, p:2 * p].copy(), uniq[:, 2 * p:3 * p].copy())
+               uniq[:, :p].copy(), uniq[:, p:2 * p].copy(), uniq[:, 2 * p:3 * p].copy(),
+               leak[:, :, 0, :].copy(), leak[:, :, 1, :].copy())
     return g, inverse.ravel(), names
 
 

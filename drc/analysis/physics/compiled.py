@@ -3,9 +3,11 @@
 The analysis evaluates one stage at many corners, so the circuit's topology
 is turned once into incidence matrices over its free nodes (every net except
 ground and the rails, whose voltages are fixed), and its values into one
-parameter vector per corner: every resistor, every capacitor, every rail, and
-the receiver leakage. The throws' and diodes' resistances are fixed values of
-the topology, not parameters. A `Topology` is the resistive network in one
+parameter vector per corner: every resistor, every capacitor, every rail
+(the loads' supplies among them), and the leakage of every receiver input on
+the stage's nets (one column per load, the stage's own receiver first, named
+"leakage"; the others "leakage:U2:3"). The throws' and diodes' resistances
+are fixed values of the topology, not parameters. A `Topology` is the resistive network in one
 actuator state with one set of diode states; it is built on first use and
 cached on the model, since a stage has only a handful of them.
 """
@@ -26,6 +28,11 @@ THRESHOLD = "threshold"
 def rail_param(net: str) -> str:
     """The parameter name of a rail's voltage (as used in corner dicts)."""
     return f"rail:{net}"
+
+
+def leak_param(index: int, ref: str) -> str:
+    """The parameter name of a load's leakage: "leakage" for the stage's own receiver."""
+    return LEAKAGE if index == 0 else f"{LEAKAGE}:{ref}"
 
 
 @dataclass(frozen=True, slots=True)
@@ -72,8 +79,19 @@ class LinearModel:
     cap_designators: tuple[tuple[str, ...], ...]
     Ac: np.ndarray  # (k, n) capacitor incidence over free nodes
     Acf: np.ndarray  # (k, nf) over fixed nodes
-    leak_col: int
+    leak_cols: tuple[int, ...]  # one per load, the stage's own receiver first
+    leak_nodes: tuple[int, ...]  # node code of each load
+    supply_col: int | None  # parameter column of the own receiver's supply, when the circuit says
     _topologies: dict = field(default_factory=dict)
+
+    @property
+    def leak_col(self) -> int:
+        """The leakage column of the stage's own receiver."""
+        return self.leak_cols[0]
+
+    @property
+    def loads(self):
+        return self.circuit.loads
 
     @property
     def n(self) -> int:
@@ -121,7 +139,7 @@ class LinearModel:
 
 def param_table(circuit: StageCircuit) -> tuple[tuple[str, ...], list[float], list[float], list[float]]:
     """(names, nominal, lo, hi) of every parameter, in the model's column order:
-    resistors, capacitors, rails (not ground), then the leakage (set per edge)."""
+    resistors, capacitors, rails (not ground), then each load's leakage (set per use)."""
     names: list[str] = []
     nom: list[float] = []
     lo: list[float] = []
@@ -142,10 +160,11 @@ def param_table(circuit: StageCircuit) -> tuple[tuple[str, ...], list[float], li
             nom.append(rail.volts)
             lo.append(rail.volts * (1 - rail.tolerance))
             hi.append(rail.volts * (1 + rail.tolerance))
-    names.append(LEAKAGE)
-    nom.append(0.0)
-    lo.append(0.0)
-    hi.append(0.0)
+    for i in range(max(1, len(circuit.loads))):
+        names.append(leak_param(i, circuit.loads[i].ref if circuit.loads else ""))
+        nom.append(0.0)
+        lo.append(0.0)
+        hi.append(0.0)
     return tuple(names), nom, lo, hi
 
 
@@ -185,14 +204,26 @@ def compile_circuit(circuit: StageCircuit) -> LinearModel:
 
     rx_net = circuit.receiver_node
     rx = code(rx_net)
+    n_loads = max(1, len(circuit.loads))
+    first_rail = n_r + len(circuit.capacitors)
     return LinearModel(
         circuit=circuit, free=free, fixed=fixed, param_names=tuple(names),
         nominal=np.array(nominal), lo=np.array(lo), hi=np.array(hi), rx=rx,
         res_nodes=tuple((code(r.a), code(r.b)) for r in circuit.resistors),
-        rail_params=np.arange(n_r + len(circuit.capacitors), n_r + len(circuit.capacitors) + len(rails)),
+        rail_params=np.arange(first_rail, first_rail + len(rails)),
         cap_nodes=cap_nodes, cap_sel=cap_sel, cap_designators=cap_designators,
-        Ac=Ac, Acf=Acf, leak_col=p - 1,
+        Ac=Ac, Acf=Acf, leak_cols=tuple(range(p - n_loads, p)),
+        leak_nodes=tuple(code(ld.node) for ld in circuit.loads) if circuit.loads else (rx,),
+        supply_col=_supply_column(circuit, rails, first_rail),
     )
+
+
+def _supply_column(circuit: StageCircuit, rails: list, first_rail: int) -> int | None:
+    """The parameter column of the rail the stage's own receiver is supplied from."""
+    supply = circuit.supply_of_receiver()
+    if supply is None or supply == GROUND:
+        return None
+    return first_rail + [r.net for r in rails].index(supply)
 
 
 def _stamp(A: np.ndarray, Af: np.ndarray, row: int, a: int, b: int) -> None:

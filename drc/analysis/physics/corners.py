@@ -3,7 +3,12 @@
 Every resistor, capacitor and rail may sit anywhere in its tolerance band,
 the leakage anywhere in its range; a switching threshold anywhere in its
 (min, max) spread. Timing and steady levels are taken as monotonic in each
-of these, so their extremes sit at vertices of that box. With few varying
+of these, so their extremes sit at vertices of that box. The leakages of the
+loads on one stage move together, all at the bottom or all at the top of
+their ranges (one axis of the box): a current drawn at any node of a
+resistor-capacitor network lowers every node's voltage at every instant
+(the network's response to it is non-negative), so all of them together at
+one end is the extreme, and 2**loads vertices would add nothing. With few varying
 parameters every vertex is evaluated (one batched solve); with many, the
 direction of each parameter is read from one-at-a-time sensitivities at
 nominal and the resulting vertex is confirmed by a local search over its
@@ -25,22 +30,55 @@ ENUMERATE_MAX = 12  # up to 2**12 vertices are evaluated outright
 
 @dataclass(frozen=True, slots=True)
 class Box:
-    """Parameter ranges for one question (an edge or a steady level)."""
+    """Parameter ranges for one question (an edge or a steady level).
+
+    cols: one column per axis that varies; ties: column -> the other columns
+    that move with it (the loads' leakages), each to its own lo or hi.
+    """
 
     nominal: np.ndarray
     lo: np.ndarray
     hi: np.ndarray
-    cols: tuple[int, ...]  # the columns that vary
+    cols: tuple[int, ...]  # the columns that vary (the first of each tied group)
+    ties: tuple[tuple[int, tuple[int, ...]], ...] = ()
+
+    def tied(self, col: int) -> tuple[int, ...]:
+        """The columns set together with `col` (itself first)."""
+        for lead, others in self.ties:
+            if lead == col:
+                return (col, *others)
+        return (col,)
+
+    def with_cols(self, cols: tuple[int, ...]) -> Box:
+        return Box(self.nominal, self.lo, self.hi, cols, tuple(t for t in self.ties if t[0] in cols))
 
 
-def make_box(nominal: np.ndarray, lo: np.ndarray, hi: np.ndarray, leak_col: int,
-             leak_range: tuple[float, float], exclude: tuple[int, ...] = ()) -> Box:
-    """Fill in the leakage range (nominal = its midpoint) and list varying columns."""
+def make_box(nominal: np.ndarray, lo: np.ndarray, hi: np.ndarray, leak_cols: int | tuple[int, ...],
+             leak_range: tuple[float, float] | tuple[tuple[float, float], ...],
+             exclude: tuple[int, ...] = ()) -> Box:
+    """Fill in each leakage range (nominal = its midpoint), tie the leakages, list varying columns.
+
+    leak_cols / leak_range: one column and its (min, max), or one range per column.
+    """
     nominal, lo, hi = nominal.copy(), lo.copy(), hi.copy()
-    lo[leak_col], hi[leak_col] = min(leak_range), max(leak_range)
-    nominal[leak_col] = 0.5 * (lo[leak_col] + hi[leak_col])
-    cols = tuple(int(i) for i in np.flatnonzero(hi != lo) if int(i) not in exclude)
-    return Box(nominal, lo, hi, cols)
+    cols_l = (leak_cols,) if isinstance(leak_cols, int) else tuple(leak_cols)
+    ranges = (leak_range,) if isinstance(leak_range[0], (int, float)) else leak_range
+    for c, rng in zip(cols_l, ranges, strict=True):
+        lo[c], hi[c] = min(rng), max(rng)
+        nominal[c] = 0.5 * (lo[c] + hi[c])
+    varying = [int(i) for i in np.flatnonzero(hi != lo) if int(i) not in exclude]
+    leaking = [c for c in cols_l if c in varying]
+    ties: tuple[tuple[int, tuple[int, ...]], ...] = ()
+    if len(leaking) > 1:
+        ties = ((leaking[0], tuple(leaking[1:])),)
+        varying = [c for c in varying if c not in leaking[1:]]
+    return Box(nominal, lo, hi, tuple(varying), ties)
+
+
+def _put(P: np.ndarray, box: Box, col: int, upper) -> None:
+    """Set `col` and the columns tied to it to their hi (upper true) or lo, in rows of P."""
+    for c in box.tied(col):
+        P[..., c] = np.where(upper, box.hi[c], box.lo[c])
 
 
 @memoized(64)
@@ -53,12 +91,11 @@ def vertex_bits(count: int) -> np.ndarray:
 
 
 def vertices(box: Box) -> np.ndarray:
-    """Every vertex of the box over its varying columns, one per row."""
+    """Every vertex of the box over its varying columns (tied ones together), one per row."""
     bits = vertex_bits(len(box.cols))
     P = np.tile(box.nominal, (bits.shape[0], 1))
-    if box.cols:
-        cols = list(box.cols)
-        P[:, cols] = box.lo[cols] + bits * (box.hi[cols] - box.lo[cols])
+    for j, c in enumerate(box.cols):
+        _put(P, box, c, bits[:, j] > 0)
     return P
 
 
@@ -76,18 +113,18 @@ def _sensitivity_search(box: Box, badness: Callable[[np.ndarray], np.ndarray]) -
     cols = list(box.cols)
     trial = np.tile(box.nominal, (2 * len(cols), 1))
     for j, c in enumerate(cols):
-        trial[2 * j, c] = box.lo[c]
-        trial[2 * j + 1, c] = box.hi[c]
+        _put(trial[2 * j], box, c, False)
+        _put(trial[2 * j + 1], box, c, True)
     vals = badness(trial)
     current = box.nominal.copy()
     for j, c in enumerate(cols):
-        current[c] = box.hi[c] if vals[2 * j + 1] >= vals[2 * j] else box.lo[c]
+        _put(current, box, c, vals[2 * j + 1] >= vals[2 * j])
     best = float(badness(current[None, :])[0])
     # Confirm: move to a better single-parameter neighbour until none is better.
     for _ in range(len(cols)):
         flips = np.tile(current, (len(cols), 1))
         for j, c in enumerate(cols):
-            flips[j, c] = box.lo[c] if current[c] == box.hi[c] else box.hi[c]
+            _put(flips[j], box, c, current[c] != box.hi[c])
         fv = badness(flips)
         j = int(np.argmax(fv))
         if not fv[j] > best:
@@ -112,16 +149,16 @@ def sign_search(box: Box, badness: Callable[[np.ndarray], np.ndarray]) -> tuple[
         return box.nominal.copy(), float(badness(box.nominal[None, :])[0])
     trial = np.tile(box.nominal, (len(cols) + 1, 1))
     for j, c in enumerate(cols):
-        trial[j + 1, c] = box.hi[c]
+        _put(trial[j + 1], box, c, True)
     vals = badness(trial)
     current = box.nominal.copy()
     for j, c in enumerate(cols):
-        current[c] = box.hi[c] if vals[j + 1] >= vals[0] else box.lo[c]
+        _put(current, box, c, vals[j + 1] >= vals[0])
     best = -np.inf
     for round_ in range(len(cols) + 1):
         flips = np.tile(current, (len(cols) + 1, 1))
         for j, c in enumerate(cols):
-            flips[j + 1, c] = box.lo[c] if current[c] == box.hi[c] else box.hi[c]
+            _put(flips[j + 1], box, c, current[c] != box.hi[c])
         if round_ == 0:  # the vertex itself once, then only its neighbours
             fv = badness(flips)
             best, fv = float(fv[0]), fv[1:]

@@ -123,7 +123,14 @@ def _conductances(topo: Topology, P: np.ndarray) -> np.ndarray:
 
 
 def _dc_fixed(model: LinearModel, topo: Topology, P: np.ndarray):
-    """DC solve with the diode states of `topo`; returns (v, vfix, unit, g, vb)."""
+    """DC solve with the diode states of `topo`.
+
+    Returns (v, v0, vfix, unit, g, vb): v with every load's leakage, v0 the
+    network alone, unit the response to 1 A drawn at the receiver (its
+    Thevenin resistance at the receiver's node), and the open-circuit
+    voltage at the receiver with the other loads' leakage as v0_rx in
+    `thevenin_v` (see `_assemble`).
+    """
     N, n = P.shape[0], model.n
     g = _conductances(topo, P)
     vfix = model.fixed_voltages(P)
@@ -131,19 +138,28 @@ def _dc_fixed(model: LinearModel, topo: Topology, P: np.ndarray):
     b = -(g * vb) @ topo.A
     v0 = np.zeros((N, n))
     unit = np.zeros((N, n))
+    others = np.zeros((N, n))  # the other loads' leakage alone
+    leaking = [(c, node) for c, node in zip(model.leak_cols, model.leak_nodes, strict=True)
+               if node >= 0 and topo.dc_nodes[node]]
     idx = np.flatnonzero(topo.dc_nodes)
     if idx.size:
         G = _assemble_g(topo.A[:, idx], g)
-        rhs = np.zeros((N, idx.size, 2))
+        rhs = np.zeros((N, idx.size, 2 + len(leaking)))
         rhs[:, :, 0] = b[:, idx]
         if model.rx >= 0 and topo.dc_nodes[model.rx]:
             rhs[:, int(np.searchsorted(idx, model.rx)), 1] = 1.0
+        for j, (_c, node) in enumerate(leaking):
+            # 1 A drawn at the load's node, scaled by its leakage below (into the pin).
+            rhs[:, int(np.searchsorted(idx, node)), 2 + j] = -1.0
         sol = spd_solve(G, rhs)
         v0[:, idx] = sol[:, :, 0]
         unit[:, idx] = sol[:, :, 1]
-    leak = P[:, model.leak_col]
-    v = v0 - leak[:, None] * unit
-    return v, v0, vfix, unit, g, vb
+        for j, (c, _node) in enumerate(leaking):
+            if c != model.leak_col:  # the own receiver's leakage is not part of its Thevenin source
+                others[:, idx] += sol[:, :, 2 + j] * P[:, c][:, None]
+    own = P[:, model.leak_col] if any(c == model.leak_col for c, _ in leaking) else np.zeros(N)
+    v = v0 + others - own[:, None] * unit
+    return v, v0 + others, vfix, unit, g, vb
 
 
 def _consistent(model: LinearModel, topo: Topology, v, vfix, g, vb) -> np.ndarray:
@@ -245,8 +261,9 @@ def reduce_dynamic(model: LinearModel, topo: Topology, P: np.ndarray) -> Reduced
     vfix = model.fixed_voltages(P)
     vb = vfix @ topo.Af.T - topo.e
     b = -(g * vb) @ topo.A
-    if model.rx >= 0:
-        b[:, model.rx] -= P[:, model.leak_col]
+    for c, node in zip(model.leak_cols, model.leak_nodes, strict=True):
+        if node >= 0:
+            b[:, node] -= P[:, c]  # leakage is current into the pin: it leaves the node
     C = model.capacitances(P)
     idx = np.flatnonzero(topo.tr_nodes)
     # A capacitor is active when it touches the connected part (either end, or
