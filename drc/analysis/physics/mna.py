@@ -77,6 +77,11 @@ def _assemble_g(A: np.ndarray, g: np.ndarray) -> np.ndarray:
     """
     m, n = A.shape
     W = (A[:, :, None] * A[:, None, :]).reshape(m, n * n)  # per-branch outer products
+    if g.shape[0] == 1:
+        # One row would be a matrix-vector product, summed in another order than the
+        # matrix product of many rows: the same stage alone and in a batch must agree
+        # to the last bit.
+        return (W.T @ np.vstack([g, g]).T)[:, :1].reshape(n, n, 1)
     return (W.T @ g.T).reshape(n, n, g.shape[0])
 
 
