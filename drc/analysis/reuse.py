@@ -34,17 +34,18 @@ _RESULTS: Memo[tuple, tuple[StageResult, tuple[str, ...]]] = Memo("stage-results
 
 
 def _names(circuit: StageCircuit) -> tuple[str, ...]:
-    """Designators of the parts, then internal (non-rail, non-ground) nets, in order."""
+    """Designators of the parts, then internal (non-rail, non-ground) nets, in order,
+    then the receiver inputs loading the nets (the stage's own first)."""
     rails = {r.net for r in circuit.rails}
     parts = tuple(p.designator for group in (circuit.resistors, circuit.capacitors, circuit.diodes)
                   for p in group)
     nets = tuple(n for n in circuit.nodes() if n not in rails and n != GROUND)
-    return parts + nets
+    return parts + nets + tuple(load.ref for load in circuit.loads)
 
 
 # Fields that hold a part's own name or a net: replaced by codes in the key.
-_NAME_FIELDS = frozenset(("designator",))
-_NET_FIELDS = frozenset(("a", "b", "anode", "cathode", "net"))
+_NAME_FIELDS = frozenset(("designator", "ref"))
+_NET_FIELDS = frozenset(("a", "b", "anode", "cathode", "net", "node"))
 
 
 def _field_names(kind: type) -> tuple[str, ...]:
@@ -73,10 +74,11 @@ def canonical_key(stage: Stage, rx: ReceiverElectrical) -> tuple | None:
         return None
     code = {name: f"#{i}" for i, name in enumerate(names)}
     parts = tuple(_coded(p, code) for group in (circuit.resistors, circuit.capacitors, circuit.diodes,
-                                                 circuit.throws) for p in group)
-    counts = (len(circuit.resistors), len(circuit.capacitors), len(circuit.diodes), len(circuit.throws))
+                                                 circuit.throws, circuit.loads) for p in group)
+    counts = (len(circuit.resistors), len(circuit.capacitors), len(circuit.diodes), len(circuit.throws),
+              len(circuit.loads))
     rest = tuple((name, value) for name in _field_names(StageCircuit)
-                 if name not in ("resistors", "capacitors", "diodes", "throws", "receiver_node")
+                 if name not in ("resistors", "capacitors", "diodes", "throws", "loads", "receiver_node")
                  for value in (getattr(circuit, name),))
     return (parts, counts, rest, code.get(circuit.receiver_node, circuit.receiver_node), stage.kind, rx)
 
@@ -91,8 +93,13 @@ def _renamed(result: StageResult, source: tuple[str, ...], stage: Stage, names: 
         return None
     rename = dict(zip(source, names, strict=True))
 
+    def renamed(k: str) -> str:
+        # A parameter of a receiver input is named after it ("leakage:U2:3", "ttl-open:U2:3").
+        kind, _, who = k.partition(":")
+        return rename.get(k) or (f"{kind}:{rename[who]}" if who in rename else k)
+
     def corner(values: dict[str, float]) -> dict[str, float]:
-        return {rename.get(k, k): v for k, v in values.items()}
+        return {renamed(k): v for k, v in values.items()}
 
     edges: dict[str, EdgeResult] = {
         name: replace(edge, corner_fastest=corner(edge.corner_fastest), corner_slowest=corner(edge.corner_slowest))
