@@ -31,8 +31,13 @@ candidates of every stage of one circuit structure in the same solves
   which a subset of vertices cannot bound: it is not screened, and the full
   analyses refute what it fails.
 
-Stages not covered: several capacitor branches or diodes (the exact event
-solver), and anything where the present values disagree with the analysis.
+Thresholds follow the receiver's supply as in the analysis: each vertex
+reads them at its own supply voltage (`analysis.physics.supply`), and a
+steady level's figure is its margin against the threshold at that vertex.
+
+Stages not covered: several capacitor branches, what is not linear (diodes,
+TTL inputs, conducting clamps), several receiver inputs on the nets, and
+anything where the present values disagree with the analysis.
 """
 
 from __future__ import annotations
@@ -46,6 +51,7 @@ import numpy as np
 from drc.analysis.physics.batch import batchable, structure_key, template
 from drc.analysis.physics.compiled import LinearModel, param_table
 from drc.analysis.physics.mna import dc_solve
+from drc.analysis.physics.supply import SupplyTable, supply_table
 from drc.analysis.physics.transient import single_cap_parts, single_cap_times
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import ACTUATOR_STATES, EDGE_STATES, PULL_ROLES, Edge, StageResult
@@ -90,7 +96,9 @@ class Verdicts:
 class Figures:
     """The figures of some rows over the vertices used (see `Verdicts` for their use)."""
 
-    worst: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # level badness, larger is worse
+    worst: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # minus the smallest level margin
+    required: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # the threshold there
+    level: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # the level there
     high: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # the logic each row reads
     pull: dict[ActuatorState, np.ndarray] = field(default_factory=dict)
     contact: dict[ActuatorState, np.ndarray] = field(default_factory=dict)  # least through the contact
@@ -134,6 +142,9 @@ class Screen:
         self.names, self.nominal, self.f_lo, self.f_hi = _tolerance_factors(stage)
         self.column = {name: j for j, name in enumerate(self.names)}
         self.leak = model.leak_col
+        # The column the thresholds follow, and their table (None: fixed thresholds).
+        self.supply_col = model.supply_col if rx.tracks_supply else None
+        self.table: SupplyTable | None = supply_table(rx) if self.supply_col is not None else None
         n_r, p = len(stage.circuit.resistors), len(self.names)
         cap_cols = set(range(n_r, n_r + len(stage.circuit.capacitors)))
         varying = tuple(j for j in range(p) if j != self.leak and self.f_lo[j] != self.f_hi[j])
@@ -160,7 +171,7 @@ class Screen:
         Trust it only after `agrees` on the present values (a `full` request).
         """
         circuit = stage.circuit
-        if any(k not in limits for k in _LIMIT_KEYS) or len(circuit.capacitors) > 1:
+        if any(k not in limits for k in _LIMIT_KEYS) or len(circuit.capacitors) > 1 or len(circuit.loads) > 1:
             return None
         model = template(structure_key(circuit), circuit)
         if not batchable(model):
@@ -246,8 +257,10 @@ class Screen:
                     return False
                 continue
             high = bool(exact.high[state][0])
-            worst = float(exact.worst[state][0]) * (-1.0 if high else 1.0)
-            if level.logic != ("high" if high else "low") or not _close(worst, level.worst_v):
+            if level.logic != ("high" if high else "low") or not _close(-float(exact.worst[state][0]),
+                                                                         level.margin_v):
+                return False
+            if not _close(float(exact.level[state][0]), level.worst_v):
                 return False
         return True
 
@@ -314,9 +327,8 @@ def _level_fails(f: Figures, lim: _Limits) -> list[np.ndarray]:
     fails: list[np.ndarray] = []
     for s in f.worst:  # leakage-headroom
         high = f.high[s]
-        worst = np.where(high, -f.worst[s], f.worst[s])
-        required = np.where(high, v["high_req"], v["low_req"])
-        margin = np.where(high, worst - required, required - worst)
+        required = f.required[s]
+        margin = -f.worst[s]
         room = np.where(high, v["vcc"] - required, required)
         needed = np.minimum(v["headroom"] * v["vcc"], 0.5 * np.maximum(room, 0.0))
         fails.append(margin < needed - _SLACK * np.maximum(np.abs(needed), 1e-12))
@@ -368,6 +380,19 @@ class _Rows:
         self.rising_thr, self.falling_thr = table[:, 5:8], table[:, 8:11]
         self.f_lo, self.f_hi = table[:, 11:11 + p], table[:, 11 + p:11 + 2 * p]
         self.leak_col = reqs[0].screen.leak
+
+    def at_supply(self, V: np.ndarray, pick, fixed: np.ndarray, rows: np.ndarray | None = None) -> np.ndarray:
+        """(N, M) thresholds at each vertex's supply (V: (N, M, p) for the rows `rows`, all by
+        default); `pick` chooses one curve of a SupplyTable, `fixed` (all rows) where none tracks."""
+        rows = np.arange(self.X.shape[0]) if rows is None else rows
+        out = np.repeat(fixed[rows][:, None], V.shape[1], axis=1)
+        owner = np.repeat(np.arange(len(self.reqs)), self.sizes)[rows]
+        for q, r in enumerate(self.reqs):
+            sc = r.screen
+            sel = owner == q
+            if sc.table is not None and sel.any():
+                out[sel] = np.interp(V[sel][:, :, sc.supply_col], sc.table.vcc, pick(sc.table))
+        return out
 
     def split(self, a: np.ndarray) -> list[np.ndarray]:
         return np.split(a, np.cumsum(self.sizes)[:-1])
@@ -423,7 +448,8 @@ def _group(reqs: Sequence[Request]) -> list[Screened]:
     for k, r in enumerate(reqs):
         if r.full:
             sel = slice(int(starts[k]), int(starts[k]) + r.X.shape[0])
-            for name in ("worst", "high", "pull", "contact", "closed", "fast", "slow", "rising", "start"):
+            for name in ("worst", "required", "level", "high", "pull", "contact", "closed", "fast", "slow",
+                         "rising", "start"):
                 getattr(figures[k], name).update({key: a[sel] for key, a in getattr(whole, name).items()})
     return [Screened(Verdicts(*p), f, got) for p, f, got in zip(parts, figures, learned, strict=True)]
 
@@ -440,9 +466,14 @@ def _nominal_levels(model: LinearModel, rows: _Rows) -> dict[ActuatorState, tupl
         th_v, th_r = dc.thevenin_v, dc.thevenin_ohms
         v_high = th_v - rows.leak_high.mean(axis=1) * th_r
         v_low = th_v - rows.leak_low.mean(axis=1) * th_r
-        is_high = v_high > rows.vcc / 2
+        is_high = th_v > rows.vcc / 2  # the level read with no leakage, as the analysis reads it
         out[s] = (is_high, np.where(is_high, v_high, v_low), th_v, th_r)
     return out
+
+
+def limits_of(reqs: Sequence[Request], name: str) -> np.ndarray:
+    """One limit value (`Screen.limit_values`) per row of the requests."""
+    return np.concatenate([np.full(r.X.shape[0], r.screen.limit_row[_LIMIT_NAMES.index(name)]) for r in reqs])
 
 
 def _levels(model: LinearModel, rows: _Rows, reqs: Sequence[Request], s: ActuatorState,
@@ -454,14 +485,21 @@ def _levels(model: LinearModel, rows: _Rows, reqs: Sequence[Request], s: Actuato
     n = rows.X.shape[0]
     sc = reqs[0].screen
     rx_v = dc.rx_v.reshape(n, m)
-    bad = np.where(np.isnan(rx_v), -np.inf, np.where(is_high, -1.0, 1.0)[:, None] * rx_v)
+    # The margin at each vertex against the threshold the part has at that vertex's supply.
+    V3 = V.reshape(n, m, V.shape[1])
+    req = np.where(is_high[:, None], rows.at_supply(V3, lambda t: t.high_required, limits_of(reqs, "high_req")),
+                   rows.at_supply(V3, lambda t: t.low_required, limits_of(reqs, "low_req")))
+    bad = np.where(np.isnan(rx_v), -np.inf, np.where(is_high, -1.0, 1.0)[:, None] * (rx_v - req))
     pull = (np.max(np.abs(dc.i_res[:, sc.pull_cols]), axis=1).reshape(n, m) if sc.pull_cols
             else np.full((n, m), -np.inf))
     closed = sc.closed[s]
     through = np.abs(dc.i_throw[:, closed]) if closed else None
     contact = through.min(axis=1).reshape(n, m) if through is not None else np.full((n, m), np.inf)
     most = through.max(axis=1).reshape(n, m) if through is not None else np.full((n, m), -np.inf)
+    at = np.argmax(bad, axis=1)
+    ar = np.arange(n)
     f.high[s], f.worst[s], f.pull[s] = is_high, bad.max(axis=1), pull.max(axis=1)
+    f.required[s], f.level[s] = req[ar, at], rx_v[ar, at]
     f.contact[s], f.closed[s] = contact.min(axis=1), most.max(axis=1)
     first = np.cumsum([0] + rows.sizes[:-1])
     for k, r in enumerate(reqs):
@@ -494,12 +532,15 @@ def _edges(model: LinearModel, rows: _Rows, reqs: Sequence[Request], edge: Edge,
     parts = single_cap_parts(model, a, b, V)
     if parts is None:
         raise ValueError("no closed form")
-    up = rising[idx]
-    inner = np.where(up, rows.rising_thr[idx, 0], rows.falling_thr[idx, 2])
-    outer = np.where(up, rows.rising_thr[idx, 2], rows.falling_thr[idx, 0])
-    direction = np.repeat(np.where(up, 1.0, -1.0), m)
-    t_in = single_cap_times(parts, np.repeat(inner, m), direction).t.reshape(k, m)
-    t_out = single_cap_times(parts, np.repeat(outer, m), direction).t.reshape(k, m)
+    up = rising[idx][:, None]
+    V3 = V.reshape(k, m, V.shape[1])
+    inner = np.where(up, rows.at_supply(V3, lambda t: t.rising[:, 0], rows.rising_thr[:, 0], idx),
+                     rows.at_supply(V3, lambda t: t.falling[:, 2], rows.falling_thr[:, 2], idx))
+    outer = np.where(up, rows.at_supply(V3, lambda t: t.rising[:, 2], rows.rising_thr[:, 2], idx),
+                     rows.at_supply(V3, lambda t: t.falling[:, 0], rows.falling_thr[:, 0], idx))
+    direction = np.repeat(np.where(rising[idx], 1.0, -1.0), m)
+    t_in = single_cap_times(parts, inner.ravel(), direction).t.reshape(k, m)
+    t_out = single_cap_times(parts, outer.ravel(), direction).t.reshape(k, m)
     fast = np.where(np.isnan(t_in), np.inf, t_in)
     slow = np.where(np.isnan(t_out), np.inf, t_out)
     f.rising[edge] = rising
