@@ -8,13 +8,22 @@ its instance's nets as pins, in instance-line order.
 
 Names keep the case they were written in; comparisons are case-insensitive,
 so lookups use `key()`.
+
+An element the reader could not evaluate (a value it cannot compute, a line
+of a shape it cannot read) is kept, with the nodes it could tell, and says
+why in `Element.problem`: one bad line never sinks the board, and whatever
+checks a path through it knows the path is not understood. Warnings about
+the netlist are `Diagnostic`s; thousands alike (one per transistor whose
+model was not read) are grouped into one with a count (`group_diagnostics`).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from collections.abc import Iterable
+from dataclasses import dataclass, field, replace
 
 from drc.errors import SourceLocation
+from drc.severity import Severity
 
 GROUND = "0"
 
@@ -162,10 +171,51 @@ class Element:
 
 @dataclass(frozen=True, slots=True)
 class Diagnostic:
-    """A warning about the netlist that does not stop reading it."""
+    """A warning (or a note) about the netlist that does not stop reading it.
+
+    `group` names what the diagnostic is about, so that diagnostics alike
+    (the same group) can be told as one (`group_diagnostics`); `count` is how
+    many diagnostics a grouped one stands for, its location the first's.
+    """
 
     message: str
     location: SourceLocation
+    severity: Severity = Severity.WARNING
+    group: str | None = None
+    count: int = 1
+
+
+# More diagnostics of one group than this are told as one line with a count.
+GROUP_ABOVE = 3
+
+
+def group_diagnostics(diagnostics: Iterable[Diagnostic], above: int = GROUP_ABOVE) -> list[Diagnostic]:
+    """`diagnostics` with every group of more than `above` alike ones told as one.
+
+    The grouped diagnostic stands where the group's first one stood, keeps its
+    location and message and adds the count; diagnostics without a group, and
+    groups of `above` or fewer, are kept as they are. Order is kept.
+    """
+    diagnostics = list(diagnostics)
+    sizes: dict[str, int] = {}
+    for diagnostic in diagnostics:
+        if diagnostic.group is not None:
+            sizes[diagnostic.group] = sizes.get(diagnostic.group, 0) + diagnostic.count
+    if all(size <= above for size in sizes.values()):
+        return diagnostics
+    out: list[Diagnostic] = []
+    told: set[str] = set()
+    for diagnostic in diagnostics:
+        group = diagnostic.group
+        if group is None or sizes[group] <= above:
+            out.append(diagnostic)
+        elif group not in told:
+            told.add(group)
+            count = sizes[group]
+            message = diagnostic.message.split(" (grouped: ", 1)[0]
+            out.append(replace(diagnostic, count=count,
+                               message=f"{message} (grouped: {count:,} alike, the first shown)"))
+    return out
 
 
 @dataclass(frozen=True, slots=True)
@@ -217,11 +267,11 @@ class Netlist:
     annotation_lines: tuple[tuple[str, int, str], ...] = ()
 
     def nets(self) -> set[str]:
-        """Every distinct net, ground included when used."""
+        """Every distinct net, ground included when used (a K coupling has no
+        nodes: it names inductors; a refused K line keeps the nets it named)."""
         out: set[str] = set()
         for element in self.elements:
-            if element.kind != "K":
-                out.update(element.nodes)
+            out.update(element.nodes)
         return out
 
     def by_designator(self) -> dict[str, Element]:

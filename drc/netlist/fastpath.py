@@ -60,8 +60,9 @@ def plain_words(raw: str) -> list[str] | None:
 
 
 # Directives whose plain form is a list of words in the grammar (words_line,
-# and subckt_line without parameters).
-FAST_DIRECTIVES = frozenset({"include", "inc", "lib", "endl", "global", "ends", "end", "subckt"})
+# and subckt_line without parameters). `.include` and `.lib` are not: their
+# argument is the rest of the line (path_line).
+FAST_DIRECTIVES = frozenset({"endl", "global", "ends", "end", "subckt"})
 _NEEDS_GRAMMAR_DIRECTIVE = re.compile(r"[=(),{}'\"*]")
 
 

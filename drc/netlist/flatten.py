@@ -9,21 +9,39 @@ instances of undefined subcircuits, or of names the `keep_as_part` callback
 claims, stay as parts (kind "X"). Recursion, nesting past the limit and a
 hierarchy that would flatten past the element limit are refused, the last
 before anything is built.
+
+An element whose value or parameters cannot be evaluated in its scope (an
+undefined parameter, a division by zero), and an X instance that cannot be
+expanded (its port count differs from its subcircuit's, a parameter of its
+line cannot be evaluated), is kept unevaluated with its `problem` and a
+located warning per flattened element (alike warnings are grouped by the
+reader).
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable
 
-from drc.errors import LimitError
-from drc.netlist.element_lines import resolve_bjt
-from drc.netlist.elements import NO_PARAMS, Element
+from drc.errors import LimitError, NetlistError, SourceLocation
+from drc.netlist.element_lines import problem_text, relay_hint, resolve_nodes
+from drc.netlist.elements import NO_PARAMS, Element, Value
 from drc.netlist.expressions import Expression
 from drc.netlist.lines import limit_hint
 from drc.netlist.options import ReaderOptions
 from drc.netlist.parameters import ParameterEvaluator, ParameterScope
-from drc.netlist.specs import BodyRecord, ElementSpec, LoadedNetlist, PlainLine, SubcircuitDefinition
-from drc.netlist.tokens import GROUND_NAMES, finite_number
+from drc.netlist.specs import (
+    BodyRecord,
+    Conditional,
+    ElementSpec,
+    LoadedNetlist,
+    PlainLine,
+    SubcircuitDefinition,
+)
+from drc.netlist.tokens import GROUND_NAMES, finite_number, strip_quotes
+
+# Element letters whose model names a `.model` card (warned about when missing;
+# a 2-node S line's part name is no card, and a 4-node S is a simulated switch).
+MODEL_KINDS = frozenset("DQMJZWAUOYPN")
 
 # How a node of an element line maps to a flat net (see `node_plan`).
 _GROUND, _GLOBAL, _LOCAL = 0, 1, 3
@@ -40,6 +58,29 @@ def designator_key(text: str) -> str:
         upper = text.upper()
         return text if upper == text else upper
     return text.casefold().translate(_ASCII_UPPER)
+
+
+def needs_model_card(kind: str, nodes: tuple[str, ...]) -> bool:
+    """True when an element of `kind` names a `.model` card (a 4-node S line too)."""
+    return kind in MODEL_KINDS or (kind == "S" and len(nodes) == 4)
+
+
+def inductor_keys(body: list[BodyRecord]) -> set[str]:
+    """The case-folded designators of the inductors in `body` (every `.if` branch)."""
+    out: set[str] = set()
+    for record in body:
+        if isinstance(record, Conditional):
+            for branch in record.branches:
+                out |= inductor_keys(branch.body)
+        elif record is not None and record.kind == "L":
+            out.add(record.designator.casefold())
+    return out
+
+
+def _as_spec(plain: PlainLine) -> ElementSpec:
+    """The general record of a plain line (for the rare places that need one)."""
+    designator, kind, nodes, value, model, _number, _source = plain
+    return ElementSpec(designator, kind, nodes, value, model, {}, plain.line)
 
 
 def _duplicate(spec: BodyRecord, designator: str, first: Element | ElementSpec) -> Exception:
@@ -75,7 +116,7 @@ class SubcircuitFlattener:
         self.loaded = loaded
         self.options = options
         self.keep_as_part = keep_as_part
-        self.parameters = ParameterEvaluator(options)
+        self.parameters = ParameterEvaluator(options, loaded.warn, loaded.functions)
         self.elements: list[Element] = []
         self.seen: dict[str, Element | ElementSpec] = {}   # designator key -> first holder
         self.canon: dict[str, str] = {}      # net key -> flat net, first-seen spelling
@@ -83,12 +124,15 @@ class SubcircuitFlattener:
         self.net_keys: dict[str, str] = {}   # node as written -> case-folded key
         self.globals = loaded.globals
         self.kept: dict[str, bool] = {}      # subcircuit key -> what keep_as_part said
+        self.inductors: dict[tuple[str, ...], set[str]] = {}   # definition -> L designators
         self.limit = options.max_elements
 
     def run(self) -> list[Element]:
         self.check_size()
         top = self.loaded.top
-        scope = self.parameters.group(top.params, self.parameters.empty, {})
+        if self.loaded.couplings:   # the top body is let go while expanded: look first
+            self.inductors[top.key] = inductor_keys(top.body)
+        scope = self.parameters.group(top.params, self.parameters.empty, {}, top.conditionals)
         self.expand(top, Placement("", "", (), {}, 0, scope), [])
         return self.elements
 
@@ -112,6 +156,9 @@ class SubcircuitFlattener:
 
     def spec_size(self, parent: SubcircuitDefinition, spec: BodyRecord,
                   sizes: dict[tuple[str, ...], int], depth: int) -> int:
+        if isinstance(spec, Conditional):   # its largest branch
+            return max((sum(self.spec_size(parent, record, sizes, depth) for record in b.body)
+                        for b in spec.branches), default=0)
         child = self.expanded_definition(parent, spec)
         if child is None:
             return 1
@@ -127,7 +174,8 @@ class SubcircuitFlattener:
             total += self.spec_size(top, spec, sizes, 0)
             if total > self.limit:
                 detail = (f" ({spec.designator} alone expands to "
-                          f"{self.spec_size(top, spec, sizes, 0)})" if spec.kind == "X" else "")
+                          f"{self.spec_size(top, spec, sizes, 0)})"
+                          if not isinstance(spec, Conditional) and spec.kind == "X" else "")
                 raise spec.line.error(f"more than {self.limit} elements after flattening, "
                                       f"counting subcircuit instances{detail} "
                                       + limit_hint("max_elements"), cls=LimitError)
@@ -173,36 +221,117 @@ class SubcircuitFlattener:
         if len(self.elements) > self.limit:
             raise self.limit_error(definition)
 
-    def expand_spec(self, definition: SubcircuitDefinition, spec: ElementSpec, at: Placement,
-                    stack: list[SubcircuitDefinition]) -> None:
-        if spec.kind == "X":
+    def expand_spec(self, definition: SubcircuitDefinition, spec: ElementSpec | Conditional,
+                    at: Placement, stack: list[SubcircuitDefinition]) -> None:
+        if isinstance(spec, Conditional):
+            self.expand_conditional(definition, spec, at, stack)
+        elif spec.kind == "X":
             self.instance(definition, spec, at, stack)
         else:
-            self.flat_element(spec, at)
+            self.flat_element(spec, at, definition)
 
-    def flat_element(self, spec: ElementSpec, at: Placement) -> None:
-        """One element line (not X) of a definition, placed `at`."""
+    def expand_conditional(self, definition: SubcircuitDefinition, block: Conditional,
+                           at: Placement, stack: list[SubcircuitDefinition]) -> None:
+        """The records of the branch of `block` that its scope chose."""
+        index = at.scope.choices.get(block.serial)
+        if index is None:
+            index = self.parameters.choose(block, at.scope.values)
+        if index < 0:
+            return
+        for record in block.branches[index].body:
+            if isinstance(record, PlainLine):
+                self.expand_spec(definition, _as_spec(record), at, stack)
+            else:
+                self.expand_spec(definition, record, at, stack)
+
+    def flat_element(self, spec: ElementSpec, at: Placement,
+                     definition: SubcircuitDefinition) -> None:
+        """One element line (not X) of `definition`, placed `at`."""
         designator = at.prefix + spec.designator
         key = designator_key(designator)
         first = self.seen.get(key)
         if first is not None:
             raise _duplicate(spec, designator, first)
         self.seen[key] = spec
-        if spec.kind == "Q":
-            resolve_bjt(spec, self.loaded)
+        if spec.kind in "QM" and not spec.nodes and spec.problem is None:
+            self.split_nodes(spec)
+        problem, where = spec.problem, spec.problem_at
+        if spec.kind == "K" and problem is None:
+            problem = self.coupling_problem(definition, spec)
         nodes = self.nets(spec, at.prefix, at.pkey, at.ports)
-        value = spec.value
-        if isinstance(value, Expression):
-            value = self.parameters.element_value(spec, at.scope)
+        if spec.kind == "K" and problem is not None and spec.extra \
+                and any(name[:1] not in "lL" for name in spec.extra):
+            # not a coupling after all (a relay written as K?): keep the nets it names
+            named = ElementSpec(spec.designator, "K", tuple(spec.extra), None, None, {},
+                                spec.line)
+            nodes = self.nets(named, at.prefix, at.pkey, at.ports)
+        value: Value | None = None
+        params = NO_PARAMS
+        if problem is None:
+            try:
+                value, params = self.evaluated(spec, at)
+            except LimitError:
+                raise
+            except NetlistError as exc:
+                problem, where = exc.message, exc.location
+        element = Element(designator, spec.kind, nodes, value, spec.model, spec.location, params,
+                          spec.line.text, at.path, problem=problem)
+        self.elements.append(element)
+        if problem is not None:
+            self.unevaluated(element, problem, where)
+        elif spec.model is not None and needs_model_card(spec.kind, nodes) \
+                and spec.model.casefold() not in self.loaded.models:
+            self.loaded.warn(f"{designator}: model {spec.model} is not defined in the netlist "
+                             "or the files it reads (a library not read?)", spec.location,
+                             group="model-not-defined")
+
+    def split_nodes(self, spec: ElementSpec) -> None:
+        """A Q or M line's nodes and model (drc/netlist/element_lines.py
+        resolve_nodes); a line that does not split keeps its first nodes and a
+        problem."""
+        try:
+            resolve_nodes(spec, self.loaded)
+        except NetlistError as exc:
+            spec.problem = problem_text(exc.message, spec.designator)
+            spec.problem_at = exc.location
+            if spec.model is None:
+                spec.nodes = tuple(n for n in spec.extra[:3] if isinstance(n, str))
+            spec.nkeys = tuple(n.casefold() for n in spec.nodes)
+
+    def evaluated(self, spec: ElementSpec, at: Placement) -> tuple[Value | None, dict]:
+        """The element's value and parameters evaluated in its scope (NetlistError
+        when they cannot be), with what its letter names beyond its nodes."""
+        written = spec.value
+        value = self.parameters.element_value(spec, at.scope) \
+            if isinstance(written, Expression) else written
         params = self.parameters.element_params(spec, at.scope) if spec.params else NO_PARAMS
-        if spec.extra is not None:
+        if spec.extra is not None and spec.kind in "KFHW":
             params = dict(params)
             if spec.kind == "K":
                 params["inductors"] = tuple(at.prefix + name for name in spec.extra)
-            elif spec.kind in "FHW":
+            else:
                 params["control"] = at.prefix + spec.extra
-        self.elements.append(Element(designator, spec.kind, nodes, value, spec.model,
-                                     spec.location, params, spec.line.text, at.path))
+        return value, params
+
+    def coupling_problem(self, definition: SubcircuitDefinition, spec: ElementSpec) -> str | None:
+        """Why K line `spec` is no coupling (a name that is no inductor of its
+        definition), or None."""
+        inductors = self.inductors.get(definition.key)
+        if inductors is None:
+            inductors = self.inductors[definition.key] = inductor_keys(definition.body)
+        missing = [name for name in spec.extra if name.casefold() not in inductors]
+        if not missing:
+            return None
+        hint = relay_hint(spec.designator) \
+            if any(name[:1] not in "lL" for name in spec.extra) else ""
+        what = "is not an inductor" if len(missing) == 1 else "are not inductors"
+        return (f"{', '.join(missing)} {what} of this netlist; a K line couples inductors "
+                f"(`K name L1 L2 coupling`){hint}")
+
+    def unevaluated(self, element: Element, problem: str, where: SourceLocation | None) -> None:
+        """The located warning of an element kept unevaluated."""
+        self.loaded.warn(f"{element.designator}: {problem}; the element is kept but not "
+                         "evaluated", where or element.location, group=f"problem:{problem}")
 
     def limit_error(self, definition: SubcircuitDefinition) -> Exception:
         line = definition.line or definition.body[-1].line
@@ -240,10 +369,22 @@ class SubcircuitFlattener:
         designator = at.prefix + spec.designator
         nets = self.nets(spec, at.prefix, at.pkey, at.ports) if spec.nodes else ()
         definition = self.expanded_definition(parent, spec)
-        if definition is None:
+        if definition is None or spec.problem is not None:
             self.add_part(spec, designator, nets, at)
             return
         self.check_instance(definition, spec, designator, nets, at.depth, stack)
+        if len(nets) != len(definition.ports):
+            self.add_part(spec, designator, nets, at, (
+                f"connects {len(nets)} node(s) but subcircuit {definition.name} has "
+                f"{len(definition.ports)} port(s) (defined at {definition.where})"))
+            return
+        try:
+            child_scope = self.child_scope(definition, spec, at.scope)
+        except LimitError:
+            raise
+        except NetlistError as exc:
+            self.add_part(spec, designator, nets, at, exc.message, exc.location)
+            return
         child_ports = {}
         for port_key, net in zip(definition.port_keys, nets, strict=True):
             if port_key in GROUND_NAMES or port_key in self.globals:
@@ -252,7 +393,6 @@ class SubcircuitFlattener:
         if len(self.elements) > self.limit:
             raise spec.line.error(f"more than {self.limit} elements after flattening "
                                   + limit_hint("max_elements"), cls=LimitError)
-        child_scope = self.child_scope(definition, spec, at.scope)
         self.seen_instance(spec, designator)
         stack.append(definition)
         self.expand(definition, Placement(designator + "/", at.pkey + spec.dkey + "/",
@@ -263,7 +403,7 @@ class SubcircuitFlattener:
     def check_instance(self, definition: SubcircuitDefinition, spec: ElementSpec,
                        designator: str, nets: tuple[str, ...],
                        depth: int, stack: list[SubcircuitDefinition]) -> None:
-        """Refuse recursion, nesting past the limit and a port count mismatch."""
+        """Refuse recursion and nesting past the limit."""
         if definition in stack:
             chain = " -> ".join(d.name for d in stack[stack.index(definition):] + [definition])
             raise spec.line.error(f"subcircuit recursion: {chain}")
@@ -271,16 +411,12 @@ class SubcircuitFlattener:
         if depth >= limit:
             raise spec.line.error(f"subcircuit instances nest deeper than {limit} "
                                   + limit_hint("max_subckt_depth"), cls=LimitError)
-        if len(nets) != len(definition.ports):
-            raise spec.line.error(
-                f"{designator} connects {len(nets)} node(s) but subcircuit {definition.name} "
-                f"has {len(definition.ports)} port(s) (defined at {definition.where})",
-                len(spec.designator))
 
     def child_scope(self, definition: SubcircuitDefinition, spec: ElementSpec,
                     scope: ParameterScope) -> ParameterScope:
         """The parameters inside an instance of `definition` placed in `scope`."""
-        if not definition.defaults and not definition.params and not spec.params:
+        if not definition.defaults and not definition.params and not spec.params \
+                and not definition.conditionals:
             return scope
         fixed, undeclared = self.parameters.overrides(definition, spec, scope)
         for written in undeclared:
@@ -289,20 +425,33 @@ class SubcircuitFlattener:
         return self.parameters.instance_scope(definition, scope, fixed)
 
     def add_part(self, spec: ElementSpec, designator: str, nets: tuple[str, ...],
-                 at: Placement) -> None:
-        """An X instance kept as a part: its parameters evaluated where numeric."""
-        params = {} if spec.params else NO_PARAMS
-        for key, (_, raw) in spec.params.items():
-            params[key] = self.parameters.instance_value(spec, raw, at.scope)[0] \
-                if (raw[:1] in "{'" or finite_number(raw) is not None) else raw
+                 at: Placement, problem: str | None = None,
+                 where: SourceLocation | None = None) -> None:
+        """An X instance kept as a part: its parameters evaluated where numeric.
+        With a `problem` (or one of its line), it is kept unexpanded and unevaluated."""
+        params: dict = {} if spec.params and spec.problem is None else NO_PARAMS
+        problem = problem or spec.problem
+        where = where or spec.problem_at
+        if problem is None:
+            try:
+                for key, (_, raw) in spec.params.items():
+                    params[key] = self.parameters.instance_value(spec, raw, at.scope)[0] \
+                        if (raw[:1] in "{'" or finite_number(raw) is not None) \
+                        else strip_quotes(raw)
+            except LimitError:
+                raise
+            except NetlistError as exc:
+                problem, where, params = exc.message, exc.location, NO_PARAMS
         element = Element(designator, "X", nets, None, spec.model, spec.location, params,
-                          spec.line.text, at.path)
+                          spec.line.text, at.path, problem=problem)
         key = designator_key(designator)
         first = self.seen.get(key)
         if first is not None:
             raise _duplicate(spec, designator, first)
         self.seen[key] = spec
         self.elements.append(element)
+        if problem is not None:
+            self.unevaluated(element, problem, where)
         if len(self.elements) > self.limit:
             raise spec.line.error(f"more than {self.limit} elements after flattening "
                                   + limit_hint("max_elements"), cls=LimitError)

@@ -24,7 +24,8 @@ from drc.netlist.lines import LogicalLine
 
 
 class Call(NamedTuple):
-    """`NAME(args)`, e.g. `PULSE(0 5 1n)` or a model's `SW(VT=2.5)`."""
+    """`NAME(args)`, e.g. `PULSE(0 5 1n)` or a model's `SW(VT=2.5)`; a group in
+    parentheses after a blank, `(PWL 0 0 1m 5)`, is a Call with the name ""."""
 
     name: str
     args: tuple
@@ -37,26 +38,30 @@ class Assign(NamedTuple):
     value: Any
 
 
-_STARTS = ["element_line", "behav_line", "param_line", "subckt_line", "model_line", "words_line"]
+_STARTS = ["element_line", "behav_line", "param_line", "subckt_line", "model_line", "words_line",
+           "path_line"]
 
 # Directive keyword -> start rule. Anything else is raw text (see the grammar header).
 DIRECTIVE_RULES = {
     "param": "param_line", "subckt": "subckt_line", "model": "model_line",
-    "include": "words_line", "inc": "words_line", "lib": "words_line",
+    "include": "path_line", "inc": "path_line", "lib": "path_line",
     "endl": "words_line", "global": "words_line", "ends": "words_line",
     "end": "words_line",
 }
 
 
 def _transformer():
-    from lark import Transformer
+    from lark import Token, Transformer
 
     class ToRecord(Transformer):
         def word(self, children):
             return str(children[0])
 
         def call(self, children):
-            return Call(str(children[0]), tuple(children[1:]))
+            return Call(str(children[0])[:-1], tuple(children[1:]))
+
+        def group(self, children):
+            return Call("", tuple(children))
 
         def assign(self, children):
             return Assign(str(children[0]), children[1])
@@ -85,10 +90,16 @@ def _transformer():
             return ("subckt", args, assigns)
 
         def model_line(self, children):
+            children = [Token("NAME", c[:-1]) if getattr(c, "type", "") == "CALL_OPEN" else c
+                        for c in children]
             args = tuple(c for c in children[1:] if not isinstance(c, Assign))
             assigns = tuple(c for c in children[1:] if isinstance(c, Assign))
             return ("model", tuple(str(a) if not isinstance(a, Call) else a for a in args),
                     assigns)
+
+        def path_line(self, children):
+            rest = tuple(str(c).rstrip() for c in children[1:])
+            return (str(children[0])[1:].lower(), rest, ())
 
         def words_line(self, children):
             return (str(children[0])[1:].lower(), tuple(str(c) for c in children[1:]), ())
@@ -113,7 +124,7 @@ def _message(text: str, offset: int) -> str:
                 "use ` ; ` for an inline comment")
     if char == "{":
         return "unclosed `{` (an expression must end with `}` on the same statement)"
-    if char in "'\"":
+    if char and char in "'\"":
         return f"unclosed quote {char}"
     if char == "=":
         return "unexpected `=` (a parameter needs a name before `=` and a value after it)"

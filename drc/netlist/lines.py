@@ -6,7 +6,10 @@ CRLF/CR/LF, drops full-line comments (`*` as first non-blank character) and
 blank lines, cuts inline comments (`;`, `$` or `//` at the start of a line's
 content or after a blank, outside braces and quotes, so `N$12` stays a node),
 and joins `+` continuation lines onto the line they continue, across comment
-and blank lines (ngspice-39 behaviour, shared/reference/spice-dialect.md).
+and blank lines (ngspice-39 behaviour, shared/reference/spice-dialect.md); a
+`+` line holding only a comment (`+ ; note`, `+;note`) adds nothing, and a
+`+` line with no statement before it (only the title) is a statement of its
+own, which the loader warns about and skips.
 Each logical line keeps where every piece came from, so an error anywhere in
 it can point at the physical line and column. Files are opened read-only and
 must be regular files.
@@ -249,11 +252,17 @@ def source_from_text(text: str, shown: str) -> SourceFile:
     return source
 
 
+# PSpice's global and digital-constant nodes (`$G_DPWR`, `$D_HI`): names, not comments.
+_PSPICE_NODE = re.compile(r"[GgDd]_\w")
+
+
 def strip_comment(text: str) -> str:
     """`text` without an inline comment (`;`, `$`, `//` after a blank).
 
     `text` starts at a non-blank character; a marker at position 0 makes the
-    whole line a comment. Markers inside `{...}` or quotes do not count.
+    whole line a comment. Markers inside `{...}` or quotes do not count, nor
+    a `$` starting PSpice's `$G_...` and `$D_...` node names (ngspice-39 reads
+    those as comments; PSpice digital primitives need them as nodes).
     """
     depth = 0
     quote = ""
@@ -269,7 +278,8 @@ def strip_comment(text: str) -> str:
         elif char in "'\"":
             quote = char
         elif depth == 0 and previous in " \t" and (
-                char in ";$" or (char == "/" and text.startswith("//", index))):
+                char == ";" or (char == "$" and not _PSPICE_NODE.match(text, index + 1))
+                or (char == "/" and text.startswith("//", index))):
             return text[:index].rstrip()
         previous = char
     return text.rstrip()
@@ -329,12 +339,18 @@ def logical_lines(source: SourceFile, first: int, max_length: int, stop: int | N
             text = text.rstrip()
         if head == "+":
             if current is None:
-                raise NetlistError("continuation line (`+`) with no statement before it",
-                                   SourceLocation(source.path, index + 1, column), raw)
+                # Continues nothing but the title: a statement of its own, which
+                # the loader warns about and skips (later `+` lines join it).
+                current = LogicalLine(text, index + 1, column, None, source)
+                parts = [text]
+                pieces = None
+                length = len(text)
+                append(current)
+                continue
             body = text[1:]
             stripped = body.lstrip()
-            if not stripped:
-                continue
+            if not stripped or _comment_only(stripped):
+                continue   # `+`, or `+;note`: a continuation holding only a comment
             if pieces is None:
                 pieces = [(0, current.line, current.column)]
             offset = length + 1
@@ -417,7 +433,4 @@ def statement_at(source: SourceFile, raw: str, index: int, max_length: int) -> L
             return None
     else:
         text = text.rstrip()
-    if text[0] == "+":
-        raise NetlistError("continuation line (`+`) with no statement before it",
-                           SourceLocation(source.path, index + 1, column), raw)
     return LogicalLine(text, index + 1, column, None, source)

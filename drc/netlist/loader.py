@@ -18,14 +18,17 @@ record, then the element or directive handler.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable, Sequence
 
 from drc.errors import LimitError, NetlistError
+from drc.netlist.conditionals import BLOCK_DIRECTIVES, LOAD_TIME_DIRECTIVES, ConditionalBlocks
 from drc.netlist.element_lines import ElementInterpreter
 from drc.netlist.elements import ModelCard, SkippedDirective, Value
+from drc.netlist.expressions import UserFunction
 from drc.netlist.fastpath import PLAIN_LINE, fast_directive
 from drc.netlist.grammar import Assign, parse_directive
-from drc.netlist.includes import IncludeSandbox, find_section
+from drc.netlist.includes import NOT_READ, IncludeSandbox, find_section, opens_section, path_and_section
 from drc.netlist.lines import (
     LogicalLine,
     SourceFile,
@@ -35,16 +38,20 @@ from drc.netlist.lines import (
     statement_at,
 )
 from drc.netlist.options import ReaderOptions
-from drc.netlist.specs import LoadedNetlist, PlainLine, SubcircuitDefinition
+from drc.netlist.parameters import compile_token
+from drc.netlist.specs import BodyRecord, LoadedNetlist, PlainLine, SubcircuitDefinition
 from drc.netlist.tokens import GROUND_NAMES, Token, finite_number, item_text, offset_of, param_value
+from drc.severity import Severity
 
 # Directives recorded as SkippedDirective without a warning.
 SKIPPED_DIRECTIVES = frozenset({
     "tran", "op", "ac", "dc", "meas", "measure", "print", "plot", "probe", "save",
     "option", "options", "opt", "temp", "ic", "nodeset", "four", "noise", "tf", "sens",
-    "disto", "pz", "sp", "width", "func", "csparam", "step", "data", "if", "else",
-    "endif", "pss", "literal", "netlist",
+    "disto", "pz", "sp", "width", "csparam", "step", "data", "pss", "literal", "netlist",
 })
+# `.func name(args) body` (also `= body`, `{body}`, `'body'`): read from its text.
+_FUNC = re.compile(r"\.func\s+([^\W\d]\w*)\s*\(([^()]*)\)\s*=?\s*(\S.*)$", re.I | re.S)
+_ARGUMENT = re.compile(r"[^\W\d]\w*")
 
 # What `statement` asks of the fast loop after one statement.
 _DONE, _WALK_FROM_HERE, _WALK_AFTER_HERE = 0, 1, 2
@@ -77,7 +84,7 @@ class PlainLineReader:
     def __init__(self, loader: NetlistLoader, source: SourceFile) -> None:
         self.loader = loader
         self.source = source
-        self.append = loader.current.body.append
+        self.append = loader.body().append
         self.values: dict[str, Value | bool] = {}   # value text -> Value, False if not a number
         self.models: dict[str, str] = {}           # part name as written -> first-seen spelling
         spellings: dict[str, str] = {}
@@ -88,9 +95,10 @@ class PlainLineReader:
         self.readers: dict[str, Callable[[str, int], bool]] = {
             letter: by_kind[kind] for letter, kind in _PLAIN_KINDS.items()}
 
-    def follow(self, definition: SubcircuitDefinition) -> None:
-        """Add records to `definition` from now on (a `.subckt` opened or closed)."""
-        self.append = definition.body.append
+    def follow(self, body: list[BodyRecord]) -> None:
+        """Add records to `body` from now on (a `.subckt` or an `.if` branch opened
+        or closed)."""
+        self.append = body.append
 
     def passive(self, raw: str, number: int) -> bool:
         """`R|C|L name a b value`: two nodes and a number."""
@@ -147,13 +155,14 @@ class NetlistLoader:
         self.interpreter = ElementInterpreter(self.loaded, options)
         self.includes = IncludeSandbox(options, roots)
         self.current = self.loaded.top
+        self.blocks = ConditionalBlocks(self.loaded, options)
         self.end_seen: LogicalLine | None = None
         self.after_end_warned = False
         self.handlers: dict[str, _Handler] = {
             "param": self.on_param, "subckt": self.on_subckt, "ends": self.on_ends,
             "end": self.on_end, "endl": self.on_endl, "global": self.on_global,
             "model": self.on_model, "include": self.on_include, "inc": self.on_include,
-            "lib": self.on_lib,
+            "lib": self.on_lib, "func": self.on_func,
         }
 
     # ------------------------------------------------------------ the top file
@@ -167,6 +176,7 @@ class NetlistLoader:
         self.loaded.title = lines[0].strip()
         self.includes.enter_top(real)
         self.fast_walk(source, lines)
+        self.blocks.close(self.current, None)
         unclosed = self.current.line   # None at the top level
         if unclosed is not None:
             raise unclosed.error(f"missing .ends for .subckt {self.current.name}")
@@ -194,7 +204,7 @@ class NetlistLoader:
             if index == next_zone and zone is not None:
                 if self.read_zone(source, lines, zone):
                     return
-                plain_lines.follow(self.current)
+                plain_lines.follow(self.body())
                 index = zone[1] + 1
                 zone = next(zones, None)
                 next_zone = zone[0] if zone is not None else -1
@@ -212,7 +222,7 @@ class NetlistLoader:
                 continue
             if self.read_line(source, lines, raw, index):
                 return
-            plain_lines.follow(self.current)
+            plain_lines.follow(self.body())
 
     def read_zone(self, source: SourceFile, lines: list[str], zone: tuple[int, int]) -> bool:
         """The statement continued over physical lines `zone`; True when the rest
@@ -260,7 +270,7 @@ class NetlistLoader:
 
     def walk(self, lines: list[LogicalLine], section: str | None) -> None:
         """Process statements; with `section`, only those in `.lib section`."""
-        index = 0 if section is None else find_section(lines, section)
+        index = 0 if section is None else (find_section(lines, section) or 0)
         count = len(lines)
         element = self.element
         while index < count:
@@ -278,7 +288,7 @@ class NetlistLoader:
                 return
             if keyword == "control":
                 index = self.skip_block(lines, index, line, "endc")
-            elif keyword == "lib" and len(text.split()) == 2:
+            elif keyword == "lib" and opens_section(lines, index - 1):
                 # A section definition read straight through: skip it.
                 index = self.skip_block(lines, index, line, "endl", record=False)
             else:
@@ -298,12 +308,27 @@ class NetlistLoader:
                         start.text.split()[0][1:].lower(), "\n".join(texts), start.location()))
                 return index
             texts.append(line.text)
-        raise start.error(f"missing .{end} for this {start.text.split()[0]} block")
+        # Left open at the end of the file (common for `.control`): the block
+        # runs to the end, as simulators read it.
+        if record:
+            self.loaded.skipped.append(SkippedDirective(
+                start.text.split()[0][1:].lower(), "\n".join(texts), start.location()))
+        if end != "endc":
+            self.loaded.warn(f"{start.text.split()[0]} block has no .{end}; it runs to the "
+                             "end of the file", start)
+        return index
+
+    def body(self) -> list[BodyRecord]:
+        """Where the next element record goes (the current definition, or the
+        recorded `.if` branch open in it; a sink inside a branch not read)."""
+        return self.blocks.body(self.current)
 
     def element(self, line: LogicalLine) -> None:
+        if self.blocks.skipping:
+            return
         spec = self.interpreter.interpret(line)
         if spec is not None:
-            self.current.body.append(spec)
+            self.body().append(spec)
 
     # ------------------------------------------------------------ directives
 
@@ -312,26 +337,89 @@ class NetlistLoader:
             parts = line.text.split(None, 1)
             self.loaded.title = parts[1] if len(parts) > 1 else ""
             return
+        if keyword in BLOCK_DIRECTIVES:
+            self.block_directive(line, keyword)
+            return
+        if self.blocks.skipping:
+            return
         if keyword == "endc":
-            raise line.error(".endc without .control")
+            self.loaded.warn(".endc without .control; ignored", line)
+            return
+        if keyword in LOAD_TIME_DIRECTIVES:
+            self.blocks.load_time(self.current, line)
         handler = self.handlers.get(keyword)
         if handler is None:
             self.loaded.skipped.append(SkippedDirective(keyword, line.text, line.location()))
             if keyword not in SKIPPED_DIRECTIVES:
-                self.loaded.warn(f"unknown directive .{keyword} skipped", line)
+                self.loaded.warn(f"unknown directive .{keyword} skipped", line,
+                                 group=f"directive:{keyword}")
+            return
+        if keyword == "func":   # read from its text (drc/netlist/loader.py _FUNC)
+            self.on_func(line, (), ())
             return
         record = line.record
+        if keyword == "subckt" and len(line.text.split(None, 2)) < 2:
+            raise line.error(".subckt needs a name")
         if record is None:
             record = fast_directive(line.text, keyword)
             if record is None or record[0] != line.text.split(None, 1)[0][1:].lower():
-                record = parse_directive(line, keyword)
+                try:
+                    record = parse_directive(line, keyword)
+                except LimitError:
+                    raise
+                except NetlistError as exc:
+                    if keyword == "subckt":   # where a definition starts must be known
+                        raise
+                    self.unreadable_directive(line, keyword, exc)
+                    return
             line.record = record
         _, args, assigns = record
         handler(line, args, assigns)
 
+    def unreadable_directive(self, line: LogicalLine, keyword: str, exc: NetlistError) -> None:
+        """A directive line the grammar cannot read: warned about and skipped
+        (what it would define stays undefined; whatever uses that is not evaluated)."""
+        self.loaded.warn(f".{keyword} line not read ({exc.message}); skipped",
+                         exc.location or line.location())
+
+    def block_directive(self, line: LogicalLine, keyword: str) -> None:
+        """`.if`, `.elseif`, `.else`, `.endif` (drc/netlist/conditionals.py)."""
+        if keyword == "if":
+            self.blocks.on_if(line, self.current)
+        elif keyword == "endif":
+            self.blocks.on_endif(line, self.current)
+        else:
+            self.blocks.on_else(line, self.current, keyword)
+
+    def on_func(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
+        """`.func name(a, b) body`: a user function for every expression (global,
+        wherever written)."""
+        match = _FUNC.match(line.text)
+        if match is None:
+            self.loaded.warn(".func line not read (expected `.func name(arguments) "
+                             "expression`); skipped", line)
+            return
+        name, arguments, body = match.groups()
+        body = body.strip()
+        if body[:1] in "{'" and body[-1:] in "}'":
+            body = body[1:-1]
+        try:
+            expression = compile_token(line, body, self.options)
+        except LimitError:
+            raise
+        except NetlistError as exc:
+            self.loaded.warn(f".func {name} not read ({exc.message}); skipped",
+                             exc.location or line.location())
+            return
+        key = name.casefold()
+        if key in self.loaded.functions:
+            self.loaded.warn(f".func {name} defined again; the later definition is used", line)
+        names = tuple(a.casefold() for a in _ARGUMENT.findall(arguments))
+        self.loaded.functions[key] = UserFunction(name, names, expression)
+
     def on_param(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
         for assign in assigns:
-            self.current.params.append((assign, line))
+            self.blocks.add_param(self.current, (assign, line))
 
     def on_subckt(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
         if not args:
@@ -340,19 +428,24 @@ class NetlistLoader:
         name = self.loaded.name(written)
         ports = tuple(item_text(a) for a in args[1:] if item_text(a).casefold() != "params:")
         seen: set[str] = set()
+        at = offset_of(line, written) + len(written)
         for port in ports:
+            at = offset_of(line, port, at)
             if port.casefold() in seen:
-                raise line.error(f"port {port!r} appears twice in .subckt {name}",
-                                 offset_of(line, port, len(written)))
+                raise line.error(f"port {port!r} appears twice in .subckt {name}", at)
             seen.add(port.casefold())
+            at += len(port)
         key = name.casefold()
-        if key in self.current.children:
-            other = self.current.children[key]
-            raise line.error(f"subcircuit {name} is defined twice (first at {other.where})",
-                             offset_of(line, written))
         definition = SubcircuitDefinition(name, ports, tuple(assigns), line, self.current)
-        self.current.children[key] = definition
-        self.loaded.definitions.append(definition)
+        if key in self.current.children:
+            # As ngspice does: the first definition is used; this one is read
+            # (so its `.ends` closes it) but belongs to no one.
+            other = self.current.children[key]
+            self.loaded.warn(f"subcircuit {name} is defined again (first at {other.where}); "
+                             "the first definition is used, as ngspice does", line)
+        else:
+            self.current.children[key] = definition
+            self.loaded.definitions.append(definition)
         if definition.depth > self.options.max_subckt_depth:
             raise line.error(f"subcircuit definitions nest deeper than "
                              f"{self.options.max_subckt_depth} "
@@ -362,11 +455,14 @@ class NetlistLoader:
     def on_ends(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
         parent = self.current.parent
         if parent is None:
-            raise line.error(".ends without a .subckt")
+            self.loaded.warn(".ends without a .subckt; ignored", line)
+            return
+        self.blocks.close(self.current, line)
         name = self.current.name
         if args and item_text(args[0]).casefold() != name.casefold():
-            raise line.error(f".ends {item_text(args[0])} closes .subckt {name}",
-                             offset_of(line, args[0], 5))
+            self.loaded.warn(f".ends {item_text(args[0])} names another subcircuit; it closes "
+                             f".subckt {name} (opened at {self.current.where})",
+                             line.location(offset_of(line, args[0], 5)))
         self.current = parent
 
     def on_end(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
@@ -387,7 +483,8 @@ class NetlistLoader:
 
     def on_model(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
         if len(args) < 2 or not isinstance(args[1], str):
-            raise line.error(".model needs a name and a type")
+            self.loaded.warn(".model needs a name and a type; skipped", line)
+            return
         name = self.loaded.name(item_text(args[0]))
         params: dict[str, float | str] = {}
         for assign in assigns:
@@ -400,19 +497,32 @@ class NetlistLoader:
         self.loaded.models[key] = ModelCard(name, args[1], params, line.location())
 
     def on_include(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
-        if len(args) != 1:
-            raise line.error(".include needs exactly one file name")
-        self.include(line, item_text(args[0]), None)
+        """`.include PATH` / `.inc PATH`: the rest of the line is the path (quoted
+        or not, so a path with blanks reads whole)."""
+        path, _ = path_and_section(args, False)
+        if path is None:
+            self.loaded.warn(f"{line.text.split()[0]} names no file; ignored", line)
+            return
+        self.include(line, path, None)
 
     def on_lib(self, line: LogicalLine, args: Sequence[Token], assigns: Sequence[Assign]) -> None:
-        if len(args) != 2:
-            raise line.error(".lib needs a file name and a section name")
-        self.include(line, item_text(args[0]), item_text(args[1]))
+        """`.lib FILE SECTION` (a section), or `.lib FILE` (the whole file, as several
+        simulators write it; a `.lib NAME ... .endl` block never gets here)."""
+        path, section = path_and_section(args, True)
+        if path is None:
+            self.loaded.warn(".lib names no file; ignored", line)
+            return
+        self.include(line, path, section)
 
     def include(self, line: LogicalLine, raw: str, section: str | None) -> None:
         """Read included file `raw` (only its `.lib section` when given) here."""
         includes = self.includes
-        real, shown = includes.open(line, raw)
+        opened = includes.open(line, raw)
+        if opened is None:
+            self.loaded.warn(f"`{line.text}`: {NOT_READ}", line, group="library-not-read",
+                             severity=Severity.NOTE)
+            return
+        real, shown = opened
         earlier = includes.earlier_inclusion(real, section, self.current.key, line)
         if earlier is not None:
             self.loaded.warn(f"{shown} was already included here (at {earlier}); "
@@ -422,9 +532,8 @@ class NetlistLoader:
         self.loaded.add_file(source)
         with includes.reading(real):
             lines = includes.statements_of(line, real, source)
-            try:
-                self.walk(lines, section)
-            except NetlistError as exc:
-                if exc.location is None:
-                    raise line.error(f"{exc.message} in {shown}") from None
-                raise
+            if section is not None and find_section(lines, section) is None:
+                self.loaded.warn(f"library section {section!r} not found in {shown}; nothing "
+                                 "read from it", line)
+                return
+            self.walk(lines, section)

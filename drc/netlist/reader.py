@@ -15,7 +15,9 @@ instances depth-first, joining designators and local nets with `/`, mapping
 ports to the instance's nets, keeping ground ("0", `gnd`) and `.global` nets
 global, and canonicalising every net and model name to its first-seen
 spelling. X instances of undefined subcircuits, or of names the
-`keep_as_part` callback claims, stay as parts (kind "X").
+`keep_as_part` callback claims, stay as parts (kind "X"). The warnings of
+both steps come out in reading order, alike ones grouped
+(drc/netlist/elements.py group_diagnostics).
 """
 
 from __future__ import annotations
@@ -24,7 +26,7 @@ import os
 from collections.abc import Callable
 
 from drc.errors import LimitError, SourceLocation
-from drc.netlist.elements import Netlist, SubcircuitPorts
+from drc.netlist.elements import Diagnostic, Netlist, SubcircuitPorts, group_diagnostics
 from drc.netlist.flatten import SubcircuitFlattener
 from drc.netlist.includes import sandbox_roots
 from drc.netlist.lines import SourceFile, limit_hint, read_source, source_from_text
@@ -32,6 +34,13 @@ from drc.netlist.loader import NetlistLoader
 from drc.netlist.options import ReaderOptions
 
 __all__ = ["ReaderOptions", "read_netlist", "read_netlist_text"]
+
+
+def sorted_diagnostics(diagnostics: list[Diagnostic], files: list[str]) -> list[Diagnostic]:
+    """`diagnostics` in reading order: by file (as first read), line and column."""
+    order = {name: index for index, name in enumerate(files)}
+    return sorted(diagnostics, key=lambda d: (order.get(d.location.file, len(order)),
+                                              d.location.line, d.location.column))
 
 
 def _read(source: SourceFile, real: str | None, folder: str, shown: str,
@@ -50,7 +59,7 @@ def _read(source: SourceFile, real: str | None, folder: str, shown: str,
             netlist.subcircuits.setdefault(d.name.casefold(), SubcircuitPorts(
                 d.name, tuple(d.ports), frozenset(record.kind for record in d.body),
                 SourceLocation(d.line.source.path, d.line.line, d.line.column)))
-    netlist.diagnostics = loaded.diagnostics
+    netlist.diagnostics = group_diagnostics(sorted_diagnostics(loaded.diagnostics, loaded.files))
     netlist.skipped = loaded.skipped
     netlist.files = tuple(loaded.files)
     netlist.annotation_lines = tuple(loaded.annotation_lines)

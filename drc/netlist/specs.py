@@ -15,9 +15,10 @@ from typing import Any
 
 from drc.errors import SourceLocation
 from drc.netlist.elements import Diagnostic, ModelCard, SkippedDirective, Value
-from drc.netlist.expressions import Expression
+from drc.netlist.expressions import Expression, UserFunction
 from drc.netlist.grammar import Assign
 from drc.netlist.lines import LogicalLine, SourceFile, annotation_lines
+from drc.severity import Severity
 
 
 class ElementSpec:
@@ -26,10 +27,12 @@ class ElementSpec:
     `extra` holds what a letter needs beyond nodes and value (the inductors
     of K, the controlling source of F/H/W, the raw tokens of Q); `plan` is
     the node mapping flattening works out once (drc/netlist/flatten.py).
+    `problem` says why the line cannot be evaluated (its element is kept
+    with the nodes that could be told), `problem_at` where the cause is.
     """
 
     __slots__ = ("designator", "dkey", "kind", "nodes", "nkeys", "value", "model",
-                 "params", "line", "location", "extra", "plan")
+                 "params", "line", "location", "extra", "plan", "problem", "problem_at")
 
     def __init__(self, designator: str, kind: str, nodes: tuple[str, ...],
                  value: Value | Expression | None, model: str | None, params: dict[str, Any],
@@ -46,6 +49,8 @@ class ElementSpec:
         self.location = SourceLocation(line.source.path, line.line, line.column)
         self.extra = extra
         self.plan: tuple[tuple[int, str, str], ...] | None = None
+        self.problem: str | None = None
+        self.problem_at: SourceLocation | None = None
 
 
 class PlainLine(tuple):
@@ -75,8 +80,44 @@ class PlainLine(tuple):
         return LogicalLine(source.line(number).rstrip(), number, 1, None, source)
 
 
-# What a definition's body holds: general records and the fast loop's plain lines.
-BodyRecord = ElementSpec | PlainLine
+class Branch:
+    """One branch of an `.if` block: its condition (None for `.else`), and the
+    element records, `.param` entries and nested blocks written in it."""
+
+    __slots__ = ("condition", "line", "body", "params", "conditionals")
+
+    def __init__(self, condition: Expression | None, line: LogicalLine) -> None:
+        self.condition = condition
+        self.line = line
+        self.body: list[BodyRecord] = []
+        self.params: list[tuple[Assign, LogicalLine]] = []
+        self.conditionals: list[Conditional] = []
+
+
+class Conditional:
+    """An `.if` / `.elseif` / `.else` / `.endif` block whose condition could not be
+    decided while loading (it uses subcircuit parameters, or parameters defined
+    further on): decided when flattening, per instance. `serial` names the
+    block in a scope's choices (drc/netlist/parameters.py)."""
+
+    __slots__ = ("branches", "line", "serial")
+
+    def __init__(self, line: LogicalLine, serial: int) -> None:
+        self.branches: list[Branch] = []
+        self.line = line
+        self.serial = serial
+
+    kind = ".if"    # never an element letter
+    model = None
+
+    @property
+    def location(self) -> SourceLocation:
+        return self.line.location()
+
+
+# What a definition's body holds: general records, the fast loop's plain lines,
+# and `.if` blocks decided when flattening.
+BodyRecord = ElementSpec | PlainLine | Conditional
 
 
 class SubcircuitDefinition:
@@ -95,6 +136,7 @@ class SubcircuitDefinition:
         self.defaults = defaults
         self.params: list[tuple[Assign, LogicalLine]] = []
         self.body: list[BodyRecord] = []
+        self.conditionals: list[Conditional] = []   # `.if` blocks with `.param`s or elements
         self.children: dict[str, SubcircuitDefinition] = {}
         self.line = line
         self.parent = parent
@@ -144,13 +186,19 @@ class LoadedNetlist:
         self.annotation_lines: list[tuple[str, int, str]] = []  # (file, line, text) of `*@drc`
         self.diagnostics: list[Diagnostic] = []
         self.skipped: list[SkippedDirective] = []
+        self.functions: dict[str, UserFunction] = {}   # `.func` definitions by key
+        self.couplings = False   # a K line was read (flattening checks its inductors)
 
     def name(self, text: str) -> str:
         """Model or subcircuit name in its first-seen spelling."""
         return self.names.setdefault(text.casefold(), text)
 
-    def warn(self, message: str, line: LogicalLine) -> None:
-        self.diagnostics.append(Diagnostic(message, line.location()))
+    def warn(self, message: str, line: LogicalLine | SourceLocation, group: str | None = None,
+             severity: Severity = Severity.WARNING) -> None:
+        """A diagnostic at `line` (a statement, or a location); `group` names what
+        it is about, so that many alike are told as one."""
+        where = line if isinstance(line, SourceLocation) else line.location()
+        self.diagnostics.append(Diagnostic(message, where, severity, group))
 
     def add_file(self, source: SourceFile) -> None:
         """Record a file read (once), with its `*@drc` annotation lines: the file's

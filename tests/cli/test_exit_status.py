@@ -72,11 +72,21 @@ def test_old_config_keys_are_refused(boards: Path):
 
 def test_bad_netlist_is_located(boards: Path):
     bad = boards / "bad.cir"
-    bad.write_text("bad board\nR1 a b 10k\nR2 a\n.end\n")
+    bad.write_text("bad board\nR1 a b 10k\n.subckt s a\nR2 a 0 1k\n.end\n")
     proc = drc("check", str(bad))
     assert proc.returncode == 2
     assert f"{bad}:3:" in proc.stderr, proc.stderr
     assert "Traceback" not in proc.stderr
+
+
+def test_one_bad_line_is_a_located_warning_not_a_refusal(boards: Path):
+    # issue 12: an element line that cannot be evaluated never sinks the board
+    bad = boards / "bad.cir"
+    bad.write_text("bad board\nR1 a b 10k\nR2 a\n.end\n")
+    proc = drc("check", str(bad), "--format", "json")
+    assert proc.returncode in (0, 1), proc.stderr
+    diagnostics = json.loads(proc.stdout)["boards"][0]["diagnostics"]
+    assert [d for d in diagnostics if d.startswith(f"{bad}:3:4: R2: missing value")], diagnostics
 
 
 def test_bad_config_is_located(boards: Path):

@@ -231,9 +231,11 @@ def cases(big: bool = True) -> list[tuple[Case, dict[str, str | bytes]]]:
     # -- parameters and expressions
     add(Case("parameter_chain_5000", ["check", "b.cir"], 0, "0 contacts", None),
         {"b.cir": parameter_chain()})
-    add(Case("parameter_cycle", ["check", "b.cir"], 2, "parameter cycle", "column"),
+    # A parameter that cannot be evaluated is a located warning (issue 12: one
+    # bad line never sinks the board); the element using it is not evaluated.
+    add(Case("parameter_cycle", ["check", "b.cir"], (0, 1), "parameter cycle", "column"),
         {"b.cir": parameter_cycle()})
-    add(Case("parameter_doubling_overflow", ["check", "b.cir"], 2, "overflow", "column"),
+    add(Case("parameter_doubling_overflow", ["check", "b.cir"], (0, 1), "overflow", "column"),
         {"b.cir": parameter_doubling()})
     add(Case("expression_nest_100k", ["check", "b.cir"], 2, "max-line-length", "column"),
         {"b.cir": expression_nest()})
@@ -245,7 +247,7 @@ def cases(big: bool = True) -> list[tuple[Case, dict[str, str | bytes]]]:
              "column"), {"b.cir": expression_nest(40_000)})
     add(Case("unary_nest_5k", ["check", "b.cir"], 2, "max-expression-depth", "column"),
         {"b.cir": unary_nest(5_000)})
-    add(Case("power_tower", ["check", "b.cir"], 2, "overflow", "column"),
+    add(Case("power_tower", ["check", "b.cir"], (0, 1), "overflow", "column"),
         {"b.cir": power_tower()})
     add(Case("long_sum_200k_terms", ["check", "b.cir", "--max-line-length", "1000000"], 2,
              "max-expression-work", "column"), {"b.cir": long_sum()})
@@ -261,7 +263,7 @@ def cases(big: bool = True) -> list[tuple[Case, dict[str, str | bytes]]]:
     add(Case("million_continuation_lines", ["check", "b.cir"], 2, "max-line-length", "column",
              timeout=60), {"b.cir": continuation_lines()})
     add(Case("million_continuation_lines_raised",
-             ["check", "b.cir", "--max-line-length", "10000000"], 2, "unexpected", "column",
+             ["check", "b.cir", "--max-line-length", "10000000"], (0, 1), "unexpected", "column",
              timeout=60), {"b.cir": continuation_lines()})
     add(Case("million_blank_continuations", ["check", "b.cir"], (0, 1), "1 contact", None,
              timeout=60), {"b.cir": blank_continuations()})
@@ -292,15 +294,17 @@ def cases(big: bool = True) -> list[tuple[Case, dict[str, str | bytes]]]:
         dict([("b.cir", HEADER + ".include i0.inc\n")]
              + [(f"i{k}.inc", f".include i{k + 1}.inc\n") for k in range(40)]
              + [("i40.inc", "R1 a b 1k\n")]))
-    add(Case("include_dotdot", ["check", "b.cir"], 2, "leaves the board's folder", "column"),
+    add(Case("include_dotdot", ["check", "b.cir"], 2, "leaves the project", "column"),
         {"b.cir": HEADER + ".include ../../../../../../etc/passwd\n"})
-    add(Case("include_absolute", ["check", "b.cir"], 2, "leaves the board's folder", "column"),
+    # Absolute, drive-letter and network paths outside the project are library
+    # lines into a simulator's installation (issue 12): not read, one note.
+    add(Case("include_absolute", ["check", "b.cir"], (0, 1), "outside the project", "column"),
         {"b.cir": HEADER + ".include /etc/passwd\n"})
-    add(Case("include_drive_letter", ["check", "b.cir"], 2, "drive letter", "column"),
+    add(Case("include_drive_letter", ["check", "b.cir"], (0, 1), "outside the project", "column"),
         {"b.cir": HEADER + ".include C:\\boards\\x.cir\n"})
-    add(Case("include_unc_path", ["check", "b.cir"], 2, "drive letter", "column"),
+    add(Case("include_unc_path", ["check", "b.cir"], (0, 1), "outside the project", "column"),
         {"b.cir": HEADER + ".include \\\\server\\share\\x.cir\n"})
-    add(Case("lib_dotdot", ["check", "b.cir"], 2, "leaves the board's folder", "column"),
+    add(Case("lib_dotdot", ["check", "b.cir"], 2, "leaves the project", "column"),
         {"b.cir": HEADER + ".lib ../x.lib fast\n"})
     add(Case("include_symlink_out", ["check", "b.cir"], 2, "symlink", "column",
              build=_link_out("evil.inc")), {"b.cir": HEADER + ".include evil.inc\n"})

@@ -129,8 +129,8 @@ def _outcome(text):
     except DrcError as exc:
         return ("error", type(exc).__name__, exc.render())
     return ([(e.designator, e.kind, e.nodes, e.value, e.model, e.location, dict(e.params),
-              e.text, e.instance_path) for e in netlist.elements],
-            [(d.message, d.location) for d in netlist.diagnostics], netlist.title)
+              e.text, e.instance_path, e.problem) for e in netlist.elements],
+            list(netlist.diagnostics), netlist.title)
 
 
 @settings(max_examples=300, deadline=None)

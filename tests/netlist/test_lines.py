@@ -34,8 +34,10 @@ def test_continuation_across_comments_and_blank_lines():
 
 
 def test_trailing_backslash_is_not_continuation():
-    with pytest.raises(NetlistError):
-        read_netlist_text("t\nR1 a b \\\n4k7\n")
+    n = read_netlist_text("t\nR1 a b \\\n4k7\n")
+    assert "is not a number" in element(n, "R1").problem
+    assert [d.location.line for d in n.diagnostics] == [2, 3]   # R1, and `4k7` alone
+    assert "not a statement" in n.diagnostics[1].message
 
 
 def test_title_is_line_one_even_if_it_looks_like_an_element():
