@@ -150,31 +150,21 @@ def store(kind: str, key: str, value: Any, files: Iterable[str] = ()) -> bool:
 
 # ------------------------------------------------------------------ typed JSON
 
-_ENCODERS: dict[type, Callable[[Any], Any]] = {}
-
-
 def encode(value: Any) -> Any:
     """`value` as JSON data that `decode` turns back into an equal value.
 
     Handles None, bool, int, str, float (non-finite too), list, tuple, dict,
     set, frozenset, date, paths, enums and dataclasses of the drc package;
-    TypeError for anything else.
+    TypeError for anything else. A record met again (the same object: one
+    receiver's data shared by a thousand stages) is written once and then
+    referred to by its number, so the entry stays small and reads back shared.
     """
-    kind = type(value)
-    if kind is str or kind is int or kind is bool or value is None:
-        return value
-    if kind is float:
-        return value if math.isfinite(value) else {"~f": repr(value)}
-    if kind is list:
-        return [encode(v) for v in value]
-    if kind is tuple:
-        return {"~t": [encode(v) for v in value]}
-    if kind is dict:
-        return {"~m": [[encode(k), encode(v)] for k, v in value.items()]}
-    handler = _ENCODERS.get(kind)
-    if handler is None:
-        handler = _ENCODERS[kind] = _encoder_for(kind)
-    return handler(value)
+    return _Encoder().value(value)
+
+
+def decode(data: Any) -> Any:
+    """The value `encode` wrote (ValueError, TypeError, KeyError or IndexError on anything else)."""
+    return _Decoder().value(data)
 
 
 def _class_name(kind: type) -> str:
@@ -183,22 +173,70 @@ def _class_name(kind: type) -> str:
     return f"{kind.__module__}:{kind.__qualname__}"
 
 
-def _encoder_for(kind: type) -> Callable[[Any], Any]:
-    if issubclass(kind, Enum):
-        name = _class_name(kind)
-        return lambda v: {"~e": name, "v": v.value}
-    if dataclasses.is_dataclass(kind):
-        name = _class_name(kind)
-        fields = tuple(f.name for f in dataclasses.fields(kind))
-        return lambda v: {"~d": name, "v": [encode(getattr(v, f)) for f in fields]}
-    if issubclass(kind, (set, frozenset)):
-        tag = "~s" if issubclass(kind, frozenset) else "~S"
-        return lambda v: {tag: [encode(x) for x in v]}
-    if kind is date:
-        return lambda v: {"~date": v.isoformat()}
-    if issubclass(kind, PurePath):
-        return lambda v: {"~p": str(v)}
-    raise TypeError(f"cannot keep a {kind.__name__} in the cache")
+# type -> ("record", name, fields) | ("enum", name) | ("set", tag) | ("date",) | ("path",)
+_KINDS: dict[type, tuple] = {}
+
+
+def _kind_of(kind: type) -> tuple:
+    known = _KINDS.get(kind)
+    if known is None:
+        if issubclass(kind, Enum):
+            known = ("enum", _class_name(kind))
+        elif dataclasses.is_dataclass(kind):
+            known = ("record", _class_name(kind), tuple(f.name for f in dataclasses.fields(kind)))
+        elif issubclass(kind, (set, frozenset)):
+            known = ("set", "~s" if issubclass(kind, frozenset) else "~S")
+        elif kind is date:
+            known = ("date",)
+        elif issubclass(kind, PurePath):
+            known = ("path",)
+        else:
+            raise TypeError(f"cannot keep a {kind.__name__} in the cache")
+        _KINDS[kind] = known
+    return known
+
+
+class _Encoder:
+    """One encoding: the records written so far, numbered in the order they were finished."""
+
+    __slots__ = ("numbers", "alive")
+
+    def __init__(self) -> None:
+        self.numbers: dict[int, int] = {}  # id(record) -> its number
+        self.alive: list[object] = []  # keeps each numbered record alive (so its id stays its own)
+
+    def value(self, value: Any) -> Any:
+        kind = type(value)
+        if kind is str or kind is int or kind is bool or value is None:
+            return value
+        if kind is float:
+            return value if math.isfinite(value) else {"~f": repr(value)}
+        if kind is list:
+            return [self.value(v) for v in value]
+        if kind is tuple:
+            return {"~t": [self.value(v) for v in value]}
+        if kind is dict:
+            return {"~m": [[self.value(k), self.value(v)] for k, v in value.items()]}
+        known = _kind_of(kind)
+        tag = known[0]
+        if tag == "record":
+            return self.record(value, known[1], known[2])
+        if tag == "enum":
+            return {"~e": known[1], "v": value.value}
+        if tag == "set":
+            return {known[1]: [self.value(x) for x in value]}
+        if tag == "date":
+            return {"~date": value.isoformat()}
+        return {"~p": str(value)}
+
+    def record(self, value: Any, name: str, fields: tuple[str, ...]) -> Any:
+        number = self.numbers.get(id(value))
+        if number is not None:
+            return {"~r": number}
+        data = {"~d": name, "v": [self.value(getattr(value, f)) for f in fields]}
+        self.numbers[id(value)] = len(self.alive)
+        self.alive.append(value)
+        return data
 
 
 _CLASSES: dict[str, tuple[type, tuple[str, ...] | None]] = {}
@@ -233,57 +271,68 @@ _new = object.__new__
 _set = object.__setattr__
 
 
-def _record(data: dict) -> object:
-    cls, fields = _record_class(data["~d"])
-    values = data["v"]
-    if fields is None or type(values) is not list or len(values) != len(fields):
-        raise ValueError("a record does not match its class")
-    record: object = _new(cls)
-    for field, value in zip(fields, values, strict=True):
-        _set(record, field, decode(value))
-    return record
-
-
-def _enum(data: dict) -> object:
-    cls, fields = _record_class(data["~e"])
-    if fields is not None:
-        raise ValueError("not an enum")
-    return cls(data["v"])
-
-
 def _float(text: str) -> float:
     if text not in ("nan", "inf", "-inf"):
         raise ValueError("not a float")
     return float(text)
 
 
-# tag -> how to read its value (records and enums, with two keys, are read apart)
-_TAGS: dict[str, Callable[[Any], Any]] = {
-    "~t": lambda v: tuple(decode(x) for x in v),
-    "~m": lambda v: {decode(k): decode(x) for k, x in v},
-    "~f": _float,
-    "~s": lambda v: frozenset(decode(x) for x in v),
-    "~S": lambda v: {decode(x) for x in v},
-    "~date": date.fromisoformat,
-    "~p": Path,
-}
+class _Decoder:
+    """One decoding: the records read so far, numbered as `_Encoder` numbered them."""
 
+    __slots__ = ("records", "tags")
 
-def decode(data: Any) -> Any:
-    """The value `encode` wrote (ValueError, TypeError or KeyError on anything else)."""
-    kind = type(data)
-    if kind is list:
-        return [decode(v) for v in data]
-    if kind is not dict:
-        if data is None or kind is str or kind is int or kind is float or kind is bool:
-            return data
-        raise TypeError(f"unexpected {kind.__name__}")
-    if len(data) == 2:
-        if "~d" in data:
-            return _record(data)
-        if "~e" in data:
-            return _enum(data)
-    if len(data) == 1:
-        ((tag, value),) = data.items()
-        return _TAGS[tag](value)
-    raise ValueError("unknown tag")
+    def __init__(self) -> None:
+        self.records: list[object] = []
+        # tag -> how to read its value (records and enums, with two keys, are read apart)
+        self.tags: dict[str, Callable[[Any], Any]] = {
+            "~r": self.reference,
+            "~t": lambda v: tuple(self.value(x) for x in v),
+            "~m": lambda v: {self.value(k): self.value(x) for k, x in v},
+            "~f": _float,
+            "~s": lambda v: frozenset(self.value(x) for x in v),
+            "~S": lambda v: {self.value(x) for x in v},
+            "~date": date.fromisoformat,
+            "~p": Path,
+        }
+
+    def value(self, data: Any) -> Any:
+        kind = type(data)
+        if kind is list:
+            return [self.value(v) for v in data]
+        if kind is not dict:
+            if data is None or kind is str or kind is int or kind is float or kind is bool:
+                return data
+            raise TypeError(f"unexpected {kind.__name__}")
+        if len(data) == 2:
+            if "~d" in data:
+                return self.record(data)
+            if "~e" in data:
+                return self.enum(data)
+        if len(data) == 1:
+            ((tag, value),) = data.items()
+            return self.tags[tag](value)
+        raise ValueError("unknown tag")
+
+    def reference(self, number: Any) -> object:
+        if type(number) is not int or number < 0:
+            raise ValueError("not a record number")
+        return self.records[number]
+
+    def record(self, data: dict) -> object:
+        cls, fields = _record_class(data["~d"])
+        values = data["v"]
+        if fields is None or type(values) is not list or len(values) != len(fields):
+            raise ValueError("a record does not match its class")
+        decoded = [self.value(v) for v in values]
+        record: object = _new(cls)
+        for field, value in zip(fields, decoded, strict=True):
+            _set(record, field, value)
+        self.records.append(record)
+        return record
+
+    def enum(self, data: dict) -> object:
+        cls, fields = _record_class(data["~e"])
+        if fields is not None:
+            raise ValueError("not an enum")
+        return cls(data["v"])
