@@ -180,7 +180,9 @@ def _executor(workers: int):
     from drc.cli.gcpause import pause_collection_in_worker
     from drc.pipeline import preload
     preload()  # workers forked from here start with the modules and the library loaded
-    return ProcessPoolExecutor(max_workers=workers, initializer=pause_collection_in_worker)
+    pool = ProcessPoolExecutor(max_workers=workers, initializer=pause_collection_in_worker)
+    pool.submit(int).result()  # start the workers now, before any thread (the progress bar's) runs
+    return pool
 
 
 def _audit(files: list[Path], options, args, fail_level: str):
