@@ -42,6 +42,10 @@ from drc.caching import memoized
 
 FORMAT = "drc-cache/1"
 CACHE_ENV = "DRC_CACHE_DIR"
+# The cache of one kind is pruned back to three quarters of this, least recently
+# used entries first, at most once an hour (when an entry is stored).
+MAX_CACHE_BYTES = 1 << 30
+PRUNE_EVERY_S = 3600.0
 _PACKAGE = Path(__file__).resolve().parent
 
 
@@ -119,9 +123,14 @@ def load(kind: str, key: str) -> Any | None:
         for path, digest in header.get("files", ()):
             if file_digest(path) != digest:
                 return None
-        return decode(orjson.loads(payload))
+        value = decode(orjson.loads(payload))
     except Exception:  # a damaged or foreign entry is a miss, whatever is wrong with it
         return None
+    try:
+        os.utime(_entry_path(kind, key))  # used now: pruned last
+    except OSError:
+        pass
+    return value
 
 
 def store(kind: str, key: str, value: Any, files: Iterable[str] = ()) -> bool:
@@ -143,9 +152,44 @@ def store(kind: str, key: str, value: Any, files: Iterable[str] = ()) -> bool:
         except BaseException:
             os.unlink(temp)
             raise
+        prune(kind)
         return True
     except Exception:  # best effort: a read-only or full cache folder caches nothing
         return False
+
+
+def prune(kind: str, limit: int | None = None, force: bool = False) -> None:
+    """Delete the least recently used entries of `kind` until they take at most three
+    quarters of `limit` bytes (default MAX_CACHE_BYTES); at most once per
+    PRUNE_EVERY_S unless `force`."""
+    import time
+    limit = MAX_CACHE_BYTES if limit is None else limit
+    folder = cache_folder() / kind
+    marker = folder / ".pruned"
+    try:
+        if not force and time.time() - marker.stat().st_mtime < PRUNE_EVERY_S:
+            return
+    except OSError:
+        pass
+    marker.touch()
+    entries: list[tuple[float, int, str]] = []
+    for sub in os.scandir(folder):
+        if sub.is_dir(follow_symlinks=False):
+            for entry in os.scandir(sub.path):
+                if entry.name.endswith(".json") and entry.is_file(follow_symlinks=False):
+                    info = entry.stat(follow_symlinks=False)
+                    entries.append((info.st_mtime, info.st_size, entry.path))
+    total = sum(size for _, size, _ in entries)
+    if total <= limit:
+        return
+    for _, size, path in sorted(entries):
+        if total <= limit * 3 // 4:
+            break
+        try:
+            os.unlink(path)
+            total -= size
+        except OSError:
+            pass
 
 
 # ------------------------------------------------------------------ typed JSON

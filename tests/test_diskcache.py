@@ -213,3 +213,20 @@ def test_an_included_file_turned_into_a_fifo_is_not_read_by_the_cache(cache, boa
     again = check_board(board, CACHED)
     assert len(fresh_checks) == 2
     assert again.failed and "filter.inc" in again.report.error
+
+
+def test_the_cache_is_pruned_least_recently_used_first(cache):
+    """Past the size limit, the entries used longest ago go first, down to three quarters."""
+    import os
+    for i in range(8):
+        assert diskcache.store("board", f"{i:064d}", "x" * 1000)
+    paths = sorted(cache.glob("board/*/*.json"))
+    assert len(paths) == 8
+    size = paths[0].stat().st_size
+    for i in range(8):  # entry i last used i hours after entry 0: entry 0 the oldest
+        path = cache / "board" / "00" / f"{i:064d}.json"
+        os.utime(path, (1_000_000 + 3600 * i, 1_000_000 + 3600 * i))
+    assert diskcache.load("board", f"{0:064d}") == "x" * 1000  # entry 0 used again now: kept
+    diskcache.prune("board", limit=6 * size, force=True)
+    kept = sorted(int(p.stem) for p in cache.glob("board/*/*.json"))
+    assert kept == [0, 5, 6, 7]  # at most 4.5 entries' bytes stay: 1 to 4 were used longest ago
