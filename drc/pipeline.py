@@ -25,7 +25,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from drc.analysis.results import StageResult
-from drc.caching import memoized
+from drc.caching import Memo, memoized
 from drc.checks.findings import Finding
 from drc.config.settings import Config, Waiver
 from drc.errors import DrcError
@@ -117,14 +117,29 @@ def _limit_keys() -> dict[str, str]:
     return {k.replace("_", "-"): v.unit for k, v in library().limits.items()}
 
 
+# Configs read in this process, by (resolved path, bytes' digest, rule ids, library): a
+# folder of boards shares one drc.toml, read and validated once.
+_CONFIGS: Memo[tuple, Config] = Memo("pipeline.configs", 256)
+
+
 def load_config_file(path: str | Path) -> Config:
     """Load a config, checking names against the rule catalogue and the library."""
     from drc.config import loading as loader
+    from drc.diskcache import file_digest
     lib = library()
-    config = loader.load_config(path, rule_ids=rule_ids(), limit_keys=_limit_keys(),
+    ids = rule_ids()
+    try:
+        key: tuple | None = (str(Path(path).resolve()), file_digest(path), tuple(ids), lib.fingerprint)
+    except (OSError, ValueError):
+        key = None  # the loader says what is wrong with the file
+    known = _CONFIGS.get(key) if key is not None else None
+    if known is not None:
+        return known
+    config = loader.load_config(path, rule_ids=ids, limit_keys=_limit_keys(),
                                 contact_classes=tuple(lib.contact_classes),
                                 families=_family_names(lib))
-    return replace(config, limits={k.replace("-", "_"): v for k, v in config.limits.items()})
+    config = replace(config, limits={k.replace("-", "_"): v for k, v in config.limits.items()})
+    return _CONFIGS.put(key, config) if key is not None else config
 
 
 def _family_names(lib) -> tuple[str, ...]:
