@@ -209,15 +209,22 @@ _PREFIXES = ((1e12, "T"), (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""),
              (1e-3, "m"), (1e-6, "µ"), (1e-9, "n"), (1e-12, "p"), (1e-15, "f"))
 
 
-def _three_figures(mantissa: float) -> str:
-    text = f"{mantissa:.3g}"
+def _three_figures(mantissa: float, digits: int = 3) -> str:
+    text = f"{mantissa:.{digits}g}"
     if "e" in text:  # .3g switches to exponent form at 1000 after rounding
         text = f"{mantissa:.0f}"
     return text
 
 
-def format_quantity(value: float | None, unit: str) -> str:
-    """`value` (SI) as text with an engineering prefix and three figures.
+def format_part_value(value: float | None, unit: str) -> str:
+    """A part's value as written on it, with up to four significant figures:
+    4700 Ω -> "4.7 kΩ", 4990 Ω -> "4.99 kΩ", 2215 Ω -> "2.215 kΩ" (never rounded
+    to a part that does not exist, as three figures would)."""
+    return format_quantity(value, unit, digits=4)
+
+
+def format_quantity(value: float | None, unit: str, digits: int = 3) -> str:
+    """`value` (SI) as text with an engineering prefix and three figures (`digits`).
 
     0.0118 s -> "11.8 ms", 4700 Ω -> "4.7 kΩ", 2.53 V -> "2.53 V",
     0.0004 A -> "0.4 mA". Volts and amperes between 0.1 and 1 of a prefix
@@ -230,7 +237,7 @@ def format_quantity(value: float | None, unit: str) -> str:
     if math.isinf(value):
         return ("-∞ " if value < 0 else "∞ ") + unit if unit else ("-∞" if value < 0 else "∞")
     if unit == "%":
-        return f"{_three_figures(value * 100.0)} %"
+        return f"{_three_figures(value * 100.0, digits)} %"
     if unit in ("", "1"):  # a plain ratio takes no prefix
         return f"{value:.3g}"
     if value == 0:
@@ -249,5 +256,5 @@ def format_quantity(value: float | None, unit: str) -> str:
             up_scale, up_prefix = _PREFIXES[index - 1]
             if magnitude >= 0.1 * up_scale and not (unit == "A" and up_prefix == ""):
                 scale, prefix = up_scale, up_prefix
-    text = _three_figures(value / scale)
+    text = _three_figures(value / scale, digits)
     return f"{text} {prefix}{unit}".rstrip()

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-from drc.checks.context import RuleContext, figure
+from drc.checks.context import RuleContext, part_figure, part_value_text
 from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
@@ -26,6 +26,7 @@ DOC = RuleDoc(
     fix="Write the value unambiguously: `1Meg` for 1 MΩ, `1u`/`100n` with the scale letter, `4.7k` for `4k7`.",
     failing_example=netlist("R1 written in the letter-digit code `8k2`", *debounced_stage(r1="8k2")),
     passing_example=netlist("R1 written `8.2k`", *debounced_stage()),
+    figure="value",
 )
 
 _NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?")
@@ -92,7 +93,7 @@ def _finding(ctx: RuleContext, element, problem: str):
     spice_text = fq(spice, unit) if spice is not None else "no number"
     d, text = element.designator, value.text
     if problem == "code":
-        message = (f"{d} value '{text}' is a letter-digit code: drc reads {fq(value.si, unit)}, "
+        message = (f"{d} value '{text}' is a letter-digit code: drc reads {part_value_text(value.si, unit)}, "
                    f"ngspice's default mode reads {spice_text}")
         fix = f"write {d} as {_plain(value.si, unit)}"
         severity = "note"
@@ -107,7 +108,7 @@ def _finding(ctx: RuleContext, element, problem: str):
         fix = f"write {d} with its scale letter (e.g. '1u', '100n'); a trailing F after the scale letter is fine"
         severity = "warning"
     return ctx.finding(parts=(d,), nets=tuple(element.nodes),
-                       measured=figure(spice, unit) if spice is not None else None,
+                       measured=part_figure(value.si, unit),  # the value drc reads and analyses
                        limit=None, message=message, fix=fix, severity=severity,
                        location=element.location, related=())
 

@@ -35,6 +35,7 @@ DOC = RuleDoc(
     passing_example=netlist("The same stage with 1 µF: both edges take more than 10 ms",
                             *debounced_stage()),
     limits=(MARGIN,),
+    figure="fastest crossing", bound="min",
 )
 
 

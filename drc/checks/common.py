@@ -11,7 +11,7 @@ from __future__ import annotations
 from drc.analysis.charging import charging_parts
 from drc.analysis.results import EdgeResult, StageResult
 from drc.board.stage import Capacitor, Resistor
-from drc.checks.context import quantity_text as fq
+from drc.checks.context import part_value_text
 
 # Stage kinds whose debouncing happens somewhere other than an RC at the pin.
 DEBOUNCED_ELSEWHERE = ("latch", "firmware", "dedicated")
@@ -38,11 +38,11 @@ def threshold_name(result: StageResult, edge: EdgeResult) -> str:
 
 
 def resistor_text(r: Resistor) -> str:
-    return f"{r.designator} {fq(r.ohms, 'Ω')}"
+    return f"{r.designator} {part_value_text(r.ohms, 'Ω')}"
 
 
 def capacitor_text(c: Capacitor) -> str:
-    return f"{c.designator} {fq(c.farads, 'F')}"
+    return f"{c.designator} {part_value_text(c.farads, 'F')}"
 
 
 def pull_resistors(result: StageResult) -> tuple[Resistor, ...]:

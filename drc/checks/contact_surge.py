@@ -27,6 +27,7 @@ DOC = RuleDoc(
                             *debounced_stage(extra=("C2 n1 0 10n",))),
     passing_example=netlist("The filter capacitor sits behind the 39 kΩ series resistor",
                             *debounced_stage()),
+    figure="closing peak", bound="max",
 )
 
 

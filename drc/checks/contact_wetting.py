@@ -28,6 +28,7 @@ DOC = RuleDoc(
                             *debounced_stage(contact="SNAP")),
     passing_example=netlist("A tactile switch (its class sets no wetting minimum) in the same stage",
                             *debounced_stage()),
+    figure="closed current", bound="min",
 )
 
 

@@ -20,7 +20,7 @@ from drc.caching import memoized
 from drc.checks.findings import Figure, Finding, Severity
 from drc.errors import LibraryError, SourceLocation
 from drc.netlist.elements import key
-from drc.units import format_quantity
+from drc.units import format_part_value, format_quantity
 
 
 def figure(value: float, unit: str) -> Figure:
@@ -35,6 +35,17 @@ def figure(value: float, unit: str) -> Figure:
 @memoized(50_000)
 def _figure(value: float, unit: str) -> Figure:
     return Figure(value=value, unit=unit, text=quantity_text(value, unit))
+
+
+def part_figure(value: float, unit: str) -> Figure:
+    """A part's value as a Figure, with the figures written on the part ("4.7 kΩ", "2.215 kΩ")."""
+    return Figure(value=float(value), unit=unit, text=part_value_text(value, unit))
+
+
+@memoized(50_000)
+def part_value_text(value: float, unit: str) -> str:
+    """units.format_part_value, remembered: a board repeats a few dozen values."""
+    return format_part_value(value, unit)
 
 
 def quantity_text(value: float | None, unit: str) -> str:

@@ -37,6 +37,7 @@ DOC = RuleDoc(
     passing_example=netlist("A 47 kΩ bleeder leaves the high level above 4 V",
                             "V1 vcc 0 DC 5", "R1 vcc in 6.8k", "R3 in 0 47k", "SW1 in 0 TACTILE"),
     limits=(MARGIN,),
+    figure="margin", bound="min",
 )
 
 

@@ -31,6 +31,7 @@ DOC = RuleDoc(
                             *debounced_stage(r1="3.3k")),
     passing_example=netlist("An 8.2 kΩ pull-up draws about 0.7 mA", *debounced_stage()),
     limits=(BUDGET, SHORT),
+    figure="held current", bound="max",
 )
 
 

@@ -31,6 +31,7 @@ DOC = RuleDoc(
                      "XU1 in y1 0 y2 0 y3 0 y4 0 y5 0 y6 0 vcc 74HC14\n.end\n"),
     passing_example=netlist("SW1 pulled up to the receiver's own 3.3 V",
                             "V1 vcc 0 DC 3.3", "R1 vcc in 8.2k", "SW1 in 0 TACTILE"),
+    figure="input up to", bound="max",
 )
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from drc.analysis.results import StageResult
 from drc.checks.common import contact_name
-from drc.checks.context import RuleContext, figure
+from drc.checks.context import RuleContext, figure, part_figure, part_value_text
 from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
@@ -30,6 +30,7 @@ DOC = RuleDoc(
                             *debounced_stage(r2="56k", c1="680n")),
     passing_example=netlist("39 kΩ with 1 µF", *debounced_stage()),
     limits=(LOW, HIGH),
+    figure="resistance",
 )
 
 
@@ -47,8 +48,8 @@ def check(result: StageResult, ctx: RuleContext):
         where = "below" if r.ohms < low else "above"
         yield ctx.stage_finding(
             result, parts=(r.designator,),
-            measured=figure(r.ohms, "Ω"), limit=figure(bound, "Ω"),
-            message=(f"{r.role} resistor {r.designator} {fq(r.ohms, 'Ω')} at {contact_name(result)} "
+            measured=part_figure(r.ohms, "Ω"), limit=figure(bound, "Ω"),
+            message=(f"{r.role} resistor {r.designator} {part_value_text(r.ohms, 'Ω')} at {contact_name(result)} "
                      f"is {where} the usual {window} window"),
-            fix=(f"use a {r.designator} within {window}, scaling the capacitor inversely to keep "
+            fix=(f"choose {r.designator} within {window}, scaling the capacitor inversely to keep "
                  f"the time constant"))

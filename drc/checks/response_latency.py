@@ -30,6 +30,7 @@ DOC = RuleDoc(
                             *debounced_stage(c1="4.7u")),
     passing_example=netlist("The same stage with 1 µF: under 100 ms", *debounced_stage()),
     limits=(LATENCY,),
+    figure="slowest crossing", bound="max", unmeasured="never",
 )
 
 

@@ -29,6 +29,7 @@ DOC = RuleDoc(
                             *debounced_stage(contact="RELAY"), part="74HC04"),
     passing_example=netlist("The same filter into a 74HC14 Schmitt input",
                             *debounced_stage(contact="RELAY")),
+    figure="edge rate", bound="max",
 )
 
 

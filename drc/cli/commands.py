@@ -13,7 +13,7 @@ from datetime import date
 from pathlib import Path
 
 from drc.errors import ConfigError, DrcError, ExitStatus, UsageError
-from drc.report.formats import FORMATS, ConsoleFormatter, RenderOptions, formatter
+from drc.report.formats import FORMATS, BoardOrder, ConsoleFormatter, RenderOptions, formatter
 
 # ------------------------------------------------------------------ option values
 
@@ -44,22 +44,48 @@ def _quantity(text: str, dimension: str, option: str) -> float:
 
 # ------------------------------------------------------------------ output
 
+def stdout_is_terminal() -> bool:
+    """True when standard output is a terminal (not a pipe, a file or a CI log)."""
+    try:
+        return sys.stdout.isatty()
+    except (AttributeError, ValueError):
+        return False
+
+
+def write_stdout(text: str) -> None:
+    """Write `text` to standard output as its encoding can carry it ("→" as "->" on ASCII)."""
+    from drc.report.layout import fit_encoding
+    sys.stdout.write(fit_encoding(text, getattr(sys.stdout, "encoding", None)))
+    sys.stdout.flush()
+
+
 @contextmanager
 def stdout_console():
-    """A rich Console for standard output: colour on a terminal; on a pipe or CI
-    log, plain lines without the cells' trailing padding."""
+    """A rich Console for standard output. On a terminal: colour, the terminal's width.
+    On a pipe or a CI log: plain whole lines (a log has no width), without the cells'
+    trailing padding. Either way in the output's encoding (ASCII signs where needed)."""
     from io import StringIO
 
     from rich.console import Console
-    console = Console(highlight=False)
-    if console.is_terminal:
-        yield console
+
+    from drc.report.layout import encoding_is_unicode
+    encoding = getattr(sys.stdout, "encoding", None)
+    if stdout_is_terminal():
+        console = Console(highlight=False)
+        if encoding_is_unicode(encoding):
+            yield console
+            return
+        buffer = StringIO()
+        yield Console(file=buffer, width=console.width, force_terminal=True, highlight=False,
+                      color_system="auto", no_color=console.no_color)
+        write_stdout(buffer.getvalue())
         return
     buffer = StringIO()
-    yield Console(file=buffer, width=console.width, force_terminal=False, color_system=None,
-                  highlight=False)
-    sys.stdout.write("".join(line.rstrip() + "\n" for line in buffer.getvalue().splitlines()))
-    sys.stdout.flush()
+    yield Console(file=buffer, width=WHOLE_LINES, force_terminal=False, color_system=None, highlight=False)
+    write_stdout("".join(line.rstrip() + "\n" for line in buffer.getvalue().splitlines()))
+
+
+WHOLE_LINES = 100_000  # the width of a pipe's "console": no line is ever wrapped
 
 
 # ------------------------------------------------------------------ check
@@ -217,14 +243,36 @@ def _with_written_baseline(path: str, run, inputs: list[str]):
 
 
 def _print_report(name: str, run, options: RenderOptions) -> None:
-    """The report in format `name` on standard output (in colour on a terminal if it can)."""
+    """The report in format `name` on standard output: in colour on a terminal where the
+    format can, else its plain text (whole lines for text)."""
     chosen = formatter(name)
-    if isinstance(chosen, ConsoleFormatter):
+    if isinstance(chosen, ConsoleFormatter) and stdout_is_terminal():
         with stdout_console() as console:
             chosen.print_to(console, run, options)
         return
-    sys.stdout.write(chosen.render(run, options))
-    sys.stdout.flush()
+    write_stdout(chosen.render(run, options))
+
+
+def _same_place(first, second) -> bool:
+    """True when two streams reach one place: one terminal, or one file or pipe (2>&1)."""
+    import os
+    try:
+        if first.isatty() and second.isatty():
+            return True
+        a, b = os.fstat(first.fileno()), os.fstat(second.fileno())
+    except (AttributeError, OSError, ValueError):
+        return False
+    return (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino)
+
+
+def _report_board_errors(run, report_format: str) -> None:
+    """Bad input goes to standard error whatever the format, except where the text
+    report on standard output already shows it in the same place (once, not twice)."""
+    if report_format == "text" and _same_place(sys.stdout, sys.stderr):
+        return
+    for board in run.boards:
+        if board.error:
+            sys.stderr.write(board.error.rstrip("\n") + "\n")
 
 
 def run_check(args) -> int:
@@ -245,10 +293,8 @@ def run_check(args) -> int:
     inputs += [f for b in run.boards for f in b.files]
     if args.write_baseline:
         run = _with_written_baseline(args.write_baseline, run, inputs)
-    for board in run.boards:
-        if board.error:  # bad input is reported on standard error whatever the format
-            sys.stderr.write(board.error.rstrip("\n") + "\n")
-    render = RenderOptions(quiet=args.quiet, working_dir=Path.cwd())
+    _report_board_errors(run, args.format)
+    render = RenderOptions(quiet=args.quiet, working_dir=Path.cwd(), sort=BoardOrder(args.sort))
     for fmt, file in outputs:
         write_atomic(file, formatter(fmt).render(run, render), inputs=inputs)
     _print_report(args.format, run, render)
@@ -288,7 +334,7 @@ def run_handbook(args) -> int:
     text = (f"{doc.full_text()}\n\nDefault severity: {doc.severity}\nLimits (rules/limits.toml, "
             f"overridable in [limits]): {limits}\n\nFailing example\n{_indent(doc.failing_example)}\n"
             f"Passing example\n{_indent(doc.passing_example)}")
-    sys.stdout.write(text.rstrip() + "\n")
+    write_stdout(text.rstrip() + "\n")
     return ExitStatus.OK
 
 
@@ -386,7 +432,7 @@ def run_simulate(args) -> int:
 def run_design(args) -> int:
     from drc.design.forward import DesignError, DesignRequest, design_stage
     from drc.library.catalogue import load_library
-    from drc.report.design_view import design_lines
+    from drc.report.design_view import GUIDANCE, design_lines, design_netlist
     lib = load_library()
     rail = _quantity(args.rail, "voltage", "--rail")
     if args.bounce:
@@ -417,10 +463,12 @@ def run_design(args) -> int:
         result = design_stage(request)
     except DesignError as exc:
         raise UsageError(f"drc design: {exc}") from None
+    if args.netlist:  # a netlist that reads back: whole lines, the summary as comments
+        write_stdout(design_netlist(result))
+        return ExitStatus.OK if result.ok else ExitStatus.FINDINGS
+    from drc.report.layout import plain, print_lines
+    verdict, *figures = design_lines(result)
     with stdout_console() as console:
-        for line in design_lines(result):
-            console.print(line, markup=False)
-        if args.netlist:
-            console.print(result.netlist_fragment(), markup=False, soft_wrap=True)
-        console.print("Guidance from models and typical data: verify on the real board.", style="dim")
+        print_lines(console, [plain(verdict, "bold green" if result.ok else "bold red", hang=2)]
+                    + [plain(line, hang=2) for line in figures] + [plain(GUIDANCE, "dim")])
     return ExitStatus.OK if result.ok else ExitStatus.FINDINGS

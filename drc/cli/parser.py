@@ -18,7 +18,7 @@ import sys
 from drc import __version__
 from drc.cli.gcpause import collection_paused
 from drc.errors import DrcError, ExitStatus, UsageError
-from drc.report.formats import FORMATS
+from drc.report.formats import FORMATS, BoardOrder
 
 LEVELS = ("error", "warning", "note")  # the severities, most serious first
 
@@ -59,6 +59,8 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--write-baseline", metavar="FILE", help="record this run's findings as a baseline")
     check.add_argument("--jobs", "-j", type=int, default=1, metavar="N", help="boards checked in parallel")
     check.add_argument("--quiet", "-q", action="store_true", help="only errors and the summary")
+    check.add_argument("--sort", choices=tuple(BoardOrder), default=BoardOrder.WORST.value,
+                       help="order of the table of boards: worst first (default) or by path")
     check.add_argument("--eseries", metavar="SERIES", help="series for proposed values (E12, E24, E96...)")
     check.add_argument("--no-fixes", action="store_true", help="skip the search for standard-value fixes")
     check.add_argument("--no-cache", action="store_true", help="check every board afresh: neither read nor "

@@ -161,24 +161,31 @@ class DesignResult:
         return next(c for c in self.stage.circuit.capacitors if c.designator == "C1")
 
     def netlist_fragment(self) -> str:
-        """The stage as SPICE lines, in the conventions of our examples."""
+        """The stage as SPICE lines that drc and ngspice both read: a title, the verdict as
+        a comment, the parts, and the contact as a voltage-controlled switch (held open by
+        its control source) that an annotation names a contact of its class. No `.end`:
+        a fragment to paste (`drc design --netlist` prints it as a whole netlist)."""
         r1, r2, c1 = self.pull, self.series_resistor, self.capacitor
         kind = "Schmitt" if self.schmitt else "plain"
         head = (f"* drc design: {self.topology} stage, {fq(self.rail_v, 'V')} rail, {self.family} {kind} "
-                f"input, bounce {fq(self.bounce_s, 's')}, values from {self.series}"
-                + ("" if self.ok else f"\n* NOT PASSING: {self.reason}"))
+                f"input, bounce {fq(self.bounce_s, 's')}, values from {self.series}")
+        verdict = "* passes every rule at worst case" if self.ok else f"* NOT PASSING: {self.reason}"
         model = contact_model(self.contact_class)
-        sw = f"SW1 n1 0 {model}" if self.topology == "pull-up" else f"SW1 vcc n1 {model}"
+        # The contact as a switch ngspice reads (held open by its control source); the
+        # annotation above it makes it a contact of the class asked for, to drc.
+        sw = (f"SW1 n1 0 sw1_ctl 0 {model}" if self.topology == "pull-up"
+              else f"SW1 vcc n1 sw1_ctl 0 {model}")
         r1_line = f"R1 vcc n1 {_spice(r1.ohms)}" if self.topology == "pull-up" else f"R1 n1 0 {_spice(r1.ohms)}"
         bounce = f" bounce={_spice(self.bounce_s)}s" if self.bounce_given else ""
-        return "\n".join([head, f"*@drc contact SW1 class={self.contact_class}{bounce}",
-                          f"V1 vcc 0 DC {self.rail_v:g}", r1_line, sw,
+        return "\n".join([head, verdict, f"V1 vcc 0 DC {self.rail_v:g}", r1_line,
+                          f"*@drc contact SW1 class={self.contact_class}{bounce}",
+                          sw, "Vsw1 sw1_ctl 0 DC 0", f".model {model} SW(VT=0.5 VH=0 RON=0.1 ROFF=1G)",
                           f"R2 n1 in {_spice(r2.ohms)}", f"C1 in 0 {_spice(c1.farads)}",
                           "* connect net 'in' to the receiver input"]) + "\n"
 
 
 def contact_model(contact_class: str) -> str:
-    """The switch's type name in the fragment: the class in capitals ("relay-power" ->
+    """The switch's model name in the fragment: the class in capitals ("relay-power" ->
     "RELAY_POWER"); the `*@drc contact` line above it states the class outright."""
     return contact_class.upper().replace("-", "_")
 

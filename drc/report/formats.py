@@ -16,11 +16,19 @@ from __future__ import annotations
 
 import importlib
 from dataclasses import dataclass
+from enum import StrEnum
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Protocol, runtime_checkable
 
 if TYPE_CHECKING:
     from drc.report.run_report import RunReport
+
+
+class BoardOrder(StrEnum):
+    """The order of boards in the archive views (`drc check --sort`)."""
+
+    WORST = "worst"  # not checked, then errors, then warnings, ..., then clean
+    PATH = "path"  # alphabetical (natural order of the paths)
 
 
 @dataclass(frozen=True, slots=True)
@@ -29,13 +37,13 @@ class RenderOptions:
 
     quiet: only error findings and the summary (text). working_dir: the
     folder paths are made relative to (SARIF artifact URIs); None = the
-    current folder when rendering. width: the line width of a text report
-    written to a file.
+    current folder when rendering. sort: the order of the boards in the
+    archive views (text table, HTML): "worst" first, or by "path".
     """
 
     quiet: bool = False
     working_dir: Path | None = None
-    width: int = 100
+    sort: BoardOrder = BoardOrder.WORST
 
 
 @runtime_checkable

@@ -19,9 +19,10 @@ from pathlib import Path
 from drc import __version__
 from drc.analysis.results import EDGES, StageResult
 from drc.checks.findings import SEVERITY_RANK, Finding
-from drc.report.formats import RenderOptions
-from drc.report.run_report import BoardReport, RunReport
-from drc.report.text import board_summary, figure_text, where_text
+from drc.report.formats import BoardOrder, RenderOptions
+from drc.report.layout import path_name
+from drc.report.run_report import NOT_APPLICABLE, BoardReport, BoardStatus, RunReport, times_apply
+from drc.report.text import LEGEND, board_summary, figure_text, plural, sorted_boards, where_text
 from drc.units import format_quantity
 
 TEMPLATES = Path(__file__).with_name("templates")
@@ -34,9 +35,11 @@ class _Cell:
     css: str = ""
 
 
-def _time(value: float | None) -> _Cell:
+def _time(value: float | None, applies: bool = True) -> _Cell:
     if value is None:
         return _Cell("never", "bad")
+    if not applies:  # no capacitor: the input follows the contact, a "0 s" would mislead
+        return _Cell(NOT_APPLICABLE, "muted")
     return _Cell(format_quantity(value, "s"))
 
 
@@ -69,7 +72,8 @@ def _edge_cells(result: StageResult, edge: str) -> list[_Cell]:
     er = result.edges.get(edge)
     if er is None:
         return [_Cell("—", "muted")] * 3
-    return [_time(getattr(er, f"{corner}_s")) for corner in _CORNERS]
+    applies = times_apply(result)
+    return [_time(getattr(er, f"{corner}_s"), applies) for corner in _CORNERS]
 
 
 def _receiver_text(result: StageResult) -> str:
@@ -127,7 +131,7 @@ def _stage_view(result: StageResult, anchor: str, findings: list[Finding], svg_c
     edge_notes = [e.note for e in plot.edges if e.note]
     crossings = crossing_summary(plot)
     return {
-        "anchor": anchor, "name": stage.name, "kind": stage.kind,
+        "anchor": anchor, "name": path_name(stage.contact.designator, stage.receiver.ref), "kind": stage.kind,
         "contact": stage.contact.designator, "contact_class": stage.contact.contact_class,
         "form": stage.contact.form, "bounce": format_quantity(stage.contact.bounce_s, "s"),
         "receiver": stage.receiver.ref, "part_type": stage.receiver.part_type,
@@ -137,18 +141,19 @@ def _stage_view(result: StageResult, anchor: str, findings: list[Finding], svg_c
         "thresholds": _thresholds_text(result),
         "svg": svg, "plot_note": plot.note, "edge_notes": edge_notes,
         "crossings": [(edge, crossings.get(edge, [])) for edge in EDGES],
-        "notes": list(result.notes), "status": _status(findings),
+        "notes": list(result.notes), "status": _status(findings), "times_apply": times_apply(result),
         "findings": len([f for f in findings if f.suppression is None]),
     }
 
 
 def _finding_view(finding: Finding, run: RunReport, anchors: dict) -> dict:
     doc = run.rule_doc(finding.rule)
+    measured = finding.measured.text if finding.measured else (doc.unmeasured if doc else "") or None
     return {
         "severity": finding.severity, "rule": finding.rule, "title": doc.title if doc else "",
-        "where": where_text(finding), "figures": figure_text(finding),
-        "measured": finding.measured.text if finding.measured else None,
-        "limit": finding.limit.text if finding.limit else None,
+        "where": where_text(finding), "figures": figure_text(finding, run),
+        "label": doc.figure if doc else "", "bound": doc.bound if doc else "limit",
+        "measured": measured, "limit": finding.limit.text if finding.limit else None,
         "message": finding.message, "fix": finding.fix,
         "location": str(finding.location) if finding.location else "",
         "anchor": anchors.get(_stage_key(finding.contact, finding.receiver)),
@@ -198,13 +203,47 @@ def _environment():
                               trim_blocks=True, lstrip_blocks=True, undefined=jinja2.StrictUndefined)
 
 
-def render_html(run: RunReport) -> str:
-    """The whole run as one self-contained HTML document."""
+def _archive_view(run: RunReport, order: list[BoardReport]) -> dict:
+    """The table of boards of a multi-board run, in the text report's order, with totals."""
+    rows = []
+    for index, board in enumerate(order):
+        status = board.status()
+        read = status not in (BoardStatus.NOT_READ, BoardStatus.NO_PARTS)
+        counts = board.counts()
+        margin = board.worst_margin_v()
+        rows.append({
+            "id": f"board-{index}", "path": board.path, "status": str(status),
+            "status_css": _STATUS_CSS[status], "attention": board.needs_attention(), "read": read,
+            "contacts": board.contacts, "unchecked": board.contacts_not_checked(), "stages": len(board.stages),
+            "errors": counts["error"], "warnings": counts["warning"], "notes": counts["note"],
+            "margin": _Cell(format_quantity(margin, "V"), "bad" if margin < 0 else "") if margin is not None
+            else _Cell("—", "muted")})
+    margins = [m for m in (b.worst_margin_v() for b in run.boards) if m is not None]
+    counts = run.counts()
+    total = {"boards": plural(len(run.boards), "board"), "contacts": sum(b.contacts for b in run.boards),
+             "unchecked": sum(b.contacts_not_checked() for b in run.boards),
+             "stages": sum(len(b.stages) for b in run.boards), "errors": counts["error"],
+             "warnings": counts["warning"], "notes": counts["note"],
+             "attention": sum(1 for b in run.boards if b.needs_attention()),
+             "margin": format_quantity(min(margins), "V") if margins else "—"}
+    return {"rows": rows, "total": total, "legend": LEGEND.removeprefix("! ")}
+
+
+_STATUS_CSS = {BoardStatus.NOT_READ: "sev-error", BoardStatus.NO_PARTS: "sev-error",
+               BoardStatus.NO_CONTACTS: "sev-warning", BoardStatus.ERRORS: "sev-error",
+               BoardStatus.WARNINGS: "sev-warning", BoardStatus.NOTES: "sev-note", BoardStatus.CLEAN: "sev-pass"}
+
+
+def render_html(run: RunReport, sort: BoardOrder = BoardOrder.WORST) -> str:
+    """The whole run as one self-contained HTML document (boards in `sort` order)."""
     from markupsafe import Markup
+
+    from drc.report.text import total_line
 
     env = _environment()
     svg_cache: dict = {}
-    boards = [_board_view(b, i, run, svg_cache) for i, b in enumerate(run.boards)]
+    order = sorted_boards(run, sort)
+    boards = [_board_view(b, i, run, svg_cache) for i, b in enumerate(order)]
     for board in boards:
         for stage in board["stages"]:
             stage["svg"] = Markup(stage["svg"])  # our own matplotlib output, ids already scoped
@@ -219,7 +258,8 @@ def render_html(run: RunReport) -> str:
     return env.get_template("report.html.j2").render(
         title=title, version=__version__, css=Markup(css), boards=boards, counts=counts,
         caution=run.caution, fail_level=run.fail_level, waiver_notes=list(run.waiver_notes),
-        baseline=baseline, edges=EDGES, corners=_CORNERS,
+        baseline=baseline, edges=EDGES, corners=_CORNERS, total_line=total_line(run),
+        archive=_archive_view(run, order) if len(order) > 1 else None,
     )
 
 
@@ -229,7 +269,7 @@ class HtmlFormatter:
     name = "html"
 
     def render(self, run: RunReport, options: RenderOptions) -> str:
-        return render_html(run)
+        return render_html(run, options.sort)
 
 
 __all__ = ["HtmlFormatter", "render_html", "stage_anchor"]

@@ -8,10 +8,12 @@ boards in any order give byte-identical output.
 
 from __future__ import annotations
 
+import math
 import re
 from collections import Counter
 from collections.abc import Iterable
 from dataclasses import dataclass, field
+from enum import StrEnum
 
 from drc.analysis.results import StageResult
 from drc.caching import memoized
@@ -80,10 +82,38 @@ class Inventory:
                 "rails": dict(sorted(self.rails.items())), "instances": self.instances}
 
     def text(self) -> str:
-        parts = ", ".join(f"{kind} {n}" for kind, n in sorted(self.parts.items()))
+        parts = ", ".join(f"{kind} {n}" for kind, n in sorted(self.parts.items()) if n)
+        parts = f" ({parts})" if parts else ""
         rails = ", ".join(f"{net} {volts:g} V" for net, volts in sorted(self.rails.items())) or "none"
-        return (f"{sum(self.parts.values())} parts ({parts}), {self.nets} nets, rails {rails}, "
+        return (f"{sum(self.parts.values())} parts{parts}, {self.nets} nets, rails {rails}, "
                 f"{self.instances} subcircuit instances")
+
+
+def times_apply(result: StageResult) -> bool:
+    """Whether a stage's edge times mean anything: a stage with no capacitor (pull-only,
+    latch, firmware, direct) follows its contact at once, so its "0 s" are not a
+    figure to show; reports say "n/a" (a time that never comes stays "never")."""
+    return bool(result.stage.circuit.capacitors)
+
+
+NOT_APPLICABLE = "n/a"
+
+UNCHECKED_RULE = "unchecked-input"  # the fail-closed rule: a contact the tool could not check
+
+
+class BoardStatus(StrEnum):
+    """What a board's check came to, worst first; the words the archive view prints."""
+
+    NOT_READ = "not read"  # the netlist could not be read (board.error)
+    NO_PARTS = "no parts"  # read, but it holds no element (an empty or comments-only file)
+    NO_CONTACTS = "no contacts"  # parts, but no contact: no input was checked
+    ERRORS = "errors"
+    WARNINGS = "warnings"
+    NOTES = "notes"
+    CLEAN = "clean"
+
+
+_STATUS_RANK = {status: rank for rank, status in enumerate(BoardStatus)}
 
 
 @dataclass(frozen=True, slots=True)
@@ -152,6 +182,44 @@ class BoardReport:
         out = {str(severity): counter.get(severity, 0) for severity in SEVERITIES}
         out["suppressed"] = sum(1 for f in self.findings if f.suppression is not None)
         return out
+
+    def status(self) -> BoardStatus:
+        """Not read, no parts, no contacts, else the worst active severity, else clean."""
+        if self.error:
+            return BoardStatus.NOT_READ
+        if self.inventory is not None and not sum(self.inventory.parts.values()):
+            return BoardStatus.NO_PARTS
+        counts = self.counts()
+        if counts["error"]:
+            return BoardStatus.ERRORS
+        if not self.contacts:
+            return BoardStatus.NO_CONTACTS
+        if counts["warning"]:
+            return BoardStatus.WARNINGS
+        return BoardStatus.NOTES if counts["note"] else BoardStatus.CLEAN
+
+    def contacts_not_checked(self) -> int:
+        """Contacts not checked: the survey's count, else those the fail-closed rule
+        reports (waived or not)."""
+        if self.coverage is not None:
+            return self.coverage.not_checked
+        return len({f.contact or f.receiver or f.parts for f in self.findings if f.rule == UNCHECKED_RULE})
+
+    def needs_attention(self) -> bool:
+        """Not read, nothing checked, an error, a contact not checked or a negative margin."""
+        if self.status() in (BoardStatus.NOT_READ, BoardStatus.NO_PARTS, BoardStatus.NO_CONTACTS,
+                             BoardStatus.ERRORS):
+            return True
+        margin = self.worst_margin_v()
+        return self.contacts_not_checked() > 0 or (margin is not None and margin < 0)
+
+    def worst_first_key(self) -> tuple:
+        """Archive order: not read, no parts, no contacts, errors, warnings, notes, clean;
+        within one status most errors, most warnings, smallest margin, then the path."""
+        counts = self.counts()
+        margin = self.worst_margin_v()
+        return (_STATUS_RANK[self.status()], -counts["error"], -counts["warning"],
+                margin if margin is not None else math.inf, natural_key(self.path))
 
     def worst_margin_v(self) -> float | None:
         """The smallest DC level margin over all stages (negative: fails), None if none."""

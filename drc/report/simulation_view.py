@@ -14,6 +14,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
+from drc.report.layout import path_name
 from drc.simulation.injection import SimulationResult
 from drc.units import format_quantity
 
@@ -73,9 +74,16 @@ def _model_text(result: SimulationResult) -> str:
     return text
 
 
+def stage_title(name: str) -> str:
+    """The stage's name as every screen writes it: "SW1 → U1:1" (the simulation names
+    it in ASCII, "SW1 -> U1:1", as its SPICE decks do)."""
+    contact, arrow, receiver = name.partition(" -> ")
+    return path_name(contact, receiver) if arrow else name
+
+
 def render_simulation_text(result: SimulationResult, console: Console) -> None:
     """Print the result to a rich Console: a table per actuation and a verdict."""
-    console.print(Text(f"{result.stage} ({result.kind}, {result.contact_class})", style="bold"))
+    console.print(Text(f"{stage_title(result.stage)} ({result.kind}, {result.contact_class})", style="bold"))
     if not result.simulated:
         for note in result.notes:
             console.print(Text(note, style="bold yellow"))

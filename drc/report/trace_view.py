@@ -12,30 +12,42 @@ from rich.table import Table
 from rich.text import Text
 
 from drc.board.signal_graph import signal_path
+from drc.report.layout import ARROW, path_name
+from drc.report.run_report import NOT_APPLICABLE, times_apply
+from drc.units import format_part_value
 from drc.units import format_quantity as fq
 
 
-def _t(seconds: float | None) -> str:
-    return "never" if seconds is None else fq(seconds, "s")
+def _t(seconds: float | None, applies: bool = True) -> str:
+    if seconds is None:
+        return "never"
+    return fq(seconds, "s") if applies else NOT_APPLICABLE
 
 
 def _v(volts: float | None) -> str:
     return "-" if volts is None else fq(volts, "V")
 
 
+# Who takes care of the bounce on a stage without a capacitor.
+_WHO_DEBOUNCES = {"firmware": "the firmware's debounce handles the bounce",
+                  "latch": "the latch keeps the first edge of each throw",
+                  "dedicated": "the debouncing part handles the bounce"}
+_UNFILTERED = "every bounce reaches it"
+
+
 def _parts_table(stage) -> Table:
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold", title_justify="left")
     for column in ("part", "value", "tolerance", "between", "role"):
-        table.add_column(column, overflow="fold")
+        table.add_column(column, no_wrap=column in ("part", "value", "tolerance"))
     c = stage.circuit
     for r in c.resistors:
-        table.add_row(r.designator, fq(r.ohms, "Ω"), f"-{r.tol_minus:.0%}/+{r.tol_plus:.0%}",
+        table.add_row(r.designator, format_part_value(r.ohms, "Ω"), f"-{r.tol_minus:.0%}/+{r.tol_plus:.0%}",
                       f"{r.a} – {r.b}", r.role)
     for cap in c.capacitors:
-        table.add_row(cap.designator, fq(cap.farads, "F"), f"-{cap.tol_minus:.0%}/+{cap.tol_plus:.0%}",
+        table.add_row(cap.designator, format_part_value(cap.farads, "F"), f"-{cap.tol_minus:.0%}/+{cap.tol_plus:.0%}",
                       f"{cap.a} – {cap.b}", "capacitor")
     for d in c.diodes:
-        table.add_row(d.designator, f"Vf {fq(d.forward_v, 'V')}", "", f"{d.anode} → {d.cathode}", "diode")
+        table.add_row(d.designator, f"Vf {fq(d.forward_v, 'V')}", "", f"{d.anode} {ARROW} {d.cathode}", "diode")
     for t in c.throws:
         table.add_row(stage.contact.designator, fq(t.closed_ohms, "Ω"), "", f"{t.a} – {t.b}",
                       f"closed when {t.closed_when}")
@@ -47,7 +59,7 @@ def _parts_table(stage) -> Table:
 def _levels_table(result) -> Table:
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
     for column in ("state", "reads", "nominal", "worst", "must clear", "margin", "Thevenin"):
-        table.add_column(column, overflow="fold")
+        table.add_column(column, no_wrap=column != "Thevenin")
     for state, level in result.levels.items():
         thevenin = (f"{_v(level.thevenin_v)} via {fq(level.thevenin_ohms, 'Ω')}"
                     if level.thevenin_ohms is not None else "-")
@@ -60,11 +72,12 @@ def _levels_table(result) -> Table:
 def _edges_table(result) -> Table:
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
     for column in ("edge", "direction", "threshold (nom / fast / slow)", "nominal", "fastest", "slowest"):
-        table.add_column(column, overflow="fold")
+        table.add_column(column, no_wrap=True)
+    applies = times_apply(result)
     for name, edge in result.edges.items():
         thresholds = f"{_v(edge.threshold_v)} / {_v(edge.threshold_fastest_v)} / {_v(edge.threshold_slowest_v)}"
-        table.add_row(name, edge.direction, thresholds, _t(edge.nominal_s), _t(edge.fastest_s),
-                      _t(edge.slowest_s))
+        table.add_row(name, edge.direction, thresholds, _t(edge.nominal_s, applies),
+                      _t(edge.fastest_s, applies), _t(edge.slowest_s, applies))
     return table
 
 
@@ -84,11 +97,13 @@ def print_unchecked(console, items, outcomes) -> None:
 
 
 def print_trace(console, check, results) -> None:
-    for result in results:
+    for index, result in enumerate(results):
+        if index:
+            console.print()
         stage = result.stage
         contact, receiver = stage.contact, stage.receiver
         rx = result.receiver_electrical
-        console.rule(Text(stage.name, style="bold"))
+        console.print(Text(path_name(contact.designator, receiver.ref), style="bold"))
         console.print(f"stage: [bold]{stage.kind}[/]   parts: {', '.join(stage.parts) or 'none'}")
         console.print(f"contact {contact.designator}: {contact.contact_class}, {contact.form}, bounce "
                       f"{fq(contact.bounce_s, 's')} ({contact.location})", highlight=False)
@@ -115,6 +130,10 @@ def print_trace(console, check, results) -> None:
         console.print(_levels_table(result))
         if result.edges:
             console.print(_edges_table(result))
+            if not times_apply(result):
+                console.print(f"times {NOT_APPLICABLE}: no capacitor on the path, so the input follows the "
+                              f"contact at once; {_WHO_DEBOUNCES.get(stage.kind, _UNFILTERED)}",
+                              style="dim", highlight=False)
         currents = []
         if result.pull_current_a is not None:
             currents.append(f"pull current while held {fq(result.pull_current_a, 'A')}")

@@ -10,6 +10,25 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 
 
+def console_script() -> list[str]:
+    """The installed `drc` console script beside this interpreter (what users run), else
+    the same entry point through `python -m drc.cli`."""
+    script = Path(sys.executable).parent / ("drc.exe" if os.name == "nt" else "drc")
+    return [str(script)] if script.is_file() else [sys.executable, "-m", "drc.cli"]
+
+
+def drc_script(*args: str, cwd: Path | None = None, timeout: float = 120, together: bool = False,
+               **env: str) -> subprocess.CompletedProcess:
+    """Run the console script as a pipe or a CI log sees it (no terminal, no width);
+    together: standard error into the same pipe as standard output (2>&1)."""
+    environment = dict(os.environ, NO_COLOR="1", **env)
+    environment.pop("COLUMNS", None)
+    return subprocess.run([*console_script(), *args], cwd=cwd or ROOT, env=environment,
+                          stdout=subprocess.PIPE, stderr=subprocess.STDOUT if together else subprocess.PIPE,
+                          text=True, timeout=timeout, encoding=env.get("PYTHONIOENCODING", "utf-8"),
+                          errors="replace")
+
+
 def drc(*args: str, cwd: Path | None = None, timeout: float = 120) -> subprocess.CompletedProcess:
     env = dict(os.environ, COLUMNS="100", NO_COLOR="1")
     return subprocess.run([sys.executable, "-m", "drc.cli", *args], cwd=cwd or ROOT, env=env,

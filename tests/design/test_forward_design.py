@@ -45,15 +45,17 @@ def test_plain_input_design_is_refused_honestly():
 def test_netlist_fragment_follows_our_conventions():
     d = design_stage(DesignRequest(5.0, "HC", True, 0.010, 0.100), rx=hc(), limits=LIMITS)
     lines = d.netlist_fragment().splitlines()
-    assert lines[1] == "*@drc contact SW1 class=tactile"
-    lines = lines[1:]
-    assert lines[1] == "V1 vcc 0 DC 5"
-    assert lines[3] == "SW1 n1 0 TACTILE"
-    assert lines[2].startswith("R1 vcc n1 ") and lines[4].startswith("R2 n1 in ") and lines[5].startswith("C1 in 0 ")
+    assert lines[1] == "* passes every rule at worst case"
+    assert lines[2] == "V1 vcc 0 DC 5"
+    # The contact: a switch element ngspice reads, named a contact of its class by our annotation.
+    assert lines[4] == "*@drc contact SW1 class=tactile" and lines[5] == "SW1 n1 0 sw1_ctl 0 TACTILE"
+    r1, r2, c1 = (next(line for line in lines if line.startswith(p)) for p in ("R1 ", "R2 ", "C1 "))
+    assert r1.startswith("R1 vcc n1 ") and r2.startswith("R2 n1 in ") and c1.startswith("C1 in 0 ")
+    assert ".end" not in lines  # a fragment: `drc design --netlist` ends the whole netlist
     from drc.netlist.values import parse_value
-    assert parse_value(lines[2].split()[3]).si == pytest.approx(d.pull.ohms)
-    assert parse_value(lines[5].split()[3]).si == pytest.approx(d.capacitor.farads)
-    assert not parse_value(lines[2].split()[3]).differs_from_spice
+    assert parse_value(r1.split()[3]).si == pytest.approx(d.pull.ohms)
+    assert parse_value(c1.split()[3]).si == pytest.approx(d.capacitor.farads)
+    assert not parse_value(r1.split()[3]).differs_from_spice
 
 
 @pytest.mark.parametrize("contact_class", ["tactile", "reed", "relay-power", "toggle"])

@@ -23,14 +23,14 @@ def test_every_format_is_a_formatter_found_by_name(name, tmp_path):
     assert isinstance(text, str) and run.boards[0].path in text
 
 
-def test_text_prints_to_a_console_what_it_renders():
+def test_text_prints_to_a_wide_console_what_it_renders():
     text = formatter("text")
     assert isinstance(text, ConsoleFormatter)
     run = run_report([board_report(findings=sample_findings())])
     buffer = io.StringIO()
-    text.print_to(Console(file=buffer, width=100, color_system=None), run, RenderOptions())
+    text.print_to(Console(file=buffer, width=1000, color_system=None), run, RenderOptions())
     assert [line.rstrip() for line in buffer.getvalue().splitlines()] == \
-        text.render(run, RenderOptions(width=100)).splitlines()
+        text.render(run, RenderOptions()).splitlines()
 
 
 def test_an_unknown_format_is_a_key_error():

@@ -95,3 +95,41 @@ def test_screenshot(page, tmp_path):
     assert (width, height) == (1200, 2400)
     shutil.copyfile(shot, SCREENSHOT)
 
+
+
+# Measures, after layout, whether each table fits its box: the report has no script, so the
+# test adds this one to a copy of the page and reads its answer from the DOM Chromium dumps.
+_MEASURE = """<script>
+window.addEventListener('load', () => {
+  const out = [...document.querySelectorAll('.table-wrap')].map(wrap => {
+    const cells = wrap.querySelectorAll('tbody tr > :last-child');
+    const right = Math.max(0, ...[...cells].map(c => c.getBoundingClientRect().right));
+    return {table: wrap.querySelector('table').className, box: wrap.clientWidth, content: wrap.scrollWidth,
+            right: right, edge: wrap.getBoundingClientRect().right};
+  });
+  const pre = document.createElement('pre');
+  pre.id = 'drc-measure';
+  pre.textContent = JSON.stringify(out);
+  document.body.appendChild(pre);
+});
+</script>"""
+
+
+def test_tables_fit_at_1200_px(tmp_path):
+    """At a 1200 px window every table fits its box: no sideways scroll, the last column
+    (status, board) visible. The widest demo board is the dimmer rack (7 stages)."""
+    import json
+
+    from tests.report.html_demo import ALL
+    browser = _browser()
+    page = tmp_path / "all.html"
+    page.write_text(render_html(run_report(*ALL)).replace("</body>", _MEASURE + "</body>"), encoding="utf-8")
+    proc = _run(browser, tmp_path / "profile", "--window-size=1200,900", "--virtual-time-budget=5000",
+                "--dump-dom", page.as_uri())
+    match = re.search(r'<pre id="drc-measure">([^<]*)</pre>', proc.stdout)
+    assert match, proc.stderr[-2000:]
+    tables = json.loads(match.group(1).replace("&quot;", '"'))
+    assert [t["table"] for t in tables].count("paths") == len(ALL) and "archive" in [t["table"] for t in tables]
+    for table in tables:
+        assert table["content"] <= table["box"], table
+        assert table["right"] <= table["edge"] + 0.5, table

@@ -1,0 +1,176 @@
+"""What a person reads, through the installed console script as a pipe or a CI log sees it.
+
+Outside references: the IEC 60062 letter code (from memory: the letter stands
+for the decimal point, so `4k7` is 4.7 kΩ and `4u7` 4.7 µF); ngspice (Debian
+package) reading back the netlist `drc design --netlist` prints; the JSON
+report of the same run for the exact text of every finding.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from pathlib import Path
+
+import pytest
+
+from tests.cli.helpers import CLEAN, ROOT, drc_script
+from tests.support.ngspice import run_deck
+
+BOARDS = ROOT / "boards" / "lx24"
+UNIT = re.compile(r"^(?:[TGMkmµnpf]?(?:Ω|F|V|A|s)(?:/V)?|%)(?![A-Za-z])")
+
+
+def test_piped_report_prints_each_finding_whole():
+    text = drc_script("check", str(BOARDS), "--no-fixes")
+    data = json.loads(drc_script("check", str(BOARDS), "--no-fixes", "--format", "json").stdout)
+    assert text.returncode == 1 and "Traceback" not in text.stderr
+    lines = [line.strip() for line in text.stdout.splitlines()]
+    findings = [f for board in data["boards"] for f in board["findings"] if not f.get("suppression")]
+    assert findings
+    for f in findings:
+        # The message, the fix and the contact → receiver each sit whole on one line.
+        assert f["message"] in lines, f["message"]
+        assert f"fix: {f['fix']}" in lines, f["fix"]
+        if f["contact"] and f["receiver"]:
+            assert any(f"{f['contact']} → {f['receiver']}" in line for line in lines)
+    # No line ends in a number whose unit went to the next line.
+    for line, following in zip(lines, lines[1:], strict=False):
+        assert not (re.search(r"\d$", line) and UNIT.match(following)), (line, following)
+
+
+def test_headline_says_margin():
+    text = drc_script("check", str(BOARDS / "dimmer_rack.cir"), "--no-fixes").stdout
+    # With SW10 released the worst level is 3.4 V on the wrong side of VIL (the board's comments).
+    assert re.search(r"leakage-headroom +SW10 → U10:1  margin -3\.4 V \(min 0\.4 V\)", text), text
+
+
+def test_letter_digit_code_prints_the_value_meant(tmp_path: Path):
+    board = tmp_path / "code.cir"
+    board.write_text(CLEAN.replace("R1 vcc n1 10k", "R1 vcc n1 4k7").replace("C1 in 0 1.2u", "C1 in 0 1u2"))
+    (tmp_path / ".git").mkdir()
+    text = drc_script("check", str(board), "--no-fixes").stdout
+    assert re.search(r"ambiguous-value +R1  value 4\.7 kΩ$", text, re.MULTILINE), text
+    assert re.search(r"ambiguous-value +C1  value 1\.2 µF$", text, re.MULTILINE), text
+    data = json.loads(drc_script("check", str(board), "--no-fixes", "--format", "json").stdout)
+    measured = {f["parts"][0]: f["measured"]["text"] for f in data["boards"][0]["findings"]
+                if f["rule"] == "ambiguous-value"}
+    assert measured == {"R1": "4.7 kΩ", "C1": "1.2 µF"}
+    page = drc_script("check", str(board), "--no-fixes", "--format", "html").stdout
+    assert '<span class="measured">4.7 kΩ</span>' in page and '<span class="measured">4 kΩ</span>' not in page
+
+
+def _table_rows(report: str) -> list[str]:
+    """The archive table's board rows (after its header line, before the total)."""
+    lines = report.splitlines()
+    start = next(i for i, line in enumerate(lines) if line.split()[:2] == ["status", "contacts"])
+    return [line for line in lines[start:] if line.rstrip().endswith(".cir")]
+
+
+def _archive(tmp_path: Path) -> Path:
+    folder = tmp_path / "archive"
+    folder.mkdir()
+    (tmp_path / ".git").mkdir()
+    (folder / "a_good.cir").write_text(CLEAN)
+    (folder / "b_unreadable.cir").write_text("panel\nR1 a b 10k\nR2 a b\n.end\n")
+    (folder / "c_empty.cir").write_text("")
+    (folder / "d_comments.cir").write_text("* exported header only\n* nothing else\n")
+    return folder
+
+
+def test_archive_counts_boards_it_could_not_read_or_that_hold_nothing(tmp_path: Path):
+    proc = drc_script("check", str(_archive(tmp_path)), "--no-fixes")
+    assert proc.returncode == 2  # an unreadable board is bad input
+    out = proc.stdout
+    assert "4 boards, 1 checked, 1 not read, 2 with no parts: 0 errors, 0 warnings, 0 notes" in out
+    rows = _table_rows(out)
+    order = [row.split()[-1].rsplit("/", 1)[-1] for row in rows]
+    # Worst first: not read, then boards with nothing checked, then the clean one.
+    assert order == ["b_unreadable.cir", "c_empty.cir", "d_comments.cir", "a_good.cir"]
+    assert rows[0].startswith("! not read") and rows[1].startswith("! no parts") and "clean" in rows[3]
+    total = next(line for line in out.splitlines() if line.lstrip().startswith("total"))
+    assert "4 boards, 3 need attention" in total
+    by_path = drc_script("check", str(tmp_path / "archive"), "--no-fixes", "--sort", "path").stdout
+    rows = [line.split()[-1].rsplit("/", 1)[-1] for line in _table_rows(by_path)]
+    assert rows == sorted(rows)
+
+
+def test_bad_input_message_appears_once_where_streams_meet(tmp_path: Path):
+    bad = tmp_path / "bad.cir"
+    (tmp_path / ".git").mkdir()
+    bad.write_text("panel\nR1 a b 10k\nR2 a b\n.end\n")
+    together = drc_script("check", str(bad), together=True)
+    assert together.returncode == 2
+    assert together.stdout.count("R2: missing value") == 1, together.stdout
+    apart = drc_script("check", str(bad))
+    assert apart.stderr.count("R2: missing value") == 1 and apart.stdout.count("R2: missing value") == 1
+
+
+def test_one_arrow_in_every_screen():
+    board = str(BOARDS / "front_panel.cir")
+    screens = {
+        "check": drc_script("check", board, "--no-fixes").stdout,
+        "trace": drc_script("trace", board, "SW3").stdout,
+        "simulate": drc_script("simulate", board, "SW3", "--trials", "20").stdout,
+        "html": drc_script("check", board, "--no-fixes", "--format", "html").stdout,
+    }
+    for name, text in screens.items():
+        assert "SW3 → U1:5" in text, name
+        assert "SW3 -> U1:5" not in text and "SW3 -&gt; U1:5" not in text, name
+
+
+def test_ascii_output_gets_the_ascii_arrow():
+    board = str(BOARDS / "front_panel.cir")
+    for args in (("check", board, "--no-fixes"), ("trace", board, "SW3")):
+        proc = drc_script(*args, PYTHONIOENCODING="ascii")
+        assert "SW3 -> U1:5" in proc.stdout and "Traceback" not in proc.stderr, proc.stderr
+        assert proc.stdout.isascii()
+        assert "internal error" not in proc.stderr
+
+
+def test_times_that_do_not_apply_say_so():
+    board = str(BOARDS / "footswitch_unit.cir")
+    trace = drc_script("trace", board, "U9").stdout  # firmware and pull-only stages: no capacitor
+    edge_rows = [line.split() for line in trace.splitlines() if line.split()[:1] in (["press"], ["release"])]
+    assert edge_rows and all(row[-3:] == ["n/a", "n/a", "n/a"] for row in edge_rows), trace
+    assert " 0 s" not in trace
+    page = drc_script("check", board, "--no-fixes", "--format", "html").stdout
+    assert '<td data-label="press fastest" class="num muted">n/a</td>' in page
+
+
+def test_design_leads_with_the_verdict():
+    passing = drc_script("design", "--rail", "5V", "--family", "HC", "--contact", "tactile")
+    assert passing.returncode == 0 and passing.stdout.splitlines()[0] == "passes every rule at worst case"
+    failing = drc_script("design", "--rail", "5V", "--family", "HC", "--plain", "--contact", "tactile")
+    assert failing.returncode == 1 and failing.stdout.startswith("NOT PASSING: ")
+
+
+def test_design_netlist_reads_back(tmp_path: Path):
+    proc = drc_script("design", "--rail", "5V", "--family", "HC", "--contact", "tactile", "--netlist")
+    assert proc.returncode == 0 and proc.stderr == ""
+    netlist = proc.stdout
+    assert all(line.startswith(("*", ".")) or line.split()[0][0] in "RCVS" for line in netlist.splitlines())
+    # Our reader: the designed stage, with a receiver on net 'in', is one clean rc-schmitt stage.
+    (tmp_path / ".git").mkdir()
+    board = tmp_path / "designed.cir"
+    board.write_text(netlist.replace(".end\n", "XU1 in out 0 0 0 0 0 0 0 0 0 0 0 vcc 74HC14\n.end\n"))
+    check = json.loads(drc_script("check", str(board), "--format", "json").stdout)["boards"][0]
+    assert check["error"] is None
+    assert [s["kind"] for s in check["stages"]] == ["rc-schmitt"]
+    assert [f["rule"] for f in check["findings"]] == []
+    # ngspice: the same text parses with no error (listing and equation count before any analysis).
+    ngspice = run_deck(netlist.replace(".end\n", ".control\nlisting expand\nrusage equations\nquit\n.endc\n.end\n"))
+    output = ngspice.stdout + ngspice.stderr
+    assert ngspice.returncode == 0 and "error" not in output.lower(), output[-2000:]
+    # Before any analysis, the equation count is the distinct nodes with ground: 0 vcc n1 sw1_ctl in.
+    assert re.search(r"Circuit Equations = 5\b", output), output[-2000:]
+    for part in ("r1 vcc n1", "r2 n1 in", "c1 in 0", "sw1 n1 0 sw1_ctl 0 tactile"):
+        assert part in output.lower(), part
+
+
+@pytest.mark.parametrize("rule_fix", ["resistance-range"])
+def test_fix_wording_has_no_article_before_a_designator(rule_fix):
+    from drc.checks import all_rules
+    assert rule_fix in {r.id for r in all_rules()}
+    text = drc_script("check", str(BOARDS / "dimmer_rack.cir"), "--no-fixes").stdout
+    assert "use a R" not in text and "choose R20 within 1 kΩ-50 kΩ" in text
