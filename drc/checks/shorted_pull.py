@@ -32,6 +32,7 @@ DOC = RuleDoc(
     passing_example=netlist("An 8.2 kΩ pull-up: under a milliampere while SW1 is held",
                             *debounced_stage()),
     limits=(SHORT,),
+    figure="closed current", bound="limit",
 )
 
 
