@@ -17,6 +17,7 @@ picklable so a worker process can send it back: the board's `BoardReport`
 
 from __future__ import annotations
 
+import os
 from collections import Counter
 from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field, replace
@@ -84,6 +85,7 @@ class CheckedBoard:
     files: tuple[str, ...] = ()
     reader_diagnostics: tuple = ()
     survey: Survey | None = None  # what became of every contact (drc/board/coverage.py)
+    config_diagnostics: tuple = ()  # config entries that override a part number in the netlist
 
 
 # What checking a board imports, beyond this module: `preload` imports it ahead.
@@ -234,10 +236,13 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     and waivers applied."""
     from drc.board.classify import classify
     from drc.board.coverage import survey_board
+    from drc.board.overrides import override_warnings
     from drc.checks import run_rules
     from drc.config.annotations import read_annotations
+    from drc.config.scope import for_board
     from drc.gate.decision import judge_board
     lib = library()
+    config = for_board(config, path)  # entries scoped to other boards left out
     annotations = read_annotations(netlist.annotation_lines) if netlist.annotation_lines else None
     if annotations and annotations.contacts:
         config = replace(config, contacts=tuple(config.contacts) + tuple(annotations.contacts))
@@ -257,7 +262,8 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     return CheckedBoard(path=path, board=board, results=results, findings=list(judged.findings),
                         config=config, waiver_outcome=judged.waiver_outcome,
                         annotation_notes=judged.annotation_notes, files=tuple(netlist.files),
-                        reader_diagnostics=tuple(netlist.diagnostics), survey=survey)
+                        reader_diagnostics=tuple(netlist.diagnostics), survey=survey,
+                        config_diagnostics=tuple(override_warnings(netlist, lib, config)))
 
 
 def read_board(path: str, config: Config, options: CheckOptions):
@@ -281,7 +287,7 @@ def board_report(check: CheckedBoard) -> BoardReport:
     kinds: Counter[str] = Counter(r.stage.kind for r in check.results)
     coverage = contact_coverage(check.survey) if check.survey is not None else None
     seen: dict[str, None] = {}
-    for d in (*check.reader_diagnostics, *getattr(board, "diagnostics", ())):
+    for d in (*check.reader_diagnostics, *check.config_diagnostics, *getattr(board, "diagnostics", ())):
         seen.setdefault(f"{d.location}: {d.message}")
     return BoardReport(path=check.path, stages=tuple(check.results), findings=tuple(check.findings),
                        contacts=len(board.contacts), stage_kinds=dict(kinds),
@@ -405,6 +411,26 @@ def check_netlist_text(text: str, path: str = "<example>", config: Config | None
     return check.board, check.results, check.findings
 
 
+def boards_reading(changed: Iterable[str | Path], under: str | Path = ".",
+                   options: CheckOptions = CheckOptions()) -> list[Path]:
+    """The boards under `under` that read one of the `changed` files (the board itself or
+    any file it includes, at any depth), in path order: what a change to those files
+    must re-check. A board that cannot be read is left out (its own check reports it)."""
+    wanted = {os.path.realpath(p) for p in changed}
+    out: list[Path] = []
+    for board in board_files([under]):
+        if os.path.realpath(board) in wanted:
+            out.append(board)
+            continue
+        try:
+            netlist = read_board(str(board), find_config(str(board), options), options)
+        except (DrcError, OSError):
+            continue
+        if any(os.path.realpath(f) in wanted for f in netlist.files):
+            out.append(board)
+    return out
+
+
 def board_files(paths: Iterable[str | Path]) -> list[Path]:
     """Expand folders (recursively) into the netlist files they hold; files as given."""
     out: list[Path] = []
@@ -439,12 +465,13 @@ def audit(paths: Iterable[str | Path], options: CheckOptions = CheckOptions(), *
     notes += run_waiver_notes(((s.waivers, s.waiver_outcome) for s in summaries),
                               options.today or date.today())
     reports = [s.report for s in summaries]
-    baseline_info, fixed = None, ()
+    baseline_info, fixed, waived = None, (), ()
     if baseline_path:
-        reports, baseline_info, fixed = _apply_baseline(reports, baseline_path)
+        reports, baseline_info, fixed, waived = _apply_baseline(reports, baseline_path)
     docs = tuple(r.doc for r in all_rules())
     return RunReport(boards=tuple(reports), rule_docs=docs, fail_level=fail_level,
-                     waiver_notes=tuple(notes), baseline=baseline_info, fixed=tuple(fixed))
+                     waiver_notes=tuple(notes), baseline=baseline_info, fixed=tuple(fixed),
+                     baseline_waived=tuple(waived))
 
 
 def check_boards(paths: list[str], options: CheckOptions = CheckOptions()) -> list[BoardSummary]:
@@ -518,9 +545,9 @@ def _check_boards(files: list[str], options: CheckOptions, executor: Executor | 
 
 
 def _apply_baseline(reports: list[BoardReport], baseline_path: str
-                    ) -> tuple[list[BoardReport], BaselineInfo, tuple]:
+                    ) -> tuple[list[BoardReport], BaselineInfo, tuple, tuple]:
     """The reports with the baseline's decisions applied (boards that failed stay as
-    they are), the baseline's tally and its fixed entries."""
+    they are), the baseline's tally, its fixed entries (gone) and its waived ones."""
     from drc.gate.baseline import load_baseline
     from drc.gate.decision import judge_against_baseline
     from drc.report.run_report import BaselineInfo
@@ -528,4 +555,5 @@ def _apply_baseline(reports: list[BoardReport], baseline_path: str
                                     load_baseline(baseline_path))
     marked = iter(judged.findings)
     out = [r if r.error else replace(r, findings=next(marked)) for r in reports]
-    return out, BaselineInfo(path=baseline_path, matched=judged.matched, new=judged.new), judged.fixed
+    info = BaselineInfo(path=baseline_path, matched=judged.matched, new=judged.new, waived=len(judged.waived))
+    return out, info, judged.fixed, judged.waived

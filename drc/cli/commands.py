@@ -173,6 +173,13 @@ def _board_files(paths: list[str]) -> list[Path]:
     return files
 
 
+def _changed_boards(paths: list[str], options) -> list[Path]:
+    """The boards a change to `paths` must re-check: the netlists among them and every
+    board under the current folder that includes one of them (at any depth)."""
+    from drc.pipeline import boards_reading
+    return boards_reading([p for p in paths if Path(p).is_file()], ".", options)
+
+
 def processors() -> int:
     """The processors this process may run on."""
     import os
@@ -231,15 +238,28 @@ def _audit(files: list[Path], options, args, fail_level: str):
             executor.shutdown(cancel_futures=True)
 
 
-def _with_written_baseline(path: str, run, inputs: list[str]):
-    """Write the run's baseline to `path`; the run, saying so."""
+def _write_baseline(path: str, run, inputs: list[str]):
+    """Write the run's baseline to `path`; the run saying so, and the number recorded."""
     from dataclasses import replace
 
     from drc.gate.baseline import write_baseline
     from drc.report.run_report import BaselineInfo
-    write_baseline(path, run, inputs=inputs)
-    active = sum(1 for f in run.findings() if f.suppression is None)
-    return replace(run, baseline=BaselineInfo(path, matched=0, new=active, written=True))
+    recorded = write_baseline(path, run, inputs=inputs)
+    return replace(run, baseline=BaselineInfo(path, matched=0, new=recorded, written=True)), recorded
+
+
+def _baseline_line(path: str, run, recorded: int) -> str:
+    """The one line `--write-baseline` prints: what it recorded, and what it left out."""
+    from drc.report.text import plural
+    boards = [b for b in run.boards if not b.error]
+    text = f"baseline {path} written: {plural(recorded, 'finding')} recorded from {plural(len(boards), 'board')}"
+    waived = sum(1 for f in run.findings() if f.suppression is not None)
+    unread = len(run.boards) - len(boards)
+    if waived:
+        text += f"; {waived} waived or annotated finding{'s' if waived != 1 else ''} left out"
+    if unread:
+        text += f"; {plural(unread, 'board')} could not be read and {'is' if unread == 1 else 'are'} not in it"
+    return text + "\n"
 
 
 def _print_report(name: str, run, options: RenderOptions) -> None:
@@ -265,7 +285,7 @@ def _same_place(first, second) -> bool:
     return (a.st_dev, a.st_ino) == (b.st_dev, b.st_ino)
 
 
-def _report_board_errors(run, report_format: str) -> None:
+def _report_board_errors(run, report_format: str | None) -> None:
     """Bad input goes to standard error whatever the format, except where the text
     report on standard output already shows it in the same place (once, not twice)."""
     if report_format == "text" and _same_place(sys.stdout, sys.stderr):
@@ -281,7 +301,11 @@ def run_check(args) -> int:
     from drc.pipeline import rule_ids
     options = _check_options(args)
     outputs = _outputs(args.output)
-    files = _board_files(args.paths)
+    files = _changed_boards(args.paths, options) if args.changed else _board_files(args.paths)
+    if not files:  # --changed: no board reads any of the changed files
+        write_stdout(f"no board under this folder reads the {len(args.paths)} changed file"
+                     f"{'s' if len(args.paths) != 1 else ''}; nothing to check\n")
+        return ExitStatus.OK
     inputs = [str(f) for f in files] + ([args.config] if args.config else [])
     if args.baseline:
         inputs.append(args.baseline)
@@ -291,10 +315,15 @@ def run_check(args) -> int:
     # Nothing a board was read from (config found by discovery, included files) may be overwritten.
     inputs += [b.config_path for b in run.boards if b.config_path]
     inputs += [f for b in run.boards for f in b.files]
-    if args.write_baseline:
-        run = _with_written_baseline(args.write_baseline, run, inputs)
-    _report_board_errors(run, args.format)
     render = RenderOptions(quiet=args.quiet, working_dir=Path.cwd(), sort=BoardOrder(args.sort))
+    if args.write_baseline:  # a successful act: one line, exit 0 (2 if a board could not be read)
+        run, recorded = _write_baseline(args.write_baseline, run, inputs)
+        _report_board_errors(run, None)
+        for fmt, file in outputs:
+            write_atomic(file, formatter(fmt).render(run, render), inputs=inputs)
+        write_stdout(_baseline_line(args.write_baseline, run, recorded))
+        return ExitStatus.ERROR if any(b.error for b in run.boards) else ExitStatus.OK
+    _report_board_errors(run, args.format)
     for fmt, file in outputs:
         write_atomic(file, formatter(fmt).render(run, render), inputs=inputs)
     _print_report(args.format, run, render)

@@ -40,6 +40,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     check = sub.add_parser("check", help="check boards (files or folders)")
     check.add_argument("paths", nargs="+", metavar="PATH")
+    check.add_argument("--changed", action="store_true",
+                       help="the PATHs are changed files (a commit's): check the netlists among them and "
+                            "every board under the current folder that includes one of them")
     check.add_argument("--format", choices=FORMATS, default="text",
                        help="what to print on standard output (default: text)")
     check.add_argument("--output", "-o", action="append", default=[], metavar="FORMAT:FILE",

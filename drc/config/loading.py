@@ -32,6 +32,9 @@ voltages, resistances and fractions may also be plain numbers in V, Ω and ratio
     class = "tactile"             # a class of rules/contacts.toml
     bounce = "10 ms"              # optional, overrides the class
     form = "SPST-NO"              # optional: SPST-NO | SPST-NC | SPDT
+    board = "panels/*.cir"        # optional: the boards it applies to (a glob or a list of
+                                  # globs, relative to this file's folder); also in [[parts]]
+                                  # and [[mcu]]. Without it an entry applies to every board.
 
     [[parts]]                     # logic parts the library cannot name
     designator = "U7"
@@ -64,7 +67,8 @@ voltages, resistances and fractions may also be plain numbers in V, Ω and ratio
 
     [[waivers]]                   # accepted findings
     rule = "pullup-waste"
-    parts = ["SW3", "R1*"]        # designator globs; every one must match the finding
+    parts-all = ["SW3", "R1*"]    # designator globs that must all be in one finding, or
+                                  # parts-any = ["SW1", "SW4"]: any finding with one of them
     reason = "battery-free bench unit"
     author = "A. Designer"
     expires = 2026-06-30          # TOML date or "YYYY-MM-DD"; unreadable counts as expired
@@ -92,6 +96,7 @@ from drc.config.settings import (
     McuConfig,
     McuPinConfig,
     PartConfig,
+    PartsMatch,
     PullChoice,
     RailConfig,
     Tolerances,
@@ -114,12 +119,16 @@ _TOP_KEYS = ("fail-level", "default-bounce", "eseries", "only-rules", "skip-rule
              "tolerances", "rails", "contacts", "parts", "mcu", "limits", "severity", "waivers")
 _TOLERANCE_KEYS = ("resistor", "capacitor", "rail")
 _RAIL_KEYS = ("net", "voltage", "tolerance")
-_CONTACT_KEYS = ("designator", "class", "bounce", "form")
-_PART_KEYS = ("designator", "part-number", "family", "pins")
-_MCU_KEYS = ("designator", "family", "supply", "supply-pins", "ground-pins", "pins")
+_CONTACT_KEYS = ("designator", "class", "bounce", "form", "board")
+_PART_KEYS = ("designator", "part-number", "family", "pins", "board")
+_MCU_KEYS = ("designator", "family", "supply", "supply-pins", "ground-pins", "pins", "board")
 _PIN_KEYS = ("pin", "family", "schmitt", "pull", "pull-min", "pull-max", "debounce", "supply",
              "edge-sensitive")
-_WAIVER_KEYS = ("rule", "parts", "reason", "author", "expires", "board")
+_WAIVER_KEYS = ("rule", "parts-any", "parts-all", "reason", "author", "expires", "board")
+_PARTS_KEYS = {"parts-any": PartsMatch.ANY, "parts-all": PartsMatch.ALL}
+_OLD_PARTS = ("'parts' does not say whether it means any or all of its designators: write "
+              "parts-any = [...] to waive each finding that involves one of them, or "
+              "parts-all = [...] to waive only a finding that involves every one")
 
 KeyPath = tuple[str | int, ...]
 
@@ -367,8 +376,19 @@ def _contacts(r: _ConfigReader, value: Any, classes: tuple[str, ...] | None) -> 
         form = r.string(t["form"], p + ("form",), CONTACT_FORMS, what="contact form") if "form" in t else None
         if cls is None and bounce is None and form is None:
             raise r.error(p, "a contact entry needs at least one of 'class', 'bounce', 'form'")
-        out.append(ContactConfig(pattern=pattern, contact_class=cls, bounce_s=bounce, form=form))
+        out.append(ContactConfig(pattern=pattern, contact_class=cls, bounce_s=bounce, form=form,
+                                 boards=_boards(r, t, p), origin=str(r.location(p))))
     return tuple(out)
+
+
+def _boards(r: _ConfigReader, t: dict, p: KeyPath) -> tuple[str, ...] | None:
+    """An entry's `board`: one board path glob or a list of them (None: every board)."""
+    if "board" not in t:
+        return None
+    value = t["board"]
+    if isinstance(value, str):
+        return (r.string(value, p + ("board",)),)
+    return r.strings(value, p + ("board",), non_empty=True)
 
 
 def _parts(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tuple[PartConfig, ...]:
@@ -382,7 +402,8 @@ def _parts(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tu
         pins = r.strings(t["pins"], p + ("pins",), non_empty=True) if "pins" in t else None
         if number is None and family is None and pins is None:
             raise r.error(p, "a part entry needs 'part-number', 'family' or 'pins'")
-        out.append(PartConfig(pattern=pattern, part_number=number, family=family, pins=pins))
+        out.append(PartConfig(pattern=pattern, part_number=number, family=family, pins=pins,
+                              boards=_boards(r, t, p), origin=str(r.location(p))))
     return tuple(out)
 
 
@@ -430,6 +451,7 @@ def _mcus(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tup
             part=part, family=family, supply_v=supply, pins=tuple(pins),
             supply_pins=r.integers(t["supply-pins"], p + ("supply-pins",)) if "supply-pins" in t else (),
             ground_pins=r.integers(t["ground-pins"], p + ("ground-pins",)) if "ground-pins" in t else (),
+            boards=_boards(r, t, p), origin=str(r.location(p)),
         ))
     return tuple(out)
 
@@ -488,16 +510,23 @@ def read_date(value: Any) -> date | None:
 
 def _waivers(r: _ConfigReader, value: Any, rule_ids: tuple[str, ...] | None) -> tuple[Waiver, ...]:
     out = []
+    for i, raw in enumerate(value if isinstance(value, list) else ()):
+        if isinstance(raw, dict) and "parts" in raw:  # the old, ambiguous key: say what to write
+            raise r.error(("waivers", i, "parts"), _OLD_PARTS)
     for i, t in enumerate(r.tables(value, ("waivers",), _WAIVER_KEYS)):
         p = ("waivers", i)
         rule = r.string(r.require(t, p, "rule"), p + ("rule",))
+        given = [key for key in _PARTS_KEYS if key in t]
+        if len(given) != 1:
+            raise r.error(p, "a waiver needs exactly one of 'parts-any' (any one of the designators) "
+                             "and 'parts-all' (every designator in the one finding)")
         if rule_ids is not None and rule not in rule_ids:
             raise r.error(p + ("rule",), unknown_name_message("rule id", rule, rule_ids))
         expires_raw = r.require(t, p, "expires")
         location = r.location(p)
         out.append(Waiver(
             rule=rule,
-            parts=r.strings(r.require(t, p, "parts"), p + ("parts",), non_empty=True),
+            parts=r.strings(t[given[0]], p + (given[0],), non_empty=True), match=_PARTS_KEYS[given[0]],
             reason=r.string(r.require(t, p, "reason"), p + ("reason",)),
             author=r.string(r.require(t, p, "author"), p + ("author",)),
             expires=read_date(expires_raw),  # unreadable -> None -> counts as expired

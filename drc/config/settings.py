@@ -8,6 +8,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import date
+from enum import StrEnum
 from typing import Literal
 
 # Where a pin's internal resistor pulls it.
@@ -27,6 +28,8 @@ class ContactConfig:
     contact_class: str | None = None
     bounce_s: float | None = None
     form: str | None = None
+    boards: tuple[str, ...] | None = None  # board path globs it applies to; None = every board
+    origin: str | None = None  # where it was written: file:line
 
 
 @dataclass(frozen=True, slots=True)
@@ -39,6 +42,8 @@ class PartConfig:
     # Pin names in the instance line's node order (per-gate instances): each
     # names a pin of the part type (`A`, `1Y`) or a role (`VCC`, `GND`).
     pins: tuple[str, ...] | None = None
+    boards: tuple[str, ...] | None = None  # board path globs it applies to; None = every board
+    origin: str | None = None  # where it was written: file:line
 
 
 @dataclass(frozen=True, slots=True)
@@ -65,17 +70,27 @@ class McuConfig:
     pins: tuple[McuPinConfig, ...] = ()
     supply_pins: tuple[int, ...] = ()
     ground_pins: tuple[int, ...] = ()
+    boards: tuple[str, ...] | None = None  # board path globs it applies to; None = every board
+    origin: str | None = None  # where it was written: file:line
+
+
+class PartsMatch(StrEnum):
+    """How a waiver's designator globs must meet a finding (config keys parts-any / parts-all)."""
+
+    ANY = "any"  # one glob matching a designator of the finding is enough
+    ALL = "all"  # every glob must match a designator of the one finding
 
 
 @dataclass(frozen=True, slots=True)
 class Waiver:
     rule: str
-    parts: tuple[str, ...]  # designator globs; a finding matches if its parts match them
+    parts: tuple[str, ...]  # designator globs, matched against a finding's designators by `match`
     reason: str
     author: str
     expires: date | None  # None: the date could not be read -> treated as expired
     board: str | None = None  # board path glob, None = any
     origin: str = "config"  # where it was written: file:line
+    match: PartsMatch = PartsMatch.ALL
 
 
 @dataclass(frozen=True, slots=True)

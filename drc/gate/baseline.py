@@ -98,11 +98,13 @@ def baseline_document(run: RunFindings, root: str | os.PathLike | None = None) -
 
 
 def write_baseline(path: str | os.PathLike, run: RunFindings,
-                   inputs: Iterable[str | os.PathLike] = ()) -> None:
-    """Write the baseline of `run` to `path` atomically (never over an input file)."""
+                   inputs: Iterable[str | os.PathLike] = ()) -> int:
+    """Write the baseline of `run` to `path` atomically (never over an input file);
+    the number of findings it recorded."""
     document = baseline_document(run, Path(path).parent)
     text = json.dumps(document, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
     write_atomic(path, text, inputs)
+    return len(document["entries"])
 
 
 def _bad(path: str, message: str, line: int = 0, column: int = 0) -> ConfigError:

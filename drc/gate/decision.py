@@ -36,7 +36,7 @@ from enum import StrEnum
 from pathlib import PurePath
 
 from drc.checks.findings import SEVERITIES, SEVERITY_RANK, Finding, Severity, Suppression
-from drc.config.settings import Waiver
+from drc.config.settings import PartsMatch, Waiver
 from drc.errors import ConfigError, DrcError, ExitStatus, SourceLocation, unknown_name_message
 from drc.gate.baseline import Baseline, BaselineEntry, board_key, entry_sort_key
 
@@ -181,6 +181,7 @@ class WaiverOutcome:
     notes: tuple[WaiverNote, ...]
     used: frozenset[int]
     applicable: frozenset[int]  # indices whose board glob covers this board
+    near: tuple[tuple[int, str], ...] = ()  # (index, how a finding almost matched) for unused ones
 
 
 def finding_designators(finding: Finding) -> tuple[str, ...]:
@@ -194,11 +195,18 @@ def finding_designators(finding: Finding) -> tuple[str, ...]:
     return tuple(names)
 
 
-def parts_match(globs: Iterable[str], finding: Finding) -> bool:
-    """True when every glob matches at least one designator of the finding (case-insensitive)."""
+def matching_globs(globs: Iterable[str], finding: Finding) -> tuple[str, ...]:
+    """The globs that match at least one designator of the finding (case-insensitive)."""
     names = [n.casefold() for n in finding_designators(finding)]
+    return tuple(g for g in globs if any(fnmatch.fnmatchcase(n, g.casefold()) for n in names))
+
+
+def parts_match(globs: Iterable[str], finding: Finding, match: PartsMatch = PartsMatch.ALL) -> bool:
+    """True when the globs meet the finding's designators: every one of them (ALL, the
+    annotations' meaning) or at least one (ANY)."""
     globs = tuple(globs)
-    return bool(globs) and all(any(fnmatch.fnmatchcase(n, g.casefold()) for n in names) for g in globs)
+    hits = matching_globs(globs, finding)
+    return bool(globs) and (len(hits) == len(globs) if match is PartsMatch.ALL else bool(hits))
 
 
 def board_matches(glob: str | None, board_path: str) -> bool:
@@ -224,7 +232,28 @@ def _justification(waiver: Waiver) -> str:
 
 
 def _describe(waiver: Waiver) -> str:
-    return f"waiver at {waiver.origin} ({waiver.rule} {', '.join(waiver.parts)})"
+    return f"waiver at {waiver.origin} ({waiver.rule}, {waiver.match} of {', '.join(waiver.parts)})"
+
+
+def _near_miss(waiver: Waiver, finding: Finding) -> str | None:
+    """How a finding almost met a waiver: some of its globs (parts-all), or all of them
+    on another rule; None when it is not close."""
+    hits = matching_globs(waiver.parts, finding)
+    if not hits:
+        return None
+    where = f"{finding.rule} at {_finding_where(finding)}"
+    if waiver.rule != finding.rule:
+        return f"{where} involves {', '.join(hits)} but is another rule"
+    if waiver.match is PartsMatch.ALL and len(hits) < len(waiver.parts):
+        missing = [g for g in waiver.parts if g not in hits]
+        return f"{where} involves {', '.join(hits)} but not {', '.join(missing)}"
+    return None
+
+
+def _finding_where(finding: Finding) -> str:
+    if finding.contact and finding.receiver:
+        return f"{finding.contact} → {finding.receiver}"
+    return finding.contact or finding.receiver or ", ".join(finding.parts) or finding.board
 
 
 def _covering_waiver(finding: Finding, waivers: Sequence[Waiver], applicable: Iterable[int],
@@ -234,7 +263,7 @@ def _covering_waiver(finding: Finding, waivers: Sequence[Waiver], applicable: It
     chosen: Waiver | None = None
     for i in applicable:
         waiver = waivers[i]
-        if waiver.rule != finding.rule or not parts_match(waiver.parts, finding):
+        if waiver.rule != finding.rule or not parts_match(waiver.parts, finding, waiver.match):
             continue
         if not is_live(waiver, today):
             expired_hits[i] = expired_hits.get(i, 0) + 1
@@ -263,10 +292,20 @@ def apply_waivers(findings: Sequence[Finding], waivers: Sequence[Waiver], board_
         if chosen is not None and finding.suppression is None:
             finding = replace(finding, suppression=Suppression.WAIVER, justification=_justification(chosen))
         out.append(finding)
+    near = tuple((i, miss) for i in in_order if is_live(waivers[i], today) and i not in used
+                 for miss in _misses(waivers[i], findings))
     notes = [_expired_note(waivers[i], expired_hits.get(i, 0))
              for i in in_order if not is_live(waivers[i], today)]
-    notes += [_stale_note(waivers[i]) for i in in_order if is_live(waivers[i], today) and i not in used]
-    return WaiverOutcome(tuple(out), tuple(notes), frozenset(used), applicable)
+    notes += [_stale_note(waivers[i], [m for j, m in near if j == i])
+              for i in in_order if is_live(waivers[i], today) and i not in used]
+    return WaiverOutcome(tuple(out), tuple(notes), frozenset(used), applicable, near)
+
+
+_MAX_NEAR_MISSES = 3  # a note names a few, then counts the rest
+
+
+def _misses(waiver: Waiver, findings: Sequence[Finding]) -> list[str]:
+    return [m for m in (_near_miss(waiver, f) for f in findings) if m is not None]
 
 
 def _expired_note(waiver: Waiver, hits: int) -> WaiverNote:
@@ -277,9 +316,17 @@ def _expired_note(waiver: Waiver, hits: int) -> WaiverNote:
                       f"{_describe(waiver)} {when}{effect}", hits)
 
 
-def _stale_note(waiver: Waiver) -> WaiverNote:
-    return WaiverNote(NoteKind.STALE, waiver.origin, waiver.rule, waiver.parts,
-                      f"{_describe(waiver)} matches no finding; remove it if the cause is fixed")
+def _stale_note(waiver: Waiver, near: Sequence[str] = ()) -> WaiverNote:
+    message = f"{_describe(waiver)} matches no finding"
+    if near:
+        shown = list(dict.fromkeys(near))
+        more = len(shown) - _MAX_NEAR_MISSES
+        message += "; near misses: " + "; ".join(shown[:_MAX_NEAR_MISSES]) + (f"; {more} more" if more > 0 else "")
+        if waiver.match is PartsMatch.ALL and any("but not" in m for m in shown):
+            message += " (parts-all needs every designator in one finding; parts-any waives each finding with one)"
+    else:
+        message += "; remove it if the cause is fixed"
+    return WaiverNote(NoteKind.STALE, waiver.origin, waiver.rule, waiver.parts, message)
 
 
 def combine_notes(waivers: Sequence[Waiver], outcomes: Iterable[WaiverOutcome],
@@ -288,6 +335,10 @@ def combine_notes(waivers: Sequence[Waiver], outcomes: Iterable[WaiverOutcome],
     when no board used them (a waiver for board B is not stale on board A)."""
     outcomes = list(outcomes)
     used: frozenset[int] = frozenset().union(*(o.used for o in outcomes)) if outcomes else frozenset()
+    near: dict[int, list[str]] = {}
+    for outcome in outcomes:
+        for i, miss in outcome.near:
+            near.setdefault(i, []).append(miss)
     hits: dict[str, int] = {}
     for outcome in outcomes:
         for note in outcome.notes:
@@ -298,7 +349,7 @@ def combine_notes(waivers: Sequence[Waiver], outcomes: Iterable[WaiverOutcome],
         if not is_live(waiver, today):
             notes.append(_expired_note(waiver, hits.get(waiver.origin, 0)))
         elif i not in used:
-            notes.append(_stale_note(waiver))
+            notes.append(_stale_note(waiver, near.get(i, ())))
     return tuple(notes)
 
 
@@ -371,14 +422,24 @@ def judge_board(findings: Sequence[Finding], board_path: str, today: date, *,
 
 # ------------------------------------------------------------------ baseline
 
-def apply_baseline(findings: Sequence[Finding], baseline: Baseline, board: str
-                   ) -> tuple[tuple[Finding, ...], tuple[BaselineEntry, ...]]:
-    """Mark the findings of `board` that the baseline accepts; return them and the fixed entries.
+@dataclass(frozen=True, slots=True)
+class BaselineOnBoard:
+    """A baseline applied to one board: its findings marked, and what became of the
+    entries no active finding took: fixed (the finding is gone) or waived (the
+    finding is still there, now accepted by a waiver or an annotation)."""
+
+    findings: tuple[Finding, ...]
+    fixed: tuple[BaselineEntry, ...]
+    waived: tuple[BaselineEntry, ...]
+
+
+def apply_baseline(findings: Sequence[Finding], baseline: Baseline, board: str) -> BaselineOnBoard:
+    """Mark the findings of `board` that the baseline accepts.
 
     Each baseline entry accepts one finding with the same board, rule,
     contact, receiver and parts (so a second identical finding is new).
-    Findings already waived or annotated are left alone. Fixed: this
-    board's entries that matched no finding.
+    Findings already waived or annotated keep that suppression, and their
+    entry counts as waived, never fixed: fixed means gone.
     """
     key = board_key(board, baseline.root)
     pool: dict[tuple, list[BaselineEntry]] = {}
@@ -386,15 +447,18 @@ def apply_baseline(findings: Sequence[Finding], baseline: Baseline, board: str
         if entry.board == key:
             pool.setdefault(entry.identity(), []).append(entry)
     out = []
+    waived: list[BaselineEntry] = []
     for finding in findings:
         matches = pool.get(finding.identity())
-        if finding.suppression is None and matches:
+        if matches and finding.suppression is None:
             matches.pop()
             finding = replace(finding, suppression=Suppression.BASELINE,
                               justification=f"accepted in baseline {baseline.path}")
+        elif matches and finding.suppression in (Suppression.WAIVER, Suppression.ANNOTATION):
+            waived.append(matches.pop())
         out.append(finding)
     fixed = tuple(sorted((e for rest in pool.values() for e in rest), key=entry_sort_key))
-    return tuple(out), fixed
+    return BaselineOnBoard(tuple(out), fixed, tuple(sorted(waived, key=entry_sort_key)))
 
 
 @dataclass(frozen=True, slots=True)
@@ -402,13 +466,15 @@ class BaselineJudgement:
     """A baseline applied to the boards of a run.
 
     findings: per board, in the order given. matched: findings the baseline
-    accepted; new: findings still active; fixed: entries no finding matched.
+    accepted; new: findings still active; fixed: entries no finding matched
+    (gone); waived: entries whose finding a waiver or annotation now accepts.
     """
 
     findings: tuple[tuple[Finding, ...], ...]
     matched: int
     new: int
     fixed: tuple[BaselineEntry, ...]
+    waived: tuple[BaselineEntry, ...] = ()
 
 
 def judge_against_baseline(boards: Iterable[tuple[str, Sequence[Finding]]],
@@ -416,11 +482,13 @@ def judge_against_baseline(boards: Iterable[tuple[str, Sequence[Finding]]],
     """Apply `baseline` to every (board path, findings) of a run."""
     per_board: list[tuple[Finding, ...]] = []
     fixed: list[BaselineEntry] = []
+    waived: list[BaselineEntry] = []
     matched = new = 0
     for path, findings in boards:
-        marked, gone = apply_baseline(findings, baseline, path)
-        matched += sum(1 for f in marked if f.suppression == Suppression.BASELINE)
-        new += sum(1 for f in marked if f.suppression is None)
-        fixed.extend(gone)
-        per_board.append(marked)
-    return BaselineJudgement(tuple(per_board), matched, new, tuple(fixed))
+        on_board = apply_baseline(findings, baseline, path)
+        matched += sum(1 for f in on_board.findings if f.suppression == Suppression.BASELINE)
+        new += sum(1 for f in on_board.findings if f.suppression is None)
+        fixed.extend(on_board.fixed)
+        waived.extend(on_board.waived)
+        per_board.append(on_board.findings)
+    return BaselineJudgement(tuple(per_board), matched, new, tuple(fixed), tuple(waived))

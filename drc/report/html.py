@@ -254,7 +254,7 @@ def render_html(run: RunReport, sort: BoardOrder = BoardOrder.WORST) -> str:
     if run.baseline is not None:
         b = run.baseline
         baseline = {"path": b.path, "verb": "written" if b.written else "applied", "matched": b.matched,
-                    "new": b.new, "fixed": len(run.fixed)}
+                    "new": b.new, "fixed": len(run.fixed), "waived": len(run.baseline_waived)}
     return env.get_template("report.html.j2").render(
         title=title, version=__version__, css=Markup(css), boards=boards, counts=counts,
         caution=run.caution, fail_level=run.fail_level, waiver_notes=list(run.waiver_notes),

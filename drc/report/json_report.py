@@ -155,7 +155,8 @@ def report_document(run: RunReport) -> dict:
     if run.baseline is not None:
         baseline = {"path": run.baseline.path, "matched": run.baseline.matched,
                     "new": run.baseline.new, "written": run.baseline.written,
-                    "fixed": [e.as_json() for e in run.fixed]}
+                    "fixed": [e.as_json() for e in run.fixed],
+                    "waived": [e.as_json() for e in run.baseline_waived]}
     return {
         "format": REPORT_FORMAT,
         "tool": {"name": "drc", "version": __version__},

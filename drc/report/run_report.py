@@ -234,6 +234,7 @@ class BaselineInfo:
     matched: int  # findings the baseline accepted
     new: int  # active findings not in the baseline
     written: bool = False  # the run wrote this baseline instead of applying it
+    waived: int = 0  # entries whose finding is still there, now waived or annotated (not fixed)
 
 
 @dataclass(frozen=True, slots=True)
@@ -241,7 +242,9 @@ class RunReport:
     """A whole run: boards (sorted by path), the rule catalogue and the gate settings.
 
     waiver_notes: expired, stale and unused-annotation messages.
-    fixed: baseline entries no finding matched any more.
+    fixed: baseline entries no finding matched any more (the finding is gone).
+    baseline_waived: baseline entries whose finding is still there, now accepted
+    by a waiver or an annotation (waived, not fixed).
     """
 
     boards: tuple[BoardReport, ...]
@@ -251,12 +254,14 @@ class RunReport:
     baseline: BaselineInfo | None = None
     fixed: tuple[BaselineEntry, ...] = ()
     caution: str = CAUTION
+    baseline_waived: tuple[BaselineEntry, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "boards", tuple(sorted(self.boards, key=lambda b: natural_key(b.path))))
         object.__setattr__(self, "rule_docs", tuple(sorted(self.rule_docs, key=lambda d: d.id)))
         object.__setattr__(self, "waiver_notes", tuple(sorted(self.waiver_notes)))
         object.__setattr__(self, "fixed", tuple(sorted(self.fixed, key=entry_sort_key)))
+        object.__setattr__(self, "baseline_waived", tuple(sorted(self.baseline_waived, key=entry_sort_key)))
 
     def findings(self) -> Iterable[Finding]:
         for board in self.boards:

@@ -172,12 +172,14 @@ def baseline_lines(run: RunReport) -> Iterator[Line]:
     if base.written:
         yield plain(f"baseline {base.path} written: {plural(base.new, 'finding')} recorded")
         return
-    yield plain(f"baseline {base.path} applied: {base.matched} accepted, {base.new} new, "
+    waived = f", {len(run.baseline_waived)} now waived" if run.baseline_waived else ""
+    yield plain(f"baseline {base.path} applied: {base.matched} accepted, {base.new} new{waived}, "
                 f"{len(run.fixed)} fixed", hang=2)
-    for entry in run.fixed:
-        who = (f"{entry.contact} {ARROW} {entry.receiver}" if entry.contact and entry.receiver
-               else entry.contact or entry.receiver or ", ".join(entry.parts))
-        yield plain(f"fixed: {entry.board} {entry.rule} {who}", "green", indent=2, hang=4)
+    for state, entries, style in (("waived", run.baseline_waived, "yellow"), ("fixed", run.fixed, "green")):
+        for entry in entries:
+            who = (f"{entry.contact} {ARROW} {entry.receiver}" if entry.contact and entry.receiver
+                   else entry.contact or entry.receiver or ", ".join(entry.parts))
+            yield plain(f"{state}: {entry.board} {entry.rule} {who}", style, indent=2, hang=4)
 
 
 def report_lines(run: RunReport, quiet: bool = False, sort: BoardOrder = BoardOrder.WORST,

@@ -134,7 +134,12 @@ def test_json_is_deterministic(boards: Path):
 def test_baseline_flow(boards: Path):
     base = boards / "baseline.json"
     proc = drc("check", str(boards / "error.cir"), "--write-baseline", str(base), "--no-fixes")
-    assert proc.returncode == 1 and base.is_file()
+    # Writing a baseline is a successful act: exit 0 and one line saying what it recorded.
+    assert proc.returncode == 0 and base.is_file(), proc.stdout + proc.stderr
+    recorded = len(json.loads(base.read_text())["entries"])
+    assert recorded >= 1
+    assert proc.stdout == (f"baseline {base} written: {recorded} finding{'s' if recorded != 1 else ''} "
+                           f"recorded from 1 board\n")
     proc = drc("check", str(boards / "error.cir"), "--baseline", str(base), "--no-fixes")
     assert proc.returncode == 0, proc.stdout + proc.stderr
     # A line shift keeps the match (designators, not line numbers).
@@ -150,9 +155,10 @@ def test_baseline_flow(boards: Path):
 
 def test_waiver_flow(boards: Path):
     (boards / "drc.toml").write_text(
-        '[[waivers]]\nrule = "undebounced-input"\nparts = ["SW1"]\nreason = "toggle read by a poll loop"\n'
+        '[[waivers]]\nrule = "undebounced-input"\nparts-all = ["SW1"]\nreason = "toggle read by a poll loop"\n'
         'author = "bench team"\nexpires = 2099-01-01\n'
-        '[[waivers]]\nrule = "pullup-waste"\nparts = ["R77"]\nreason = "stale"\nauthor = "x"\nexpires = 2099-01-01\n')
+        '[[waivers]]\nrule = "pullup-waste"\nparts-any = ["R77"]\nreason = "stale"\nauthor = "x"\n'
+        'expires = 2099-01-01\n')
     proc = drc("check", str(boards / "error.cir"), "--no-fixes")
     assert proc.returncode == 0, proc.stdout + proc.stderr
     assert "R77" in proc.stdout and "matches no finding" in " ".join(proc.stdout.split())
@@ -190,3 +196,23 @@ def test_trace_prints_times(boards: Path):
         assert word in proc.stdout
     proc = drc("trace", str(boards / "clean.cir"), "SW9")
     assert proc.returncode == 2 and "SW1" in proc.stderr
+
+
+def test_changed_files_recheck_the_boards_that_include_them(boards: Path):
+    """`--changed` (what the pre-commit hook runs): a changed model file re-checks every
+    board that includes it, at any depth, and nothing else."""
+    (boards / "models").mkdir()
+    (boards / "models" / "keys.lib").write_text(".include deeper.inc\n")
+    (boards / "models" / "deeper.inc").write_text(".subckt KEYRC a b\nR1 a b 22k\n.ends\n")
+    (boards / "panel.cir").write_text(CLEAN.replace("R2 n1 in 22k\n", "XR2 n1 in KEYRC\n")
+                                      .replace(".end", ".include models/keys.lib\n.end"))
+    proc = drc("check", "--changed", "models/deeper.inc", "--no-fixes", "--format", "json", cwd=boards)
+    assert proc.returncode == 0, proc.stderr
+    assert [b["path"] for b in json.loads(proc.stdout)["boards"]] == ["panel.cir"]
+    proc = drc("check", "--changed", "error.cir", "models/keys.lib", "--no-fixes", "--format", "json",
+               cwd=boards)
+    assert sorted(b["path"] for b in json.loads(proc.stdout)["boards"]) == ["error.cir", "panel.cir"]
+    assert proc.returncode == 1
+    (boards / "notes.inc").write_text("* read by no board\n")
+    proc = drc("check", "--changed", "notes.inc", cwd=boards)
+    assert proc.returncode == 0 and "nothing to check" in proc.stdout

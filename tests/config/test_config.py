@@ -70,14 +70,14 @@ pullup-waste = "note"
 
 [[waivers]]
 rule = "pullup-waste"
-parts = ["SW3", "R1*"]
+parts-all = ["SW3", "R1*"]
 reason = "bench unit, mains powered"
 author = "A. Designer"
 expires = 2031-06-30
 
 [[waivers]]
 rule = "slow-edge"
-parts = ["SW9"]
+parts-any = ["SW9", "SW10"]
 reason = "legacy"
 author = "B. Reviewer"
 expires = "next year"
@@ -123,7 +123,8 @@ def test_full_drc_toml(tmp_path):
     assert config.limits == {"bounce-margin": 1.5, "latency-max": pytest.approx(0.05)}
     assert config.severities == {"pullup-waste": "note"}
     first, second = config.waivers
-    assert first.expires == date(2031, 6, 30) and first.parts == ("SW3", "R1*")
+    assert first.expires == date(2031, 6, 30) and first.parts == ("SW3", "R1*") and first.match == "all"
+    assert second.parts == ("SW9", "SW10") and second.match == "any"
     assert first.origin.endswith(f"drc.toml:{FULL.splitlines().index('[[waivers]]') + 1}")
     assert second.expires is None  # unreadable date: kept, counts as expired
     assert second.board == "boards/*.cir"
@@ -168,10 +169,15 @@ def test_pyproject_without_table(tmp_path):
     ('[severity]\nslow-egde = "note"\n', 2, "did you mean 'slow-edge'"),
     ('[limits]\nbounce-margn = 2\n', 2, "did you mean 'bounce-margin'"),
     ('[limits]\nlatency-max = "5 V"\n', 2, "not a time"),
-    ('[[waivers]]\nrule = "slow-edge"\nparts = "SW1"\nreason = "r"\nauthor = "a"\nexpires = 2030-01-01\n',
+    ('[[waivers]]\nrule = "slow-edge"\nparts-any = "SW1"\nreason = "r"\nauthor = "a"\nexpires = 2030-01-01\n',
      3, "list of strings"),
-    ('[[waivers]]\nrule = "slow-edge"\nparts = ["SW1"]\nauthor = "a"\nexpires = 2030-01-01\n',
+    ('[[waivers]]\nrule = "slow-edge"\nparts-all = ["SW1"]\nauthor = "a"\nexpires = 2030-01-01\n',
      1, "missing required key 'reason'"),
+    # The old key is ambiguous: refused, with both meanings spelled out.
+    ('[[waivers]]\nrule = "slow-edge"\nparts = ["SW1", "SW4"]\nreason = "r"\nauthor = "a"\nexpires = 2030-01-01\n',
+     3, "parts-any = [...] to waive each finding that involves one of them, or parts-all"),
+    ('[[waivers]]\nrule = "slow-edge"\nparts-any = ["SW1"]\nparts-all = ["SW4"]\nreason = "r"\nauthor = "a"\n'
+     'expires = 2030-01-01\n', 1, "exactly one of 'parts-any'"),
     ('eseries = "E25"\n', 1, "E24"),
     ('default-bounce = true\n', 1, "got a boolean"),
     ('rails = "x"\n', 1, "array of tables"),

@@ -15,6 +15,11 @@ from drc.gate.decision import apply_baseline, exit_status
 from tests.gate.builders import board_report, finding, run_report, sample_findings
 
 
+def astuple(on_board):
+    """(findings, fixed) of one board's baseline outcome."""
+    return on_board.findings, on_board.fixed
+
+
 def shifted(f, lines=12):
     moved = SourceLocation(f.location.file, f.location.line + lines, 1)
     return replace(f, location=moved, message=f.message + " (figures changed)")
@@ -31,7 +36,7 @@ def test_round_trip_survives_line_shifts(tmp_path, monkeypatch):
 
     later = [shifted(f) for f in sample_findings(board)]
     new = finding("slow-edge", "SW4", "U2:1", ("R8",), board=board)
-    marked, fixed = apply_baseline(later + [new], baseline, board)
+    marked, fixed = astuple(apply_baseline(later + [new], baseline, board))
     suppressed = [f for f in marked if f.suppression == "baseline"]
     assert len(suppressed) == len(later)
     assert [f.rule for f in marked if f.suppression is None] == ["slow-edge"]
@@ -45,7 +50,7 @@ def test_fixed_entries_are_reported(tmp_path, monkeypatch):
     run = run_report([board_report("boards/panel.cir")])
     write_baseline(tmp_path / "b.json", run)
     remaining = [f for f in sample_findings() if f.rule != "bounce-window"]
-    marked, fixed = apply_baseline(remaining, load_baseline(tmp_path / "b.json"), "boards/panel.cir")
+    marked, fixed = astuple(apply_baseline(remaining, load_baseline(tmp_path / "b.json"), "boards/panel.cir"))
     assert [e.rule for e in fixed] == ["bounce-window"]
     assert all(f.suppression == "baseline" for f in marked)
 
@@ -55,15 +60,32 @@ def test_baseline_matches_from_another_working_folder(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     write_baseline(tmp_path / "b.json", run_report([board_report("boards/panel.cir")]))
     monkeypatch.chdir(tmp_path / "boards")
-    marked, fixed = apply_baseline(sample_findings("panel.cir"), load_baseline(tmp_path / "b.json"), "panel.cir")
+    marked, fixed = astuple(apply_baseline(sample_findings("panel.cir"), load_baseline(tmp_path / "b.json"),
+                                           "panel.cir"))
     assert all(f.suppression == "baseline" for f in marked) and fixed == ()
 
 
 def test_identical_findings_count(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     write_baseline(tmp_path / "b.json", run_report([board_report(findings=[finding()])]))
-    marked, _ = apply_baseline([finding(), finding()], load_baseline(tmp_path / "b.json"), "boards/panel.cir")
+    marked, _ = astuple(apply_baseline([finding(), finding()], load_baseline(tmp_path / "b.json"), "boards/panel.cir"))
     assert sorted(str(f.suppression) for f in marked) == ["None", "baseline"]
+
+
+def test_a_waived_finding_in_the_baseline_is_waived_not_fixed(tmp_path, monkeypatch):
+    """Fixed means gone: a finding still there but now waived keeps its waiver and its
+    baseline entry is reported as waived."""
+    monkeypatch.chdir(tmp_path)
+    write_baseline(tmp_path / "b.json", run_report([board_report()]))
+    now_waived = [replace(f, suppression="waiver", justification="x") if f.rule == "bounce-window" else f
+                  for f in sample_findings()]
+    outcome = apply_baseline(now_waived, load_baseline(tmp_path / "b.json"), "boards/panel.cir")
+    assert outcome.fixed == ()
+    assert [e.rule for e in outcome.waived] == ["bounce-window"]
+    assert [f.suppression for f in outcome.findings if f.rule == "bounce-window"] == ["waiver"]
+    gone = [f for f in now_waived if f.rule != "bounce-window"]
+    outcome = apply_baseline(gone, load_baseline(tmp_path / "b.json"), "boards/panel.cir")
+    assert [e.rule for e in outcome.fixed] == ["bounce-window"] and outcome.waived == ()
 
 
 def test_waived_findings_are_not_baselined(tmp_path, monkeypatch):

@@ -8,7 +8,7 @@ designators, not lines.
 
 from datetime import date
 
-from drc.config.settings import Waiver
+from drc.config.settings import PartsMatch, Waiver
 from drc.errors import SourceLocation
 from drc.gate.decision import apply_annotations, apply_waivers, combine_notes
 from tests.gate.builders import BOARD, finding
@@ -16,9 +16,10 @@ from tests.gate.builders import BOARD, finding
 TODAY = date(2025, 3, 1)
 
 
-def waiver(rule="bounce-window", parts=("SW1",), expires=date(2025, 12, 31), board=None, line=10):
+def waiver(rule="bounce-window", parts=("SW1",), expires=date(2025, 12, 31), board=None, line=10,
+           match=PartsMatch.ALL):
     return Waiver(rule=rule, parts=parts, reason="accepted for the prototype", author="A. Designer",
-                  expires=expires, board=board, origin=f"drc.toml:{line}")
+                  expires=expires, board=board, origin=f"drc.toml:{line}", match=match)
 
 
 def test_live_waiver_suppresses_with_justification():
@@ -104,3 +105,31 @@ def test_annotation_first_then_waiver_keeps_annotation():
     outcome = apply_waivers(annotated.findings, [waiver()], BOARD, TODAY)
     assert outcome.findings[0].suppression == "annotation"
     assert outcome.notes == ()  # the waiver matched, so it is not stale
+
+
+def test_parts_any_waives_each_finding_with_one_of_its_designators():
+    """The user who wrote SW1 and SW4 meaning either: parts-any says so."""
+    on_sw1 = finding("undebounced-input", "SW1", "U1:1", ())
+    on_sw4 = finding("undebounced-input", "SW4", "U2:3", ())
+    both = [on_sw1, on_sw4]
+    any_of = apply_waivers(both, [waiver("undebounced-input", ("SW1", "SW4"), match=PartsMatch.ANY)],
+                           BOARD, TODAY)
+    assert [f.suppression for f in any_of.findings] == ["waiver", "waiver"] and any_of.notes == ()
+    all_of = apply_waivers(both, [waiver("undebounced-input", ("SW1", "SW4"))], BOARD, TODAY)
+    assert [f.suppression for f in all_of.findings] == [None, None]
+
+
+def test_near_misses_are_reported():
+    on_sw1 = finding("undebounced-input", "SW1", "U1:1", ())
+    on_sw4 = finding("pullup-waste", "SW4", "U2:3", ("R4",))
+    outcome = apply_waivers([on_sw1, on_sw4], [waiver("undebounced-input", ("SW1", "SW4")),
+                                               waiver("slow-edge", ("R4",), line=20)], BOARD, TODAY)
+    first, second = outcome.notes
+    assert first.kind == second.kind == "stale"
+    assert "undebounced-input at SW1 → U1:1 involves SW1 but not SW4" in first.message
+    assert "parts-any waives each finding with one" in first.message
+    assert "pullup-waste at SW4 → U2:3 involves R4 but is another rule" in second.message
+    # Across boards, the run's note keeps the near misses it saw.
+    waivers = [waiver("undebounced-input", ("SW1", "SW4"))]
+    notes = combine_notes(waivers, [apply_waivers([on_sw1], waivers, BOARD, TODAY)], TODAY)
+    assert "involves SW1 but not SW4" in notes[0].message

@@ -132,7 +132,8 @@ SCALARS = st.one_of(st.sampled_from(["5 ms", "3.3 V", "10 kΩ", "5 %", "E24", "e
 KEYS = st.sampled_from(["fail-level", "default-bounce", "eseries", "only-rules", "skip-rules", "include",
                         "net", "voltage", "tolerance", "designator", "class", "bounce", "form",
                         "part-number", "family", "supply", "supply-pins", "pin", "pull",
-                        "pull-min", "pull-max", "debounce", "schmitt", "rule", "parts", "reason",
+                        "pull-min", "pull-max", "debounce", "schmitt", "rule", "parts", "parts-any",
+                        "parts-all", "reason",
                         "author", "expires", "board", "bounce-margin", "pullup-waste", "bogus"])
 TABLES = st.sampled_from(["tolerances", "limits", "severity", "rails", "contacts", "parts",
                           "mcu", "mcu.pins", "waivers"])
