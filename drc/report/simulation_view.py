@@ -14,7 +14,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
-from drc.report.layout import path_name
+from drc.report.layout import path_name, plain, print_lines
 from drc.simulation.injection import SimulationResult
 from drc.units import format_quantity
 
@@ -83,13 +83,13 @@ def stage_title(name: str) -> str:
 
 def render_simulation_text(result: SimulationResult, console: Console) -> None:
     """Print the result to a rich Console: a table per actuation and a verdict."""
-    console.print(Text(f"{stage_title(result.stage)} ({result.kind}, {result.contact_class})", style="bold"))
+    title = plain(f"{stage_title(result.stage)} ({result.kind}, {result.contact_class})", "bold")
     if not result.simulated:
-        for note in result.notes:
-            console.print(Text(note, style="bold yellow"))
+        print_lines(console, [title] + [plain(note, "bold yellow", hang=2) for note in result.notes])
         return
-    console.print(f"{result.trials} trials, seed {result.seed}, bursts up to "
-                  f"{format_quantity(result.bounce_s, 's')}; {_model_text(result)}; nominal corner")
+    print_lines(console, [title, plain(f"{result.trials} trials, seed {result.seed}, bursts up to "
+                                       f"{format_quantity(result.bounce_s, 's')}; {_model_text(result)}; "
+                                       "nominal corner", hang=2)])
     lingers = result.band_v is not None
     table = Table(box=box.SIMPLE_HEAD, show_edge=False, header_style="bold")
     for name, justify in _COLUMNS[:3] + ((("lingering", "right"),) if lingers else ()) + _COLUMNS[3:]:
@@ -104,8 +104,8 @@ def render_simulation_text(result: SimulationResult, console: Console) -> None:
     worst = ", ".join(f"{e} {n}" for e, n in result.worst_edges.items())
     verdict_ok = result.clean_trials == result.trials
     words = "one edge per press and per release" + (", no lingering in the band" if lingers else "")
-    console.print(Text(f"clean trials ({words}): {result.clean_trials}/{result.trials}",
-                       style="green" if verdict_ok else "bold red"))
-    console.print(f"worst trial: #{result.worst_trial} ({worst} output edges)")
-    for note in result.notes:
-        console.print(Text(f"note: {note}", style="dim"))
+    print_lines(console, [
+        plain(f"clean trials ({words}): {result.clean_trials}/{result.trials}",
+              "green" if verdict_ok else "bold red", hang=2),
+        plain(f"worst trial: #{result.worst_trial} ({worst} output edges)", hang=2),
+        *(plain(f"note: {note}", "dim", hang=6) for note in result.notes)])

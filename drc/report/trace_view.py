@@ -12,7 +12,7 @@ from rich.table import Table
 from rich.text import Text
 
 from drc.board.signal_graph import signal_path
-from drc.report.layout import ARROW, path_name
+from drc.report.layout import ARROW, Line, path_name, plain, print_lines
 from drc.report.run_report import NOT_APPLICABLE, times_apply
 from drc.units import format_part_value
 from drc.units import format_quantity as fq
@@ -84,69 +84,82 @@ def _edges_table(result) -> Table:
 def print_unchecked(console, items, outcomes) -> None:
     """What `drc trace` shows of a contact with inputs it could not check, or loads only."""
     for item in items:
-        target = f" -> {item.receiver}" if item.receiver else ""
+        target = f" {ARROW} {item.receiver}" if item.receiver else ""
         console.rule(Text(f"{item.contact.designator}{target}: not checked", style="bold"))
-        console.print(f"reason: [bold]{item.reason}[/]", highlight=False)
-        console.print(item.detail, highlight=False)
+        lines = [Line((("reason: ", ""), (str(item.reason), "bold"))), plain(item.detail, hang=2)]
         if item.nets:
-            console.print(f"nets: {', '.join(item.nets)}", highlight=False)
-    for outcome in outcomes:
-        if outcome.loads:
-            console.print(f"{outcome.contact} drives loads that are not logic inputs: "
-                          f"{', '.join(outcome.loads)}", highlight=False)
+            lines.append(plain(f"nets: {', '.join(item.nets)}", hang=2))
+        print_lines(console, lines)
+    print_lines(console, [plain(f"{outcome.contact} drives loads that are not logic inputs: "
+                                f"{', '.join(outcome.loads)}", hang=2) for outcome in outcomes if outcome.loads])
+
+
+def _header_lines(result, check) -> list[Line]:
+    """The stage, its contact and receiver, nets and signal path: prose, phrase-wrapped."""
+    stage = result.stage
+    contact, receiver = stage.contact, stage.receiver
+    kind = "Schmitt" if receiver.schmitt else "plain"
+    extra = ", edge-sensitive" if receiver.edge_sensitive else ""
+    part_type = receiver.part_type
+    if part_type[:1].isdigit() and not receiver.family.startswith("4000"):
+        part_type = "'" + part_type  # the 74-series function number: '14, '74
+    lines = [plain(path_name(contact.designator, receiver.ref), "bold"),
+             Line((("stage: ", ""), (stage.kind, "bold"), (f"   parts: {', '.join(stage.parts) or 'none'}", "")),
+                  hang=2),
+             plain(f"contact {contact.designator}: {contact.contact_class}, {contact.form}, bounce "
+                   f"{fq(contact.bounce_s, 's')} ({contact.location})", hang=2),
+             plain(f"receiver {receiver.ref}: {part_type} {receiver.function} input, "
+                   f"{receiver.family} {kind}{extra}, VCC {fq(receiver.supply_v, 'V')}", hang=2)]
+    part = check.board.parts.get(receiver.part.casefold()) if check is not None else None
+    if part is not None and part.resolution:
+        lines.append(plain(f"part {part.designator}: {part.resolution}", hang=2))
+    if receiver.threshold_note:
+        lines.append(plain(f"thresholds: {receiver.threshold_note}", hang=2))
+    if receiver.firmware_debounce_s:
+        lines.append(plain(f"firmware debounce: {fq(receiver.firmware_debounce_s, 's')}"))
+    lines.append(plain(f"nets: {', '.join(stage.nets)}", hang=2))
+    path = signal_path(stage)
+    if path:
+        lines.append(plain(f"signal path: {contact.designator} ─ " + " ─ ".join(path) + f" ─ {receiver.ref}",
+                           hang=2))
+    return lines
+
+
+def _footer_lines(result) -> list[Line]:
+    """Currents, the thresholds used and the analysis' notes."""
+    lines = []
+    currents = []
+    if result.pull_current_a is not None:
+        currents.append(f"pull current while held {fq(result.pull_current_a, 'A')}")
+    if result.contact_current_a is not None:
+        currents.append(f"closed-contact current {fq(result.contact_current_a, 'A')} (min)")
+    if result.surge_peak_a is not None:
+        currents.append(f"closing surge {fq(result.surge_peak_a, 'A')} (peak)")
+    if currents:
+        lines.append(plain("; ".join(currents), hang=2))
+    rx = result.receiver_electrical
+    if rx is not None:
+        lines.append(plain(f"thresholds used: rising {_v(rx.rising_threshold[0])}–{_v(rx.rising_threshold[2])}, "
+                           f"falling {_v(rx.falling_threshold[0])}–{_v(rx.falling_threshold[2])}, "
+                           f"VIH {_v(rx.vih_min)}, VIL {_v(rx.vil_max)}", hang=2))
+    lines.extend(plain(f"note: {note}", "dim", hang=6) for note in result.notes)
+    return lines
 
 
 def print_trace(console, check, results) -> None:
+    """Each stage of the traced contact or receiver: prose wrapped between phrases on a
+    terminal (whole lines on a pipe), tables whose value cells never wrap."""
     for index, result in enumerate(results):
         if index:
             console.print()
-        stage = result.stage
-        contact, receiver = stage.contact, stage.receiver
-        rx = result.receiver_electrical
-        console.print(Text(path_name(contact.designator, receiver.ref), style="bold"))
-        console.print(f"stage: [bold]{stage.kind}[/]   parts: {', '.join(stage.parts) or 'none'}")
-        console.print(f"contact {contact.designator}: {contact.contact_class}, {contact.form}, bounce "
-                      f"{fq(contact.bounce_s, 's')} ({contact.location})", highlight=False)
-        kind = "Schmitt" if receiver.schmitt else "plain"
-        extra = ", edge-sensitive" if receiver.edge_sensitive else ""
-        part_type = receiver.part_type
-        if part_type[:1].isdigit() and not receiver.family.startswith("4000"):
-            part_type = "'" + part_type  # the 74-series function number: '14, '74
-        console.print(f"receiver {receiver.ref}: {part_type} {receiver.function} input, "
-                      f"{receiver.family} {kind}{extra}, VCC {fq(receiver.supply_v, 'V')}", highlight=False)
-        part = check.board.parts.get(receiver.part.casefold()) if check is not None else None
-        if part is not None and part.resolution:
-            console.print(f"part {part.designator}: {part.resolution}", highlight=False)
-        if receiver.threshold_note:
-            console.print(f"thresholds: {receiver.threshold_note}", highlight=False)
-        if receiver.firmware_debounce_s:
-            console.print(f"firmware debounce: {fq(receiver.firmware_debounce_s, 's')}")
-        console.print(f"nets: {', '.join(stage.nets)}", highlight=False)
-        path = signal_path(stage)
-        if path:
-            console.print(f"signal path: {contact.designator} ─ " + " ─ ".join(path) +
-                          f" ─ {receiver.ref}", highlight=False)
-        console.print(_parts_table(stage))
+        print_lines(console, _header_lines(result, check))
+        console.print(_parts_table(result.stage))
         console.print(_levels_table(result))
         if result.edges:
             console.print(_edges_table(result))
             if not times_apply(result):
-                console.print(f"times {NOT_APPLICABLE}: no capacitor on the path, so the input follows the "
-                              f"contact at once; {_WHO_DEBOUNCES.get(stage.kind, _UNFILTERED)}",
-                              style="dim", highlight=False)
-        currents = []
-        if result.pull_current_a is not None:
-            currents.append(f"pull current while held {fq(result.pull_current_a, 'A')}")
-        if result.contact_current_a is not None:
-            currents.append(f"closed-contact current {fq(result.contact_current_a, 'A')} (min)")
-        if result.surge_peak_a is not None:
-            currents.append(f"closing surge {fq(result.surge_peak_a, 'A')} (peak)")
-        if currents:
-            console.print("; ".join(currents), highlight=False)
-        if rx is not None:
-            console.print(f"thresholds used: rising {_v(rx.rising_threshold[0])}–{_v(rx.rising_threshold[2])}, "
-                          f"falling {_v(rx.falling_threshold[0])}–{_v(rx.falling_threshold[2])}, "
-                          f"VIH {_v(rx.vih_min)}, VIL {_v(rx.vil_max)}", highlight=False)
-        for note in result.notes:
-            console.print(f"note: {note}", style="dim")
-    console.print("Guidance from models and typical data: verify on the real board.", style="dim")
+                print_lines(console, [plain(
+                    f"times {NOT_APPLICABLE}: no capacitor on the path, so the input follows the contact at "
+                    f"once; {_WHO_DEBOUNCES.get(result.stage.kind, _UNFILTERED)}", "dim", hang=2)])
+        print_lines(console, _footer_lines(result))
+    print_lines(console, [plain("Guidance from models and typical data: verify on the real board.", "dim")])
