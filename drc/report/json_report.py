@@ -13,6 +13,7 @@ large part of a big board's check).
 from __future__ import annotations
 
 import math
+from collections import Counter
 
 from drc import __version__
 from drc.analysis.results import EdgeResult, LevelResult, StageResult
@@ -146,6 +147,8 @@ def board_json(board: BoardReport) -> dict:
         "stages": [stage_json(s) for s in board.stages],
         "findings": [finding_json(f) for f in board.findings],
         "summary": board.counts(),
+        "status": str(board.status()),
+        "needs_attention": board.needs_attention(),
     }
 
 
@@ -168,7 +171,8 @@ def report_document(run: RunReport) -> dict:
         "summary": {**run.counts(), "boards": len(run.boards),
                     "contacts_checked": run.coverage().checked,
                     "contacts_not_checked": run.coverage().not_checked,
-                    "contacts_non_logic_load": run.coverage().load_only},
+                    "contacts_non_logic_load": run.coverage().load_only,
+                    "boards_by_status": dict(Counter(str(b.status()) for b in run.boards))},
     }
 
 

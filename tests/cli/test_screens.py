@@ -90,6 +90,11 @@ def test_archive_counts_boards_it_could_not_read_or_that_hold_nothing(tmp_path: 
     assert rows[0].startswith("! not read") and rows[1].startswith("! no parts") and "clean" in rows[3]
     total = next(line for line in out.splitlines() if line.lstrip().startswith("total"))
     assert "4 boards, 3 need attention" in total
+    data = json.loads(drc_script("check", str(tmp_path / "archive"), "--no-fixes", "--format", "json").stdout)
+    assert {Path(b["path"]).name: b["status"] for b in data["boards"]} == {
+        "a_good.cir": "clean", "b_unreadable.cir": "not read", "c_empty.cir": "no parts",
+        "d_comments.cir": "no parts"}
+    assert data["summary"]["boards_by_status"] == {"clean": 1, "not read": 1, "no parts": 2}
     by_path = drc_script("check", str(tmp_path / "archive"), "--no-fixes", "--sort", "path").stdout
     rows = [line.split()[-1].rsplit("/", 1)[-1] for line in _table_rows(by_path)]
     assert rows == sorted(rows)
