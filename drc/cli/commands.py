@@ -360,8 +360,10 @@ def run_handbook(args) -> int:
         raise UsageError(unknown_name_message("rule id", args.rule_id, rules))
     doc = rule.doc
     limits = ", ".join(doc.limits) if doc.limits else "none"
+    bound = {"min": "a minimum", "max": "a maximum"}.get(doc.bound, "a limit")
+    headline = f"\nHeadline figure: {doc.figure}, against {bound}" if doc.figure else ""
     text = (f"{doc.full_text()}\n\nDefault severity: {doc.severity}\nLimits (rules/limits.toml, "
-            f"overridable in [limits]): {limits}\n\nFailing example\n{_indent(doc.failing_example)}\n"
+            f"overridable in [limits]): {limits}{headline}\n\nFailing example\n{_indent(doc.failing_example)}\n"
             f"Passing example\n{_indent(doc.passing_example)}")
     write_stdout(text.rstrip() + "\n")
     return ExitStatus.OK
