@@ -96,7 +96,7 @@ def plain_text(lines: Iterable[Line]) -> str:
 # ------------------------------------------------------------------ wrapping
 
 # A unit after a number: an optional SI prefix and a unit symbol, or a percent sign.
-_UNIT = r"(?:[TGMkmµμunpf]?(?:Ω|F|V|A|s|Hz|W)(?:/V)?|%|dB)(?=$|[\s,;:.)\]/×])"
+_UNIT = r"(?:[TGMkmµμunpf]?(?:Ω|F|V|A|s|Hz|W)(?:/V)?|%|dB)(?=$|[\s,;:.)\]/×\-–])"
 # Words that name a value and stay with it: thresholds, supplies, currents, bounds.
 _NAMES = r"(?:VT[+-]|VI[HL]|VO[HL]|VCC|VDD|II[HL]|Vf|min|max|typ|limit|margin|at|of|to|by|E\d+|[≥≤<>=≈~±])"
 _NUMBER_END = re.compile(r"[\d.]$")

@@ -9,12 +9,15 @@ report of the same run for the exact text of every finding.
 from __future__ import annotations
 
 import json
+import os
 import re
+import subprocess
+import sys
 from pathlib import Path
 
 import pytest
 
-from tests.cli.helpers import CLEAN, ROOT, drc_script
+from tests.cli.helpers import CLEAN, ROOT, console_script, drc_script
 from tests.support.ngspice import run_deck
 
 BOARDS = ROOT / "boards" / "lx24"
@@ -37,6 +40,65 @@ def test_piped_report_prints_each_finding_whole():
     # No line ends in a number whose unit went to the next line.
     for line, following in zip(lines, lines[1:], strict=False):
         assert not (re.search(r"\d$", line) and UNIT.match(following)), (line, following)
+
+
+_ESCAPE = re.compile(r"\x1b\[[0-9;?]*[A-Za-z]")
+
+
+def _on_a_terminal(*args: str, columns: int = 80) -> tuple[int, str]:
+    """Run the console script on a pseudo-terminal `columns` wide; its screen as plain text."""
+    if sys.platform == "win32":
+        pytest.skip("pseudo-terminals are POSIX")
+    import fcntl
+    import pty
+    import struct
+    import termios
+    leader, follower = pty.openpty()
+    fcntl.ioctl(follower, termios.TIOCSWINSZ, struct.pack("HHHH", 50, columns, 0, 0))
+    env = dict(os.environ, COLUMNS=str(columns), LINES="50", TERM="xterm-256color")
+    env.pop("NO_COLOR", None)
+    proc = subprocess.Popen([*console_script(), *args], cwd=ROOT, env=env, stdin=follower, stdout=follower,
+                            stderr=follower)
+    os.close(follower)
+    chunks = []
+    while True:
+        try:
+            chunk = os.read(leader, 65536)
+        except OSError:  # the other end closed (Linux reports EIO)
+            break
+        if not chunk:
+            break
+        chunks.append(chunk)
+    os.close(leader)
+    status = proc.wait(timeout=120)
+    text = _ESCAPE.sub("", b"".join(chunks).decode("utf-8", "replace")).replace("\r\n", "\n")
+    # The progress bar redraws itself with carriage returns: keep what is left on each line.
+    return status, "\n".join(line.rsplit("\r", 1)[-1] for line in text.split("\n"))
+
+
+def test_terminal_rows_fit_80_columns_and_break_only_between_phrases():
+    status, screen = _on_a_terminal("check", str(BOARDS), "--no-fixes")
+    data = json.loads(drc_script("check", str(BOARDS), "--no-fixes", "--format", "json").stdout)
+    assert status == 1 and "Traceback" not in screen
+    rows = screen.splitlines()
+    assert max(len(row) for row in rows) <= 80, max(rows, key=len)
+    flat = " ".join(row.strip() for row in rows)
+    findings = [f for board in data["boards"] for f in board["findings"] if not f.get("suppressed")]
+    assert findings
+    for f in findings:
+        # Wrapped at phrase boundaries: joining the rows with single spaces gives the text back.
+        assert f["message"] in flat, f["message"]
+        # A contact → receiver and a part designator never straddle two rows.
+        if f["contact"] and f["receiver"]:
+            assert any(f"{f['contact']} → {f['receiver']}" in row for row in rows), f
+    # No row ends in a number whose unit went to the next row; no row ends in a name whose value did.
+    stripped = [row.strip() for row in rows]
+    for row, following in zip(stripped, stripped[1:], strict=False):
+        assert not (re.search(r"\d$", row) and UNIT.match(following)), (row, following)
+        assert not re.search(r"\b(?:VIL|VIH|VT[+-]|max|min)$", row), (row, following)
+    # The archive table on a narrow terminal: each board's path whole on a row of its own.
+    for board in data["boards"]:
+        assert any(row.strip().lstrip("! ").strip() == board["path"] for row in rows), board["path"]
 
 
 def test_headline_says_margin():

@@ -110,11 +110,11 @@ def test_board_error_is_shown_with_its_caret_line_intact():
 
 def test_wrap_keeps_values_together():
     text = ("with SW5 released, U4:1 sits at 4.2 V at worst, 3.4 V on the wrong side of VIL max 0.8 V; "
-            "XK3/C1 100 nF → 1.5 µF (release 11.7 ms ≥ 10 ms at fastest corner)")
+            "XK3/C1 100 nF → 1.5 µF (release 11.7 ms ≥ 10 ms at fastest corner); a resistor (100 Ω-1 kΩ is usual)")
     for width in range(16, 60):
         rows = [text[a:b] for a, b in wrap_rows(text, width, width)]
         assert " ".join(rows) == text
-        for kept in ("4.2 V", "3.4 V", "VIL max 0.8 V", "≥ 10 ms", "XK3/C1 100 nF"):
+        for kept in ("4.2 V", "3.4 V", "VIL max 0.8 V", "≥ 10 ms", "XK3/C1 100 nF", "100 Ω"):
             assert any(kept in row for row in rows), (width, rows)
 
 
