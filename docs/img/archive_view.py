@@ -11,6 +11,7 @@ photographed by headless Chromium (Debian package `chromium`).
 
 from __future__ import annotations
 
+import os
 import shutil
 import subprocess
 import sys
@@ -51,6 +52,8 @@ def main() -> None:
 
 
 def _browser() -> str:
+    if os.environ.get("DRC_BROWSER"):
+        return os.environ["DRC_BROWSER"]
     for name in ("chromium", "chromium-browser", "google-chrome"):
         found = shutil.which(name)
         if found:
