@@ -1,8 +1,8 @@
 """Render the archive view of `drc check` to docs/img/archive.png (run from the repository root).
 
 The archive is the four LX-24 demo boards plus two files that stand for what
-real archives hold: an export that came out empty and one damaged by hand
-(a resistor line without its value). The view is printed by the text report's
+real archives hold: an export that came out empty and one cut short inside
+a subcircuit definition (no .ends: not read). The view is printed by the text report's
 own terminal writer at 110 columns with colour, recorded by rich as SVG and
 photographed by headless Chromium (Debian package `chromium`).
 
@@ -34,7 +34,7 @@ def main() -> None:
         archive = Path(tmp) / "archive"
         shutil.copytree(ROOT / "boards" / "lx24", archive)
         (archive / "spare_panel.cir").write_text("")
-        (archive / "old_console.cir").write_text("old console\nV1 vcc 0 DC 5\nR1 vcc key\nSW1 key 0 TACTILE\n.end\n")
+        (archive / "old_console.cir").write_text("old console\n.subckt KEYS a b\nR1 a b 10k\n.end\n")
         run = audit([archive], CheckOptions(propose_fixes=False))
         run = replace(run, boards=tuple(replace(b, path=str(Path(b.path).relative_to(tmp)))
                                         for b in run.boards))

@@ -303,7 +303,8 @@ def archive_lines(run: RunReport, sort: BoardOrder = BoardOrder.WORST, width: in
     rows.append((" ", _total_words(run), _total_cells(run)))
     table = _layout(rows, width)
     indent = 4 if table.narrow else 2
-    rule = plain("─" * (sum(table.widths) + 2 * len(table.widths) + (0 if table.narrow else 16)),
+    board_column = 0 if table.narrow else min(40, max(len(path) for _f, path, _c in rows))
+    rule = plain("─" * (sum(table.widths) + 2 * len(table.widths) + board_column),
                  "dim", indent=indent, wrap=False)
     yield Line(tuple(table.cells(table.header()) + ([] if table.narrow else [("board", "bold")])),
                indent=indent, wrap=False)
