@@ -83,10 +83,13 @@ def _edges_table(result) -> Table:
 
 def print_unchecked(console, items, outcomes) -> None:
     """What `drc trace` shows of a contact with inputs it could not check, or loads only."""
-    for item in items:
+    for index, item in enumerate(items):
+        if index:
+            console.print()
         target = f" {ARROW} {item.receiver}" if item.receiver else ""
-        console.rule(Text(f"{item.contact.designator}{target}: not checked", style="bold"))
-        lines = [Line((("reason: ", ""), (str(item.reason), "bold"))), plain(item.detail, hang=2)]
+        # A heading line like a stage's (a rule would span a pipe's unbounded width).
+        lines = [plain(f"{item.contact.designator}{target}: not checked", "bold"),
+                 Line((("reason: ", ""), (str(item.reason), "bold"))), plain(item.detail, hang=2)]
         if item.nets:
             lines.append(plain(f"nets: {', '.join(item.nets)}", hang=2))
         print_lines(console, lines)

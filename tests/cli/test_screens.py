@@ -246,3 +246,13 @@ def test_fix_wording_has_no_article_before_a_designator(rule_fix):
     assert rule_fix in {r.id for r in all_rules()}
     text = drc_script("check", str(BOARDS / "dimmer_rack.cir"), "--no-fixes").stdout
     assert "use a R" not in text and "choose R20 within 1 kΩ-50 kΩ" in text
+
+
+def test_trace_of_a_contact_not_checked_has_a_heading_not_a_rule():
+    """On a pipe the unchecked contact's heading is one line with the one arrow (a rule
+    drawn to the console's width would fill a CI log line with thousands of dashes)."""
+    proc = drc_script("trace", str(BOARDS / "footswitch_unit.cir"), "SW35")
+    assert proc.returncode == 0, proc.stderr
+    lines = proc.stdout.splitlines()
+    assert lines[:2] == ["SW35 → U36:1: not checked", "reason: isolated-input"], lines[:3]
+    assert max(len(line) for line in lines) < 400
