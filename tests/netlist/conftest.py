@@ -18,8 +18,9 @@ _LISTING = re.compile(r"^\s*\d+\s*:\s*(\S+)(.*)$")
 _EQUATIONS = re.compile(r"Circuit Equations\s*=\s*(\d+)")
 
 
-def ngspice_inventory(deck_path: Path) -> tuple[set[str], int]:
-    """(flattened element names, node count) as ngspice-39 reports them.
+def ngspice_inventory(deck_path: Path, with_listing: bool = False):
+    """(flattened element names, node count) as ngspice-39 reports them (and,
+    `with_listing`, its `listing expand` text as a second item).
 
     Recipe from shared/reference/spice-dialect.md: `listing expand` prints the
     flattened element lines; before any analysis `Circuit Equations` is the
@@ -60,6 +61,8 @@ def ngspice_inventory(deck_path: Path) -> tuple[set[str], int]:
         names.add(_normalise(name.lower()))
     equations = _EQUATIONS.search(out)
     assert equations, out[-2000:]
+    if with_listing:
+        return (names, int(equations.group(1))), proc.stdout.lower()
     return names, int(equations.group(1))
 
 
