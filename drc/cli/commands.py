@@ -441,7 +441,12 @@ def run_simulate(args) -> int:
     result = results[0]
     rx = result.receiver_electrical
     latch = latch_gates(result.stage, load_library()) if result.stage.kind == "latch" else None
-    sim = simulate_stage(result.stage, rx, trials=args.trials, seed=args.seed, latch=latch)
+    from drc.config.settings import Config
+    from drc.pipeline import effective_limits
+    # The shortest make or break: the [limits] min-closure the check's closure-and-opening reading uses.
+    min_closure = effective_limits(check.config or Config()).get("min_closure")
+    sim = simulate_stage(result.stage, rx, trials=args.trials, seed=args.seed, latch=latch,
+                         min_closure_s=min_closure)
     if args.spice and not sim.simulated:
         raise UsageError(f"cannot write a chatter deck for {result.stage.name}: it was not simulated")
     if args.spice:

@@ -7,6 +7,7 @@ from drc.library.entries import Limit
 EXPECTED = {
     # key: (value, unit); all common practice, no source, unless the file says otherwise
     "bounce_margin": (1.0, "1"),
+    "min_closure": (1e-6, "s"),
     "latency_limit": (0.100, "s"),
     "leakage_headroom_margin": (0.1, "VCC"),
     "pull_current_budget": (1e-3, "A"),
