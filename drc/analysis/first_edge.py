@@ -65,7 +65,9 @@ class PullBack:
     crossing threshold itself (the new state's path is slow). opposite_v: the
     opposite threshold there. fastest_s: the shortest pull back from left_v
     to opposite_v over the tolerance box (None: it never gets there);
-    nominal_s: the same at the nominal corner with typical thresholds.
+    nominal_s: the same at the nominal corner with typical thresholds;
+    first_crossing_s: the nominal time from the first touch to the crossing
+    (the edge's own time when nothing interrupts it).
     """
 
     edge: Edge
@@ -79,6 +81,7 @@ class PullBack:
     fastest_s: float | None
     nominal_s: float | None
     corner_fastest: dict[str, float]
+    first_crossing_s: float | None = None  # nominal: from the first touch to the crossing, in the new state
 
 
 def bounce_state(stage: Stage, edge: Edge | str) -> str:
@@ -126,7 +129,7 @@ def pull_back(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
                 tuple(np.where(take, a, b) for a, b in zip(fig, best[1], strict=True)),
                 np.where(take, cross, best[2]), np.where(take, opp, best[3]))
     assert best is not None
-    tv, (_, left, at_thr, _, _), cross_v, opp_v = best
+    tv, (_, left, at_thr, _, _, _), cross_v, opp_v = best
     tau_n, tau_b = nominal[3], nominal[4]
     t0 = nominal[0]
     i = int(np.argmin(tv))
@@ -136,7 +139,8 @@ def pull_back(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
         closure_tau_s=float(tau_n[0]), bounce_tau_s=float(tau_b[0]), left_v=float(left[i]),
         at_threshold=bool(at_thr[i]), opposite_v=float(opp_v[i]),
         fastest_s=_time(tv[i]), nominal_s=_time(float(t0[0])),
-        corner_fastest=corner_dict(model.param_names, row, {THRESHOLD: float(cross_v[i])}))
+        corner_fastest=corner_dict(model.param_names, row, {THRESHOLD: float(cross_v[i])}),
+        first_crossing_s=_time(float(nominal[5][0])))
 
 
 def _time(x: float) -> float | None:
@@ -198,7 +202,7 @@ def _mode(model: LinearModel, state: str, P: np.ndarray):
 def _figures(model: LinearModel, es: EdgeSetup, back: str, P: np.ndarray, cross_v: np.ndarray,
              opp_v: np.ndarray, min_closure_s: float):
     """Per row: (pull-back time (nan: no crossing, inf: never back), level left, left at
-    the threshold, tau of the new state, tau of the bounce state)."""
+    the threshold, tau of the new state, tau of the bounce state, time to the crossing)."""
     d = es.direction
     u_old = cap_voltages(model, dc_solve(model, es.from_state, P))[:, 0]
     qn, gn, un, tau_n = _mode(model, es.to_state, P)
@@ -221,7 +225,9 @@ def _figures(model: LinearModel, es: EdgeSetup, back: str, P: np.ndarray, cross_
         gets_there = np.isfinite(ub) & (gb > 0) & (-d * (qb + gb * ub - opp_v) > 0)
         t = np.where(past, 0.0, np.where(gets_there, tau_b * np.log((ub - u_left) / (ub - u_opp)), np.inf))
     t = np.where(reaches, t, np.nan)
-    return t, left_v, ~crossed, tau_n, tau_b
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t_cross = np.where(reaches, np.maximum(tau_n * np.log((un - u_start) / (un - u_cross)), 0.0), np.inf)
+    return t, left_v, ~crossed, tau_n, tau_b, t_cross
 
 
 __all__ = ["MIN_CLOSURE_S", "TRANSIT", "PullBack", "bounce_state", "pull_back"]

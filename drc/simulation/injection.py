@@ -23,8 +23,13 @@ state and "no throw closed" (a changeover's common between its throws); a
 contact whose new state closes nothing (a normally-open contact released)
 re-makes into its old state instead. Bursts are made of intervals of at
 least 1 µs (chatter.INTERVAL_S, the analysis' minimum closure for a
-first-edge stage; `min_closure_s` sets another), so a stage with a capacitor
-across its contact is counted by the same reading the check applies. Leakage and the starting steady state
+first-edge stage; `min_closure_s` sets another, `drc simulate` passes the
+[limits] min-closure), so a stage with a capacitor across its contact is
+counted by the same reading the check applies, and the result's notes give
+that reading's figure (how long an opening must last to bring the input
+back) against the longest interval drawn: the check's worst case is one
+opening as long as the bounce, at the fastest corner, which random chatter
+of at most 1 ms intervals never draws. Leakage and the starting steady state
 follow the analysis' convention for each edge (drc.analysis.stage_analysis.edge_setup),
 at the nominal corner. `chatter_deck` writes one recorded trial as an ngspice
 deck (drc.simulation.spice_deck's element lines, with the chatter as PWL
@@ -428,9 +433,39 @@ def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, 
         upper_v=system.reader.upper, lower_v=system.reader.lower,
         edges={e: _statistics(e, counts[e], lingering[e], stays[e]) for e in EDGE_STATES}, clean_trials=clean,
         worst_trial=worst, worst_edges={e: int(counts[e][worst]) for e in EDGE_STATES},
-        notes=tuple(_notes(stage, system)), trains=trains,
+        notes=tuple(_notes(stage, system) + _reading_notes(stage, rx, interval, system)), trains=trains,
         band_v=(system.band[0], system.band[1]) if system.band else None,
         linger_limit_s=system.band[2] if system.band else None)
+
+
+def _reading_notes(stage: Stage, rx: ReceiverElectrical, interval: tuple[float, float],
+                   system: _StageSystem) -> list[str]:
+    """What the check's closure-and-opening reading says of the same stage at this corner:
+    the opening (or re-closure) that brings the input back, against the longest drawn here."""
+    if system.latch is not None or not rx.schmitt:
+        return []
+    from drc.analysis.first_edge import pull_back
+    out = []
+    for edge in EDGE_STATES:
+        pb = pull_back(stage, rx, edge, interval[0])
+        if pb is None or pb.nominal_s is None or pb.first_crossing_s is None or pb.first_crossing_s > interval[0]:
+            continue  # only an edge that crosses within one closure (a first-edge stage)
+        way = "opening" if pb.bounce_state == TRANSIT or edge == Edge.PRESS else "re-closure"
+        verdict = ("so none drawn here can" if pb.nominal_s > interval[1]
+                   else "so the trials with a longer one count extra edges")
+        out.append(f"{edge} crosses at once (a first-edge stage); after that an {way} longer than "
+                   f"{_seconds(pb.nominal_s)} brings the input back across the other threshold (the check's "
+                   f"closure-and-opening reading at this corner); intervals drawn here last "
+                   f"{_seconds(interval[0])} to {_seconds(interval[1])}, {verdict}; the check's worst case "
+                   f"is one as long as the bounce, at the fastest corner")
+    return out
+
+
+def _seconds(t: float) -> str:
+    for unit, scale in (("s", 1.0), ("ms", 1e-3), ("µs", 1e-6), ("ns", 1e-9)):
+        if t >= scale:
+            return f"{t / scale:.3g} {unit}"
+    return f"{t:.3g} s"
 
 
 def _notes(stage: Stage, system: _StageSystem) -> list[str]:

@@ -54,6 +54,10 @@ def test_simulate_counts_what_the_closure_reading_predicts():
     counted = sorted(k for k, n in sim.edges["press"].histogram.items() for _ in range(n))
     assert counted == predicted
     assert sim.edges["press"].clean_trials < 400  # openings up to 1 ms outlast T (about 0.7 ms)
+    # simulate says so, with the check's T
+    note = next(n for n in sim.notes if n.startswith("press crosses at once"))
+    assert f"{pb.nominal_s * 1e6:.3g} µs" in note and "count extra edges" in note
+    assert not any(n.startswith("release") for n in sim.notes)  # the release does not cross at once
 
 
 def test_a_stage_the_check_passes_is_clean_in_every_simulated_trial():
@@ -61,6 +65,20 @@ def test_a_stage_the_check_passes_is_clean_in_every_simulated_trial():
     assert not findings
     sim = simulate_stage(result.stage, result.receiver_electrical, trials=1000, seed=8)
     assert sim.clean_trials == 1000
+    assert any(n.startswith("press crosses at once") and "none drawn here can" in n for n in sim.notes)
+
+
+def test_simulate_draws_its_shortest_interval_from_the_min_closure_limit(tmp_path):
+    from tests.cli.helpers import drc
+    board = tmp_path / "b.cir"
+    board.write_text("* C across the contact\nV1 vcc 0 DC 5\nR1 vcc in 100k\nSW1 in 0 TACTILE\n"
+                     "C1 in 0 1u\nXU1 in y1 0 y2 0 y3 0 y4 0 y5 0 y6 0 vcc 74HC14\n.end\n", encoding="utf-8")
+    (tmp_path / "drc.toml").write_text('[limits]\nmin-closure = "20 us"\n', encoding="utf-8")
+    proc = drc("simulate", str(board), "SW1", "--trials", "20", "--format", "json")
+    assert proc.returncode == 0, proc.stderr
+    import json
+    notes = json.loads(proc.stdout)["notes"]
+    assert any("intervals drawn here last 20 µs to 1 ms" in n for n in notes), notes
 
 
 def _count_edges(times, volts, start, stop, upper, lower):
