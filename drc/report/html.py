@@ -193,7 +193,10 @@ def _board_view(board: BoardReport, index: int, run: RunReport, svg_cache: dict)
         "counts": board.counts(), "worst_margin": _Cell(format_quantity(margin, "V"), "bad" if margin < 0 else "")
         if margin is not None else _Cell("—"),
         "rows": rows, "stages": stages, "findings": active, "suppressed": suppressed,
+        "coverage": board.coverage.text_with_loads() if board.coverage else None,
+        "coverage_bad": bool(board.coverage and board.coverage.not_checked),
     }
+
 
 
 def _environment():

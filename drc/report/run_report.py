@@ -148,6 +148,11 @@ class Coverage:
             text += f", {self.load_only} non-logic load only"
         return text
 
+    def text_with_loads(self) -> str:
+        """text() and the loads: "...; non-logic loads: SW9 drives lamp LP1"."""
+        loads = "; ".join(f"{contact} drives {', '.join(driven)}" for contact, driven in self.loads)
+        return self.text() + (f"; non-logic loads: {loads}" if loads else "")
+
 
 @dataclass(frozen=True, slots=True)
 class BoardReport:

@@ -139,10 +139,7 @@ def board_lines(board: BoardReport, run: RunReport, quiet: bool) -> Iterator[Lin
 
 def _coverage_lines(coverage: Coverage, quiet: bool) -> Iterator[Line]:
     """"contacts: 3 checked, 1 not checked; non-logic loads: SW9 drives lamp LP1" (dim when all checked)."""
-    text = coverage.text()
-    if not quiet and coverage.loads:
-        text += "; non-logic loads: " + "; ".join(
-            f"{contact} drives {', '.join(loads)}" for contact, loads in coverage.loads)
+    text = coverage.text() if quiet else coverage.text_with_loads()
     yield plain(text, "" if coverage.not_checked else "dim", indent=2, hang=2)
 
 

@@ -256,3 +256,18 @@ def test_trace_of_a_contact_not_checked_has_a_heading_not_a_rule():
     lines = proc.stdout.splitlines()
     assert lines[:2] == ["SW35 → U36:1: not checked", "reason: isolated-input"], lines[:3]
     assert max(len(line) for line in lines) < 400
+
+
+def test_html_board_sections_say_how_many_contacts_were_checked():
+    """The survey's counts (the JSON report's coverage objects) on each board's section,
+    marked where a contact was not checked (the footswitch's opto-isolated GO input)."""
+    data = json.loads(drc_script("check", str(BOARDS), "--no-fixes", "--format", "json").stdout)
+    page = drc_script("check", str(BOARDS), "--no-fixes", "--format", "html").stdout
+    # Each board's section: its heading (the path), then its summary, then the coverage line.
+    shown = {path: (bool(bad), text) for path, bad, text in re.findall(
+        r'<h2>([^<]*)</h2>\s*<p class="summary">.*?</p>\s*<p class="summary coverage( bad)?">([^<]*)</p>', page)}
+    expected = {b["path"]: (c["not_checked"] > 0, f"contacts: {c['checked']} checked, {c['not_checked']} not checked"
+                            + (f", {c['non_logic_load']} non-logic load only" if c["non_logic_load"] else ""))
+                for b in data["boards"] for c in [b["coverage"]]}
+    assert {path: (bad, text.split(";")[0]) for path, (bad, text) in shown.items()} == expected
+    assert any(bad for bad, _text in shown.values())
