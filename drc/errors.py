@@ -10,6 +10,8 @@ jobs), and the "did you mean" wording every unknown name gets.
 from __future__ import annotations
 
 import difflib
+import re
+import sys
 from collections.abc import Iterable
 from dataclasses import dataclass
 from enum import IntEnum
@@ -20,8 +22,10 @@ class ExitStatus(IntEnum):
 
     OK = 0  # nothing at or above the fail level
     FINDINGS = 1  # findings at or above the fail level
-    ERROR = 2  # bad input, config or usage (any DrcError), or an internal error
+    ERROR = 2  # bad input, config or usage (any DrcError), a report that could not be written, or an internal error
+    HANGUP = 129  # SIGHUP (the terminal went away), as shells report it
     INTERRUPTED = 130  # Ctrl-C, as shells report SIGINT
+    TERMINATED = 143  # SIGTERM, as shells report it
 
 
 def suggest(name: str, candidates: Iterable[str]) -> str | None:
@@ -38,6 +42,46 @@ def unknown_name_message(kind: str, name: str, candidates: Iterable[str]) -> str
     return f"unknown {kind} {name!r}{hint}"
 
 
+# Control characters (C0, DEL, C1) and the Unicode line and paragraph separators.
+_UNPRINTABLE = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029\udc80-\udcff]")
+_ESCAPES = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
+
+
+def _escape(match: re.Match[str]) -> str:
+    char = match.group()
+    code = ord(char)
+    if code >= 0xDC80:  # a byte of a name that is not UTF-8, kept by Python as a surrogate
+        return f"\\x{code - 0xDC00:02x}"
+    return _ESCAPES.get(char) or (f"\\x{code:02x}" if code <= 0xFF else f"\\u{code:04x}")
+
+
+def printable(text: str) -> str:
+    """`text` (a file name, usually) as one printable line: a newline, tab or other
+    control character becomes an escape (\\n, \\t, \\x1b) and a byte that is not
+    UTF-8 becomes \\xNN, so a strange name can neither split a report's line nor
+    stop it from being written."""
+    return _UNPRINTABLE.sub(_escape, text) if _UNPRINTABLE.search(text) else text
+
+
+def long_number(text: str, file: str) -> tuple[str, SourceLocation, str | None]:
+    """(message, location, line) for a text whose integer has more digits than the
+    interpreter converts (sys.get_int_max_str_digits, 4300 by default): where the
+    longest run of digits starts."""
+    limit = getattr(sys, "get_int_max_str_digits", lambda: 4300)() or 4300
+    runs = list(re.finditer(r"[0-9][0-9_]*", text))
+    longest = max(runs, key=lambda m: m.end() - m.start(), default=None)
+    message = f"a number has more than {limit} digits (the largest this tool reads)"
+    if longest is None:
+        return message, SourceLocation(file), None
+    before = text[:longest.start()]
+    line = before.count("\n") + 1
+    column = longest.start() - (before.rfind("\n") + 1) + 1
+    source = text.splitlines()[line - 1] if text else None
+    if source is not None and len(source) > 200:
+        source = None  # the number itself is the line: the location says enough
+    return message, SourceLocation(file, line, column), source
+
+
 @dataclass(frozen=True, slots=True)
 class SourceLocation:
     """A 1-based position in an input file."""
@@ -47,11 +91,12 @@ class SourceLocation:
     column: int = 0
 
     def __str__(self) -> str:
+        file = printable(self.file)
         if self.line <= 0:
-            return self.file
+            return file
         if self.column <= 0:
-            return f"{self.file}:{self.line}"
-        return f"{self.file}:{self.line}:{self.column}"
+            return f"{file}:{self.line}"
+        return f"{file}:{self.line}:{self.column}"
 
 
 class DrcError(Exception):

@@ -114,9 +114,9 @@ def rule_ids() -> list[str]:
     return [r.id for r in all_rules()]
 
 
-def _limit_keys() -> dict[str, str]:
-    """Limit keys as users write them in config (kebab-case) -> their unit."""
-    return {k.replace("_", "-"): v.unit for k, v in library().limits.items()}
+def _limit_keys() -> dict[str, str | tuple[str, str]]:
+    """Limit keys as users write them in config (kebab-case) -> (unit, allowed range)."""
+    return {k.replace("_", "-"): (v.unit, v.range) for k, v in library().limits.items()}
 
 
 # Configs read in this process, by (resolved path, bytes' digest, rule ids, library): a
@@ -432,13 +432,19 @@ def boards_reading(changed: Iterable[str | Path], under: str | Path = ".",
 
 
 def board_files(paths: Iterable[str | Path]) -> list[Path]:
-    """Expand folders (recursively) into the netlist files they hold; files as given."""
+    """Expand folders (recursively) into the netlist names they hold; files as given.
+
+    Every name with a netlist suffix that is not a folder is a board, also
+    when it cannot be read (a dangling symbolic link, a FIFO, a device, a
+    file without read permission): its check then fails with the reason, so
+    a folder scan never skips a board in silence.
+    """
     out: list[Path] = []
     for p in paths:
         p = Path(p)
         if p.is_dir():
             out.extend(sorted((f for f in p.rglob("*")
-                               if f.suffix.lower() in NETLIST_SUFFIXES and f.is_file()),
+                               if f.suffix.lower() in NETLIST_SUFFIXES and not f.is_dir()),
                               key=lambda f: str(f)))
         else:
             out.append(p)

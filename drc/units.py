@@ -11,12 +11,22 @@ most of a second, which a command-line run should pay only when needed.
 Formatting is a few lines of arithmetic with
 engineering prefixes, because reports format thousands of figures and need
 no unit algebra for that.
+
+Every value a user gives (config, `*@drc` annotations, command-line options)
+is validated here, once, the same way: `checked_quantity` for a quantity of
+one dimension (time, resistance, capacitance, voltage, current, fraction, ratio)
+within a `Range` (positive unless said otherwise), `checked_count` for a
+whole number. NaN, infinity, a wrong unit, a negative or a zero where the
+range excludes it are refused with the caller's "where" (a file, line and
+key, or an option). Only a short text of a number and a unit product ever
+reaches pint ("10**10**10 ms" would make it compute for ever).
 """
 
 from __future__ import annotations
 
 import math
 import re
+from enum import StrEnum
 
 from drc.caching import memoized
 from drc.errors import ConfigError
@@ -30,12 +40,13 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
     "voltage": ("volt", "3.3 V"),
     "current": ("ampere", "1 mA"),
     "fraction": ("", "5 %"),
+    "ratio": ("", "1.5"),
 }
 
 # A bare number is unambiguous only where the base unit is what a person
 # means by default (volts for a rail, ohms for a resistor, a plain ratio);
 # "bounce = 5" or "100" for a capacitor is far more likely a slip than 5 s or 100 F.
-_BARE_NUMBER_OK = frozenset({"voltage", "resistance", "fraction"})
+_BARE_NUMBER_OK = frozenset({"voltage", "resistance", "fraction", "ratio"})
 
 _NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
 # "4.7k", "10K", "1M" written for a resistance with no unit (common practice on schematics).
@@ -146,7 +157,7 @@ def _common_form(raw: str, clean: str, dimension: str, where: str) -> float | No
         bare = _BARE_RESISTANCE.match(clean)
         if bare:
             return float(bare.group(1)) * (1e3 if bare.group(2) in "kK" else 1e6)
-    if dimension == "fraction" and clean.endswith("%"):
+    if dimension in ("fraction", "ratio") and clean.endswith("%"):
         return _percentage(raw, clean, example, where)
     fast = _fast_quantity(clean)
     return fast[0] if fast is not None and fast[1] == dimension else None
@@ -159,9 +170,23 @@ def _percentage(raw: str, clean: str, example: str, where: str) -> float:
     raise _error(f"{raw!r} is not a percentage; expected e.g. {example!r}", where)
 
 
+# What may reach pint: a number, then unit words joined by blanks, "/", "*" or "·",
+# each with at most a one-digit power ("m/s^2", "kiloohm"); short. Anything else
+# (an expression such as 10**10**10, which pint would evaluate) is refused first.
+MAX_PINT_TEXT = 64
+_PINT_TEXT = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d{1,3})?\s*"
+                        r"(?:[A-Za-zΩµ°]+(?:(?:\^|\*\*)-?\d)?(?:\s*[/*·]\s*|\s+)?)*")
+
+
+def _pint_text_allowed(clean: str) -> bool:
+    return len(clean) <= MAX_PINT_TEXT and _PINT_TEXT.fullmatch(clean) is not None
+
+
 def _pint_quantity(raw: str, clean: str, dimension: str, where: str) -> float:
     """Any other spelling pint reads, converted to the dimension's reference unit."""
     reference, example = DIMENSIONS[dimension]
+    if not _pint_text_allowed(clean):
+        raise _error(f"{raw!r} is not a {dimension}; expected e.g. {example!r}", where)
     registry = _registry()
     try:
         quantity = registry.Quantity(clean)
@@ -196,11 +221,70 @@ def parse_any_quantity(text: str, where: str = "") -> float:
     fast = _fast_quantity(clean)
     if fast is not None:
         return fast[0]
+    if not _pint_text_allowed(clean):
+        raise _error(f"{text!r} is not a quantity; expected a number or e.g. '20 ms'", where)
     try:
         quantity = _registry().Quantity(clean)
         value = float(quantity.to_base_units().magnitude)
     except _pint_failures():
         raise _error(f"{text!r} is not a quantity; expected a number or e.g. '20 ms'", where) from None
+    return value
+
+
+class Range(StrEnum):
+    """Which values of a quantity are allowed (besides being finite)."""
+
+    POSITIVE = "positive"            # > 0: times, resistances, capacitances, limits
+    NON_NEGATIVE = "non-negative"    # >= 0: margins and spreads that may be nil
+    FRACTION = "fraction"            # 0 <= x < 1: tolerances
+    FINITE = "finite"                # any finite value: a rail may be negative
+
+    def admits(self, value: float) -> bool:
+        if self is Range.POSITIVE:
+            return value > 0
+        if self is Range.NON_NEGATIVE:
+            return value >= 0
+        if self is Range.FRACTION:
+            return 0 <= value < 1
+        return True
+
+    def describe(self, dimension: str) -> str:
+        if self is Range.FRACTION:
+            return "a fraction from 0 % to below 100 %"
+        if self is Range.FINITE:
+            return f"a finite {dimension}"
+        return f"a{'' if self is Range.POSITIVE else ' zero or'} positive {dimension}"
+
+
+def checked_quantity(value: str | float, dimension: str, where: str = "",
+                     allowed: Range = Range.POSITIVE) -> float:
+    """The one validator of a quantity a user gives, wherever it is given.
+
+    `value`: text ("20 ms", "4.7k", "5 %") or, where the dimension takes a bare
+    number (voltage, resistance, fraction), a number. Refuses what is not a
+    quantity of `dimension`, NaN and infinity, and values outside `allowed`,
+    with a ConfigError starting with `where`.
+    """
+    if isinstance(value, bool) or not isinstance(value, (int, float, str)):
+        raise _error(f"expected {allowed.describe(dimension)} such as "
+                     f"{DIMENSIONS[dimension][1]!r}, got {type(value).__name__}", where)
+    text = value if isinstance(value, str) else repr(value)
+    number = parse_quantity(text, dimension, where)
+    if not math.isfinite(number):
+        raise _error(f"{text!r} is not a finite {dimension}", where)
+    if not allowed.admits(number):
+        raise _error(f"expected {allowed.describe(dimension)}, got {text!r}", where)
+    return number
+
+
+def checked_count(value: object, where: str = "", minimum: int = 1,
+                  maximum: int | None = None) -> int:
+    """The one validator of a whole number a user gives (a pin, a count, a seed)."""
+    if isinstance(value, bool) or not isinstance(value, int) or value < minimum or (
+            maximum is not None and value > maximum):
+        span = f"from {minimum} to {maximum}" if maximum is not None else f">= {minimum}"
+        shown = repr(value) if not isinstance(value, int) or value.bit_length() < 64 else "a huge number"
+        raise _error(f"expected a whole number {span}, got {shown}", where)
     return value
 
 

@@ -7,6 +7,7 @@ the exit status; errors are raised as DrcError for `drc.cli.parser.main`.
 
 from __future__ import annotations
 
+import math
 import sys
 from contextlib import contextmanager
 from datetime import date
@@ -14,6 +15,10 @@ from pathlib import Path
 
 from drc.errors import ConfigError, DrcError, ExitStatus, UsageError
 from drc.report.formats import FORMATS, BoardOrder, ConsoleFormatter, RenderOptions, formatter
+
+# `drc simulate --trials`: each trial holds its bounce train and waveforms in
+# memory (about 12 kB; 100,000 trials took 0.7 GB), so more are lowered to this.
+MAX_TRIALS = 10_000
 
 # ------------------------------------------------------------------ option values
 
@@ -26,20 +31,30 @@ def _ids(values: list[str] | None) -> tuple[str, ...]:
 
 
 def _quantity(text: str, dimension: str, option: str) -> float:
-    """A command-line quantity: "5ms", "10 kΩ"; R and C also in SPICE form ("4.7k", "470n")."""
-    from drc.units import parse_quantity
+    """A command-line quantity through the one validator (drc.units.checked_quantity):
+    "5ms", "10 kΩ"; R and C also in SPICE form ("4.7k", "470n"); positive and finite."""
+    from drc.units import checked_quantity
     try:
-        return parse_quantity(text, dimension, option)
+        return checked_quantity(text, dimension, option)
     except ConfigError as exc:
         if dimension in ("resistance", "capacitance"):
             from drc.netlist.values import parse_value
             value = parse_value(text.strip())
-            if value is not None and value.si > 0:
+            if value is not None and math.isfinite(value.si) and value.si > 0:
                 return value.si
         message = exc.message
         if message.startswith(option + ":"):
             message = message[len(option) + 1:].strip()
         raise UsageError(f"{option}: {message}") from None
+
+
+def _count(value: int, option: str, minimum: int = 1) -> int:
+    """A whole-number option through the one validator (drc.units.checked_count)."""
+    from drc.units import checked_count
+    try:
+        return checked_count(value, option, minimum=minimum)
+    except ConfigError as exc:
+        raise UsageError(exc.message) from None
 
 
 # ------------------------------------------------------------------ output
@@ -97,9 +112,7 @@ def _reader_limits(args) -> tuple[tuple[str, int], ...]:
     for name in names:
         value = getattr(args, name, None)
         if value is not None:
-            if value <= 0:
-                raise UsageError(f"--{name.replace('_', '-')} must be a positive whole number")
-            out.append((name, value))
+            out.append((name, _count(value, f"--{name.replace('_', '-')}")))
     return tuple(out)
 
 
@@ -123,6 +136,17 @@ def _as_of(text: str | None) -> date | None:
         raise UsageError(f"--as-of {text!r}: expected a date as YYYY-MM-DD") from None
 
 
+def _eseries(name: str | None, option: str) -> str | None:
+    """An E-series name (IEC 60063), checked here rather than deep in the fix search."""
+    if name is None:
+        return None
+    from drc.errors import unknown_name_message
+    from drc.library.eseries import SERIES
+    if name.upper() not in SERIES:
+        raise UsageError(f"{option}: {unknown_name_message('E-series', name, SERIES)}")
+    return name.upper()
+
+
 def _check_options(args):
     from drc.pipeline import CheckOptions
     if args.jobs < 1:
@@ -133,7 +157,7 @@ def _check_options(args):
         config_path=args.config,
         default_bounce_s=_quantity(args.bounce, "time", "--bounce") if args.bounce else None,
         only_rules=_ids(args.only_rules), skip_rules=_ids(args.skip_rules),
-        propose_fixes=not args.no_fixes, eseries=args.eseries.upper() if args.eseries else None,
+        propose_fixes=not args.no_fixes, eseries=_eseries(args.eseries, "--eseries"),
         include_folders=tuple(args.include_folder), reader_limits=_reader_limits(args),
         today=_as_of(args.as_of), result_cache=not args.no_cache)
 
@@ -296,7 +320,7 @@ def _report_board_errors(run, report_format: str | None) -> None:
 
 
 def run_check(args) -> int:
-    from drc.atomic import write_atomic
+    from drc.atomic import check_outputs, write_atomic
     from drc.gate.decision import exit_status, resolve_selection
     from drc.pipeline import rule_ids
     options = _check_options(args)
@@ -309,6 +333,9 @@ def run_check(args) -> int:
     inputs = [str(f) for f in files] + ([args.config] if args.config else [])
     if args.baseline:
         inputs.append(args.baseline)
+    check_outputs([(f"-o {fmt}:{file}", file) for fmt, file in outputs]
+                  + ([("--write-baseline", args.write_baseline)] if args.write_baseline else []),
+                  inputs)
     resolve_selection(rule_ids(), options.only_rules, options.skip_rules, where="command line", error=UsageError)
     fail_level = _run_fail_level(args, options, files)
     run = _audit(files, options, args, fail_level)
@@ -432,8 +459,12 @@ def run_simulate(args) -> int:
     from drc.library.catalogue import load_library
     from drc.report.simulation_view import render_simulation_text, simulation_json
     from drc.simulation.injection import chatter_deck, latch_gates, simulate_stage
-    if args.trials < 1:
-        raise UsageError("--trials must be at least 1")
+    trials = _count(args.trials, "--trials", minimum=1)
+    if trials > MAX_TRIALS:
+        sys.stderr.write(f"drc: --trials {trials} is above the limit of {MAX_TRIALS} "
+                         f"(memory grows with every trial); simulating {MAX_TRIALS} trials\n")
+        trials = MAX_TRIALS
+    seed = _count(args.seed, "--seed", minimum=0)
     check = _board_stages(args.board, args.config, args.bounce)
     results = matching_results(check.results, args.ref)
     if not results:
@@ -445,7 +476,7 @@ def run_simulate(args) -> int:
     from drc.pipeline import effective_limits
     # The shortest make or break: the [limits] min-closure the check's closure-and-opening reading uses.
     min_closure = effective_limits(check.config or Config()).get("min_closure")
-    sim = simulate_stage(result.stage, rx, trials=args.trials, seed=args.seed, latch=latch,
+    sim = simulate_stage(result.stage, rx, trials=trials, seed=seed, latch=latch,
                          min_closure_s=min_closure)
     if args.spice and not sim.simulated:
         raise UsageError(f"cannot write a chatter deck for {result.stage.name}: it was not simulated")
@@ -491,7 +522,8 @@ def run_design(args) -> int:
     if contact_class not in lib.contact_classes:
         from drc.errors import unknown_name_message
         raise UsageError(unknown_name_message("contact class", contact_class, lib.contact_classes))
-    request = DesignRequest(rail, family, not args.plain, bounce, latency, series=args.series,
+    series = _eseries(args.series, "--series") or "E24"
+    request = DesignRequest(rail, family, not args.plain, bounce, latency, series=series,
                             capacitor=capacitor, resistor=resistor,
                             topology="pull-down" if args.pull_down else "pull-up",
                             contact_class=contact_class, bounce_given=bool(args.bounce))

@@ -1,8 +1,10 @@
 """The `drc` command line: check boards, show the rule handbook, trace a stage, design one.
 
 Exit status: 0 nothing at or above the fail level; 1 findings at or above
-it; 2 bad input, bad config or usage (and any internal error); 130 when
-interrupted (drc.errors.ExitStatus). Errors are one located message, never a
+it; 2 bad input, bad config or usage, a report that could not be written
+out (and any internal error); 130 when interrupted, 143 on SIGTERM, 129 on
+SIGHUP (drc.errors.ExitStatus; drc.cli.process owns the streams and
+signals). Errors are one located message, never a
 traceback (unless --traceback asks for it): `main` is the one place that
 catches every exception. Heavy modules are imported inside the commands
 (drc.cli.commands) so that `drc --version` and a small check start fast.
@@ -17,6 +19,7 @@ import sys
 
 from drc import __version__
 from drc.cli.gcpause import collection_paused
+from drc.cli.process import OutputError, Terminated, discard_stdout, flush_stdout, owned_process
 from drc.errors import DrcError, ExitStatus, UsageError
 from drc.report.formats import FORMATS, BoardOrder
 
@@ -121,21 +124,23 @@ def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     show_traceback = "--traceback" in argv
     try:
-        args = build_parser().parse_args(argv)
-        if args.command is None:
-            build_parser().print_help()
-            return ExitStatus.ERROR
-        from drc.cli import commands
-        with collection_paused():  # the run builds many small records and frees few
-            return getattr(commands, f"run_{args.command}")(args)
+        with owned_process():  # streams, signals, environment: see drc.cli.process
+            status = _run(argv)
+            flush_stdout()  # a report that cannot be written out fails here, not at exit
+            return status
+    except OutputError as exc:
+        discard_stdout()
+        _stderr(exc.render())
+        return ExitStatus.ERROR
     except DrcError as exc:
         _stderr(exc.render())
         return ExitStatus.ERROR
     except KeyboardInterrupt:
         _stderr("drc: interrupted")
         return ExitStatus.INTERRUPTED
-    except BrokenPipeError:
-        return ExitStatus.ERROR
+    except Terminated as exc:
+        _stderr(f"drc: terminated by {exc.name}")
+        return exc.status
     except Exception as exc:  # an internal error: one line unless asked for the traceback
         if show_traceback:
             raise
@@ -143,10 +148,22 @@ def main(argv: list[str] | None = None) -> int:
         return ExitStatus.ERROR
 
 
+def _run(argv: list[str]) -> int:
+    args = build_parser().parse_args(argv)
+    if args.command is None:
+        build_parser().print_help()
+        return ExitStatus.ERROR
+    from drc.cli import commands
+    with collection_paused():  # the run builds many small records and frees few
+        return getattr(commands, f"run_{args.command}")(args)
+
+
 def _stderr(text: str) -> None:
+    if sys.stderr is None:  # standard error closed (2>&-): nothing left to tell
+        return
     try:
         sys.stderr.write(text.rstrip("\n") + "\n")
         sys.stderr.flush()
-    except (OSError, ValueError):  # standard error closed or gone: nothing left to tell
+    except (OSError, ValueError):  # standard error full or gone: nothing left to tell
         pass
 

@@ -61,9 +61,10 @@ def _error(message: str, file: str, line_no: int, column: int, line: str) -> Con
 
 
 def _time(text: str, where: str, make_error) -> float:
-    from drc.units import parse_quantity
+    """A time through the one validator the config and the command line use too."""
+    from drc.units import checked_quantity
     try:
-        return parse_quantity(text, "time", where)
+        return checked_quantity(text, "time", where)
     except ConfigError as exc:
         raise make_error(exc.message) from None
 

@@ -102,10 +102,10 @@ from drc.config.settings import (
     Tolerances,
     Waiver,
 )
-from drc.errors import ConfigError, SourceLocation, suggest, unknown_name_message
+from drc.errors import ConfigError, SourceLocation, long_number, suggest, unknown_name_message
 from drc.netlist.lines import read_regular
 from drc.severity import SEVERITIES
-from drc.units import parse_any_quantity, parse_quantity
+from drc.units import Range, checked_count, checked_quantity
 
 CONFIG_NAME = "drc.toml"
 # A config is a few kilobytes; anything near this is not one (a fixed limit).
@@ -131,11 +131,15 @@ _OLD_PARTS = ("'parts' does not say whether it means any or all of its designato
               "parts-all = [...] to waive only a finding that involves every one")
 
 KeyPath = tuple[str | int, ...]
+# The limit keys a config may set: each mapped to a dimension or unit, or to a
+# (unit, range) pair (drc.units.Range); a plain list leaves the units open.
+LimitKeys = Mapping[str, str | tuple[str, str]] | tuple[str, ...] | None
 
-# limit_keys may map a key to a dimension or to the unit rules/limits.toml gives it.
+# limit_keys may map a key to a dimension or to the unit rules/limits.toml gives it
+# (or to a (unit, range) pair); ratios ("1", a fraction of VCC) read as fractions.
 _UNIT_DIMENSIONS = {"s": "time", "A": "current", "V": "voltage", "ohm": "resistance",
-                    "Ω": "resistance", "F": "capacitance", "1": "number", "VCC": "number",
-                    "": "number"}
+                    "Ω": "resistance", "F": "capacitance", "1": "ratio", "VCC": "ratio",
+                    "": "ratio", "number": "ratio"}
 
 
 # ---------------------------------------------------------------- discovery
@@ -306,30 +310,26 @@ class _ConfigReader:
         return value
 
     def integer(self, value: Any, path: KeyPath, minimum: int = 1) -> int:
-        if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
-            raise self.error(path, f"expected an integer >= {minimum}, got {value!r}")
-        return value
+        try:
+            return checked_count(value, minimum=minimum)
+        except ConfigError as exc:
+            raise self.error(path, exc.message) from None
 
     def integers(self, value: Any, path: KeyPath) -> tuple[int, ...]:
         if not isinstance(value, list):
             raise self.error(path, f"expected a list of pin numbers, got {_type_name(value)}")
         return tuple(self.integer(v, path + (i,)) for i, v in enumerate(value))
 
-    def quantity(self, value: Any, path: KeyPath, dimension: str, *, positive: bool = True,
-                 below_one: bool = False) -> float:
+    def quantity(self, value: Any, path: KeyPath, dimension: str,
+                 allowed: Range = Range.POSITIVE) -> float:
+        """A quantity through the one validator (drc.units.checked_quantity)."""
         if isinstance(value, bool) or not isinstance(value, (int, float, str)):
             raise self.error(path, f"expected a {dimension} such as \"5 ms\" or \"3.3 V\", "
                                    f"got {_type_name(value)}")
-        text = value if isinstance(value, str) else repr(value)
         try:
-            number = parse_quantity(text, dimension)
+            return checked_quantity(value, dimension, allowed=allowed)
         except ConfigError as exc:
             raise self.error(path, exc.message) from None
-        if positive and not number > 0:
-            raise self.error(path, f"expected a positive {dimension}, got {value!r}")
-        if below_one and not 0 <= number < 1:
-            raise self.error(path, f"expected a fraction from 0 % to below 100 %, got {value!r}")
-        return number
 
 
 def _type_name(value: Any) -> str:
@@ -344,7 +344,7 @@ def _tolerances(r: _ConfigReader, value: Any) -> Tolerances:
     table = r.table(value, ("tolerances",), _TOLERANCE_KEYS)
     defaults = Tolerances()
     return Tolerances(**{
-        key: (r.quantity(table[key], ("tolerances", key), "fraction", positive=False, below_one=True)
+        key: (r.quantity(table[key], ("tolerances", key), "fraction", Range.FRACTION)
               if key in table else getattr(defaults, key))
         for key in _TOLERANCE_KEYS})
 
@@ -358,8 +358,8 @@ def _rails(r: _ConfigReader, value: Any, tolerances: Tolerances) -> tuple[RailCo
         if net.casefold() in seen:
             raise r.error(p + ("net",), f"rail {net!r} is declared twice")
         seen.add(net.casefold())
-        volts = r.quantity(r.require(t, p, "voltage"), p + ("voltage",), "voltage", positive=False)
-        tol = (r.quantity(t["tolerance"], p + ("tolerance",), "fraction", positive=False, below_one=True)
+        volts = r.quantity(r.require(t, p, "voltage"), p + ("voltage",), "voltage", Range.FINITE)
+        tol = (r.quantity(t["tolerance"], p + ("tolerance",), "fraction", Range.FRACTION)
                if "tolerance" in t else tolerances.rail)
         out.append(RailConfig(net=net, voltage=volts, tolerance=tol))
     return tuple(out)
@@ -456,23 +456,20 @@ def _mcus(r: _ConfigReader, value: Any, families: tuple[str, ...] | None) -> tup
     return tuple(out)
 
 
-def _limits(r: _ConfigReader, value: Any, limit_keys: Mapping[str, str] | tuple[str, ...] | None) -> dict[str, float]:
+def _limits(r: _ConfigReader, value: Any, limit_keys: LimitKeys) -> dict[str, float]:
+    """[limits] overrides, each through the validator of its quantity and within its
+    range (rules/limits.toml): a negative or zero margin must not turn a rule off."""
     table = r.table(value, ("limits",), limit_keys if limit_keys is not None else value.keys()
                     if isinstance(value, dict) else ())
     out: dict[str, float] = {}
     for key, raw in table.items():
-        p = ("limits", key)
-        unit = limit_keys.get(key) if isinstance(limit_keys, Mapping) else None
-        dimension = _UNIT_DIMENSIONS.get(unit, unit) if unit is not None else None
+        spec = limit_keys.get(key) if isinstance(limit_keys, Mapping) else None
+        unit, allowed = spec if isinstance(spec, tuple) else (spec, Range.POSITIVE.value)
+        dimension = _UNIT_DIMENSIONS.get(unit, unit) if unit is not None else "ratio"
         if isinstance(raw, bool) or not isinstance(raw, (int, float, str)):
-            raise r.error(p, f"expected a number or a quantity such as \"20 ms\", got {_type_name(raw)}")
-        try:
-            if dimension and dimension != "number":
-                out[key] = parse_quantity(raw if isinstance(raw, str) else repr(raw), dimension)
-            else:
-                out[key] = parse_any_quantity(raw if isinstance(raw, str) else repr(raw))
-        except ConfigError as exc:
-            raise r.error(p, exc.message) from None
+            raise r.error(("limits", key), f"expected a number or a quantity such as \"20 ms\", "
+                                           f"got {_type_name(raw)}")
+        out[key] = r.quantity(raw, ("limits", key), dimension, Range(allowed))
     return out
 
 
@@ -575,18 +572,25 @@ def _read_toml(path: Path) -> tuple[str, dict]:
         raise ConfigError("not valid TOML: arrays or inline tables nest too deeply",
                           SourceLocation(str(path))) from None
     except tomllib.TOMLDecodeError as exc:
-        message = str(exc)
-        found = re.search(r"\(at line (\d+), column (\d+)\)", message)
-        line, column = (int(found.group(1)), int(found.group(2))) if found else (0, 0)
-        message = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", message)
-        lines = text.splitlines()
-        source = lines[line - 1] if 0 < line <= len(lines) else None
-        raise ConfigError(f"not valid TOML: {message}", SourceLocation(str(path), line, column),
-                          source) from None
+        raise _toml_error(path, text, exc) from None
+    except ValueError:  # an integer too long to convert (tomllib lets int() raise)
+        message, location, source = long_number(text, str(path))
+        raise ConfigError(f"not valid TOML: {message}", location, source) from None
+
+
+def _toml_error(path: Path, text: str, exc: Exception) -> ConfigError:
+    """The located error of a TOML syntax error."""
+    message = str(exc)
+    found = re.search(r"\(at line (\d+), column (\d+)\)", message)
+    line, column = (int(found.group(1)), int(found.group(2))) if found else (0, 0)
+    message = re.sub(r"\s*\(at (line \d+, column \d+|end of document)\)", "", message)
+    lines = text.splitlines()
+    source = lines[line - 1] if 0 < line <= len(lines) else None
+    return ConfigError(f"not valid TOML: {message}", SourceLocation(str(path), line, column), source)
 
 
 def load_config(path: str | os.PathLike, *, rule_ids: Iterable[str] | None = None,
-                limit_keys: Mapping[str, str] | Iterable[str] | None = None,
+                limit_keys: Mapping[str, str | tuple[str, str]] | Iterable[str] | None = None,
                 contact_classes: Iterable[str] | None = None,
                 families: Iterable[str] | None = None) -> Config:
     """Read `drc.toml` (or the [tool.drc] table of a pyproject.toml) into a Config.
@@ -614,7 +618,7 @@ class _Vocabulary:
     """The names a config may use, where the caller knows them (None: not checked)."""
 
     rule_ids: tuple[str, ...] | None
-    limit_keys: Mapping[str, str] | tuple[str, ...] | None
+    limit_keys: LimitKeys
     contact_classes: tuple[str, ...] | None
     families: tuple[str, ...] | None
 

@@ -21,7 +21,7 @@ from typing import Any, Protocol
 
 from drc.atomic import write_atomic
 from drc.checks.findings import SEVERITIES, Finding, Severity, Suppression
-from drc.errors import ConfigError, SourceLocation
+from drc.errors import ConfigError, SourceLocation, long_number
 from drc.netlist.lines import read_regular
 
 BASELINE_FORMAT = "drc-baseline/1"
@@ -58,13 +58,16 @@ class Baseline:
 
 
 def board_key(board: str, root: str | os.PathLike | None) -> str:
-    """A board path as a baseline stores it: posix, relative to `root` when possible."""
+    """A board path as a baseline stores it: posix, relative to `root` when possible;
+    a byte of the name that is not UTF-8 as \\xNN (text a baseline can hold, and
+    the same each time the name is read)."""
     if root is not None:
         try:
             board = os.path.relpath(Path(board).resolve(), Path(root).resolve())
         except ValueError:  # another drive on Windows: keep the absolute path
             board = str(Path(board).resolve())
-    return PurePath(board).as_posix().removeprefix("./")
+    key = PurePath(board).as_posix().removeprefix("./")
+    return key if key.isascii() else os.fsencode(key).decode("utf-8", "backslashreplace")
 
 
 def _entry(finding: Finding, root: str | os.PathLike | None) -> BaselineEntry:
@@ -156,6 +159,9 @@ def _json_document(name: str, text: str) -> Any:
         lines = text.splitlines()
         raise ConfigError(f"baseline: not valid JSON: {exc.msg}", SourceLocation(name, exc.lineno, exc.colno),
                           lines[exc.lineno - 1] if exc.lineno <= len(lines) else None) from None
+    except ValueError:  # an integer too long to convert (json lets int() raise)
+        message, location, source = long_number(text, name)
+        raise ConfigError(f"baseline: not valid JSON: {message}", location, source) from None
 
 
 def _read_entry(raw: Any, name: str, where: str) -> BaselineEntry:

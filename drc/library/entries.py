@@ -418,8 +418,12 @@ class ContactMatch:
 
 @dataclass(frozen=True, slots=True)
 class Limit:
+    """One rules/limits.toml entry. range: which values a config may set it to
+    (drc.units.Range: "positive" unless the file says "non-negative" or "fraction")."""
+
     key: str
     value: float
     unit: str
     description: str
     source: str
+    range: str = "positive"

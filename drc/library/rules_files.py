@@ -42,6 +42,7 @@ from drc.library.entries import (
     Series,
     TransitionLimit,
 )
+from drc.units import Range
 
 
 class RulesFile:
@@ -520,5 +521,10 @@ def parse_limit(r: RulesFile, key: str, raw: Any) -> Limit:
     for field_name in ("unit", "description"):
         if not isinstance(t.get(field_name), str):
             raise r.error(key, f"missing `{field_name}`")
-    return Limit(key, r.number(t.get("value"), f"{key}.value"), t["unit"],
-                 t["description"], r.source(t, key))
+    allowed = t.get("range", Range.POSITIVE.value)
+    if allowed not in tuple(Range):
+        raise r.error(f"{key}.range", f"expected one of {', '.join(Range)}, got {allowed!r}")
+    value = r.number(t.get("value"), f"{key}.value")
+    if not Range(allowed).admits(value):
+        raise r.error(f"{key}.value", f"{value} is outside its range ({allowed})")
+    return Limit(key, value, t["unit"], t["description"], r.source(t, key), str(allowed))

@@ -43,14 +43,14 @@ def artifact_uri(file: str, working_dir: str | os.PathLike) -> str:
         relative = path.relative_to(Path(working_dir).resolve())
     except ValueError:
         return path.as_uri()
-    return quote(relative.as_posix(), safe="/")
+    return quote(os.fsencode(relative.as_posix()), safe="/")  # the name's own bytes, %-encoded
 
 
 def fingerprint(finding: Finding, working_dir: str | os.PathLike) -> str:
     """Stable across line shifts: board (relative), rule, contact, receiver, sorted parts."""
     rule, contact, receiver, parts = finding.identity()
     text = "\x1f".join((board_key(finding.board, working_dir), rule, contact, receiver, *parts))
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:32]
+    return hashlib.sha256(text.encode("utf-8", "surrogateescape")).hexdigest()[:32]
 
 
 def rule_name(rule_id: str) -> str:

@@ -21,6 +21,7 @@ from collections.abc import Iterator
 from typing import NamedTuple
 
 from drc.checks.findings import Finding
+from drc.errors import printable
 from drc.report.formats import BoardOrder, RenderOptions
 from drc.report.layout import ARROW, Line, plain, plain_text, print_lines
 from drc.report.run_report import CAUTION_SHORT, BoardReport, BoardStatus, Coverage, RunReport
@@ -117,9 +118,9 @@ def board_lines(board: BoardReport, run: RunReport, quiet: bool) -> Iterator[Lin
     status = board.status()
     if quiet and not shown and status in (BoardStatus.WARNINGS, BoardStatus.NOTES, BoardStatus.CLEAN):
         return
-    header: list[tuple[str, str]] = [(board.path, "bold")]
+    header: list[tuple[str, str]] = [(printable(board.path), "bold")]
     if board.config_path:
-        header.append((f"  (config: {_shown_path(board.config_path)})", "dim"))
+        header.append((f"  (config: {printable(_shown_path(board.config_path))})", "dim"))
     yield Line(tuple(header), 0, 4)
     if board.error:
         yield from _error_lines(board.error)
@@ -296,7 +297,7 @@ def archive_lines(run: RunReport, sort: BoardOrder = BoardOrder.WORST, width: in
     last, so a long path never pushes or breaks a column; on a terminal narrower than
     a row, each board's path on a line of its own above its figures."""
     rows: list[tuple[str, str, Cells]] = [
-        (FLAG if b.needs_attention() else " ", b.path, _board_cells(b)) for b in sorted_boards(run, sort)]
+        (FLAG if b.needs_attention() else " ", printable(b.path), _board_cells(b)) for b in sorted_boards(run, sort)]
     rows.append((" ", _total_words(run), _total_cells(run)))
     table = _layout(rows, width)
     indent = 4 if table.narrow else 2

@@ -161,7 +161,7 @@ def test_pyproject_without_table(tmp_path):
     ('[[contacts]]\ndesignator = "SW1"\nclass = "tactil"\n', 3, "did you mean 'tactile'"),
     ('[[contacts]]\ndesignator = "SW1"\nform = "SPST"\n', 3, "SPST-NO"),
     ('[[parts]]\ndesignator = "U1"\npart_number = "74HC14"\n', 3, "did you mean 'part-number'"),
-    ('[[mcu]]\ndesignator = "U1"\nfamily = "CMOS"\n[[mcu.pins]]\npin = 0\n', 5, "integer >= 1"),
+    ('[[mcu]]\ndesignator = "U1"\nfamily = "CMOS"\n[[mcu.pins]]\npin = 0\n', 5, "whole number >= 1"),
     ('[[mcu]]\ndesignator = "U1"\nfamily = "CMOS"\n[[mcu.pins]]\npin = 3\npull = "up"\n', 6, "pull-min"),
     ('[tolerances]\nresistor = "150 %"\n', 2, "below 100 %"),
     ('only-rules = ["bounce-windw"]\n', 1, "did you mean 'bounce-window'"),

@@ -7,7 +7,10 @@ size explodes, parameter chains, expression nests, a 100 MB line, a million
 continuation lines, include cycles and include bombs, paths that try to leave
 the board's folder (`..`, absolute, symbolic links, drive letters), FIFOs,
 devices and folders where a file is expected, thousands of contacts on one
-net, encodings, and output paths that point at inputs.
+net, encodings, and output paths that point at inputs; and, from
+process_cases.py, the process around a check (outputs onto devices, FIFOs
+and links, standard output closed or full, encodings without Ω, a deleted
+working folder, values validated wherever they are given).
 
 Each case is a `Case`: the command-line arguments (relative to the case's
 folder), the expected exit status and a substring of the message, and
@@ -25,6 +28,7 @@ import sys
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 HEADER = "hostile case\n"
 # A minimal valid stage: a tactile contact pulling a 74HC14 input low through
@@ -52,6 +56,13 @@ class Case:
     xfail: str | None = None             # reason, naming the file that must change
     build: Callable[[Path], None] | None = None       # extra set-up (FIFOs, links)
     timeout: float = 60.0
+    env: dict[str, str] = field(default_factory=dict)  # extra environment variables
+    stdout: str = "pipe"                 # pipe | full | broken | closed | fsize:N (runner.run)
+    setup: tuple[str, ...] = ()          # launcher directives (tests/hostile/launch.py)
+    prefix: Callable[[], tuple[str, ...]] | None = None  # a command to run drc under
+    workdir: str = ""                    # run from this sub-folder (made empty) of the case's
+    check: Callable[[Path, Any], list[str]] | None = None  # what else must hold afterwards
+    skip: Callable[[], str | None] | None = None      # why the case cannot run here, if so
 
 
 def _write(folder: Path, name: str, data: str | bytes) -> Path:
@@ -375,6 +386,11 @@ def cases(big: bool = True) -> list[tuple[Case, dict[str, str | bytes]]]:
         {"b.cir": HEADER + GOOD_STAGE + ".include parts.txt\n", "parts.txt": ".model DX D\n"})
     add(Case("write_baseline_over_board", ["check", "b.cir", "--write-baseline", "b.cir"], 2,
              "input file", None), {"b.cir": HEADER + GOOD_STAGE})
+    # -- the process around a check: special outputs, streams, values (process_cases.py)
+    from tests.hostile import process_cases
+    for case, files in (*process_cases.output_cases(), *process_cases.stream_cases(),
+                        *process_cases.value_cases()):
+        add(case, files)
     return out
 
 
@@ -386,6 +402,8 @@ def materialise(case: Case, files: dict[str, str | bytes], folder: Path) -> Path
         _write(where, name, data)
     if case.build is not None:
         case.build(where)
+    if case.workdir:
+        (where / case.workdir).mkdir(exist_ok=True)
     return where
 
 

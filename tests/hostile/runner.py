@@ -1,10 +1,14 @@
 """Run one hostile case through the real console entry point and judge it.
 
 The command is `python -m drc.cli ARGS` in a subprocess with a timeout, run
-from the case's folder. Judging: the exit status is one of the expected
-ones, "Traceback" appears nowhere, the message holds the expected substring,
-a location `FILE:LINE[:COL]:` precedes it where the case says so, and every
-input file has the same bytes afterwards (SHA-256 before and after).
+from the case's folder, with the case's extra environment variables and,
+where the case asks, standard output somewhere hostile (closed, a full
+device, a pipe nobody reads, a file under a size limit) or a working folder
+that is deleted first (tests/hostile/launch.py sets those up, then execs).
+Judging: the exit status is one of the expected ones, "Traceback" appears
+nowhere, the message holds the expected substring, a location
+`FILE:LINE[:COL]:` precedes it where the case says so, and every input file
+has the same bytes afterwards (SHA-256 before and after).
 """
 
 from __future__ import annotations
@@ -14,7 +18,7 @@ import os
 import re
 import subprocess
 import sys
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 REPO = Path(__file__).resolve().parents[2]
@@ -30,6 +34,8 @@ class Outcome:
     stdout: str
     stderr: str
     changed: list[str]          # inputs whose bytes changed
+    raw_stdout: bytes = b""     # standard output as written (encodings are checked on it)
+    further: list[str] = field(default_factory=list)  # what a case's own check found wrong
 
 
 def digest(path: Path) -> str | None:
@@ -41,19 +47,60 @@ def digest(path: Path) -> str | None:
         return None
 
 
-def run(args: list[str], cwd: Path, inputs: list[str], timeout: float) -> Outcome:
+LAUNCH = Path(__file__).resolve().parent / "launch.py"
+
+
+def _stdout_target(stdout: str, cwd: Path):
+    """(what subprocess gets as stdout, launcher directives, a file to read it back from)."""
+    if stdout == "full":
+        return open("/dev/full", "wb"), [], None  # noqa: SIM115 - closed by the caller
+    if stdout == "broken":  # a pipe whose reader is gone: every write fails with EPIPE
+        read_end, write_end = os.pipe()
+        os.close(read_end)
+        return write_end, [], None
+    if stdout == "closed":
+        return subprocess.DEVNULL, ["close-stdout"], None
+    if stdout.startswith("fsize:"):
+        limit = int(stdout.partition(":")[2])
+        out = cwd.parent / f"{cwd.name}.stdout"
+        return open(out, "wb"), [f"fsize={limit}"], out  # noqa: SIM115 - closed by the caller
+    return subprocess.PIPE, [], None
+
+
+def run(args: list[str], cwd: Path, inputs: list[str], timeout: float, *,
+        env: dict[str, str] | None = None, stdout: str = "pipe", setup: tuple[str, ...] = (),
+        prefix: tuple[str, ...] = ()) -> Outcome:
+    """Run `drc ARGS` in `cwd`. stdout: "pipe" (captured), "full", "broken", "closed" or
+    "fsize:N" (a file under an N-byte size limit, read back as the outcome's stdout);
+    setup: further launcher directives (tests/hostile/launch.py); prefix: a command the
+    interpreter runs under (e.g. setpriv)."""
     before = {name: digest(cwd / name) for name in inputs}
-    env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""),
-               COLUMNS="200", PYTHONIOENCODING="utf-8")
+    # No empty PYTHONPATH entry: it means the working folder, which one case deletes.
+    path = os.pathsep.join(p for p in (str(REPO), *os.environ.get("PYTHONPATH", "").split(os.pathsep)) if p)
+    environment = dict(os.environ, PYTHONPATH=path, COLUMNS="200", PYTHONIOENCODING="utf-8")
+    environment.update(env or {})
+    target, directives, read_back = _stdout_target(stdout, cwd)
+    directives += list(setup)
+    command = [sys.executable, "-m", "drc.cli", *args]
+    if directives:
+        command = [sys.executable, str(LAUNCH), *directives, "--", "-m", "drc.cli", *args]
     try:
-        proc = subprocess.run([sys.executable, "-m", "drc.cli", *args], cwd=cwd, env=env,
-                              capture_output=True, timeout=timeout, stdin=subprocess.DEVNULL)
-        status, out, err = proc.returncode, proc.stdout, proc.stderr
+        proc = subprocess.run([*prefix, *command], cwd=cwd, env=environment, stdout=target,
+                              stderr=subprocess.PIPE, timeout=timeout, stdin=subprocess.DEVNULL)
+        status, out, err = proc.returncode, proc.stdout or b"", proc.stderr
     except subprocess.TimeoutExpired as exc:
         status, out, err = None, exc.stdout or b"", exc.stderr or b""
+    finally:
+        if isinstance(target, int) and target >= 0:
+            os.close(target)
+        elif hasattr(target, "close"):
+            target.close()
+    if read_back is not None:
+        out = read_back.read_bytes()
     after = {name: digest(cwd / name) for name in inputs}
     changed = [n for n in inputs if before[n] != after[n]]
-    return Outcome(status, out.decode("utf-8", "replace"), err.decode("utf-8", "replace"), changed)
+    return Outcome(status, out.decode("utf-8", "replace"), err.decode("utf-8", "replace"), changed,
+                   out)
 
 
 def problems(outcome: Outcome, status, message: str, located: str | None,
@@ -82,6 +129,7 @@ def problems(outcome: Outcome, status, message: str, located: str | None,
             wrong.append(f"message not located ({located}): {lines[:2]!r}")
     if outcome.changed:
         wrong.append(f"input files modified: {outcome.changed}")
+    wrong.extend(outcome.further)
     if wrong:
         wrong.append(f"stderr: {outcome.stderr[-800:]!r}; stdout: {outcome.stdout[-400:]!r}")
     return wrong

@@ -5,6 +5,13 @@ The interrupt test starts the real console entry point on a large generated
 board, sends SIGINT once the run is under way, and checks the exit status,
 the single-line message and that the previous report file is intact. The
 timeouts only guard against a hang; nothing here asserts a duration.
+
+SIGTERM and SIGHUP (and SIGINT again) are sent at known points of a report's
+write: the console entry point runs in a child whose os.write or os.fsync
+sends the signal to its own process in the middle of writing the temporary
+file, or once it is written and synced but not yet renamed. The old report
+must stay whole, no temporary file may remain, and the exit status is 128 +
+the signal's number (130 for Ctrl-C, as before).
 """
 
 from __future__ import annotations
@@ -13,6 +20,7 @@ import os
 import signal
 import subprocess
 import sys
+import textwrap
 import time
 
 import pytest
@@ -95,3 +103,46 @@ def test_refuses_to_replace_an_existing_netlist_or_config(tmp_path):
         with pytest.raises(UsageError, match="never modified"):
             write_atomic(path, "report")
         assert path.read_text() == "keep\n"
+
+
+_SIGNAL_AT = textwrap.dedent("""
+    import os, signal, sys
+    signum, point = int(sys.argv[1]), sys.argv[2]
+    real_write, real_fsync = os.write, os.fsync
+    def write(fd, data):
+        if point == "mid-write" and len(data) > 100:   # the report, not a message
+            written = real_write(fd, bytes(data[:len(data) // 2]))
+            os.kill(os.getpid(), signum)   # the handler runs before the next line
+            return written
+        return real_write(fd, data)
+    def fsync(fd):
+        real_fsync(fd)
+        if point == "before-rename":
+            os.kill(os.getpid(), signum)
+    os.write, os.fsync = write, fsync
+    from drc.cli.parser import main
+    sys.exit(main(["check", "b.cir", "-o", "json:report.json", "--no-fixes"]))
+""")
+
+
+@pytest.mark.skipif(os.name != "posix", reason="sends POSIX signals")
+@pytest.mark.parametrize("point", ["mid-write", "before-rename"])
+@pytest.mark.parametrize("name, status, message", [
+    ("SIGTERM", 143, "drc: terminated by SIGTERM"),
+    ("SIGHUP", 129, "drc: terminated by SIGHUP"),
+    ("SIGINT", 130, "drc: interrupted"),
+])
+def test_a_signal_during_a_write_keeps_the_old_report_and_no_temporary_file(
+        tmp_path, point, name, status, message):
+    from tests.hostile.make_corpus import GOOD_STAGE, HEADER
+    (tmp_path / "b.cir").write_text(HEADER + GOOD_STAGE)
+    (tmp_path / "report.json").write_text(OLD_REPORT)
+    env = dict(os.environ, PYTHONPATH=str(REPO))
+    proc = subprocess.run([sys.executable, "-c", _SIGNAL_AT, str(int(getattr(signal, name))), point],
+                          cwd=tmp_path, env=env, capture_output=True, timeout=120,
+                          stdin=subprocess.DEVNULL)
+    err = proc.stderr.decode("utf-8", "replace")
+    assert proc.returncode == status, err
+    assert [line for line in err.splitlines() if line.strip()] == [message]
+    assert (tmp_path / "report.json").read_text() == OLD_REPORT
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["b.cir", "report.json"]
