@@ -13,6 +13,7 @@ large part of a big board's check).
 from __future__ import annotations
 
 import math
+import re
 from collections import Counter
 
 from drc import __version__
@@ -189,8 +190,28 @@ def dump_indented(value) -> str:
     """`value` as indented JSON (two spaces, sorted keys, UTF-8 kept); keys that are
     not strings (enums, numbers) are written as strings."""
     import orjson
-    return orjson.dumps(value, option=orjson.OPT_INDENT_2 | orjson.OPT_SORT_KEYS | orjson.OPT_NON_STR_KEYS
-                        ).decode("utf-8")
+    option = orjson.OPT_INDENT_2 | orjson.OPT_SORT_KEYS | orjson.OPT_NON_STR_KEYS
+    try:
+        return orjson.dumps(value, option=option).decode("utf-8")
+    except orjson.JSONEncodeError:
+        # A string holding a byte of a file name that is not UTF-8 (Python keeps it
+        # as a lone surrogate, which JSON cannot carry): U+FFFD, as every output
+        # writes it (drc.atomic). Only this rare case pays for the walk.
+        return orjson.dumps(_valid_text(value), option=option).decode("utf-8")
+
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _valid_text(value):
+    """`value` with every lone surrogate in its strings (keys too) replaced by U+FFFD."""
+    if isinstance(value, str):
+        return _SURROGATE.sub("\ufffd", value)
+    if isinstance(value, dict):
+        return {_valid_text(k): _valid_text(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_valid_text(v) for v in value]
+    return value
 
 
 class JsonFormatter:
