@@ -262,8 +262,22 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     return CheckedBoard(path=path, board=board, results=results, findings=list(judged.findings),
                         config=config, waiver_outcome=judged.waiver_outcome,
                         annotation_notes=judged.annotation_notes, files=tuple(netlist.files),
-                        reader_diagnostics=tuple(netlist.diagnostics), survey=survey,
+                        reader_diagnostics=tuple(netlist.diagnostics)
+                        + _annotation_diagnostics(annotations, board), survey=survey,
                         config_diagnostics=tuple(override_warnings(netlist, lib, config)))
+
+
+def _annotation_diagnostics(annotations, board) -> tuple:
+    """A located note for each `*@drc` line naming a contact, part or pin the board
+    does not have (such a line does nothing, and would otherwise do it silently)."""
+    if not annotations:
+        return ()
+    from drc.config.annotations import unmatched_names
+    from drc.netlist.elements import Diagnostic
+    parts = [e.designator for e in board.netlist.elements] + [p.designator for p in board.parts.values()]
+    notes = unmatched_names(annotations, [c.designator for c in board.contacts], parts,
+                            [r.ref for r in board.receivers])
+    return tuple(Diagnostic(message, where) for where, message in notes)
 
 
 def read_board(path: str, config: Config, options: CheckOptions):

@@ -256,6 +256,25 @@ class Range(StrEnum):
         return f"a{'' if self is Range.POSITIVE else ' zero or'} positive {dimension}"
 
 
+# The magnitudes of parts the analysis evaluates: far wider than any part a logic
+# board holds, narrow enough that time constants, currents and slopes stay
+# normal double-precision numbers (1e30 Ω or a subnormal 1e-320 F overflow them
+# into infinities). A value outside is a slip (1e30 written for 10k) and is refused.
+EVALUABLE = {"resistance": (1e-6, 1e12, "Ω", "1 µΩ to 1 TΩ"),
+             "capacitance": (1e-18, 1e4, "F", "1 aF to 10 kF")}
+
+
+def unevaluable(value: float, dimension: str) -> str | None:
+    """Why a non-zero `value` of `dimension` lies outside what the analysis evaluates, or None."""
+    bounds = EVALUABLE.get(dimension)
+    if bounds is None or value == 0 or not math.isfinite(value):
+        return None
+    low, high, unit, span = bounds
+    if low <= abs(value) <= high:
+        return None
+    return f"a {dimension} of {value:g} {unit}, outside what drc evaluates ({span})"
+
+
 def checked_quantity(value: str | float, dimension: str, where: str = "",
                      allowed: Range = Range.POSITIVE) -> float:
     """The one validator of a quantity a user gives, wherever it is given.
@@ -274,6 +293,9 @@ def checked_quantity(value: str | float, dimension: str, where: str = "",
         raise _error(f"{text!r} is not a finite {dimension}", where)
     if not allowed.admits(number):
         raise _error(f"expected {allowed.describe(dimension)}, got {text!r}", where)
+    outside = unevaluable(number, dimension)
+    if outside is not None:
+        raise _error(f"{text!r}: {outside}", where)
     return number
 
 

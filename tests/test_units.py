@@ -71,3 +71,53 @@ def test_parse_quantity_refuses(text, dimension, says):
 ])
 def test_format_quantity(value, unit, expected):
     assert format_quantity(value, unit) == expected
+
+
+# ---------------------------------------------------------------- the one validator
+
+from drc.units import Range, checked_count, checked_quantity  # noqa: E402
+
+
+@pytest.mark.parametrize("value, dimension, allowed, says", [
+    ("-20 ms", "time", Range.POSITIVE, "expected a positive time"),
+    ("0 ms", "time", Range.POSITIVE, "expected a positive time"),
+    ("nan ms", "time", Range.POSITIVE, "is not a time"),
+    (float("nan"), "ratio", Range.POSITIVE, "is not a ratio"),
+    (float("inf"), "voltage", Range.FINITE, "is not a voltage"),
+    ("1e999 V", "voltage", Range.FINITE, "not a finite voltage"),
+    ("5 V", "ratio", Range.POSITIVE, "its unit is volt"),
+    ("-1.5", "ratio", Range.POSITIVE, "expected a positive ratio"),
+    ("1", "fraction", Range.FRACTION, "below 100 %"),
+    ("-0.1 V", "voltage", Range.NON_NEGATIVE, "zero or positive"),
+    ("10**10**10 ms", "time", Range.POSITIVE, "is not a time"),   # pint would compute for ever
+    ("1e30", "resistance", Range.POSITIVE, "outside what drc evaluates (1 µΩ to 1 TΩ)"),
+    ("1e-320 F", "capacitance", Range.POSITIVE, "outside what drc evaluates (1 aF to 10 kF)"),
+    (True, "voltage", Range.FINITE, "got bool"),
+])
+def test_checked_quantity_refuses(value, dimension, allowed, says):
+    with pytest.raises(ConfigError) as caught:
+        checked_quantity(value, dimension, "where", allowed)
+    assert says in str(caught.value) and str(caught.value).startswith("where: ")
+
+
+@pytest.mark.parametrize("value, dimension, allowed, expected", [
+    ("20 ms", "time", Range.POSITIVE, 0.02),
+    ("20 milliseconds", "time", Range.POSITIVE, 0.02),          # through pint, short and plain
+    ("150 %", "ratio", Range.POSITIVE, 1.5),
+    (0, "ratio", Range.NON_NEGATIVE, 0.0),
+    ("-12 V", "voltage", Range.FINITE, -12.0),
+    ("1 TΩ", "resistance", Range.POSITIVE, 1e12),
+    ("1 aF", "capacitance", Range.POSITIVE, 1e-18),
+])
+def test_checked_quantity_accepts(value, dimension, allowed, expected):
+    assert checked_quantity(value, dimension, "x", allowed) == pytest.approx(expected)
+
+
+def test_checked_count():
+    assert checked_count(3, "--trials") == 3
+    assert checked_count(0, "--seed", minimum=0) == 0
+    for bad in (-1, 0, 2.0, True, "3"):
+        with pytest.raises(ConfigError, match="--trials: expected a whole number >= 1"):
+            checked_count(bad, "--trials")
+    with pytest.raises(ConfigError, match="a huge number"):
+        checked_count(-10 ** 5000, "--trials")

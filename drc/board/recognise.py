@@ -46,6 +46,7 @@ from drc.config.settings import Config
 from drc.errors import NetlistError
 from drc.library.entries import ContactForm, Family, PinRole, PullDirection
 from drc.netlist.elements import GROUND, Element, key
+from drc.units import unevaluable
 
 _DIGITS = re.compile(r"(\d+)")
 
@@ -272,10 +273,14 @@ def _value(element: Element) -> float:
         raise NetlistError(f"{element.designator} has no value", element.location,
                            element.text or None)
     value = element.value.si
+    what = "resistance" if element.kind == "R" else "capacitance"
     if value < 0:
-        what = "resistance" if element.kind == "R" else "capacitance"
         raise NetlistError(f"{element.designator} has a negative {what} ({value:g}): no part "
                            f"has one; check the value", element.location, element.text or None)
+    outside = unevaluable(value, what)
+    if outside is not None:  # 1e30 for 10k: infinities in the analysis, not a finding
+        raise NetlistError(f"{element.designator} has {outside}; check the value",
+                           element.location, element.text or None)
     return value
 
 

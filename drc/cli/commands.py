@@ -39,8 +39,12 @@ def _quantity(text: str, dimension: str, option: str) -> float:
     except ConfigError as exc:
         if dimension in ("resistance", "capacitance"):
             from drc.netlist.values import parse_value
+            from drc.units import unevaluable
             value = parse_value(text.strip())
             if value is not None and math.isfinite(value.si) and value.si > 0:
+                outside = unevaluable(value.si, dimension)
+                if outside is not None:
+                    raise UsageError(f"{option}: {text!r}: {outside}") from None
                 return value.si
         message = exc.message
         if message.startswith(option + ":"):

@@ -16,7 +16,8 @@ statuses instead of internal errors or silent losses:
   report whole, and the process exits 128 + the signal's number;
 - `COLUMNS` that is not a positive width is ignored, and `NO_COLOR` wins over
   `FORCE_COLOR` / `TTY_COMPATIBLE`;
-- a working folder that was deleted is refused at the start.
+- a working folder that was deleted is refused at the start;
+- a Python warning (numpy's floating-point ones) prints as one plain line.
 
 Everything is restored on the way out, so tests may call `main` in-process.
 The Python API (drc.pipeline) touches none of this.
@@ -28,6 +29,7 @@ import io
 import os
 import signal
 import sys
+import warnings
 from collections.abc import Iterator
 from contextlib import contextmanager, suppress
 from typing import Any, TextIO, cast
@@ -204,9 +206,30 @@ def check_working_folder() -> None:
                          "change to an existing folder and run again") from None
 
 
+def _show_plainly(message: Warning | str, category: type[Warning], filename: str, lineno: int,
+                  file: TextIO | None = None, line: str | None = None) -> None:
+    """A warning as one plain line (numpy's name a file and a line of our source)."""
+    what = ("a numerical problem in the analysis" if issubclass(category, RuntimeWarning)
+            else category.__name__)
+    text = f"drc: warning: {what} ({message}); check the values of the parts involved\n"
+    stream = file or sys.stderr
+    if stream is not None:
+        with suppress(OSError, ValueError):
+            stream.write(text)
+
+
+@contextmanager
+def _plain_warnings() -> Iterator[None]:
+    """Values are checked before the analysis sees them (drc.units.EVALUABLE), so a
+    floating-point warning should not happen; if one does, it is said plainly, once."""
+    with warnings.catch_warnings():
+        warnings.showwarning = _show_plainly
+        yield
+
+
 @contextmanager
 def owned_process() -> Iterator[None]:
     """Streams guarded, ending signals caught, environment tidied, for one command."""
-    with _streams(), _signals(), _environment():
+    with _streams(), _signals(), _environment(), _plain_warnings():
         check_working_folder()
         yield

@@ -21,6 +21,7 @@ line and column.
 
 from __future__ import annotations
 
+import fnmatch
 import re
 from collections.abc import Iterable
 from dataclasses import dataclass, field
@@ -51,6 +52,9 @@ class Annotations:
     contacts: list[ContactConfig] = field(default_factory=list)
     debounces: dict[str, float] = field(default_factory=dict)  # "U9:12" (case-folded) -> seconds
     waivers: list[AnnotationWaiver] = field(default_factory=list)
+    # Where each `contact` and `debounce` line is (for notes about names that match nothing).
+    contact_locations: list[SourceLocation] = field(default_factory=list)
+    debounce_locations: dict[str, tuple[str, SourceLocation]] = field(default_factory=dict)
 
     def __bool__(self) -> bool:
         return bool(self.contacts or self.debounces or self.waivers)
@@ -122,10 +126,12 @@ def _annotation(found: Annotations, file: str, line_no: int, line: str) -> None:
     verb, rest = words[0].lower(), words[1:]
     if verb == "contact":
         found.contacts.append(_contact(rest, make_error))
+        found.contact_locations.append(SourceLocation(file, line_no, column))
     elif verb == "debounce":
         if len(rest) != 2 or ":" not in rest[0]:
             raise make_error("expected `*@drc debounce PART:PIN TIME`, e.g. `*@drc debounce U9:12 20ms`")
         found.debounces[rest[0].casefold()] = _time(rest[1], "debounce", make_error)
+        found.debounce_locations[rest[0].casefold()] = (rest[0], SourceLocation(file, line_no, column))
     elif verb == "waive":
         if len(rest) < 2:
             raise make_error("expected `*@drc waive RULE PART... : reason`")
@@ -135,3 +141,37 @@ def _annotation(found: Annotations, file: str, line_no: int, line: str) -> None:
                                               SourceLocation(file, line_no, column)))
     else:
         raise make_error(f"unknown annotation {verb!r}; expected contact, debounce or waive")
+
+
+def unmatched_names(found: Annotations, contacts: Iterable[str], parts: Iterable[str],
+                    receiver_pins: Iterable[str]) -> list[tuple[SourceLocation, str]]:
+    """(where, what) for every annotation naming something the board does not have:
+    a `contact` pattern no contact matches, a `debounce` pin that is not a logic
+    input drc found (or whose part does not exist), a `waive` part pattern no part
+    matches. Such a line does nothing, which its author should hear about.
+
+    contacts: contact designators; parts: every element's designator;
+    receiver_pins: "PART:PIN" of every receiver. All compared case-insensitively.
+    """
+    contact_names = [c.casefold() for c in contacts]
+    part_names = [p.casefold() for p in parts]
+    pins = {p.casefold() for p in receiver_pins}
+    notes: list[tuple[SourceLocation, str]] = []
+    for entry, where in zip(found.contacts, found.contact_locations, strict=True):
+        if not fnmatch.filter(contact_names, entry.pattern.casefold()):
+            kind = "names a part that is not a contact" if fnmatch.filter(
+                part_names, entry.pattern.casefold()) else "matches no part on the board"
+            notes.append((where, f"annotation `contact {entry.pattern}` {kind}; it has no effect"))
+    for pin_key, (written, where) in found.debounce_locations.items():
+        if pin_key in pins:
+            continue
+        part = written.rpartition(":")[0]
+        why = (f"{part} is not on the board" if part.casefold() not in part_names
+               else f"{written} is not a logic input drc found")
+        notes.append((where, f"annotation `debounce {written}`: {why}; it has no effect"))
+    for waiver in found.waivers:
+        for pattern in waiver.parts:
+            if not fnmatch.filter(part_names, pattern.casefold()):
+                notes.append((waiver.location, f"annotation `waive {waiver.rule}`: {pattern} matches "
+                                               "no part on the board"))
+    return notes

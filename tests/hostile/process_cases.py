@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 import shutil
 import socket
 import stat
@@ -216,6 +217,13 @@ def _first_line(expected: str) -> Callable[[Path, object], list[str]]:
     return check
 
 
+def _no_raw_numbers(_folder: Path, outcome) -> list[str]:
+    """No numpy warning and no infinite figure reached the user."""
+    text = outcome.stdout + outcome.stderr
+    return [f"{word!r} in the output" for word in (r"RuntimeWarning", "∞", r"\binf\b", r"\bnan\b")
+            if re.search(word, text)]
+
+
 def _stdout_has(*words: str) -> Callable[[Path, object], list[str]]:
     def check(_folder: Path, outcome) -> list[str]:
         return [f"{word!r} missing from standard output" for word in words if word not in outcome.stdout]
@@ -372,6 +380,18 @@ def value_cases() -> list[tuple[Case, Files]]:
          {"b.cir": HEADER + "*@drc contact SW1 bounce=-20ms\n" + GOOD_STAGE}),
         (Case("annotation_nan_debounce", ["check", "b.cir"], 2, "not a time", "column", "b.cir"),
          {"b.cir": HEADER + "*@drc debounce U1:1 nan\n" + GOOD_STAGE}),
+        (Case("annotation_contact_matches_nothing", ["check", "b.cir"], FINDINGS,
+              "annotation `contact SW9` matches no part on the board", "column", "b.cir"),
+         {"b.cir": HEADER + "*@drc contact SW9 class=toggle\n" + GOOD_STAGE}),
+        (Case("annotation_debounce_part_missing", ["check", "b.cir"], FINDINGS,
+              "annotation `debounce U9:12`: U9 is not on the board", "column", "b.cir"),
+         {"b.cir": HEADER + "*@drc debounce U9:12 20ms\n" + GOOD_STAGE}),
+        (Case("annotation_debounce_pin_not_an_input", ["check", "b.cir"], FINDINGS,
+              "U1:2 is not a logic input", "column", "b.cir"),
+         {"b.cir": HEADER + "*@drc debounce U1:2 20ms\n" + GOOD_STAGE}),
+        (Case("annotation_waive_part_missing", ["check", "b.cir"], FINDINGS,
+              "R7 matches no part on the board", "column", "b.cir"),
+         {"b.cir": HEADER + "*@drc waive bounce-window SW1 R7 : bench unit\n" + GOOD_STAGE}),
         (Case("config_bounce_negative", ["check", "b.cir"], 2, "expected a positive time", "line",
               "drc.toml"),
          {"b.cir": HEADER + GOOD_STAGE,
@@ -391,6 +411,19 @@ def value_cases() -> list[tuple[Case, Files]]:
               "--seed: expected a whole number >= 0"), BOARD),
         (Case("simulate_trials_capped", ["simulate", "b.cir", "SW1", "--trials", "100000000"], 0,
               "simulating 10000 trials", timeout=120), BOARD),
+        (Case("extreme_resistance", ["check", "b.cir"], 2, "R1 has a resistance of 1e+30",
+              "column", "b.cir", check=_no_raw_numbers),
+         {"b.cir": HEADER + GOOD_STAGE.replace("R1 vcc in 10k", "R1 vcc in 1e30")}),
+        (Case("subnormal_capacitance", ["check", "b.cir"], 2, "outside what drc evaluates",
+              "column", "b.cir", check=_no_raw_numbers),
+         {"b.cir": HEADER + GOOD_STAGE.replace("C1 in 0 100n", "C1 in 0 1e-320")}),
+        (Case("extreme_values_within_range", ["check", "b.cir"], FINDINGS, "contact",
+              check=_no_raw_numbers),
+         {"b.cir": HEADER + GOOD_STAGE.replace("R1 vcc in 10k", "R1 vcc in 1T")
+          .replace("C1 in 0 100n", "C1 in 0 1e-18")}),
+        (Case("design_resistor_extreme", ["design", "--rail", "5V", "--family", "HC",
+                                          "--resistor", "1e30"], 2,
+              "outside what drc evaluates", check=_no_raw_numbers), {}),
         (Case("reader_limit_zero", ["check", "b.cir", "--max-elements", "0"], 2,
               "--max-elements: expected a whole number >= 1"), BOARD),
     ]

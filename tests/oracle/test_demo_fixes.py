@@ -32,6 +32,7 @@ CLAIM = re.compile(r"\((press|release) ")
 
 
 def _value(text: str) -> float:
+    text = text.rstrip(",;")  # "16 kΩ, ..." in a list of changes: the value without its comma
     unit = text.split()[-1]
     return parse_quantity(text, "capacitance" if unit.endswith("F") else "resistance", "fix")
 
