@@ -1,7 +1,8 @@
 """Run one hostile case through the real console entry point and judge it.
 
-The command is `python -m drc.cli ARGS` in a subprocess with a timeout, run
-from the case's folder, with the case's extra environment variables and,
+The command is the installed `drc` console script (the file pip writes beside
+the interpreter; `python -m drc.cli` where there is none) with ARGS, in a
+subprocess with a timeout, run from the case's folder, with the case's extra environment variables and,
 where the case asks, standard output somewhere hostile (closed, a full
 device, a pipe nobody reads, a file under a size limit) or a working folder
 that is deleted first (tests/hostile/launch.py sets those up, then execs).
@@ -48,6 +49,9 @@ def digest(path: Path) -> str | None:
 
 
 LAUNCH = Path(__file__).resolve().parent / "launch.py"
+# The console script users run; PYTHONPATH (set below) makes it import this checkout.
+_SCRIPT = Path(sys.executable).parent / "drc"
+ENTRY = [str(_SCRIPT)] if os.name == "posix" and _SCRIPT.is_file() else ["-m", "drc.cli"]
 
 
 def _stdout_target(stdout: str, cwd: Path):
@@ -81,9 +85,9 @@ def run(args: list[str], cwd: Path, inputs: list[str], timeout: float, *,
     environment.update(env or {})
     target, directives, read_back = _stdout_target(stdout, cwd)
     directives += list(setup)
-    command = [sys.executable, "-m", "drc.cli", *args]
+    command = [sys.executable, *ENTRY, *args]
     if directives:
-        command = [sys.executable, str(LAUNCH), *directives, "--", "-m", "drc.cli", *args]
+        command = [sys.executable, str(LAUNCH), *directives, "--", *ENTRY, *args]
     try:
         proc = subprocess.run([*prefix, *command], cwd=cwd, env=environment, stdout=target,
                               stderr=subprocess.PIPE, timeout=timeout, stdin=subprocess.DEVNULL)

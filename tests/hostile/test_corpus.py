@@ -5,8 +5,8 @@ Two sources of cases: the small committed files under corpus/ (described by
 corpus/manifest.toml) and the large or special ones make_corpus.py generates
 into a scratch folder (deep and exploding hierarchies, a 100 MB line, a
 million continuation lines, include bombs, FIFOs, symbolic links, paths
-leaving the board's folder). Every case runs `python -m drc.cli` in a
-subprocess with a timeout, from its own scratch folder. The subprocesses run
+leaving the board's folder). Every case runs the installed `drc` console
+script (runner.ENTRY) in a subprocess with a timeout, from its own scratch folder. The subprocesses run
 a few at a time in a session fixture (the suite stays fast on two cores);
 each case is then judged in its own test, so a failure names its case.
 """

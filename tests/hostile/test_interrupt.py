@@ -27,14 +27,14 @@ import pytest
 
 from drc.atomic import write_atomic
 from tests.hostile.make_corpus import large_board
-from tests.hostile.runner import REPO
+from tests.hostile.runner import ENTRY, REPO
 
 OLD_REPORT = '{"previous": "report"}\n'
 
 
 def _start(folder, *args):
     env = dict(os.environ, PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
-    return subprocess.Popen([sys.executable, "-m", "drc.cli", "check", *args], cwd=folder,
+    return subprocess.Popen([sys.executable, *ENTRY, "check", *args], cwd=folder,
                             env=env, stdin=subprocess.DEVNULL, stdout=subprocess.PIPE,
                             stderr=subprocess.PIPE)
 
@@ -71,7 +71,7 @@ def test_failed_run_keeps_previous_report_and_baseline(tmp_path):
     (tmp_path / "b.cir").write_text("t\nR1 a b {1/0}\n")
     (tmp_path / "report.json").write_text(OLD_REPORT)
     env = dict(os.environ, PYTHONPATH=str(REPO))
-    proc = subprocess.run([sys.executable, "-m", "drc.cli", "check", "b.cir", "--baseline",
+    proc = subprocess.run([sys.executable, *ENTRY, "check", "b.cir", "--baseline",
                            "missing.json", "-o", "json:report.json"], cwd=tmp_path, env=env,
                           capture_output=True, timeout=60)
     assert proc.returncode == 2
