@@ -15,7 +15,7 @@ reports at the speed of the JSON writer); rich is used only for a terminal.
 `ARROW` is the one arrow every screen writes between a contact and a
 receiver; `fit_encoding` replaces it and the other non-ASCII signs the
 reports use with ASCII spellings where the output's encoding cannot write
-them.
+them (the table is drc.atomic's, shared with report files).
 """
 
 from __future__ import annotations
@@ -25,21 +25,14 @@ import re
 from collections.abc import Iterable
 from typing import NamedTuple
 
+from drc.atomic import PLAIN_ERRORS
+
 ARROW = "→"
-
-# Signs our screens use, and their ASCII spellings for an output that cannot write them.
-_ASCII = str.maketrans({
-    "→": "->", "←": "<-", "Ω": "ohm", "µ": "u", "μ": "u", "–": "-", "—": "-", "─": "-",
-    "━": "-", "≥": ">=", "≤": "<=", "×": "x", "±": "+/-", "∞": "inf", "·": "-", "…": "...",
-    "°": " deg", "≈": "~", "’": "'", "‘": "'", "“": '"', "”": '"', "✓": "ok", "✗": "x",
-    "\u00a0": " ", "⚑": "!",
-})
-
 
 def fit_encoding(text: str, encoding: str | None) -> str:
     """`text` as the output encoding can write it: unchanged when it can (UTF-8 and
-    the like), else with ASCII spellings of our signs ("→" -> "->", "Ω" -> "ohm")
-    and "?" for anything else."""
+    the like), else with the ASCII spellings of drc.atomic's "drc-plain" handler
+    ("→" -> "->", "Ω" -> "ohm"; one table for screens and files)."""
     if not encoding:
         return text
     try:
@@ -49,7 +42,7 @@ def fit_encoding(text: str, encoding: str | None) -> str:
         pass
     except LookupError:  # an encoding Python does not know: write ASCII
         encoding = "ascii"
-    return text.translate(_ASCII).encode(encoding, errors="replace").decode(encoding)
+    return text.encode(encoding, PLAIN_ERRORS).decode(encoding)
 
 
 def encoding_is_unicode(encoding: str | None) -> bool:
