@@ -350,7 +350,7 @@ def cases(big: bool = True) -> list[tuple[Case, dict[str, str | bytes]]]:
     add(Case("hundreds_of_contacts_on_one_net", ["check", "b.cir", "--no-fixes", "-q"], (0, 1),
              "contacts", None, timeout=60), {"b.cir": many_contacts(400)})
     add(Case("thousands_of_contacts_on_one_net", ["check", "b.cir", "--no-fixes", "-q"], (0, 1),
-             "contacts", None, timeout=60),
+             "contacts", None, timeout=240),
         {"b.cir": many_contacts(3000)})
     add(Case("rail_shorted_by_contact", ["check", "b.cir"], (0, 1, 2), "", None),
         {"b.cir": HEADER + "V1 vcc 0 DC 5\nSW1 vcc 0 TACTILE\nR1 vcc in 10k\nSW2 in 0 TACTILE\n"
