@@ -31,8 +31,13 @@ What is measured (the goals of the speed issue, each a ratio):
 
 plus the size table (10k to 1M elements) and stage analysis alone.
 
-    python benchmarks/run.py                    # everything, writes benchmarks/results.md
-    python benchmarks/run.py --sizes 10000 --runs 1 --quick
+    python benchmarks/run.py     # everything: writes benchmarks/results.md and the README's speed section
+
+A reduced run that takes every path at small sizes (a proof that the script
+works, not figures to publish; written elsewhere, the README is left alone):
+
+    python benchmarks/run.py --sizes 10000 --big 10000 --runs 1 --archive 20 \
+        --stages 1000 --output /tmp/results.md
 """
 
 from __future__ import annotations
@@ -54,17 +59,21 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 ROOT = HERE.parent
+RESULTS = HERE / "results.md"
+README = ROOT / "README.md"
+# The README's speed section holds results.md's tables between these two lines.
+BEGIN, END = "<!-- benchmarks/results.md: begin -->", "<!-- benchmarks/results.md: end -->"
 sys.path.insert(0, str(HERE))
 from generate import default_contacts, generate  # noqa: E402
 
-_TMP = Path(tempfile.mkdtemp(prefix="drc-bench-"))
+# The run's scratch folder (boards, decks, the children's result cache), made by main().
+_TMP = Path(tempfile.gettempdir()) / "drc-bench-unset"
 _ENV = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
 # Children run from compiled bytecode, as an installed package does (pip compiles
 # it): written once, outside the source tree, even where the environment says
 # not to write bytecode (PYTHONDONTWRITEBYTECODE would make every run compile drc).
 _ENV.pop("PYTHONDONTWRITEBYTECODE", None)
 _ENV["PYTHONPYCACHEPREFIX"] = os.path.join(tempfile.gettempdir(), "drc-bench-pycache")
-_ENV["DRC_CACHE_DIR"] = str(_TMP / "cache")  # never the user's cache folder
 _ENV.pop("COVERAGE_PROCESS_START", None)
 
 # One child, and the peak resident memory of that child alone (kB on Linux).
@@ -191,14 +200,15 @@ def time_ngspice(deck: Path, runs: int) -> Measure | None:
 
 # ------------------------------------------------------------------ archives
 
-def demo_archive(copies: int) -> Path:
-    """The demo boards copied `copies` times (with their config), as a folder."""
+def demo_archive(count: int) -> Path:
+    """`count` boards: the demo boards copied in turn (with their config), as a folder."""
     folder = _TMP / "demo-archive"
     if not folder.exists():
         folder.mkdir()
-        for board in sorted((ROOT / "boards" / "lx24").glob("*.cir")):
-            for i in range(copies):
-                shutil.copy(board, folder / f"{board.stem}_{i:03d}.cir")
+        boards = sorted((ROOT / "boards" / "lx24").glob("*.cir"))
+        for i in range(count):
+            board = boards[i % len(boards)]
+            shutil.copy(board, folder / f"{board.stem}_{i // len(boards):03d}.cir")
         shutil.copy(ROOT / "boards" / "lx24" / "drc.toml", folder / "drc.toml")
     return folder
 
@@ -308,6 +318,13 @@ class Goal:
                 f"| {self.detail} |")
 
 
+def _k(size: int) -> str:
+    """1M, 100k, 10k, 2500: how the goals name a board's size."""
+    if size % 1_000_000 == 0:
+        return f"{size // 1_000_000}M"
+    return f"{size // 1000}k" if size % 1000 == 0 else f"{size:,}"
+
+
 def _s(x: float) -> str:
     return f"{x:.2f} s" if x == x else "n/a"
 
@@ -332,30 +349,30 @@ def size_rows(args, goals: list[Goal]) -> list[str]:
                     f"({peak:.0f} MB) | {_s(fixes.cpu) if fixes else 'not run'} | "
                     f"{_s(spice.cpu) if spice else 'n/a'} ({spice_peak:.0f} MB) | {ratio:.2f} |")
         print(rows[-1], flush=True)
-        if size == 100_000:
+        if size == args.big:
             if spice:
-                goals.append(Goal("big board: 100k generated, check (JSON, no fixes) / ngspice", ratio, 2.0,
-                                  f"{_s(check.cpu)} / {_s(spice.cpu)}"))
+                goals.append(Goal(f"big board: {_k(size)} generated, check (JSON, no fixes) / ngspice", ratio,
+                                  2.0, f"{_s(check.cpu)} / {_s(spice.cpu)}"))
             text = measure(check_cmd(path, "text"), runs)
-            goals.append(Goal("text / JSON, 100k board, piped", text.cpu / check.cpu, 1.3,
+            goals.append(Goal(f"text / JSON, {_k(size)} board, piped", text.cpu / check.cpu, 1.3,
                               f"{_s(text.cpu)} / {_s(check.cpu)}"))
         if fixes:
             goals.append(Goal(f"fixes: {size:,} board, with / without", fixes.cpu / check.cpu, 1.5,
                               f"{_s(fixes.cpu)} / {_s(check.cpu)}"))
-        if size == 1_000_000:
-            goals.append(Goal("memory: peak of the 1M check, MB", peak, 500, f"{peak:.0f} MB"))
+        if size == max(args.sizes):
+            goals.append(Goal(f"memory: peak of the {_k(size)} check, MB", peak, 500, f"{peak:.0f} MB"))
     return rows
 
 
 def flat_board(args, goals: list[Goal]) -> None:
-    size = 100_000
-    path = _TMP / "flat100k.cir"
+    size = args.big
+    path = _TMP / f"flat{size}.cir"
     path.write_text(generate(size, args.seed, ngspice_safe=True, contacts=size // 14, sheet_share=0.0),
                     encoding="utf-8")
     check = measure(check_cmd(path), args.runs)
     spice = time_ngspice(ngspice_deck(path.read_text(encoding="utf-8"), path.stem), args.runs)
     if spice:
-        goals.append(Goal("big board: 100k flat, one contact per 14 elements, check / ngspice",
+        goals.append(Goal(f"big board: {_k(size)} flat, one contact per 14 elements, check / ngspice",
                           check.cpu / spice.cpu, 2.5, f"{_s(check.cpu)} / {_s(spice.cpu)}"))
 
 
@@ -376,7 +393,7 @@ def small_boards(args, goals: list[Goal]) -> None:
 
 
 def archives(args, goals: list[Goal]) -> None:
-    demo = demo_archive(args.archive // 4)
+    demo = demo_archive(args.archive)
     first, second, same = rerun(demo, args.runs)
     goals.append(Goal(f"re-run: {args.archive} demo boards, warm cache / first check", second.cpu / first.cpu,
                       0.25, f"{_s(second.cpu)} / {_s(first.cpu)}; reports byte-identical: {'yes' if same else 'NO'}"))
@@ -400,6 +417,8 @@ def archives(args, goals: list[Goal]) -> None:
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description="drc speed benchmarks")
     parser.add_argument("--sizes", type=int, nargs="+", default=[10_000, 100_000, 1_000_000])
+    parser.add_argument("--big", type=int, default=100_000,
+                        help="the size of the big-board and text/JSON goals and of the flat board (one of --sizes)")
     parser.add_argument("--fix-sizes", type=int, nargs="*", default=[10_000],
                         help="sizes also timed with the fix search on")
     parser.add_argument("--runs", type=int, default=3, help="fresh processes per measurement (median)")
@@ -408,9 +427,15 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--jobs", type=int, default=2)
     parser.add_argument("--stages", type=int, default=10_000, help="stages for the analysis-alone run (0: skip)")
     parser.add_argument("--quick", action="store_true", help="skip the flat board and the generated archive")
-    parser.add_argument("--output", default=str(HERE / "results.md"))
+    parser.add_argument("--output", default=str(RESULTS),
+                        help="where the results go; only the default also updates the README's speed section")
     args = parser.parse_args(argv)
+    if args.big not in args.sizes:
+        parser.error("--big must be one of --sizes")
 
+    global _TMP
+    _TMP = Path(tempfile.mkdtemp(prefix="drc-bench-"))
+    _ENV["DRC_CACHE_DIR"] = str(_TMP / "cache")  # never the user's cache folder
     warm_bytecode()
     goals: list[Goal] = []
     try:
@@ -433,11 +458,25 @@ def main(argv: list[str] | None = None) -> int:
     if distinct is not None:
         extra = ["", f"Stage analysis alone (in-process): {args.stages:,} stages with distinct values in "
                  f"{distinct:.2f} s; {args.stages:,} stages repeating 40 designs in {repeated:.2f} s."]
-    text = "\n".join(["# drc benchmarks", "", head, "", *table, "", "Sizes (generated boards, "
-                      "`drc check FILE --format json --no-fixes`):", "", *rows, *extra]) + "\n"
+    body = [head, "", *table, "", "Sizes (generated boards, `drc check FILE --format json --no-fixes`):", "",
+            *rows, *extra]
+    text = "\n".join(["# drc benchmarks", "", *body]) + "\n"
     print(text)
-    Path(args.output).write_text(text, encoding="utf-8")
+    output = Path(args.output)
+    output.write_text(text, encoding="utf-8")
+    if output.resolve() == RESULTS:
+        update_readme("\n".join(body))
     return 0
+
+
+def update_readme(body: str) -> None:
+    """Put the results' tables between the README's markers (the README's speed table is results.md's)."""
+    readme = README.read_text(encoding="utf-8")
+    start, end = readme.find(BEGIN), readme.find(END)
+    if start < 0 or end < start:
+        print(f"README.md has no {BEGIN} ... {END} block: not updated", file=sys.stderr)
+        return
+    README.write_text(readme[: start + len(BEGIN)] + "\n" + body + "\n" + readme[end:], encoding="utf-8")
 
 
 if __name__ == "__main__":
