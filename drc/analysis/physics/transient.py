@@ -24,6 +24,7 @@ import numpy as np
 
 from drc.analysis.physics.compiled import LinearModel
 from drc.analysis.physics.mna import Reduced, cap_voltages, dc_solve, node_voltage, reduce_dynamic
+from drc.analysis.physics.roots import brent_root
 
 MAX_EVENTS = 32  # diode state changes followed during one edge
 _GRID = np.geomspace(1e-4, 60.0, 56)  # multiples of each time constant
@@ -97,9 +98,7 @@ def first_crossing(f: ExpSum, target: float, direction: int, t_max: float = math
     lo = float(grid[i - 1]) if i > 0 else 0.0
     if vals[i] == 0:
         return hi
-    from scipy.optimize import brentq  # lazy: only multi-capacitor and diode stages get here
-
-    return float(brentq(g, lo, hi, xtol=max(hi * 1e-15, 1e-300), rtol=1e-13, maxiter=200))
+    return brent_root(g, lo, hi, xtol=max(hi * 1e-15, 1e-300), rtol=1e-13, maxiter=200)
 
 
 def _bracket_grid(f: ExpSum, target: float, t_max: float) -> np.ndarray:

@@ -1,0 +1,78 @@
+"""Brent's root finder (drc.analysis.physics.roots) against SciPy's brentq, the
+outside reference (scipy.optimize.brentq, same tolerances), on smooth functions
+of the kinds the event solver brackets: sums of decaying exponentials crossing
+a threshold (one to four modes, both directions, steep and flat crossings),
+plus textbook cases (cos x = x, a cubic, a root at an end of the bracket).
+Each root must agree with SciPy's within the shared tolerance and must bracket
+a sign change of the function at that tolerance.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+
+import numpy as np
+import pytest
+
+from drc.analysis.physics.roots import brent_root
+from drc.analysis.physics.transient import ExpSum, first_crossing
+
+brentq = pytest.importorskip("scipy.optimize").brentq
+
+RTOL = 1e-13
+
+
+def _agree(f, lo, hi):
+    xtol = max(hi * 1e-15, 1e-300)
+    ours = brent_root(f, lo, hi, xtol=xtol, rtol=RTOL)
+    theirs = brentq(f, lo, hi, xtol=xtol, rtol=RTOL, maxiter=200)
+    tol = 4 * (xtol + RTOL * abs(theirs))
+    assert abs(ours - theirs) <= tol, (ours, theirs)
+    assert lo <= ours <= hi
+    return ours
+
+
+def _random_expsums(count: int, seed: int = 7):
+    rng = random.Random(seed)
+    for _ in range(count):
+        modes = rng.randint(1, 4)
+        lam = np.array([10 ** rng.uniform(0, 6) for _ in range(modes)])
+        a = np.array([rng.uniform(-5, 5) for _ in range(modes)])
+        yield ExpSum(rng.uniform(-1, 6), a, lam, 0.0)
+
+
+def test_textbook_roots():
+    assert _agree(lambda x: math.cos(x) - x, 0.0, 1.0) == pytest.approx(0.7390851332151607, rel=1e-12)
+    assert _agree(lambda x: x ** 3 - 2 * x - 5, 2.0, 3.0) == pytest.approx(2.0945514815423265, rel=1e-12)
+    assert brent_root(lambda x: x - 1.0, 1.0, 2.0, xtol=1e-15, rtol=RTOL) == 1.0
+    assert brent_root(lambda x: x - 2.0, 1.0, 2.0, xtol=1e-15, rtol=RTOL) == 2.0
+
+
+def test_steep_and_flat_crossings():
+    _agree(lambda t: 5.0 * (1 - math.exp(-t / 1e-9)) - 2.5, 0.0, 1e-7)  # a ns edge
+    _agree(lambda t: 5.0 * (1 - math.exp(-t / 10.0)) - 4.9999, 0.0, 1e3)  # creeping to the threshold
+    _agree(lambda t: math.tanh(1e4 * (t - 0.3)), 0.0, 1.0)  # nearly a step
+
+
+def test_exponential_sums_agree_with_scipy():
+    checked = 0
+    for f in _random_expsums(400):
+        for direction in (1, -1):
+            target = f.c + 0.5 * float(np.sum(f.a)) * 0.999
+            grid = np.geomspace(1e-9, 1e-1, 400)
+            vals = direction * (f.many(grid) - target)
+            hits = np.flatnonzero(vals >= 0)
+            if hits.size == 0 or hits[0] == 0:
+                continue
+            lo, hi = float(grid[hits[0] - 1]), float(grid[hits[0]])
+            root = _agree(lambda t, f=f, d=direction: d * (f(t) - target), lo, hi)
+            checked += 1
+            assert first_crossing(f, target, direction) is not None
+            assert root > 0
+    assert checked > 200
+
+
+def test_no_sign_change_is_refused():
+    with pytest.raises(ValueError):
+        brent_root(lambda x: x * x + 1.0, -1.0, 1.0, xtol=1e-15, rtol=RTOL)
