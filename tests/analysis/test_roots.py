@@ -4,7 +4,8 @@ of the kinds the event solver brackets: sums of decaying exponentials crossing
 a threshold (one to four modes, both directions, steep and flat crossings),
 plus textbook cases (cos x = x, a cubic, a root at an end of the bracket).
 Each root must agree with SciPy's within the shared tolerance and must bracket
-a sign change of the function at that tolerance.
+a sign change of the function at that tolerance. The solver's grid of distinct
+instants (transient.sorted_distinct) is numpy.unique's, compared directly.
 """
 
 from __future__ import annotations
@@ -76,3 +77,11 @@ def test_exponential_sums_agree_with_scipy():
 def test_no_sign_change_is_refused():
     with pytest.raises(ValueError):
         brent_root(lambda x: x * x + 1.0, -1.0, 1.0, xtol=1e-15, rtol=RTOL)
+
+
+def test_sorted_distinct_is_numpy_unique():
+    from drc.analysis.physics.transient import sorted_distinct
+    rng = np.random.default_rng(3)
+    for size in (0, 1, 2, 50, 500):
+        values = np.round(rng.uniform(-3, 3, size), 1)  # many repeats
+        assert np.array_equal(sorted_distinct(values), np.unique(values))

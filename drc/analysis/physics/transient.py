@@ -71,6 +71,15 @@ class ExpSum:
                       self.lam, k_self * self.s + k_other * other.s)
 
 
+def sorted_distinct(values: np.ndarray) -> np.ndarray:
+    """np.unique of finite floats without its check for masked arrays, which imports
+    numpy.ma (12 ms of a small board's start-up)."""
+    ordered = np.sort(values)
+    if ordered.size < 2:
+        return ordered
+    return ordered[np.concatenate(([True], ordered[1:] != ordered[:-1]))]
+
+
 def _constant(value: float) -> ExpSum:
     return ExpSum(float(value), np.zeros(0), np.zeros(0), 0.0)
 
@@ -112,7 +121,7 @@ def _bracket_grid(f: ExpSum, target: float, t_max: float) -> np.ndarray:
         t_lin = abs(target - f.c) / abs(f.s)
         tail = max(tail, 2.0 * t_lin + 1e-30)
         pts.append(np.geomspace(max(t_lin * 1e-6, 1e-30), 2.0 * t_lin + 1e-30, 60))
-    grid = np.unique(np.concatenate(pts)) if pts else np.zeros(0)
+    grid = sorted_distinct(np.concatenate(pts)) if pts else np.zeros(0)
     # Extend the tail geometrically: a final value within 1e-26 of the
     # threshold is reached only after the exponentials have died further.
     if decaying.size:
@@ -411,7 +420,7 @@ def sample(solution: EdgeSolution, points: int = 600) -> tuple[np.ndarray, np.nd
                            np.geomspace(max(tmin * 1e-3, t_end * 1e-9), t_end, points // 3)])
     extra = [solution.crossing_s] if solution.crossing_s is not None else []
     extra += [seg.t0 for seg in solution.segments]
-    grid = np.unique(np.concatenate([grid, np.array(extra, dtype=float)]))
+    grid = sorted_distinct(np.concatenate([grid, np.array(extra, dtype=float)]))
     grid = grid[grid <= t_end]
     v = solution.voltage(grid)
     return np.concatenate([[0.0], grid]), np.concatenate([[solution.start_v], v])
