@@ -67,7 +67,7 @@ def test_exponential_sums_agree_with_scipy():
             if hits.size == 0 or hits[0] == 0:
                 continue
             lo, hi = float(grid[hits[0] - 1]), float(grid[hits[0]])
-            root = _agree(lambda t, f=f, d=direction: d * (f(t) - target), lo, hi)
+            root = _agree(lambda t, f=f, d=direction, y=target: d * (f(t) - y), lo, hi)
             checked += 1
             assert first_crossing(f, target, direction) is not None
             assert root > 0
