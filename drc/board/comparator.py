@@ -31,8 +31,6 @@ import itertools
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
-import numpy as np
-
 from drc.board.board import Rail, UncheckedReason
 from drc.library.entries import ComparatorData, ComparatorOutput
 from drc.netlist.elements import GROUND, Element, key
@@ -225,6 +223,7 @@ def _solve(node: str, nets: set[str], parts: list[_Resistor], ohms: tuple[float,
     """Nodal analysis of the resistor network: the voltage at `node`, None if it floats."""
     if node in fixed:
         return fixed[node]
+    import numpy as np  # lazy: classifying a board needs numpy only for a comparator's divider
     free = sorted(n for n in nets if n not in fixed)
     index = {n: i for i, n in enumerate(free)}
     g = np.zeros((len(free), len(free)))
