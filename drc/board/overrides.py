@@ -36,12 +36,16 @@ def override_warnings(netlist: Netlist, library: Library, config: Config) -> lis
                 out.append(Diagnostic(
                     f"{display_designator(element)}: the [[mcu]] entry at {mcu.origin or 'the config'} "
                     f"makes it a microcontroller ({mcu.family}), overriding the {element.model} written "
-                    f"in the netlist; scope the entry with board = [...] if it is meant for another "
-                    f"board", element.location))
+                    f"in the netlist{_advice(mcu.boards)}", element.location))
                 break
         else:
             _part_override(element, library, config, written, out)
     return out
+
+
+def _advice(boards: tuple[str, ...] | None) -> str:
+    """An unscoped entry reaches every board: say how to keep it on its own."""
+    return "; scope the entry with board = [...] if it is meant for another board" if boards is None else ""
 
 
 def _part_override(element, library: Library, config: Config, written, out: list[Diagnostic]) -> None:
@@ -53,6 +57,6 @@ def _part_override(element, library: Library, config: Config, written, out: list
             continue  # the same part, spelt another way (SN74HC14N for 74HC14)
         out.append(Diagnostic(
             f"{display_designator(element)}: the [[parts]] entry at {part.origin or 'the config'} "
-            f"makes it a {part.part_number}, overriding the {element.model} written in the netlist; "
-            f"scope the entry with board = [...] if it is meant for another board", element.location))
+            f"makes it a {part.part_number}, overriding the {element.model} written in the netlist"
+            f"{_advice(part.boards)}", element.location))
         return

@@ -79,8 +79,16 @@ def test_an_unscoped_entry_that_overrides_a_written_part_is_a_warning(tmp_path: 
     (warning,) = [n for n in notes["board_b.cir"] if "overriding" in n]
     assert warning.startswith("boards/board_b.cir:7:1: U5: the [[mcu]] entry at ")
     assert "drc.toml:1" in warning and "overriding the 74HC14 written in the netlist" in warning
+    assert warning.endswith("scope the entry with board = [...] if it is meant for another board")
     text = drc_script("check", "boards", "--no-fixes", cwd=repository).stdout
     assert "warning: boards/board_b.cir:7:1: U5: the [[mcu]] entry" in text
+
+
+def test_a_scoped_entry_that_overrides_its_own_board_is_a_warning_without_the_advice(tmp_path: Path):
+    """Scoped to board b on purpose: still an override (a warning), but scoping is done."""
+    _kinds, notes = _stages(_repository(tmp_path, 'board = "boards/board_b.cir"'))
+    (warning,) = [n for n in notes["board_b.cir"] if "overriding" in n]
+    assert warning.endswith("overriding the 74HC14 written in the netlist"), warning
 
 
 def test_a_parts_entry_that_names_the_written_part_is_no_override(tmp_path: Path):
