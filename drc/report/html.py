@@ -22,7 +22,7 @@ from drc.checks.findings import SEVERITY_RANK, Finding
 from drc.report.formats import BoardOrder, RenderOptions
 from drc.report.layout import path_name
 from drc.report.run_report import NOT_APPLICABLE, BoardReport, BoardStatus, RunReport, times_apply
-from drc.report.text import LEGEND, board_summary, figure_text, plural, sorted_boards, where_text
+from drc.report.text import LEGEND, board_summary, figure_text, plural, shown_path, sorted_boards, where_text
 from drc.units import format_quantity
 
 TEMPLATES = Path(__file__).with_name("templates")
@@ -188,7 +188,8 @@ def _board_view(board: BoardReport, index: int, run: RunReport, svg_cache: dict)
     active = [_finding_view(f, run, anchors) for f in board.active()]
     suppressed = [_finding_view(f, run, anchors) for f in board.findings if f.suppression is not None]
     return {
-        "index": index, "id": f"board-{index}", "path": board.path, "config": board.config_path,
+        "index": index, "id": f"board-{index}", "path": board.path,
+        "config": shown_path(board.config_path) if board.config_path else None,  # as the text report
         "error": board.error, "diagnostics": list(board.diagnostics), "summary": board_summary(board),
         "counts": board.counts(), "worst_margin": _Cell(format_quantity(margin, "V"), "bad" if margin < 0 else "")
         if margin is not None else _Cell("—"),

@@ -80,7 +80,7 @@ def board_summary(board: BoardReport) -> str:
     return text
 
 
-def _shown_path(path: str) -> str:
+def shown_path(path: str) -> str:
     """A path relative to the working folder when it lies below it, else as given."""
     import os
     try:
@@ -120,7 +120,7 @@ def board_lines(board: BoardReport, run: RunReport, quiet: bool) -> Iterator[Lin
         return
     header: list[tuple[str, str]] = [(printable(board.path), "bold")]
     if board.config_path:
-        header.append((f"  (config: {printable(_shown_path(board.config_path))})", "dim"))
+        header.append((f"  (config: {printable(shown_path(board.config_path))})", "dim"))
     yield Line(tuple(header), 0, 4)
     if board.error:
         yield from _error_lines(board.error)

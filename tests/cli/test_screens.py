@@ -271,3 +271,5 @@ def test_html_board_sections_say_how_many_contacts_were_checked():
                 for b in data["boards"] for c in [b["coverage"]]}
     assert {path: (bad, text.split(";")[0]) for path, (bad, text) in shown.items()} == expected
     assert any(bad for bad, _text in shown.values())
+    # The config named as the text report names it: relative to the working folder.
+    assert page.count('<p class="muted">config: boards/lx24/drc.toml</p>') == len(data["boards"])
