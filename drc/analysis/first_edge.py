@@ -47,8 +47,10 @@ from drc.analysis.physics.mna import cap_voltages, dc_solve, reduce_dynamic
 from drc.analysis.physics.supply import supply_pieces
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import EDGE_STATES, Edge
+from drc.analysis.reuse import canonical_key, renamed_corner, stage_names
 from drc.analysis.stage_analysis import EdgeSetup, edge_setup, leak_ranges
 from drc.board.stage import Stage
+from drc.caching import Memo
 
 MIN_CLOSURE_S = 1e-6  # the shortest make or break of a bouncing contact (limits.toml min_closure)
 TRANSIT = "transit"  # no throw closed: a state the circuit model builds like any other
@@ -91,10 +93,34 @@ def bounce_state(stage: Stage, edge: Edge | str) -> str:
     return TRANSIT if any(t.closed_when == new for t in stage.circuit.throws) else old
 
 
+# Stages of one design (a keypad, an archive) get one reading, renamed: canonical key of
+# the stage and receiver (analysis.reuse), edge, least closure -> (reading, the names it was made for).
+_PULL_BACKS: Memo[tuple, tuple[PullBack | None, tuple[str, ...]]] = Memo("first_edge.pull_back", 50_000)
+
+
 def pull_back(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
               min_closure_s: float = MIN_CLOSURE_S) -> PullBack | None:
     """The closure-and-opening reading of one edge; None where it does not apply (an input
-    without hysteresis, several capacitors or none, diodes, an edge that never crosses)."""
+    without hysteresis, several capacitors or none, diodes, an edge that never crosses).
+    A stage identical to one read before but for its names gets that reading, renamed."""
+    stage_key = canonical_key(stage, rx)
+    if stage_key is None:
+        return _pull_back_now(stage, rx, edge, min_closure_s)
+    key = (stage_key, str(edge), float(min_closure_s))
+    names = stage_names(stage)
+    known = _PULL_BACKS.get(key)
+    if known is None:
+        back = _pull_back_now(stage, rx, edge, min_closure_s)
+        _PULL_BACKS.put(key, (back, names))
+        return back
+    back, source = known
+    if back is None or source == names:
+        return back
+    return replace(back, corner_fastest=renamed_corner(back.corner_fastest, source, names))
+
+
+def _pull_back_now(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
+                   min_closure_s: float) -> PullBack | None:
     min_closure_s = max(0.0, min_closure_s)  # a zero closure leaves the crossing threshold itself
     if not rx.schmitt or len(stage.circuit.capacitors) != 1:
         return None

@@ -107,6 +107,24 @@ def _renamed(result: StageResult, source: tuple[str, ...], stage: Stage, names: 
     return replace(result, stage=stage, edges=edges)
 
 
+def stage_names(stage: Stage) -> tuple[str, ...]:
+    """The names a stage's key codes, in the key's order (what a reused figure is renamed from and to)."""
+    return _names(stage.circuit)
+
+
+def renamed_corner(values: dict[str, float], source: tuple[str, ...], names: tuple[str, ...]) -> dict[str, float]:
+    """A corner (parameter name -> value) of a stage named `source`, for one named `names`."""
+    if source == names:
+        return values
+    rename = dict(zip(source, names, strict=True))
+
+    def renamed(k: str) -> str:
+        kind, _, who = k.partition(":")
+        return rename.get(k) or (f"{kind}:{rename[who]}" if who in rename else k)
+
+    return {renamed(k): v for k, v in values.items()}
+
+
 def analyse_stages_reusing(stages: Sequence[Stage], rx_for: Callable[[Stage], ReceiverElectrical],
                            analyse: Callable[[list[Stage], list[ReceiverElectrical]], list[StageResult]]
                            ) -> list[StageResult]:
