@@ -27,7 +27,7 @@ BUILT_IN_RULE_MODULES = (
     "unchecked_input", "undebounced_input", "floating_input", "bounce_window", "slow_edge",
     "response_latency", "leakage_headroom", "shorted_pull", "pullup_waste", "resistance_range",
     "contact_wetting", "contact_surge",
-    "rail_mismatch", "ambiguous_value",
+    "rail_mismatch", "ambiguous_value", "empty_netlist",
 )
 for _module in BUILT_IN_RULE_MODULES:
     importlib.import_module(f"drc.checks.{_module}")

@@ -148,7 +148,9 @@ def test_archive_counts_boards_it_could_not_read_or_that_hold_nothing(tmp_path: 
     proc = drc_script("check", str(_archive(tmp_path)), "--no-fixes")
     assert proc.returncode == 2  # an unreadable board is bad input
     out = proc.stdout
-    assert "4 boards, 1 checked, 1 not read, 2 with no parts: 0 errors, 0 warnings, 0 notes" in out
+    assert out.count("empty-netlist") == 2
+    # Each file with no parts is an empty-netlist error: nothing was checked there.
+    assert "4 boards, 1 checked, 1 not read, 2 with no parts: 2 errors, 0 warnings, 0 notes" in out
     rows = _table_rows(out)
     order = [row.split()[-1].rsplit("/", 1)[-1] for row in rows]
     # Worst first: not read, then boards with nothing checked, then the clean one.
@@ -273,3 +275,20 @@ def test_html_board_sections_say_how_many_contacts_were_checked():
     assert any(bad for bad, _text in shown.values())
     # The config named as the text report names it: relative to the working folder.
     assert page.count('<p class="muted">config: boards/lx24/drc.toml</p>') == len(data["boards"])
+
+
+def test_a_file_with_no_parts_never_passes_the_gate(tmp_path: Path):
+    """An empty or comments-only export is an empty-netlist error (exit 1); a board with
+    parts but no contacts stays a clean exit 0 (common practice, no source: a sheet with
+    no switches is common)."""
+    (tmp_path / ".git").mkdir()
+    empty = tmp_path / "header_only.cir"
+    empty.write_text("* LX-24 key sheet, export header only\n.end\n")
+    proc = drc_script("check", str(empty), "--no-fixes")
+    assert proc.returncode == 1, proc.stdout
+    assert "empty-netlist" in proc.stdout
+    no_contacts = tmp_path / "divider.cir"
+    no_contacts.write_text("* LX-24 reference divider\nV1 vcc 0 DC 5\nR1 vcc mid 10k\nR2 mid 0 10k\n.end\n")
+    proc = drc_script("check", str(no_contacts), "--no-fixes")
+    assert proc.returncode == 0, proc.stdout
+    assert "empty-netlist" not in proc.stdout
