@@ -30,6 +30,7 @@ from drc.caching import Memo, memoized
 from drc.checks.findings import Finding
 from drc.config.settings import Config, Waiver
 from drc.errors import DrcError
+from drc.severity import Severity
 
 if TYPE_CHECKING:
     from concurrent.futures import Executor
@@ -301,11 +302,14 @@ def board_report(check: CheckedBoard) -> BoardReport:
     kinds: Counter[str] = Counter(r.stage.kind for r in check.results)
     coverage = contact_coverage(check.survey) if check.survey is not None else None
     seen: dict[str, None] = {}
+    notes: dict[str, None] = {}   # what was not read and is not needed (a simulator's library)
     for d in (*check.reader_diagnostics, *check.config_diagnostics, *getattr(board, "diagnostics", ())):
-        seen.setdefault(f"{d.location}: {d.message}")
+        told = notes if getattr(d, "severity", None) == Severity.NOTE else seen
+        told.setdefault(f"{d.location}: {d.message}")
     return BoardReport(path=check.path, stages=tuple(check.results), findings=tuple(check.findings),
                        contacts=len(board.contacts), stage_kinds=dict(kinds),
-                       diagnostics=tuple(seen), config_path=check.config.path if check.config else None,
+                       diagnostics=tuple(seen), notes=tuple(notes),
+                       config_path=check.config.path if check.config else None,
                        files=check.files, inventory=inventory(board), coverage=coverage)
 
 

@@ -190,7 +190,8 @@ def _board_view(board: BoardReport, index: int, run: RunReport, svg_cache: dict)
     return {
         "index": index, "id": f"board-{index}", "path": board.path,
         "config": shown_path(board.config_path) if board.config_path else None,  # as the text report
-        "error": board.error, "diagnostics": list(board.diagnostics), "summary": board_summary(board),
+        "error": board.error, "diagnostics": list(board.diagnostics),
+        "notes": list(board.notes), "summary": board_summary(board),
         "counts": board.counts(), "worst_margin": _Cell(format_quantity(margin, "V"), "bad" if margin < 0 else "")
         if margin is not None else _Cell("—"),
         "rows": rows, "stages": stages, "findings": active, "suppressed": suppressed,

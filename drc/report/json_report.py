@@ -144,6 +144,7 @@ def board_json(board: BoardReport) -> dict:
         "coverage": board.coverage.as_json() if board.coverage is not None else None,
         "stage_kinds": dict(board.stage_kinds),
         "diagnostics": list(board.diagnostics),
+        "notes": list(board.notes),
         "inventory": board.inventory.as_json() if board.inventory is not None else None,
         "stages": [stage_json(s) for s in board.stages],
         "findings": [finding_json(f) for f in board.findings],

@@ -164,6 +164,7 @@ class BoardReport:
     contacts: int = 0
     stage_kinds: dict[str, int] = field(default_factory=dict)
     diagnostics: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()  # netlist lines not read and not needed (a simulator's own library)
     config_path: str | None = None
     error: str | None = None
     files: tuple[str, ...] = ()  # every file the netlist was read from (includes too)
@@ -176,6 +177,7 @@ class BoardReport:
         object.__setattr__(self, "findings", tuple(sorted(self.findings, key=finding_sort_key)))
         object.__setattr__(self, "stage_kinds", dict(sorted(self.stage_kinds.items())))
         object.__setattr__(self, "diagnostics", tuple(self.diagnostics))
+        object.__setattr__(self, "notes", tuple(self.notes))
 
     def active(self) -> tuple[Finding, ...]:
         """Findings no waiver, annotation or baseline suppresses."""

@@ -148,6 +148,7 @@ def _notifications(run: RunReport, working_dir: str | os.PathLike) -> list[dict]
         if board.error:
             out.append({"level": "error", "message": {"text": board.error}, "locations": where})
         out += [{"level": "warning", "message": {"text": d}, "locations": where} for d in board.diagnostics]
+        out += [{"level": "note", "message": {"text": n}, "locations": where} for n in board.notes]
     out += [{"level": "note", "message": {"text": note}} for note in run.waiver_notes]
     return out
 

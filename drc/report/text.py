@@ -129,6 +129,8 @@ def board_lines(board: BoardReport, run: RunReport, quiet: bool) -> Iterator[Lin
     if not quiet:
         for diagnostic in board.diagnostics:
             yield Line((("warning", "yellow"), (f": {diagnostic}", "")), 2, 4)
+        for note in board.notes:
+            yield Line((("note", "cyan"), (f": {note}", "")), 2, 4)
     rule_width = max((len(f.rule) for f in shown), default=0)
     for finding in shown:
         yield from _finding_lines(finding, run, rule_width)

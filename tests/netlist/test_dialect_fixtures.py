@@ -10,8 +10,10 @@ which the demo boards' hand figures show clean against a tactile key on a
 
     stage KIND CONTACT -> RECEIVER PARTS...   one checked stage and its parts
     SEVERITY RULE CONTACT -> RECEIVER          one finding
-    diagnostic LINE WORDS...                   one reader diagnostic, at LINE,
+    diagnostic LINE WORDS...                   one reader warning, at LINE,
                                                whose message holds WORDS
+    diagnostic-note LINE WORDS...              one reader note (a line not read
+                                               because the check does not need it)
 
 Each list must match exactly (nothing missing, nothing more). The decks that
 ngspice-39 reads (see NGSPICE_READS) are also read by ngspice, and both
@@ -20,6 +22,7 @@ readers must find the same elements and nodes: test_fixture_inventory_matches_ng
 
 from __future__ import annotations
 
+import json
 import re
 from collections import Counter
 from pathlib import Path
@@ -46,9 +49,9 @@ def expected(board: Path) -> tuple[Counter, Counter, list[tuple[int, str]]]:
         word, _, rest = line.partition(" ")
         if word == "stage":
             stages[rest] += 1
-        elif word == "diagnostic":
+        elif word in ("diagnostic", "diagnostic-note"):
             number, _, words = rest.partition(" ")
-            diagnostics.append((int(number), words))
+            diagnostics.append((int(number), f"{word}: {words}"))
         else:
             findings[line] += 1
     return stages, findings, diagnostics
@@ -63,10 +66,11 @@ def produced(board: Path):
     findings = Counter(f"{f.severity} {f.rule} {f.contact} -> {f.receiver}"
                        for f in report.findings if f.suppression is None)
     diagnostics = []
-    for text in report.diagnostics:
-        match = _DIAGNOSTIC.match(text)
-        assert match, text
-        diagnostics.append((int(match.group(1)), match.group(2)))
+    for word, texts in (("diagnostic", report.diagnostics), ("diagnostic-note", report.notes)):
+        for text in texts:
+            match = _DIAGNOSTIC.match(text)
+            assert match, text
+            diagnostics.append((int(match.group(1)), f"{word}: {match.group(2)}"))
     return stages, findings, diagnostics
 
 
@@ -83,7 +87,9 @@ def test_fixture_gives_its_expected_stages_findings_and_diagnostics(board: Path)
     assert findings == want_findings, _difference(want_findings, findings)
     assert len(diagnostics) == len(want_diagnostics), diagnostics
     for (line, words), (got_line, message) in zip(sorted(want_diagnostics), sorted(diagnostics), strict=True):
-        assert line == got_line and words in message, (line, words, got_line, message)
+        kind, _, words = words.partition(": ")
+        assert line == got_line and message.startswith(kind + ": ") and words in message, (
+            line, kind, words, got_line, message)
 
 
 def test_every_fixture_is_a_board_that_is_checked():
@@ -99,6 +105,26 @@ def test_expression_fixture_values_are_the_hand_figures():
     hand = {"R1": 10e3, "R2": 1e3 + 2 * 23e3, "C1": 680e-9, "R4": 10e3, "R3": 2 * 23.5e3,
             "C2": 680e-9 * (1 + 0.0002 * (27 - 27)), "R6": 1e3 + 1e3 + 0, "R7": 1e3}
     assert values == pytest.approx(hand)
+
+
+def test_library_lines_not_read_are_notes_in_every_format():
+    # simulator_libs.cir: three library lines, three paths of different looks,
+    # one note each with the same message; the unknown receiver is a warning.
+    from tests.cli.helpers import drc_script
+    board = FIXTURES / "boards" / "simulator_libs.cir"
+    proc = drc_script("check", str(board), "--no-fixes", "--no-cache", "--format", "json")
+    assert proc.returncode == 1, proc.stderr   # the PRESET key: unchecked-input
+    record = json.loads(proc.stdout)["boards"][0]
+    messages = {_DIAGNOSTIC.match(n).group(2).split("`: ", 1)[1] for n in record["notes"]}
+    assert len(record["notes"]) == 3 and len(messages) == 1, record["notes"]
+    assert [d for d in record["diagnostics"] if "not read" in d] == []
+    text = drc_script("check", str(board), "--no-fixes", "--no-cache").stdout
+    assert text.count("  note: ") == 3 and text.count("  warning: ") == 1, text
+    sarif = json.loads(drc_script("check", str(board), "--no-fixes", "--no-cache",
+                                  "--format", "sarif").stdout)
+    levels = Counter(n["level"] for n in sarif["runs"][0]["invocations"][0]
+                     ["toolExecutionNotifications"])
+    assert levels["note"] == 3, levels
 
 
 def test_the_lib_section_chosen_is_the_one_read(tmp_path):
