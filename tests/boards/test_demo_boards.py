@@ -59,7 +59,10 @@ def test_every_stage_kind_and_rule_is_exercised():
         clean += not report.findings
     from drc.board.stage import STAGE_KINDS
     assert set(STAGE_KINDS) <= kinds, set(STAGE_KINDS) - kinds
-    assert {r.id for r in all_rules()} <= rules, {r.id for r in all_rules()} - rules
+    # empty-netlist fires only on a file with no parts, which is no demo board: its
+    # handbook examples and tests/cli/test_screens.py exercise it.
+    expected = {r.id for r in all_rules()} - {"empty-netlist"}
+    assert expected <= rules, expected - rules
     assert clean >= 1
 
 
