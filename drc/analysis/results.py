@@ -106,7 +106,10 @@ class StageResult:
     surge_peak_a: peak current when the contact closes onto a charged
     capacitor (cap voltage / resistance between them), None if no capacitor
     discharges through the contact.
-    max_input_v: highest steady voltage the receiver pin can see.
+    max_input_v: highest steady voltage the receiver pin can see (held by its
+    clamp diode where a rail above its supply makes that conduct).
+    clamp_current_a: largest steady current through any receiver input's clamp
+    diode on the stage's nets (a rail mismatch), None where no clamp can conduct.
     """
 
     stage: Stage
@@ -119,3 +122,4 @@ class StageResult:
     receiver_electrical: ReceiverElectrical | None = None  # what the analysis used
     notes: tuple[str, ...] = ()
     closed_current_a: float | None = None
+    clamp_current_a: float | None = None

@@ -40,6 +40,7 @@ from drc.analysis.physics.corners import (
     vertices,
     worst_vertex,
 )
+from drc.analysis.physics.loads import is_clamp
 from drc.analysis.physics.mna import DcBatch, cap_voltages, dc_solve, node_voltage
 from drc.analysis.physics.supply import supply_column, supply_pieces, supply_table
 from drc.analysis.physics.transient import EdgeSolution, edge_batch, sample, settle_diodes, solve_edge
@@ -178,16 +179,19 @@ def _analyse_one(stage: Stage, rx: ReceiverElectrical) -> StageResult:
         edges[edge] = _edge(model, edge_setup(model, rx, edge, levels, extremes[b]["logic"]))
     defined = [s for s in levels if levels[s].logic != "undefined"]
     max_in = max((extremes[s]["max_v"] for s in defined), default=None)
-    pulls = [extremes[s]["pull_a"] for s in defined if extremes[s]["pull_a"] is not None]
-    contacts = [extremes[s]["contact_a"] for s in extremes if extremes[s]["contact_a"] is not None]
-    closed = [extremes[s]["closed_a"] for s in extremes if extremes[s].get("closed_a") is not None]
+
+    def over(key: str, states, pick=max) -> float | None:
+        found = [extremes[s][key] for s in states if extremes[s].get(key) is not None]
+        return pick(found) if found else None
+
     return StageResult(
         stage=stage, levels=levels, edges=edges,
-        pull_current_a=max(pulls) if pulls else None,
-        contact_current_a=min(contacts) if contacts else None,
+        pull_current_a=over("pull_a", defined),
+        contact_current_a=over("contact_a", extremes, min),
         surge_peak_a=_surge_peak(model),
         max_input_v=max_in, receiver_electrical=rx, notes=tuple(notes),
-        closed_current_a=max(closed) if closed else None,
+        closed_current_a=over("closed_a", extremes),
+        clamp_current_a=over("clamp_a", defined),
     )
 
 
@@ -257,6 +261,9 @@ def _level(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical) -> 
     if closed:
         objectives["contact_a"] = lambda d, P: -np.min(np.abs(d.i_throw[:, closed]), axis=1)
         objectives["closed_a"] = lambda d, P: np.max(np.abs(d.i_throw[:, closed]), axis=1)
+    clamps = [j for j, d in enumerate(model.circuit.diodes) if is_clamp(d)]
+    if clamps:
+        objectives["clamp_a"] = lambda d, P: np.max(d.i_diode[:, clamps], axis=1)
     ex = _dc_extremes(model, state, supply_pieces(box, rx, col), objectives)
     worst_row = ex["worst"][0]
     worst_v = float(dc_solve(model, state, worst_row[None, :]).rx_v[0])
@@ -269,6 +276,7 @@ def _level(model: LinearModel, state: ActuatorState, rx: ReceiverElectrical) -> 
              "pull_a": pull if math.isfinite(pull) else None,
              "contact_a": float(-ex["contact_a"][1]) if closed else None,
              "closed_a": float(ex["closed_a"][1]) if closed else None,
+             "clamp_a": float(ex["clamp_a"][1]) if clamps else None,
              "logic": logic_all}
     return level, extra
 

@@ -95,7 +95,7 @@ def recognise(path: InputPath, board: Board, config: Config) -> Stage:
 
 class _DiodeDefaults:
     """(forward_v, on_ohms) of the piecewise-linear diode from rules/limits.toml
-    and the config's limits; read only when a path has a diode. Also holds, for
+    and the config's limits (board diodes and receiver inputs' clamp diodes). Also holds, for
     one board, what every stage of a receiver asks again: its supply rail and
     its family's record."""
 
@@ -337,7 +337,8 @@ def _loads(path: InputPath, board: Board, nets: _Nets, shared: _DiodeDefaults) -
             supplies[supply] = RailSource(supply, rail.voltage, rail.tolerance)
         family = shared.family(r.family)
         loads.append(InputLoad(r.ref, nets.name(r.net), family.name, supply,
-                               family.leak_high_a, family.leak_low_a))
+                               family.leak_high_a, family.leak_low_a, ttl=family.ttl_input,
+                               clamp=shared.get(), clamp_to_supply=not family.tolerant))
     return _Loads(tuple(loads), supplies)
 
 

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from enum import StrEnum
 
 from drc.board.board import Contact, Receiver
+from drc.library.entries import TtlInput
 
 
 class StageKind(StrEnum):
@@ -87,9 +88,11 @@ class InputLoad:
     ref: "U1:3"; node: its net in the circuit; supply_net: the rail of the
     circuit its part is supplied from. leak_high_a / leak_low_a: the current
     into the pin (negative: out of it) as a (min, max) range at a high and a
-    low level, as rules/families.toml gives them. A load is linear (a
-    constant current) unless its family's inputs need more (see the
-    analysis).
+    low level, as rules/families.toml gives them. A load is a constant
+    current unless its family's inputs need more: `ttl` (a TTL input, whose
+    current depends on its voltage) and `clamp` (forward volts, on ohms of its
+    clamp diodes, to ground and, when `clamp_to_supply`, to its supply); the
+    analysis (`analysis/physics/loads`) turns them into circuit elements.
     """
 
     ref: str
@@ -98,6 +101,9 @@ class InputLoad:
     supply_net: str
     leak_high_a: tuple[float, float]
     leak_low_a: tuple[float, float]
+    ttl: TtlInput | None = None
+    clamp: tuple[float, float] | None = None
+    clamp_to_supply: bool = False
 
 
 @dataclass(frozen=True, slots=True)

@@ -23,7 +23,9 @@ DOC = RuleDoc(
     how=("The highest pull rail, nominal, against the family's abs-max input at the receiver's "
          "nominal VCC (rules/families.toml); a rail that is the receiver's own supply moves with "
          "it, so tolerances cancel. The figure shown is the analysis's maximum input voltage "
-         "(rail maximum, no clamp) and the clamp current (V − abs max) / R_pull."),
+         "(the pin held by its clamp diode at its supply plus a diode drop) and the largest steady "
+         "clamp current, solved through every resistor between the rail and the pin, at worst "
+         "case (rail maximum, supply minimum, resistors minimum)."),
     fix=("Tie the pull resistor to the receiver's own supply, or use a 5 V-tolerant family or a "
          "level shifter."),
     failing_example=("* SW1 pulled up to 5 V into a 74HC14 powered from 3.3 V\n"
@@ -52,7 +54,9 @@ def check(result: StageResult, ctx: RuleContext):
     seen = result.max_input_v if result.max_input_v is not None else rail_max
     pulls = pull_resistors(result)
     clamp = ""
-    if pulls:
+    if result.clamp_current_a is not None and result.clamp_current_a > 0:
+        clamp = f"; up to {fq(result.clamp_current_a, 'A')} flows into its clamp"
+    elif pulls and not rx.tolerant:  # no clamp in the circuit (a hand-built stage): the pull resistor alone
         r = min(p.ohms * (1 - p.tol_minus) for p in pulls)
         clamp = f"; about {fq((seen - rx.abs_max_input_v) / r, 'A')} flows into its clamp"
     rail_text = ", ".join(f"{s.net} {fq(s.volts, 'V')}" for s in rails)

@@ -199,6 +199,17 @@ class PartVariant:
 
 
 @dataclass(frozen=True, slots=True)
+class TtlInput:
+    """A bipolar TTL input as the circuit it is (families.toml `ttl_input`): a resistor
+    from VCC to a node that feeds the pin through the input diode and is held at
+    open level + diode_v by the input transistors once the pin rises past it."""
+
+    resistor_ohms: tuple[float, float]  # (min, max)
+    diode_v: float
+    open_v: tuple[float, float]  # (min, max): where an open input floats
+
+
+@dataclass(frozen=True, slots=True)
 class Family:
     name: str
     title: str
@@ -219,6 +230,7 @@ class Family:
     transition_note: str | None = None
     sources: tuple[tuple[str, str], ...] = ()
     part_variants: tuple[PartVariant, ...] = ()
+    ttl_input: TtlInput | None = None
 
     @property
     def supply_range(self) -> tuple[float, float]:

@@ -41,6 +41,7 @@ from drc.library.entries import (
     SchmittData,
     Series,
     TransitionLimit,
+    TtlInput,
 )
 from drc.units import Range
 
@@ -202,7 +203,7 @@ def parse_family(r: RulesFile, name: str, raw: Any) -> Family:
         ttl_high_extra_supply_a=ft.scalar("ttl_high_extra_supply_ma", 1e-3),
         internal_pull_ohms=internal_pull,
         transition_note=ft.table.get("transition_note"),
-        sources=tuple(ft.sources), part_variants=variants,
+        sources=tuple(ft.sources), part_variants=variants, ttl_input=_ttl_input(ft),
     )
     check_family(r, family)
     return family
@@ -232,6 +233,23 @@ def _part_variants(r: RulesFile, where: str, raw: Any) -> tuple[PartVariant, ...
             raise r.error(here, f"unknown keys {sorted(unknown)}")
         out.append(PartVariant(str(t.get("title", ", ".join(types))), tuple(types), lo, hi, schmitt, source))
     return tuple(out)
+
+
+def _ttl_input(ft: _FamilyTable) -> TtlInput | None:
+    """families.NAME.ttl_input: the TTL input stage (resistor from VCC, input diode, open level)."""
+    q = ft.optional("ttl_input")
+    if q is None:
+        return None
+    unknown = set(q) - {"resistor_kohm_min", "resistor_kohm_max", "diode_v", "open_v_min", "open_v_max", "source"}
+    if unknown:
+        raise ft.file.error(f"{ft.where}.ttl_input", f"unknown keys {sorted(unknown)}")
+    r = (ft.number(q, "resistor_kohm_min", "ttl_input.resistor_kohm_min") * 1e3,
+         ft.number(q, "resistor_kohm_max", "ttl_input.resistor_kohm_max") * 1e3)
+    o = (ft.number(q, "open_v_min", "ttl_input.open_v_min"), ft.number(q, "open_v_max", "ttl_input.open_v_max"))
+    d = ft.number(q, "diode_v", "ttl_input.diode_v")
+    if not (0 < r[0] <= r[1] and 0 < o[0] <= o[1] and 0 <= d):
+        raise ft.file.error(f"{ft.where}.ttl_input", "expected positive, ordered ranges")
+    return TtlInput(r, d, o)
 
 
 def _leakage(ft: _FamilyTable, key: str) -> tuple[float, float]:

@@ -107,6 +107,7 @@ def stage_json(result: StageResult) -> dict:
             "pull_a": number(result.pull_current_a),
             "contact_a": number(result.contact_current_a),
             "surge_peak_a": number(result.surge_peak_a),
+            "clamp_a": number(result.clamp_current_a),
         },
         "max_input_v": number(result.max_input_v),
         "notes": list(result.notes),

@@ -163,8 +163,9 @@ class _StageSystem:
         self.stage = stage
         self.model = compile_circuit(stage.circuit)
         if self.model.has_diodes:
-            raise UsageError(f"cannot simulate {stage.name}: chatter simulation covers stages "
-                             f"without diodes (diodes: {', '.join(d.designator for d in stage.circuit.diodes)})")
+            diodes = ", ".join(d.designator for d in self.model.circuit.diodes)
+            raise UsageError(f"cannot simulate {stage.name}: chatter simulation covers stages without "
+                             f"diodes, TTL inputs or conducting clamps (here: {diodes})")
         self.setups: dict[Edge, EdgeSetup] = {}
         for edge in EDGE_STATES:
             try:

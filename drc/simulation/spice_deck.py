@@ -64,7 +64,7 @@ def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner: Corner = "nomina
     stage whose other edge is slow stays accurate.
     """
     model = compile_circuit(stage.circuit)
-    circuit = stage.circuit
+    circuit = model.circuit  # TTL inputs and conducting clamps as the elements the analysis solves
     setups = {e: edge_setup(model, rx, e) for e in EDGE_STATES}
     rows = {e: corner_row(model, setups[e], corner) for e in EDGE_STATES}
     timing = _timing(model, setups, rows, edges, press_at, hold)

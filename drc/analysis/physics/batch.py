@@ -25,6 +25,7 @@ import numpy as np
 
 from drc.analysis.physics.compiled import GROUND, THRESHOLD, LinearModel, compile_circuit, param_table, rail_param
 from drc.analysis.physics.corners import ENUMERATE_MAX, vertex_bits
+from drc.analysis.physics.loads import expand_loads
 from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from drc.analysis.physics.supply import SupplyTable, supply_table
 from drc.analysis.physics.transient import single_cap_parts, single_cap_times
@@ -54,8 +55,10 @@ def structure_key(circuit: StageCircuit) -> tuple:
     """Everything `compile_circuit` derives its arrays from, except the values.
 
     Two circuits with the same key compile to the same incidence matrices,
-    parameter layout and topologies; only their parameter rows differ.
+    parameter layout and topologies; only their parameter rows differ. TTL
+    inputs and clamps that can conduct count as the elements they compile to.
     """
+    circuit = expand_loads(circuit)
     rails = [r for r in circuit.rails if r.net != GROUND]
     fixed = (GROUND,) + tuple(r.net for r in rails)
     fixed_index = {net: i for i, net in enumerate(fixed)}

@@ -9,7 +9,10 @@ the stage's nets (one column per load, the stage's own receiver first, named
 "leakage"; the others "leakage:U2:3"). The throws' and diodes' resistances
 are fixed values of the topology, not parameters. A `Topology` is the resistive network in one
 actuator state with one set of diode states; it is built on first use and
-cached on the model, since a stage has only a handful of them.
+cached on the model, since a stage has only a handful of them. Receiver
+inputs that are not a constant current (TTL inputs, clamps a rail can make
+conduct) are compiled as the elements they are (`loads.expand_loads`), so
+`LinearModel.circuit` may hold more than the Stage's circuit.
 """
 
 from __future__ import annotations
@@ -18,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from drc.analysis.physics.loads import expand_loads
 from drc.board.stage import StageCircuit
 
 GROUND = "0"
@@ -58,6 +62,9 @@ class Topology:
     diode_cols: tuple[int | None, ...]  # per diode: its branch column when on
     dc_nodes: np.ndarray  # (n,) bool
     tr_nodes: np.ndarray  # (n,) bool
+    # (n,) bool: a DC path through the board's own parts (not a receiver input's
+    # inner elements): a pin without one floats, whatever its input stage does.
+    board_dc_nodes: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=bool))
 
 
 @dataclass(slots=True)
@@ -82,6 +89,7 @@ class LinearModel:
     leak_cols: tuple[int, ...]  # one per load, the stage's own receiver first
     leak_nodes: tuple[int, ...]  # node code of each load
     supply_col: int | None  # parameter column of the own receiver's supply, when the circuit says
+    internal: frozenset[str] = frozenset()  # designators of the receiver inputs' own elements (loads.py)
     _topologies: dict = field(default_factory=dict)
 
     @property
@@ -169,7 +177,9 @@ def param_table(circuit: StageCircuit) -> tuple[tuple[str, ...], list[float], li
 
 
 def compile_circuit(circuit: StageCircuit) -> LinearModel:
-    """Turn a stage circuit into index arrays and a parameter table."""
+    """Turn a stage circuit into index arrays and a parameter table (TTL inputs and
+    clamps that can conduct added as elements first: `loads.expand_loads`)."""
+    circuit, internal = _expanded(circuit)
     rails = [r for r in circuit.rails if r.net != GROUND]
     fixed = (GROUND,) + tuple(r.net for r in rails)
     free = tuple(net for net in circuit.nodes() if net not in fixed)
@@ -214,8 +224,16 @@ def compile_circuit(circuit: StageCircuit) -> LinearModel:
         cap_nodes=cap_nodes, cap_sel=cap_sel, cap_designators=cap_designators,
         Ac=Ac, Acf=Acf, leak_cols=tuple(range(p - n_loads, p)),
         leak_nodes=tuple(code(ld.node) for ld in circuit.loads) if circuit.loads else (rx,),
-        supply_col=_supply_column(circuit, rails, first_rail),
+        supply_col=_supply_column(circuit, rails, first_rail), internal=internal,
     )
+
+
+def _expanded(circuit: StageCircuit) -> tuple[StageCircuit, frozenset[str]]:
+    """The circuit with its loads' elements (`loads.expand_loads`), and their designators."""
+    board_parts = {p.designator for group in (circuit.resistors, circuit.diodes) for p in group}
+    circuit = expand_loads(circuit)
+    return circuit, frozenset(p.designator for group in (circuit.resistors, circuit.diodes) for p in group
+                              if p.designator not in board_parts)
 
 
 def _supply_column(circuit: StageCircuit, rails: list, first_rail: int) -> int | None:
@@ -238,8 +256,11 @@ def _stamp(A: np.ndarray, Af: np.ndarray, row: int, a: int, b: int) -> None:
 def _build_topology(model: LinearModel, state: str, diodes_on: tuple[bool, ...]) -> Topology:
     circuit = model.circuit
     rows: list[tuple[int, int, float, float]] = []  # (a, b, fixed g, e)
+    inner: set[int] = set()  # rows of the receiver inputs' own elements
     res_cols: list[int] = []
-    for a, b in model.res_nodes:
+    for r, (a, b) in zip(circuit.resistors, model.res_nodes, strict=True):
+        if r.designator in model.internal:
+            inner.add(len(rows))
         res_cols.append(len(rows))
         rows.append((a, b, 0.0, 0.0))
     throw_cols: list[int | None] = []
@@ -252,6 +273,8 @@ def _build_topology(model: LinearModel, state: str, diodes_on: tuple[bool, ...])
     diode_cols: list[int | None] = []
     for d, on in zip(circuit.diodes, diodes_on, strict=True):
         if on:
+            if d.designator in model.internal:
+                inner.add(len(rows))
             diode_cols.append(len(rows))
             rows.append((model.node_code(d.anode), model.node_code(d.cathode), 1.0 / d.on_ohms, d.forward_v))
         else:
@@ -266,8 +289,9 @@ def _build_topology(model: LinearModel, state: str, diodes_on: tuple[bool, ...])
     pairs = [(a, b) for a, b, _, _ in rows]
     dc_nodes = _reaches_fixed(n, pairs)
     tr_nodes = _reaches_fixed(n, pairs + list(model.cap_nodes))
+    board = _reaches_fixed(n, [p for i, p in enumerate(pairs) if i not in inner]) if inner else dc_nodes
     return Topology(state, diodes_on, A, Af, e, g_fixed, np.array(res_cols, dtype=int),
-                    np.arange(len(res_cols)), tuple(throw_cols), tuple(diode_cols), dc_nodes, tr_nodes)
+                    np.arange(len(res_cols)), tuple(throw_cols), tuple(diode_cols), dc_nodes, tr_nodes, board)
 
 
 def _reaches_fixed(n: int, pairs: list[tuple[int, int]]) -> np.ndarray:

@@ -38,6 +38,7 @@ class DcBatch:
     i_res: np.ndarray  # (N, nR) current through each resistor, a -> b
     i_throw: np.ndarray  # (N, nT) current through each throw, a -> b (0 when open)
     diodes_on: np.ndarray  # (N, nd) bool
+    i_diode: np.ndarray  # (N, nd) forward current of each diode (0 when blocking)
 
 
 @dataclass(frozen=True, slots=True)
@@ -208,6 +209,7 @@ def _solve_groups(model: LinearModel, state: str, P: np.ndarray, states: np.ndar
         "v0": np.zeros((N, n)), "unit": np.zeros((N, n)),
         "floating": np.zeros(N, dtype=bool), "i_res": np.zeros((N, nR)),
         "i_throw": np.zeros((N, nT)), "diodes": states.copy(),
+        "i_diode": np.zeros((N, states.shape[1])),
     }
     groups: list[tuple[tuple[bool, ...], Any]]
     if states.shape[1] == 0:
@@ -223,12 +225,15 @@ def _solve_groups(model: LinearModel, state: str, P: np.ndarray, states: np.ndar
         out["v0"][sel] = v0
         out["unit"][sel] = unit
         out["vfix"][sel] = vfix
-        out["floating"][sel] = model.rx >= 0 and not topo.dc_nodes[model.rx]
+        out["floating"][sel] = model.rx >= 0 and not topo.board_dc_nodes[model.rx]
         i = g * (v @ topo.A.T + vb)
         out["i_res"][sel] = i[:, topo.res_cols]
         for t, col in enumerate(topo.throw_cols):
             if col is not None:
                 out["i_throw"][sel, t] = i[:, col]
+        for j, col in enumerate(topo.diode_cols):
+            if col is not None:
+                out["i_diode"][sel, j] = i[:, col]
         if states.shape[1]:
             out["diodes"][sel] = _consistent(model, topo, v, vfix, g, vb)
     return out
@@ -250,7 +255,7 @@ def _assemble(model: LinearModel, parts: dict) -> DcBatch:
         floating = np.zeros(v.shape[0], dtype=bool)
     return DcBatch(v=v, vfix=vfix, rx_v=rx_v, thevenin_v=th_v, thevenin_ohms=th_r,
                    floating=floating, i_res=parts["i_res"], i_throw=parts["i_throw"],
-                   diodes_on=parts["diodes"])
+                   diodes_on=parts["diodes"], i_diode=parts["i_diode"])
 
 
 def cap_voltages(model: LinearModel, dc: DcBatch) -> np.ndarray:

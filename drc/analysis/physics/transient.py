@@ -66,9 +66,14 @@ class ExpSum:
         return float(self.s - np.dot(self.a * self.lam, np.exp(-self.lam * t)))
 
     def combine(self, other: ExpSum, k_self: float, k_other: float, const: float = 0.0) -> ExpSum:
-        """k_self * self + k_other * other + const (same modes)."""
-        return ExpSum(k_self * self.c + k_other * other.c + const, k_self * self.a + k_other * other.a,
-                      self.lam, k_self * self.s + k_other * other.s)
+        """k_self * self + k_other * other + const (same modes; a constant has none)."""
+        a_self, a_other, lam = self.a, other.a, self.lam
+        if a_self.size == 0 and a_other.size:
+            a_self, lam = np.zeros_like(a_other), other.lam
+        elif a_other.size == 0 and a_self.size:
+            a_other = np.zeros_like(a_self)
+        return ExpSum(k_self * self.c + k_other * other.c + const, k_self * a_self + k_other * a_other,
+                      lam, k_self * self.s + k_other * other.s)
 
 
 def sorted_distinct(values: np.ndarray) -> np.ndarray:
