@@ -19,9 +19,10 @@ pull resistor, internal or external, and no such capacitor), direct.
 
 from __future__ import annotations
 
+import math
 import re
 from collections import deque
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, replace
 
 from drc.board.board import Board, Contact, Rail, Receiver
@@ -30,6 +31,7 @@ from drc.board.stage import (
     ActuatorState,
     Capacitor,
     Diode,
+    DiodeCard,
     InputLoad,
     RailSource,
     Resistor,
@@ -45,7 +47,7 @@ from drc.caching import Memo, memoized
 from drc.config.settings import Config
 from drc.errors import NetlistError
 from drc.library.entries import ContactForm, Family, PinRole, PullDirection
-from drc.netlist.elements import GROUND, Element, key
+from drc.netlist.elements import GROUND, Element, ModelCard, key
 from drc.units import unevaluable
 
 _DIGITS = re.compile(r"(\d+)")
@@ -104,19 +106,53 @@ class _DiodeDefaults:
         self.value: tuple[float, float] | None = None
         self.supplies: dict[tuple[str, int], str | None] = {}  # (part, pin) -> rail key
         self.families: dict[str, Family] = {}
+        self.models: Mapping[str, ModelCard] = {}  # the board's .model cards
 
     def get(self) -> tuple[float, float]:
         if self.value is None:
-            limits = dict(_library_limits())
-            limits.update(self.config.limits)
-            self.value = (limits["diode_forward_voltage"], limits["diode_on_resistance"])
+            self.value = (self.limit("diode_forward_voltage"), self.limit("diode_on_resistance"))
         return self.value
+
+    def limit(self, name: str) -> float:
+        limits = dict(_library_limits())
+        limits.update(self.config.limits)
+        return float(limits[name])
+
+    def diode(self, element: Element, a: str, b: str, models: Mapping[str, ModelCard]) -> Diode:
+        """A board diode: the Shockley diode of its .model card (IS, N, RS; a parameter the
+        card leaves out at the SPICE default of rules/limits.toml), or without a card the
+        piecewise-linear diode."""
+        card = None
+        if element.model:
+            card = models.get(element.model) or next(
+                (c for name, c in models.items() if name.casefold() == element.model.casefold()), None)
+        if card is None or str(card.type).casefold() != "d":
+            return Diode(element.designator, a, b, *self.get())
+        values, defaulted = [], []
+        for name, limit in (("is", "diode_saturation_current"), ("n", "diode_emission_coefficient"),
+                            ("rs", "diode_series_resistance")):
+            given = card.params.get(name)
+            if isinstance(given, int | float) and not isinstance(given, bool):
+                values.append(float(given))
+            else:
+                values.append(self.limit(limit))
+                defaulted.append(name.upper())
+        i_s, n, rs = values
+        # The piecewise-linear stand-in at 1 mA: where the numerical solution starts from.
+        nvt = n * _THERMAL_V
+        vf = nvt * math.log(1e-3 / i_s + 1.0) + 1e-3 * rs
+        return Diode(element.designator, a, b, vf, rs + nvt / 1e-3,
+                     DiodeCard(i_s, n, rs, card.name, tuple(defaulted)))
 
     def family(self, name: str) -> Family:
         found = self.families.get(name)
         if found is None:
             found = self.families[name] = _library().family(name)
         return found
+
+
+# kT/q at 27 °C (300.15 K), SPICE's nominal temperature (CODATA k and q).
+_THERMAL_V = 1.380649e-23 * 300.15 / 1.602176634e-19
 
 
 @memoized(limit=1)
@@ -204,6 +240,7 @@ def _recognise(path: InputPath, board: Board, config: Config, index: TraceIndex,
             nets.short(*element.nodes)
     receiver_node = nets.name(receiver.net)
     found = _Passives()
+    diode_defaults.models = board.netlist.models
     for element in path.elements:
         _add_passive(found, element, nets, config, diode_defaults)
     _add_resting_contacts(found, path.contacts, nets)
@@ -263,7 +300,7 @@ def _add_passive(found: _Passives, element: Element, nets: _Nets, config: Config
         tol = _tolerance(element, config.tolerances.capacitor)
         found.capacitors.append(Capacitor(element.designator, a, b, value, tol, tol))
     elif kind == "D":
-        found.diodes.append(Diode(element.designator, a, b, *diode_defaults.get()))
+        found.diodes.append(diode_defaults.diode(element, a, b, diode_defaults.models))
 
 
 def _value(element: Element) -> float:

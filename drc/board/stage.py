@@ -73,12 +73,31 @@ class Capacitor:
 
 
 @dataclass(frozen=True, slots=True)
+class DiodeCard:
+    """A diode's .model card as the analysis uses it: the Shockley diode with its
+    series resistance. `defaulted` names the parameters the card left out (taken
+    at SPICE's defaults, rules/limits.toml)."""
+
+    saturation_a: float  # IS
+    emission: float  # N
+    series_ohms: float  # RS
+    model: str = ""
+    defaulted: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
 class Diode:
+    """A diode. Without a card: Vf in series with Ron while conducting (piecewise
+    linear, rules/limits.toml). With a card: the Shockley diode of the card, and
+    forward_v / on_ohms its piecewise-linear stand-in at 1 mA (the starting
+    guess of the numerical solution)."""
+
     designator: str
     anode: str
     cathode: str
     forward_v: float = 0.6
     on_ohms: float = 10.0
+    card: DiodeCard | None = None
 
 
 @dataclass(frozen=True, slots=True)

@@ -446,8 +446,8 @@ def _no_change_texts(mine: list[Finding], job: _Job, outcome: _Outcome) -> dict[
     names = ", ".join(v.designator for v in job.vars_) or "the stage's parts"
     ranges = ranges_text(job.series, capacitor_series(job.series), job.limits)
     if not outcome.searched:
-        honest = ("values not searched: this stage needs the exact event solver (several capacitors "
-                  "or diodes), too slow to search within a check")
+        honest = ("values not searched: this stage needs the exact event solver (several capacitors, "
+                  "diodes, TTL inputs or conducting clamps), too slow to search within a check")
     elif outcome.complete:
         honest = f"no change of one or two of {names} passes every rule at worst case ({ranges})"
     elif outcome.screened:

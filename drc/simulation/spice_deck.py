@@ -83,6 +83,9 @@ def stage_deck(stage: Stage, rx: ReceiverElectrical, *, corner: Corner = "nomina
     lines += _element_lines(circuit, names, value)
     lines += _control_lines(timing)
     lines += _leak_lines(model, names, rows, timing)
+    if any(d.card is not None for d in circuit.diodes):
+        lines.append("* diodes from their .model cards: a diode's edge is nanoseconds, so a tight tolerance")
+        lines.append(".options reltol=1e-6")
     if timing.capped:
         lines.append("* time constants far apart: max step capped at t_stop/250000, above the fastest tau/50")
     lines.append(f".tran {deck_number(timing.t_max)} {deck_number(timing.t_stop)} 0 {deck_number(timing.t_max)}")
@@ -128,6 +131,11 @@ def _element_lines(circuit: StageCircuit, names: Mapping[str, str], value: Mappi
     for c in circuit.capacitors:
         lines.append(f"C_{_id(c.designator)} {names[c.a]} {names[c.b]} {deck_number(value[c.designator])}")
     for j, d in enumerate(circuit.diodes):
+        if d.card is not None:
+            lines += [f"D_{_id(d.designator)} {names[d.anode]} {names[d.cathode]} dcard{j}",
+                      f".model dcard{j} D(IS={deck_number(d.card.saturation_a)} N={deck_number(d.card.emission)} "
+                      f"RS={deck_number(d.card.series_ohms)})"]
+            continue
         mid = f"dmid{j}"
         lines += [
             f"* {d.designator}: Vf in series with a switch that conducts while its own voltage is positive",

@@ -135,6 +135,23 @@ SW31 SWN 0 TACTILE
     assert stage.parts == ("C31", "D31", "R31", "R32")
     [diode] = stage.circuit.diodes
     assert (diode.anode, diode.cathode) == ("IN", "SWN")
+    # The card's IS and N; RS left out, so the SPICE default of rules/limits.toml.
+    assert diode.card is not None
+    assert (diode.card.saturation_a, diode.card.emission) == (2.5e-9, 1.75)
+    assert diode.card.series_ohms == lib.limits["diode_series_resistance"].value
+    assert diode.card.defaulted == ("RS",)
+
+
+def test_a_diode_without_a_card_is_piecewise_linear(stages, lib):
+    [stage] = stages("diode\n" + SUPPLY + HC14.format(a="IN") + """
+R31 +5V SWN 100k
+R32 SWN IN 47k
+D31 IN SWN 1N4148
+C31 IN 0 470n
+SW31 SWN 0 TACTILE
+""")
+    [diode] = stage.circuit.diodes
+    assert diode.card is None
     assert diode.forward_v == lib.limits["diode_forward_voltage"].value
     assert diode.on_ohms == lib.limits["diode_on_resistance"].value
 

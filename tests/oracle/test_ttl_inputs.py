@@ -189,8 +189,9 @@ def test_a_rail_mismatch_is_clamped_and_its_current_goes_through_every_resistor(
 
 
 def _board_deck(result, corner, edge: str) -> str:
-    """A deck of the stage's own parts at `corner`, each TTL load a behavioural input."""
-    from drc.analysis.physics.compiled import rail_param
+    """A deck of the stage's own parts at `corner`: each TTL load a behavioural input, each
+    load's leakage (IIH, a CMOS input's) a current source at the corner's value."""
+    from drc.analysis.physics.compiled import leak_param, rail_param
 
     c = result.stage.circuit
     names = {"0": "0", **{n: f"n{i}" for i, n in enumerate(c.nodes(), start=1)}}
@@ -208,13 +209,16 @@ def _board_deck(result, corner, edge: str) -> str:
         ctl = "ctl" if t.closed_when == "pressed" else "ctlb"
         lines += [f"S{len(lines)} {names[t.a]} {names[t.b]} {ctl} 0 smod"]
     lines.append(".model smod SW(VT=0.5 VH=0 RON=0.1 ROFF=1e12)")
-    for ld in c.loads:
-        assert ld.ttl is not None
-        vcc = corner[rail_param(ld.supply_net)]
-        rin, vopen = corner[f"{ld.ref}/Rin"], corner[rail_param(f"{ld.ref}/open")] - VD
+    for i, ld in enumerate(c.loads):
         node = names[ld.node]
-        lines.append(f"B{len(lines)} 0 {node} I = ({vcc} - {VD} - v({node})) / {rin} * 0.5 * "
-                     f"(1 - tanh((v({node}) - {vopen}) / {KNEE}))")
+        leak = corner.get(leak_param(i, ld.ref), 0.0)
+        if leak:
+            lines.append(f"I{len(lines)} {node} 0 DC {leak}")  # into the pin: leaves the node
+        if ld.ttl is not None:
+            vcc = corner[rail_param(ld.supply_net)]
+            rin, vopen = corner[f"{ld.ref}/Rin"], corner[rail_param(f"{ld.ref}/open")] - VD
+            lines.append(f"B{len(lines)} 0 {node} I = ({vcc} - {VD} - v({node})) / {rin} * 0.5 * "
+                         f"(1 - tanh((v({node}) - {vopen}) / {KNEE}))")
     rx = names[c.receiver_node]
     e = result.edges[edge]
     d = "rise" if e.direction == "rising" else "fall"
@@ -241,8 +245,30 @@ def test_dimmer_rack_ls_edges_at_their_corners_agree_with_ngspice(result, edge):
     # The LS stages of the demo board (TTL releases used to start from the level of the
     # state they go to), at the fastest and slowest corners the analysis reports.
     e = result.edges[edge]
-    for corner in (e.corner_fastest, e.corner_slowest):
-        corner = dict(corner, leakage=0.0)
-        ours = edge_solution(result.stage, result.receiver_electrical, edge, corner).crossing_s
+    for corner, ours in ((e.corner_fastest, e.fastest_s), (e.corner_slowest, e.slowest_s)):
         spice = measure(_board_deck(result, corner, edge), ["t_edge"])["t_edge"]
         assert spice == pytest.approx(ours, rel=5e-3), (result.stage.name, edge, ours, spice)
+
+
+SHARED = ("LS beside HC on one RC node\nV1 +5V 0 DC 5\nR1 +5V SW 10k\nR2 SW IN 1k\nC1 IN 0 1u\n"
+          "SW1 SW 0 TACTILE\nXU1 IN a1 0 a2 0 a3 0 a4 0 a5 0 a6 0 +5V 74HC14\n"
+          "XU2 IN b1 0 b2 0 b3 0 b4 0 b5 0 b6 0 +5V 74LS04\n")
+SEPARATE = ("separate rails\nV1 +3V3A 0 DC 3.3\nV2 +3V3B 0 DC 3.3\nR1 +3V3A SW 10k\nR2 SW IN 22k\n"
+            "C1 IN 0 220n\nSW1 SW 0 TACTILE\nXU1 IN y1 0 y2 0 y3 0 y4 0 y5 0 y6 0 +3V3B 74HC14\n")
+
+
+@pytest.mark.parametrize("text, stage, edge", [
+    (SHARED, "SW1 -> U1:1", "press"), (SHARED, "SW1 -> U1:1", "release"),
+    (SHARED, "SW1 -> U2:1", "release"), (SEPARATE, "SW1 -> U1:1", "release"),
+    (SEPARATE, "SW1 -> U1:1", "press")], ids=["shared-HC-press", "shared-HC-release", "shared-LS-release",
+                                           "own-rail-release", "own-rail-press"])
+def test_every_load_and_its_own_supply_at_the_corners_agree_with_ngspice(text, stage, edge):
+    # Issue 13 items 1-3: every receiver input on the net (an LS input as a behavioural
+    # input beside an HC input), a receiver on its own rail at its own tolerance.
+    _board, res, _ = check_netlist_text(text, "loads.cir")
+    r = next(x for x in res if x.stage.name == stage)
+    e = r.edges[edge]
+    for corner, ours in ((e.corner_fastest, e.fastest_s), (e.corner_slowest, e.slowest_s)):
+        assert ours is not None and ours > 0
+        spice = measure(_board_deck(r, corner, edge), ["t_edge"])["t_edge"]
+        assert spice == pytest.approx(ours, rel=5e-3), (stage, edge, ours, spice)

@@ -183,9 +183,22 @@ def _consistent(model: LinearModel, topo: Topology, v, vfix, g, vb) -> np.ndarra
     return out
 
 
-def dc_solve(model: LinearModel, state: str, P: np.ndarray) -> DcBatch:
-    """Steady state of `state` ("released"/"pressed") at each row of P."""
+def dc_solve(model: LinearModel, state: str, P: np.ndarray, exact: bool = True) -> DcBatch:
+    """Steady state of `state` ("released"/"pressed") at each row of P.
+
+    A stage with a diode from its model card (`nonlinear`) is refined by Newton's
+    method from the piecewise-linear solution (exact=False stops before that);
+    the Thevenin figures stay those of the piecewise-linear network."""
     P = np.atleast_2d(P)
+    pwl = _dc_pwl(model, state, P)
+    if not exact:
+        return pwl
+    from drc.analysis.physics.nonlinear import dc_refined, nonlinear
+
+    return dc_refined(model, state, P, pwl) if nonlinear(model) else pwl
+
+
+def _dc_pwl(model: LinearModel, state: str, P: np.ndarray) -> DcBatch:
     N, nd = P.shape[0], len(model.circuit.diodes)
     # Start with every diode conducting: the most connected network, so a
     # node fed only through a diode is not declared floating too early.

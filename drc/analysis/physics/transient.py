@@ -24,6 +24,7 @@ import numpy as np
 
 from drc.analysis.physics.compiled import LinearModel
 from drc.analysis.physics.mna import Reduced, cap_voltages, dc_solve, node_voltage, reduce_dynamic
+from drc.analysis.physics.nonlinear import nonlinear, numeric_edge
 from drc.analysis.physics.roots import brent_root
 
 MAX_EVENTS = 32  # diode state changes followed during one edge
@@ -171,8 +172,11 @@ class EdgeSolution:
     slope_v_per_s: float | None
     segments: tuple[Segment, ...]
     time_constants: tuple[float, ...]
+    samples: tuple[np.ndarray, np.ndarray] | None = None  # (t, v) of a numerical solution
 
     def voltage(self, t: np.ndarray) -> np.ndarray:
+        if self.samples is not None:
+            return np.interp(t, self.samples[0], self.samples[1])
         out = np.empty_like(t, dtype=float)
         for seg in self.segments:
             sel = (t >= seg.t0) & (t <= seg.t0 + seg.duration)
@@ -281,16 +285,20 @@ def settle_diodes(model: LinearModel, state: str, P: np.ndarray, u: np.ndarray,
 
 
 def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.ndarray,
-               vth: float, direction: int, *, full: bool = False) -> EdgeSolution:
+               vth: float, direction: int, *, full: bool = False, exact: bool = True) -> EdgeSolution:
     """The edge from the steady state of `from_state` into `to_state`.
 
     direction: +1 rising, -1 falling. The crossing is None when the steady
     level before the edge is not strictly on the near side of vth, or when
     the waveform never reaches it. With full=False the solution stops at the
     crossing (enough for timing); full=True follows every segment (plots).
+    A stage with a card diode is integrated numerically (`nonlinear`); exact=False
+    solves it with every diode piecewise linear instead (its stand-in).
     """
     P = np.atleast_2d(np.asarray(params, dtype=float))
-    dc0 = dc_solve(model, from_state, P)
+    if exact and nonlinear(model):
+        return _numeric_solution(model, from_state, to_state, P, vth, direction, full)
+    dc0 = dc_solve(model, from_state, P, exact=exact)
     start_v = float(dc0.rx_v[0])
     u = cap_voltages(model, dc0)[0]
     on = tuple(bool(x) for x in dc0.diodes_on[0])
@@ -323,6 +331,26 @@ def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.nd
         on = tuple((not x) if j in flips else x for j, x in enumerate(on))
         t_abs += t_event
     return EdgeSolution(start_v, final_v, crossing, slope, tuple(segments), tuple(taus))
+
+
+def _numeric_solution(model: LinearModel, from_state: str, to_state: str, P: np.ndarray, vth: float,
+                      direction: int, full: bool) -> EdgeSolution:
+    """A stage with a card diode: integrated numerically (`nonlinear`). The horizon and the
+    time constants reported are those of its piecewise-linear stand-in, generously."""
+    pwl = _pwl_edge(model, from_state, to_state, P, vth, direction)
+    taus = [t for t in pwl.time_constants if math.isfinite(t) and t > 0]
+    horizon = 200.0 * max(taus, default=1e-6) + 10.0 * (pwl.crossing_s or 0.0)
+    got = numeric_edge(model, from_state, to_state, P[0], vth, direction, horizon, full=full)
+    # The crossing time joins the time scales: a diode's edge is far faster than its stand-in's.
+    scales = taus + ([got.crossing_s] if got.crossing_s else [])
+    return EdgeSolution(got.start_v, got.final_v, got.crossing_s, got.slope_v_per_s, (), tuple(scales),
+                        (got.t, got.v))
+
+
+def _pwl_edge(model: LinearModel, from_state: str, to_state: str, P: np.ndarray, vth: float,
+              direction: int) -> EdgeSolution:
+    """The edge with every diode piecewise linear (card diodes at their 1 mA stand-in)."""
+    return solve_edge(model, from_state, to_state, P, vth, direction, full=True, exact=False)
 
 
 @dataclass(frozen=True, slots=True)
