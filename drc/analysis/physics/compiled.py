@@ -310,3 +310,10 @@ def _reaches_fixed(n: int, pairs: list[tuple[int, int]]) -> np.ndarray:
             parent[ra] = rb
     root = find(n)
     return np.array([find(i) == root for i in range(n)], dtype=bool)
+
+
+def conductances(topo: Topology, P: np.ndarray) -> np.ndarray:
+    """(N, m) branch conductances of `topo` at the N parameter rows of P."""
+    g = np.tile(topo.g_fixed, (P.shape[0], 1))
+    g[:, topo.res_cols] = 1.0 / P[:, topo.res_params]
+    return g

@@ -19,7 +19,8 @@ from typing import Any
 
 import numpy as np
 
-from drc.analysis.physics.compiled import LinearModel, Topology
+from drc.analysis.physics.compiled import LinearModel, Topology, conductances
+from drc.analysis.physics.nonlinear import dc_refined, nonlinear
 
 _DIODE_I_TOL = 1e-12  # A: a conducting diode may carry this much reverse current (rounding)
 _DIODE_V_TOL = 1e-9  # V: a blocking diode may see this much forward voltage over Vf
@@ -122,12 +123,6 @@ def spd_solve(GT: np.ndarray, R: np.ndarray) -> np.ndarray:
     return X
 
 
-def _conductances(topo: Topology, P: np.ndarray) -> np.ndarray:
-    g = np.tile(topo.g_fixed, (P.shape[0], 1))
-    g[:, topo.res_cols] = 1.0 / P[:, topo.res_params]
-    return g
-
-
 def _dc_fixed(model: LinearModel, topo: Topology, P: np.ndarray):
     """DC solve with the diode states of `topo`.
 
@@ -138,7 +133,7 @@ def _dc_fixed(model: LinearModel, topo: Topology, P: np.ndarray):
     `thevenin_v` (see `_assemble`).
     """
     N, n = P.shape[0], model.n
-    g = _conductances(topo, P)
+    g = conductances(topo, P)
     vfix = model.fixed_voltages(P)
     vb = vfix @ topo.Af.T - topo.e  # fixed-node part of each branch voltage
     b = -(g * vb) @ topo.A
@@ -193,8 +188,6 @@ def dc_solve(model: LinearModel, state: str, P: np.ndarray, exact: bool = True) 
     pwl = _dc_pwl(model, state, P)
     if not exact:
         return pwl
-    from drc.analysis.physics.nonlinear import dc_refined, nonlinear
-
     return dc_refined(model, state, P, pwl) if nonlinear(model) else pwl
 
 
@@ -280,7 +273,7 @@ def reduce_dynamic(model: LinearModel, topo: Topology, P: np.ndarray) -> Reduced
     """Solve the resistive network with each capacitor as a voltage source u."""
     P = np.atleast_2d(P)
     N, n, k = P.shape[0], model.n, model.k
-    g = _conductances(topo, P)
+    g = conductances(topo, P)
     vfix = model.fixed_voltages(P)
     vb = vfix @ topo.Af.T - topo.e
     b = -(g * vb) @ topo.A

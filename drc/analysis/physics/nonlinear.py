@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from drc.analysis.physics.compiled import LinearModel
+from drc.analysis.physics.compiled import LinearModel, conductances
 from drc.board.stage import Diode
 
 # kT/q at 27 °C (300.15 K), SPICE's nominal temperature: CODATA k and q.
@@ -88,10 +88,8 @@ class _Network:
 
 
 def _network(model: LinearModel, state: str, P: np.ndarray) -> _Network:
-    from drc.analysis.physics.mna import _conductances
-
     topo = model.topology(state, (False,) * len(model.circuit.diodes))
-    g = _conductances(topo, P)
+    g = conductances(topo, P)
     vfix = model.fixed_voltages(P)
     vb = vfix @ topo.Af.T - topo.e
     leak = np.zeros((P.shape[0], model.n))
@@ -220,18 +218,19 @@ def _rx(model: LinearModel, v: np.ndarray, vfix: np.ndarray) -> float:
 
 
 def numeric_edge(model: LinearModel, from_state: str, to_state: str, row: np.ndarray, vth: float,
-                 direction: int, horizon_s: float, *, full: bool = False) -> NumericEdge:
+                 direction: int, horizon_s: float, pwl_starts: tuple[np.ndarray, np.ndarray], *,
+                 full: bool = False) -> NumericEdge:
     """The edge from the steady state of `from_state`: time to vth (None when not reached
-    within `horizon_s` or when the level starts past it), slope there, samples."""
-    from scipy.integrate import solve_ivp
+    within `horizon_s` or when the level starts past it), slope there, samples.
 
-    from drc.analysis.physics.mna import cap_voltages, dc_solve
+    pwl_starts: the piecewise-linear steady-state node voltages (N=1 rows) of
+    `from_state` and `to_state` (mna.dc_solve with exact=False), Newton's start."""
+    from scipy.integrate import solve_ivp
 
     row = np.asarray(row, dtype=float)
     P = row[None, :]
-    pwl0, pwl1 = dc_solve(model, from_state, P, exact=False), dc_solve(model, to_state, P, exact=False)
-    v_start, _ = dc_newton(model, from_state, P, pwl0.v)
-    v_end, _ = dc_newton(model, to_state, P, pwl1.v)
+    v_start, _ = dc_newton(model, from_state, P, pwl_starts[0])
+    v_end, _ = dc_newton(model, to_state, P, pwl_starts[1])
     vfix = model.fixed_voltages(P)[0]
     start_v, final_v = _rx(model, v_start[0], vfix), _rx(model, v_end[0], vfix)
     before = direction * (vth - start_v) > 0
@@ -239,9 +238,8 @@ def numeric_edge(model: LinearModel, from_state: str, to_state: str, row: np.nda
         crossing = 0.0 if before and direction * (final_v - vth) >= 0 else None
         return NumericEdge(start_v, final_v, crossing, math.inf if crossing == 0.0 else None,
                            np.array([0.0]), np.array([final_v]))
-    from dataclasses import replace
-
-    u0 = cap_voltages(model, replace(pwl0, v=v_start))[0]
+    # The capacitor branch voltages of the starting state (as mna.cap_voltages).
+    u0 = (v_start @ model.Ac.T + model.fixed_voltages(P) @ model.Acf.T)[0]
     sys = _Transient(model, to_state, row, v_start[0])
     v_jump = _rx(model, sys.solve(u0)[0], vfix)
     if before and direction * (v_jump - vth) >= 0:  # the receiver jumps past the threshold

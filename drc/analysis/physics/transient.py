@@ -340,7 +340,8 @@ def _numeric_solution(model: LinearModel, from_state: str, to_state: str, P: np.
     pwl = _pwl_edge(model, from_state, to_state, P, vth, direction)
     taus = [t for t in pwl.time_constants if math.isfinite(t) and t > 0]
     horizon = 200.0 * max(taus, default=1e-6) + 10.0 * (pwl.crossing_s or 0.0)
-    got = numeric_edge(model, from_state, to_state, P[0], vth, direction, horizon, full=full)
+    starts = (dc_solve(model, from_state, P[:1], exact=False).v, dc_solve(model, to_state, P[:1], exact=False).v)
+    got = numeric_edge(model, from_state, to_state, P[0], vth, direction, horizon, starts, full=full)
     # The crossing time joins the time scales: a diode's edge is far faster than its stand-in's.
     scales = taus + ([got.crossing_s] if got.crossing_s else [])
     return EdgeSolution(got.start_v, got.final_v, got.crossing_s, got.slope_v_per_s, (), tuple(scales),
