@@ -1,0 +1,167 @@
+"""Mutation testing of the core with mutmut: how many small bugs the tests catch.
+
+Why a script: mutmut reads one `[tool.mutmut]` table from the pyproject.toml
+of the folder it runs in, while each core package has its own fast tests.
+So each package is run in a scratch copy of the repository (`.mutation/PKG/`,
+git-ignored) whose pyproject.toml says which files to mutate and which tests
+to run, and the copy is kept between runs so mutmut reuses its results for
+unchanged code. Mutants of one function run only the tests that call it
+(mutmut's own selection), one child process unless told otherwise; the
+ngspice oracle and the slow tests are left out (the physics they check is
+held by the closed-form and Monte Carlo tests that do run).
+
+    python3 tools/mutation.py                  # every package, one child
+    python3 tools/mutation.py gate checks      # some packages
+    python3 tools/mutation.py --fresh design   # drop the kept copy and results first
+    python3 tools/mutation.py --summary        # counts of the last runs, no run
+
+Prints killed/total per package and the surviving mutants (`mutmut show
+NAME` in the package's folder shows the change). docs/mutation.md lists the
+survivors of the last full run and why each is equivalent or harmless.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import subprocess
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+WORK = ROOT / ".mutation"
+COPIED = ("drc", "tests", "rules", "grammars", "boards", "docs", "README.md", "DEVELOPERS.md")
+PYTEST_ARGS = ["-p", "no:cacheprovider", "-m", "not slow and not ngspice", "-W", "ignore::DeprecationWarning"]
+
+
+@dataclass(frozen=True)
+class Package:
+    """What to mutate and which tests judge the mutants."""
+
+    mutate: tuple[str, ...]
+    tests: tuple[str, ...]
+    skip: tuple[str, ...] = ()  # files not mutated: (file, reason)
+
+
+PACKAGES: dict[str, Package] = {
+    "gate": Package(("drc/gate/*",), ("tests/gate",)),
+    "checks": Package(("drc/checks/*",), ("tests/checks",),
+                      skip=("drc/checks/examples.py",)),  # example netlist text, read by test_examples
+    "design": Package(("drc/design/*",), ("tests/design",)),
+    "analysis": Package(("drc/analysis/*",), ("tests/analysis",)),
+}
+EXCLUDED_TESTS = ("tests/checks/test_rule_packs.py",)  # pip-installs packs: minutes per run, marked slow
+
+KILLED = {1, 3}
+STATUS = {0: "survived", 33: "no tests", 5: "no tests", 36: "timeout", 24: "timeout", -24: "timeout",
+          152: "timeout", 255: "timeout", None: "not checked", 34: "skipped", 37: "type check"}
+
+
+def pyproject(pkg: Package) -> str:
+    base = (ROOT / "pyproject.toml").read_text(encoding="utf-8")
+    args = PYTEST_ARGS + [f"--ignore={t}" for t in EXCLUDED_TESTS]
+    return base + "\n[tool.mutmut]\n" + "\n".join([
+        'source_paths = ["drc"]',
+        f"only_mutate = {json.dumps(list(pkg.mutate))}",
+        f"do_not_mutate = {json.dumps(list(pkg.skip))}",
+        f"pytest_add_cli_args = {json.dumps(args)}",
+        f"pytest_add_cli_args_test_selection = {json.dumps(list(pkg.tests))}",
+        'also_copy = ["rules", "grammars", "boards", "docs", "README.md", "DEVELOPERS.md"]',
+        "timeout_multiplier = 10.0",
+        "timeout_constant = 20.0",
+    ]) + "\n"
+
+
+def sync(src: Path, dst: Path) -> None:
+    """Copy `src` over `dst`, rewriting only files whose bytes changed (mutmut keys on them)."""
+    if src.is_file():
+        if not dst.exists() or dst.read_bytes() != src.read_bytes():
+            dst.parent.mkdir(parents=True, exist_ok=True)
+            shutil.copy2(src, dst)
+        return
+    wanted = set()
+    for path in src.rglob("*"):
+        if "__pycache__" in path.parts or path.suffix == ".pyc":
+            continue
+        rel = path.relative_to(src)
+        wanted.add(rel)
+        if path.is_file():
+            sync(path, dst / rel)
+    if dst.exists():
+        for path in sorted(dst.rglob("*"), reverse=True):
+            rel = path.relative_to(dst)
+            if rel not in wanted and "__pycache__" not in path.parts and path.is_file():
+                path.unlink()
+
+
+def prepare(name: str, fresh: bool) -> Path:
+    folder = WORK / name
+    if fresh and folder.exists():
+        shutil.rmtree(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    for item in COPIED:
+        sync(ROOT / item, folder / item)
+    (folder / "pyproject.toml").write_text(pyproject(PACKAGES[name]), encoding="utf-8")
+    return folder
+
+
+def run(name: str, children: int, fresh: bool) -> int:
+    folder = prepare(name, fresh)
+    env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "MUTANT_UNDER_TEST")}
+    cmd = [shutil.which("mutmut") or "mutmut", "run", "--max-children", str(children)]
+    print(f"== {name}: {' '.join(cmd)} (in {folder.relative_to(ROOT)})", flush=True)
+    return subprocess.run(cmd, cwd=folder, env=env).returncode
+
+
+def counts(name: str) -> tuple[int, int, dict[str, list[str]]]:
+    """(killed, total, {status: mutant names}) from mutmut's result files of one package."""
+    killed, total, other = 0, 0, {}
+    for meta in sorted((WORK / name / "mutants").rglob("*.py.meta")):
+        data = json.loads(meta.read_text(encoding="utf-8"))
+        for mutant, code in data.get("exit_code_by_key", {}).items():
+            total += 1
+            if code in KILLED:
+                killed += 1
+            else:
+                other.setdefault(STATUS.get(code, f"exit {code}"), []).append(mutant)
+    return killed, total, other
+
+
+def summary(names: list[str]) -> None:
+    all_k = all_t = 0
+    for name in names:
+        k, t, other = counts(name)
+        all_k, all_t = all_k + k, all_t + t
+        share = f"{100 * k / t:.1f} %" if t else "-"
+        print(f"{name:9s} killed {k}/{t} ({share})")
+        for status, mutants in sorted(other.items()):
+            for m in mutants:
+                print(f"    {status}: {m}")
+    if all_t:
+        print(f"all       killed {all_k}/{all_t} ({100 * all_k / all_t:.1f} %)")
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    ap.add_argument("packages", nargs="*", help=f"of {', '.join(PACKAGES)} (default: all)")
+    ap.add_argument("--max-children", type=int, default=1)
+    ap.add_argument("--fresh", action="store_true", help="drop the kept copy and its results first")
+    ap.add_argument("--summary", action="store_true", help="print the counts of the last runs only")
+    opts = ap.parse_args(argv)
+    names = opts.packages or list(PACKAGES)
+    unknown = [n for n in names if n not in PACKAGES]
+    if unknown:
+        ap.error(f"unknown package {', '.join(unknown)}; choose from {', '.join(PACKAGES)}")
+    status = 0
+    if not opts.summary:
+        for name in names:
+            status |= run(name, opts.max_children, opts.fresh)
+    summary(names)
+    return status
+
+
+if __name__ == "__main__":
+    sys.exit(main())
