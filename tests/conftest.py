@@ -24,3 +24,14 @@ def _private_result_cache(tmp_path_factory):
         os.environ.pop("DRC_CACHE_DIR", None)
     else:
         os.environ["DRC_CACHE_DIR"] = previous
+
+
+@pytest.fixture(autouse=True)
+def _fresh_memos_under_mutation():
+    """Under mutation testing (mutmut sets MUTANT_UNDER_TEST) every test starts with empty
+    memos: mutmut forks each mutant's run from a process that ran the unmutated code, and
+    a figure remembered from there would hide the mutant (tools/mutation.py)."""
+    if os.environ.get("MUTANT_UNDER_TEST"):
+        from drc.caching import clear_caches
+        clear_caches()
+    yield
