@@ -46,15 +46,39 @@ ROOT = Path(__file__).resolve().parents[2]
 BOARDS = sorted((ROOT / "boards").rglob("*.cir"))
 TIMING_RULES = ("bounce-window", "response-latency", "slow-edge")
 TARG = re.compile(r"TARG (\S+) VAL=(\S+) (RISE|FALL)=1 TD=(\S+)")
+TRAN = re.compile(r"^\.tran (\S+) (\S+) 0 (\S+)$", re.MULTILINE)
 DELTA_V = 0.05  # secant half-width around the threshold for the slope
+STEPS_PER_EDGE = 400  # max step at most this fraction of the edge's own time
+MAX_POINTS = 3_000_000  # a finer step only where ngspice stays within a few seconds
 
 
-def spice_edge(result, edge: str, corner: dict[str, float]) -> dict[str, float]:
+def finer(deck: str, expected_s: float | None, at: float) -> str:
+    """The deck with its max step at most 1/400 of the edge's expected time.
+
+    A stage whose other time constants are far longer gets a deck whose step
+    is capped by the length of the run (the deck says so); an edge of a few
+    microseconds then spans only a few steps. The deck measures one edge, so
+    the run may stop a few edge times after it starts (at `at`). The
+    expected time only sizes the run: ngspice still finds the crossing, and
+    a crossing later than the run is a failed measurement."""
+    m = TRAN.search(deck)
+    if m is None or not expected_s:
+        return deck
+    t_max, t_stop = float(m.group(3)), float(m.group(2))
+    step = min(t_max, expected_s / STEPS_PER_EDGE)
+    stop = min(t_stop, at + 4 * expected_s + 10 * step)
+    if step >= t_max or stop / step > MAX_POINTS:
+        return deck
+    return deck.replace(m.group(0), f".tran {step:.6g} {stop:.15g} 0 {step:.6g}")
+
+
+def spice_edge(result, edge: str, corner: dict[str, float], expected_s: float | None) -> dict[str, float]:
     """ngspice's time to the threshold at `corner` and the s/V rate at the crossing."""
     name = MEASUREMENTS[("press", "release").index(edge)]
     deck = stage_deck(result.stage, result.receiver_electrical, corner=corner, edges=(edge,))
     meas = next(line for line in deck.splitlines() if line.startswith(f".meas tran {name} "))
     node, vth, way, td = TARG.search(meas).groups()
+    deck = finer(deck, expected_s, float(td))
     extra = [f".meas tran s_lo WHEN {node}={float(vth) - DELTA_V:.12g} {way}=1 TD={td}",
              f".meas tran s_hi WHEN {node}={float(vth) + DELTA_V:.12g} {way}=1 TD={td}"]
     deck = deck.replace("\n.end\n", "\n" + "\n".join(extra) + "\n.end\n")
@@ -76,8 +100,8 @@ def verdicts(result, limits) -> tuple[Counter, list[tuple]]:
     pairs = []
     stage, rx = result.stage, result.receiver_electrical
     for edge, e in result.edges.items():
-        fast = spice_edge(result, edge, e.corner_fastest)
-        slow = spice_edge(result, edge, e.corner_slowest)
+        fast = spice_edge(result, edge, e.corner_fastest, e.fastest_s)
+        slow = spice_edge(result, edge, e.corner_slowest, e.slowest_s)
         pairs += [(edge, "fastest", e.fastest_s, fast["t"]), (edge, "slowest", e.slowest_s, slow["t"])]
         if stage.kind in RC_KINDS and fast["t"] is not None \
                 and fast["t"] < stage.contact.bounce_s * limits["bounce_margin"]:
