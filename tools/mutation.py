@@ -33,7 +33,7 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 WORK = ROOT / ".mutation"
-COPIED = ("drc", "tests", "rules", "grammars", "boards", "docs", "README.md", "DEVELOPERS.md")
+COPIED = ("drc", "tests", "rules", "grammars", "boards", "docs", "benchmarks", "README.md", "DEVELOPERS.md")
 PYTEST_ARGS = ["-p", "no:cacheprovider", "-m", "not slow and not ngspice", "-W", "ignore::DeprecationWarning"]
 
 
@@ -85,7 +85,7 @@ def pyproject(pkg: Package) -> str:
         f"do_not_mutate_patterns = {json.dumps(list(WORDING))}",
         f"pytest_add_cli_args = {json.dumps(args)}",
         f"pytest_add_cli_args_test_selection = {json.dumps(list(pkg.tests))}",
-        'also_copy = ["rules", "grammars", "boards", "docs", "README.md", "DEVELOPERS.md"]',
+        'also_copy = ["rules", "grammars", "boards", "docs", "benchmarks", "README.md", "DEVELOPERS.md"]',
         "timeout_multiplier = 10.0",
         "timeout_constant = 20.0",
     ]) + "\n"
