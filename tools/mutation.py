@@ -23,6 +23,7 @@ survivors of the last full run and why each is equivalent or harmless.
 from __future__ import annotations
 
 import argparse
+import ast
 import json
 import os
 import shutil
@@ -146,6 +147,35 @@ def counts(name: str) -> tuple[int, int, dict[str, list[str]]]:
     return killed, total, other
 
 
+def mutant_diff(name: str, package: str) -> str:
+    """The changed line of a mutant, "old -> new", read from mutmut's mutated source."""
+    module, func = name.rsplit(".", 1)
+    path = WORK / package / "mutants" / (module.replace(".", "/") + ".py")
+    if not path.exists():
+        path = path.with_suffix("") / "__init__.py"
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    stem = func.rsplit("__mutmut_", 1)[0]
+    bodies = {}
+    for node in ast.walk(tree):
+        if isinstance(node, ast.FunctionDef | ast.AsyncFunctionDef) and node.name in (stem + "__mutmut_orig", func):
+            bodies[node.name] = ast.unparse(node).splitlines()[1:]
+    old, new = bodies.get(stem + "__mutmut_orig", []), bodies.get(func, [])
+    changed = [(a, b) for a, b in zip(old, new, strict=False) if a != b]
+    if not changed and len(old) != len(new):
+        return "(a line removed)"
+    return "; ".join(f"`{a.strip()}` → `{b.strip()}`" for a, b in changed[:2]).replace("|", "\\|")
+
+
+def markdown(names: list[str]) -> None:
+    """The survivors of the last runs as markdown rows: package | mutant | change."""
+    print("| package | mutant | status | change |\n|---|---|---|---|")
+    for name in names:
+        _k, _t, other = counts(name)
+        for status, mutants in sorted(other.items()):
+            for m in mutants:
+                print(f"| {name} | `{m.split('.', 2)[-1]}` | {status} | {mutant_diff(m, name)} |")
+
+
 def summary(names: list[str]) -> None:
     all_k = all_t = 0
     for name in names:
@@ -166,11 +196,15 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--max-children", type=int, default=1)
     ap.add_argument("--fresh", action="store_true", help="drop the kept copy and its results first")
     ap.add_argument("--summary", action="store_true", help="print the counts of the last runs only")
+    ap.add_argument("--markdown", action="store_true", help="print the survivors as markdown rows, no run")
     opts = ap.parse_args(argv)
     names = opts.packages or list(PACKAGES)
     unknown = [n for n in names if n not in PACKAGES]
     if unknown:
         ap.error(f"unknown package {', '.join(unknown)}; choose from {', '.join(PACKAGES)}")
+    if opts.markdown:
+        markdown(names)
+        return 0
     status = 0
     if not opts.summary:
         for name in names:
