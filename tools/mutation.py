@@ -14,6 +14,8 @@ held by the closed-form and Monte Carlo tests that do run).
     python3 tools/mutation.py gate checks      # some packages
     python3 tools/mutation.py --fresh design   # drop the kept copy and results first
     python3 tools/mutation.py --summary        # counts of the last runs, no run
+    python3 tools/mutation.py --sample 600 analysis   # a seeded random sample of its mutants
+    python3 tools/mutation.py --survivors gate # run again what survived (after new tests)
 
 Prints killed/total per package and the surviving mutants (`mutmut show
 NAME` in the package's folder shows the change). docs/mutation.md lists the
@@ -26,6 +28,7 @@ import argparse
 import ast
 import json
 import os
+import random
 import shutil
 import subprocess
 import sys
@@ -72,6 +75,7 @@ WORDING = (
 )
 
 KILLED = {1, 3}
+SEED = 13  # the sample is the same on every run, so results accumulate
 STATUS = {0: "survived", 33: "no tests", 5: "no tests", 36: "timeout", 24: "timeout", -24: "timeout",
           152: "timeout", 255: "timeout", None: "not checked", 34: "skipped", 37: "type check"}
 
@@ -125,25 +129,70 @@ def prepare(name: str, fresh: bool) -> Path:
     return folder
 
 
-def run(name: str, children: int, fresh: bool) -> int:
+# mutmut's own first step (copy, set the paths, write the mutants), without running anything.
+GENERATE = """
+from mutmut.__main__ import (copy_also_copy_files, copy_src_dir, create_mutants, set_mutant_under_test,
+                             setup_source_paths)
+import os
+import random
+os.makedirs("mutants", exist_ok=True)
+set_mutant_under_test("mutant_generation")
+copy_src_dir(); copy_also_copy_files(); setup_source_paths(); create_mutants(1)
+"""
+
+
+def results(name: str) -> dict[str, int | None]:
+    """Every generated mutant of a package and its exit code (None: not run yet)."""
+    out: dict[str, int | None] = {}
+    for meta in sorted((WORK / name / "mutants").rglob("*.py.meta")):
+        out.update(json.loads(meta.read_text(encoding="utf-8")).get("exit_code_by_key", {}))
+    return out
+
+
+def chosen(name: str, folder: Path, env: dict, sample: int | None, survivors: bool) -> list[str]:
+    """The mutants to run: a seeded sample of those not run yet, or those that survived."""
+    subprocess.run([sys.executable, "-c", GENERATE], cwd=folder, env=env, check=True, capture_output=True)
+    codes = results(name)
+    if survivors:
+        (folder / "mutants" / "mutmut-stats.json").unlink(missing_ok=True)  # new tests: map them again
+        names = [m for m, code in codes.items() if code is not None and code not in KILLED]
+        if sample:
+            names = [m for m in names if m in set(sampled(codes, sample))]
+        return names
+    return [m for m in sampled(codes, sample or len(codes)) if codes[m] is None]
+
+
+def sampled(codes: dict[str, int | None], n: int) -> list[str]:
+    return sorted(random.Random(SEED).sample(sorted(codes), min(n, len(codes))))
+
+
+def run(name: str, children: int, fresh: bool, sample: int | None = None, survivors: bool = False) -> int:
     folder = prepare(name, fresh)
     env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "MUTANT_UNDER_TEST")}
     cmd = [shutil.which("mutmut") or "mutmut", "run", "--max-children", str(children)]
     print(f"== {name}: {' '.join(cmd)} (in {folder.relative_to(ROOT)})", flush=True)
+    if sample or survivors:
+        names = chosen(name, folder, env, sample, survivors)
+        print(f"   {len(names)} mutants to run", flush=True)
+        if not names:
+            return 0
+        cmd += names
     return subprocess.run(cmd, cwd=folder, env=env).returncode
 
 
-def counts(name: str) -> tuple[int, int, dict[str, list[str]]]:
-    """(killed, total, {status: mutant names}) from mutmut's result files of one package."""
+def counts(name: str, sample: int | None = None) -> tuple[int, int, dict[str, list[str]]]:
+    """(killed, run, {status: mutant names}) over the mutants run so far (of the sample, if one)."""
     killed, total, other = 0, 0, {}
-    for meta in sorted((WORK / name / "mutants").rglob("*.py.meta")):
-        data = json.loads(meta.read_text(encoding="utf-8"))
-        for mutant, code in data.get("exit_code_by_key", {}).items():
-            total += 1
-            if code in KILLED:
-                killed += 1
-            else:
-                other.setdefault(STATUS.get(code, f"exit {code}"), []).append(mutant)
+    codes = results(name)
+    keep = set(sampled(codes, sample)) if sample else set(codes)
+    for mutant, code in codes.items():
+        if code is None or mutant not in keep:
+            continue
+        total += 1
+        if code in KILLED:
+            killed += 1
+        else:
+            other.setdefault(STATUS.get(code, f"exit {code}"), []).append(mutant)
     return killed, total, other
 
 
@@ -166,23 +215,24 @@ def mutant_diff(name: str, package: str) -> str:
     return "; ".join(f"`{a.strip()}` → `{b.strip()}`" for a, b in changed[:2]).replace("|", "\\|")
 
 
-def markdown(names: list[str]) -> None:
+def markdown(names: list[str], sample: int | None = None) -> None:
     """The survivors of the last runs as markdown rows: package | mutant | change."""
     print("| package | mutant | status | change |\n|---|---|---|---|")
     for name in names:
-        _k, _t, other = counts(name)
+        _k, _t, other = counts(name, sample)
         for status, mutants in sorted(other.items()):
             for m in mutants:
                 print(f"| {name} | `{m.split('.', 2)[-1]}` | {status} | {mutant_diff(m, name)} |")
 
 
-def summary(names: list[str]) -> None:
+def summary(names: list[str], sample: int | None = None) -> None:
     all_k = all_t = 0
     for name in names:
-        k, t, other = counts(name)
+        k, t, other = counts(name, sample)
         all_k, all_t = all_k + k, all_t + t
         share = f"{100 * k / t:.1f} %" if t else "-"
-        print(f"{name:9s} killed {k}/{t} ({share})")
+        of = f"a sample of {sample} of" if sample else "of"
+        print(f"{name:9s} killed {k}/{t} ({share}) {of} {len(results(name))} generated")
         for status, mutants in sorted(other.items()):
             for m in mutants:
                 print(f"    {status}: {m}")
@@ -197,19 +247,21 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--fresh", action="store_true", help="drop the kept copy and its results first")
     ap.add_argument("--summary", action="store_true", help="print the counts of the last runs only")
     ap.add_argument("--markdown", action="store_true", help="print the survivors as markdown rows, no run")
+    ap.add_argument("--sample", type=int, help=f"run a random sample of this many mutants (seed {SEED})")
+    ap.add_argument("--survivors", action="store_true", help="run again the mutants that were not killed")
     opts = ap.parse_args(argv)
     names = opts.packages or list(PACKAGES)
     unknown = [n for n in names if n not in PACKAGES]
     if unknown:
         ap.error(f"unknown package {', '.join(unknown)}; choose from {', '.join(PACKAGES)}")
     if opts.markdown:
-        markdown(names)
+        markdown(names, opts.sample)
         return 0
     status = 0
     if not opts.summary:
         for name in names:
-            status |= run(name, opts.max_children, opts.fresh)
-    summary(names)
+            status |= run(name, opts.max_children, opts.fresh, opts.sample, opts.survivors)
+    summary(names, opts.sample)
     return status
 
 
