@@ -91,8 +91,8 @@ def pyproject(pkg: Package) -> str:
         f"pytest_add_cli_args = {json.dumps(args)}",
         f"pytest_add_cli_args_test_selection = {json.dumps(list(pkg.tests))}",
         'also_copy = ["rules", "grammars", "boards", "docs", "benchmarks", "README.md", "DEVELOPERS.md"]',
-        "timeout_multiplier = 10.0",
-        "timeout_constant = 20.0",
+        "timeout_multiplier = 3.0",
+        "timeout_constant = 5.0",
     ]) + "\n"
 
 
