@@ -1,0 +1,66 @@
+"""Values SPICE reads differently than a person: what each reading is, and how the fix spells it.
+
+Sources: ngspice itself (Debian package `ngspice`): its reading of each
+value is measured (a resistor of that value fed 1 A; the voltage across it
+is its resistance) and must be the figure the finding quotes; the SPICE
+scale-factor table (ngspice manual, section 2.1.3: T G Meg k m u n p f, and
+`mil`) for the plain spelling the fix proposes; IEC 60062 for the
+letter-digit code (`4k7` is 4.7 kΩ, `2R2` is 2.2 Ω).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from drc.checks.ambiguous_value import classify_value_text
+from drc.pipeline import check_netlist_text
+from tests.support.ngspice import measure
+
+SPICE_SCALE = {"T": 1e12, "G": 1e9, "Meg": 1e6, "k": 1e3, "": 1.0, "m": 1e-3, "u": 1e-6, "n": 1e-9, "p": 1e-12}
+
+
+def spice_reads(value: str) -> float:
+    """ngspice's resistance for a resistor written `value` (1 A through it, V = R)."""
+    deck = f"value\nI1 0 a DC 1\nR1 a 0 {value}\n.control\nop\nlet r_read = v(a)\nprint r_read\n.endc\n.end\n"
+    return measure(deck, ["r_read"])["r_read"]
+
+
+def finding_for(value: str, kind: str = "R"):
+    part = f"R9 IN 0 {value}" if kind == "R" else f"C9 IN 0 {value}"
+    text = ("values\nV1 +5V 0 DC 5\nXU1 IN o1 0 o2 0 o3 0 o4 0 o5 0 o6 0 +5V 74HC14\n"
+            f"R1 +5V IN 10k\n{part}\nSW1 IN 0 TACTILE\n")
+    _b, _r, findings = check_netlist_text(text, "v.cir")
+    return [f for f in findings if f.rule == "ambiguous-value"]
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("value, kind, severity", [("4k7", "code", "note"), ("2R2", "code", "note"),
+                                                   ("1M", "milli", "warning"), ("470m", "milli", "warning")])
+def test_the_quoted_figure_is_what_ngspice_reads(value, kind, severity):
+    assert classify_value_text("R", value) == kind
+    [f] = finding_for(value)
+    assert f.severity == severity and f.parts == ("R9",)
+    assert f.measured.value == pytest.approx(spice_reads(value), rel=1e-9)
+    assert f.measured.unit == "Ω" and f.limit is None
+
+
+@pytest.mark.parametrize("value, meant", [("4k7", 4.7e3), ("2R2", 2.2), ("1M5", 1.5e6), ("8k2", 8.2e3),
+                                          ("1M", 1e-3), ("10M", 10e-3), ("470m", 0.47)])
+def test_the_fix_spells_the_value_with_the_spice_scale_letters(value, meant):
+    [f] = finding_for(value)
+    spelled = [w.strip("',") for w in f.fix.split() if w.startswith("'")][-1]  # the value as read
+    number = next(s for s in sorted(SPICE_SCALE, key=len, reverse=True) if spelled.endswith(s))
+    assert float(spelled[:len(spelled) - len(number)]) * SPICE_SCALE[number] == pytest.approx(meant, rel=1e-3)
+
+
+def test_a_capacitor_with_a_farad_letter_is_femto():
+    assert classify_value_text("C", "47F") == "femto" and classify_value_text("C", "1f") == "femto"
+    [f] = finding_for("47F", "C")
+    assert f.severity == "warning" and f.measured.value == pytest.approx(47e-15) and f.measured.unit == "F"
+    assert finding_for("47uF", "C") == [] and finding_for("100n", "C") == []
+
+
+@pytest.mark.parametrize("kind, text", [("R", "10k"), ("R", "1Meg"), ("R", "2mil"), ("R", "4700"), ("C", "1u"),
+                                        ("R", "k4"), ("C", "1M"), ("R", "1f")])
+def test_plain_values_are_not_ambiguous(kind, text):
+    assert classify_value_text(kind, text) is None
