@@ -20,7 +20,6 @@ from drc.design import bisection, fixes
 from tests.checks.builders import LIMITS
 from tests.design.test_fix_completeness import CASES, MARGIN, RX, _stage, brute_force, reference_passes
 
-
 # Stages where more than one part passes alone (found with the brute force): the
 # cheaper must win (C1 at a cost of 0.557 before R2 at 0.573, then R2 at 0.167 before C1 at 0.175).
 SEVERAL = [(47e3, 22e3, 470e-9, True, 0.010), (47e3, 33e3, 470e-9, True, 0.010)]
