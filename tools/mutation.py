@@ -7,8 +7,10 @@ git-ignored) whose pyproject.toml says which files to mutate and which tests
 to run, and the copy is kept between runs so mutmut reuses its results for
 unchanged code. Mutants of one function run only the tests that call it
 (mutmut's own selection), one child process unless told otherwise; the
-ngspice oracle and the slow tests are left out (the physics they check is
-held by the closed-form and Monte Carlo tests that do run).
+ngspice transient decks of tests/oracle and the tests marked slow are left
+out (the physics they check is held by the closed-form and Monte Carlo
+tests that do run); the quick ngspice readings inside the packages' own
+test folders (one operating point each) stay in.
 
     python3 tools/mutation.py                  # every package, one child
     python3 tools/mutation.py gate checks      # some packages
@@ -38,7 +40,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 WORK = ROOT / ".mutation"
 COPIED = ("drc", "tests", "rules", "grammars", "boards", "docs", "benchmarks", "README.md", "DEVELOPERS.md")
-PYTEST_ARGS = ["-p", "no:cacheprovider", "-m", "not slow and not ngspice", "-W", "ignore::DeprecationWarning"]
+PYTEST_ARGS = ["-p", "no:cacheprovider", "-m", "not slow", "-W", "ignore::DeprecationWarning"]
 
 
 @dataclass(frozen=True)
