@@ -198,19 +198,26 @@ def counts(name: str, sample: int | None = None) -> tuple[int, int, dict[str, li
     return killed, total, other
 
 
+_BODIES: dict[Path, dict[str, list[str]]] = {}
+
+
+def _bodies(path: Path) -> dict[str, list[str]]:
+    """Function name -> its body's lines, for every function of a mutated file (read once)."""
+    if path not in _BODIES:
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        _BODIES[path] = {node.name: ast.unparse(node).splitlines()[1:] for node in ast.walk(tree)
+                         if isinstance(node, ast.FunctionDef | ast.AsyncFunctionDef) and "__mutmut_" in node.name}
+    return _BODIES[path]
+
+
 def mutant_diff(name: str, package: str) -> str:
     """The changed line of a mutant, "old -> new", read from mutmut's mutated source."""
     module, func = name.rsplit(".", 1)
     path = WORK / package / "mutants" / (module.replace(".", "/") + ".py")
     if not path.exists():
         path = path.with_suffix("") / "__init__.py"
-    tree = ast.parse(path.read_text(encoding="utf-8"))
-    stem = func.rsplit("__mutmut_", 1)[0]
-    bodies = {}
-    for node in ast.walk(tree):
-        if isinstance(node, ast.FunctionDef | ast.AsyncFunctionDef) and node.name in (stem + "__mutmut_orig", func):
-            bodies[node.name] = ast.unparse(node).splitlines()[1:]
-    old, new = bodies.get(stem + "__mutmut_orig", []), bodies.get(func, [])
+    bodies = _bodies(path)
+    old, new = bodies.get(func.rsplit("__mutmut_", 1)[0] + "__mutmut_orig", []), bodies.get(func, [])
     changed = [(a, b) for a, b in zip(old, new, strict=False) if a != b]
     if not changed and len(old) != len(new):
         return "(a line removed)"
