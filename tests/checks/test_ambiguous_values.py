@@ -2,7 +2,9 @@
 
 Sources: ngspice itself (Debian package `ngspice`): its reading of each
 value is measured (a resistor of that value fed 1 A; the voltage across it
-is its resistance) and must be the figure the finding quotes; the SPICE
+is its resistance): an `M` on a resistor is read as ngspice reads it (the
+finding's figure), a letter-digit code as IEC 60062 means it, which
+ngspice reads otherwise; the SPICE
 scale-factor table (ngspice manual, section 2.1.3: T G Meg k m u n p f, and
 `mil`) for the plain spelling the fix proposes; IEC 60062 for the
 letter-digit code (`4k7` is 4.7 kΩ, `2R2` is 2.2 Ω).
@@ -34,14 +36,23 @@ def finding_for(value: str, kind: str = "R"):
 
 
 @pytest.mark.ngspice
-@pytest.mark.parametrize("value, kind, severity", [("4k7", "code", "note"), ("2R2", "code", "note"),
-                                                   ("1M", "milli", "warning"), ("470m", "milli", "warning")])
-def test_the_quoted_figure_is_what_ngspice_reads(value, kind, severity):
-    assert classify_value_text("R", value) == kind
+@pytest.mark.parametrize("value, meant", [("4k7", 4.7e3), ("2R2", 2.2), ("1M5", 1.5e6)])
+def test_a_letter_digit_code_is_read_as_meant_and_ngspice_reads_otherwise(value, meant):
+    # The finding's figure is the value drc analyses: the IEC 60062 meaning; ngspice reads less.
+    assert classify_value_text("R", value) == "code"
     [f] = finding_for(value)
-    assert f.severity == severity and f.parts == ("R9",)
-    assert f.measured.value == pytest.approx(spice_reads(value), rel=1e-9)
-    assert f.measured.unit == "Ω" and f.limit is None
+    assert f.severity == "note" and f.parts == ("R9",) and f.limit is None
+    assert f.measured.value == pytest.approx(meant, rel=1e-12) and f.measured.unit == "Ω"
+    assert spice_reads(value) != pytest.approx(meant, rel=1e-3)
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("value", ["1M", "470m", "10M"])
+def test_an_m_on_a_resistor_is_read_as_ngspice_reads_it(value):
+    assert classify_value_text("R", value) == "milli"
+    [f] = finding_for(value)
+    assert f.severity == "warning" and f.parts == ("R9",)
+    assert f.measured.value == pytest.approx(spice_reads(value), rel=1e-9) and f.measured.unit == "Ω"
 
 
 @pytest.mark.parametrize("value, meant", [("4k7", 4.7e3), ("2R2", 2.2), ("1M5", 1.5e6), ("8k2", 8.2e3),

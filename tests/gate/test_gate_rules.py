@@ -6,7 +6,8 @@ a waiver or annotation takes a finding of its own rule whose designators
 match every glob; the first live covering waiver is the one quoted; an
 expired one counts the findings it would have taken; a baseline entry takes
 one finding of the same identity on the same board, never one already
-waived; the fixed entries come out in file order; an unknown rule id or
+waived (its entry is then waived, not fixed: fixed means gone); the fixed
+entries come out in file order; an unknown rule id or
 severity is an error at the place it was written.
 """
 
@@ -123,17 +124,19 @@ def entry(board, rule="bounce-window", contact="SW1", receiver="U1:1", parts=("C
 def test_a_baseline_never_takes_a_waived_finding():
     base = Baseline("/x/base.json", "/x", (entry("b.cir"),))
     waived = finding(board="/x/b.cir", suppression="waiver", justification="w")
-    marked, fixed = apply_baseline([waived], base, "/x/b.cir")
-    assert marked[0].suppression == "waiver" and marked[0].justification == "w"
-    assert [e.board for e in fixed] == ["b.cir"]  # the entry matched nothing: reported as fixed
+    got = apply_baseline([waived], base, "/x/b.cir")
+    assert got.findings[0].suppression == "waiver" and got.findings[0].justification == "w"
+    assert [e.board for e in got.waived] == ["b.cir"] and got.fixed == ()  # still there: waived, not fixed
+    gone = apply_baseline([], base, "/x/b.cir")
+    assert [e.board for e in gone.fixed] == ["b.cir"] and gone.waived == ()
 
 
 def test_baselined_findings_say_which_baseline_and_fixed_entries_come_in_file_order():
     base = Baseline("/x/base.json", "/x", (entry("b.cir", "slow-edge"), entry("b.cir", "bounce-window", "SW9"),
                                             entry("b.cir", "bounce-window", "SW3"), entry("b.cir")))
-    marked, fixed = apply_baseline([finding(board="/x/b.cir")], base, "/x/b.cir")
-    assert marked[0].suppression == "baseline" and "/x/base.json" in marked[0].justification
-    assert [(e.rule, e.contact) for e in fixed] == [("bounce-window", "SW3"), ("bounce-window", "SW9"),
+    got = apply_baseline([finding(board="/x/b.cir")], base, "/x/b.cir")
+    assert got.findings[0].suppression == "baseline" and "/x/base.json" in got.findings[0].justification
+    assert [(e.rule, e.contact) for e in got.fixed] == [("bounce-window", "SW3"), ("bounce-window", "SW9"),
                                                     ("slow-edge", "SW1")]
 
 
