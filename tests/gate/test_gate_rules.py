@@ -28,6 +28,7 @@ from drc.gate.decision import (
     check_rule_ids,
     combine_notes,
     exit_status,
+    judge_against_baseline,
     judge_board,
     resolve_selection,
     run_waiver_notes,
@@ -170,3 +171,27 @@ def test_run_waiver_notes_combines_boards_that_share_waivers():
     assert "drc.toml:3" in messages[0] and "2 findings no longer waived" in messages[0]
     assert "drc.toml:9" in messages[1] and "matches no finding" in messages[1]
     assert run_waiver_notes([], TODAY) == []
+
+
+def test_waived_entries_are_those_of_waived_findings_in_file_order():
+    base = Baseline("/x/base.json", "/x", (entry("b.cir", "slow-edge"), entry("b.cir", "bounce-window", "SW3")))
+    findings = [finding("slow-edge", board="/x/b.cir", suppression="annotation", justification="a"),
+                finding("bounce-window", contact_ref="SW3", board="/x/b.cir", suppression="waiver", justification="w"),
+                finding("undebounced-input", contact_ref="SW7", board="/x/b.cir", suppression="waiver",
+                        justification="w")]  # waived, but no entry of its own
+    got = apply_baseline(findings, base, "/x/b.cir")
+    assert [(e.rule, e.contact) for e in got.waived] == [("bounce-window", "SW3"), ("slow-edge", "SW1")]
+    assert got.fixed == () and [f.suppression for f in got.findings] == ["annotation", "waiver", "waiver"]
+    judged = judge_against_baseline([("/x/b.cir", findings), ("/x/c.cir", [finding(board="/x/c.cir")])], base)
+    assert [(e.rule, e.contact) for e in judged.waived] == [("bounce-window", "SW3"), ("slow-edge", "SW1")]
+    assert (judged.matched, judged.new, judged.fixed) == (0, 1, ())
+
+
+def test_notes_name_the_waiver_they_are_about():
+    waivers = [waiver("slow-edge", parts=("SW9", "R*"), expires=EARLIER, line=1), waiver("slow-edge", line=2)]
+    notes = apply_waivers([finding()], waivers, BOARD, TODAY).notes
+    assert [(n.kind, n.rule, n.parts) for n in notes] == [("expired", "slow-edge", ("SW9", "R*")),
+                                                          ("stale", "slow-edge", ("SW1",))]
+    combined = combine_notes(waivers, [], TODAY)
+    assert [(n.kind, n.rule, n.parts) for n in combined] == [("expired", "slow-edge", ("SW9", "R*")),
+                                                             ("stale", "slow-edge", ("SW1",))]
