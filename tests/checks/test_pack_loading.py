@@ -10,6 +10,7 @@ test writes itself; Python's own SyntaxError and traceback say the same.
 from __future__ import annotations
 
 import importlib.metadata
+import os
 import sys
 from types import SimpleNamespace
 
@@ -96,6 +97,8 @@ def test_an_error_in_the_pack_points_at_its_own_line(packs):
 
 
 def test_a_refused_rule_points_at_the_decorator_line_in_the_pack(packs):
+    if "MUTANT_UNDER_TEST" in os.environ:  # mutmut's trampoline sits between the pack and drc
+        pytest.skip("under mutation testing the innermost frame is mutmut's own")
     path = packs("inproc_refused", GOOD.replace('severity="note"', 'severity="fatal"'))
     with pytest.raises(RulePackError) as err:
         registry.registered_rules()
