@@ -30,7 +30,7 @@ def _private_result_cache(tmp_path_factory):
 def _fresh_memos_under_mutation():
     """Under mutation testing (mutmut sets MUTANT_UNDER_TEST) every test starts with empty
     memos: mutmut forks each mutant's run from a process that ran the unmutated code, and
-    a figure remembered from there would hide the mutant (tools/mutation.py)."""
+    a figure remembered from there would hide the mutant (tests/mutation.py)."""
     if os.environ.get("MUTANT_UNDER_TEST"):
         from drc.caching import clear_caches
         clear_caches()

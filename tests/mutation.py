@@ -12,12 +12,12 @@ out (the physics they check is held by the closed-form and Monte Carlo
 tests that do run); the quick ngspice readings inside the packages' own
 test folders (one operating point each) stay in.
 
-    python3 tools/mutation.py                  # every package, one child
-    python3 tools/mutation.py gate checks      # some packages
-    python3 tools/mutation.py --fresh design   # drop the kept copy and results first
-    python3 tools/mutation.py --summary        # counts of the last runs, no run
-    python3 tools/mutation.py --sample 600 analysis   # a seeded random sample of its mutants
-    python3 tools/mutation.py --survivors gate # run again what survived (after new tests)
+    python3 tests/mutation.py                  # every package, one child
+    python3 tests/mutation.py gate checks      # some packages
+    python3 tests/mutation.py --fresh design   # drop the kept copy and results first
+    python3 tests/mutation.py --summary        # counts of the last runs, no run
+    python3 tests/mutation.py --sample 600 analysis   # a seeded random sample of its mutants
+    python3 tests/mutation.py --survivors gate # run again what survived (after new tests)
 
 Prints killed/total per package and the surviving mutants (`mutmut show
 NAME` in the package's folder shows the change). docs/mutation.md lists the
