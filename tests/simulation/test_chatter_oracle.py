@@ -22,6 +22,7 @@ import pytest
 from drc.simulation.injection import chatter_deck, replay_trial, simulate_stage
 from tests.simulation.demo import demo_result
 from tests.support.ngspice import measurements, run_deck
+from tests.support.waveforms import count_edges
 
 pytestmark = pytest.mark.ngspice
 
@@ -32,19 +33,6 @@ CASES = [
     ("front_panel.cir", "SW5", 9),  # RC into a plain input
 ]
 _ROW = re.compile(r"^\d+\s+(\S+)\s+(\S+)\s*$", re.MULTILINE)
-
-
-def _count_edges(times, volts, start, stop, upper, lower, vcc):
-    points = [(t, v) for t, v in zip(times, volts, strict=True) if start <= t <= stop]
-    v0 = points[0][1]
-    high = v0 >= upper if upper == lower else (True if v0 >= upper else False if v0 < lower else v0 > vcc / 2)
-    edges = 0
-    for _, v in points[1:]:
-        if not high and v >= upper:
-            high, edges = True, edges + 1
-        elif high and v < lower:
-            high, edges = False, edges + 1
-    return edges
 
 
 @pytest.mark.parametrize("board, contact, seed", CASES, ids=[c[1] for c in CASES])
@@ -73,7 +61,7 @@ def test_chatter_trial_agrees_with_ngspice(board, contact, seed):
     assert len(rows) > 100, proc.stdout[-2000:]
     times, volts = zip(*rows, strict=True)
     for edge, start, stop in (("press", 0.0, replay.leak_switch_s), ("release", replay.leak_switch_s, replay.t_stop)):
-        spice_edges = _count_edges(times, volts, start, stop, replay.upper_v, replay.lower_v, rx.vcc)
+        spice_edges = count_edges(times, volts, start, stop, replay.upper_v, replay.lower_v, rx.vcc)
         assert spice_edges == replay.edges[edge], (edge, spice_edges, replay.edges)
     # The recorded trial is the one the simulation counted as its worst.
     assert replay.edges == sim.worst_edges

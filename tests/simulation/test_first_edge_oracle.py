@@ -24,6 +24,7 @@ from drc.pipeline import check_netlist_text
 from drc.simulation.chatter import BounceTrain, ChatterTrial
 from drc.simulation.injection import chatter_deck, replay_trial, simulate_stage
 from tests.support.ngspice import measurements, run_deck
+from tests.support.waveforms import count_edges
 
 _ROW = re.compile(r"^\d+\s+(\S+)\s+(\S+)\s*$", re.MULTILINE)
 
@@ -81,18 +82,6 @@ def test_simulate_draws_its_shortest_interval_from_the_min_closure_limit(tmp_pat
     assert any("intervals drawn here last 20 µs to 1 ms" in n for n in notes), notes
 
 
-def _count_edges(times, volts, start, stop, upper, lower):
-    points = [(t, v) for t, v in zip(times, volts, strict=True) if start <= t <= stop]
-    high = points[0][1] >= upper
-    edges = 0
-    for _, v in points[1:]:
-        if not high and v >= upper:
-            high, edges = True, edges + 1
-        elif high and v < lower:
-            high, edges = False, edges + 1
-    return edges
-
-
 def _spice(result, trial):
     rx = result.receiver_electrical
     deck = chatter_deck(result.stage, rx, trial)
@@ -104,7 +93,7 @@ def _spice(result, trial):
     rows = [(float(a), float(b)) for a, b in _ROW.findall(proc.stdout)]
     assert len(rows) > 100, proc.stdout[-2000:] + proc.stderr[-2000:]
     times, volts = zip(*rows, strict=True)
-    edges = _count_edges(times, volts, 0.0, replay.leak_switch_s, replay.upper_v, replay.lower_v)
+    edges = count_edges(times, volts, 0.0, replay.leak_switch_s, replay.upper_v, replay.lower_v)
     return measurements(proc.stdout), edges, replay
 
 
