@@ -1,0 +1,191 @@
+"""A diode from its .model card (the numerical path): levels and edges against scipy by hand.
+
+The stage (a diode-OR input, as on a scanned keypad): R1 from the rail to
+the pin `rx`, C1 from the pin to ground, D1 from the pin (anode) to the
+contact node `sw` (cathode), the contact from `sw` to ground. Pressed, the
+pin sits a diode drop above ground and the press empties C1 through the
+diode; released, `sw` floats and the pin charges through R1.
+
+Sources:
+- the Shockley equation with series resistance, V = N·Vt·ln(I/IS + 1) + I·RS,
+  Vt = kT/q at 27 °C (CODATA constants), the diode model of SPICE's manual;
+  each steady level is that equation and Kirchhoff's current law at the pin,
+  solved here for the diode current with scipy.optimize.brentq;
+- the press: C dV/dt = (Vcc − V)/R1 − I_leak − I_D(V), integrated here with
+  scipy.integrate.solve_ivp (Radau, rtol 1e-10) with an event at each
+  threshold; every corner of the tolerance box brute-forced;
+- the release: the first-order RC law t = R1·C·ln((Vf − V0)/(Vf − Vth))
+  (*Lessons In Electric Circuits*, Vol. I, ch. 16), the diode carrying no
+  current once `sw` floats;
+- SPICE's gmin (1e-12 S from every node to ground), "from memory", kept in
+  the equations here as the tool keeps it.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import quad, solve_ivp
+from scipy.optimize import brentq
+from scipy.special import lambertw
+
+from drc.analysis.stage_analysis import analyse_stage, edge_solution
+from drc.board.stage import Capacitor, Diode, DiodeCard, RailSource, Resistor, ResistorRole, Throw
+from tests.analysis.builders import receiver_electrical, stage
+
+IS, N, RS = 4e-9, 1.9, 0.6
+NVT = N * 1.380649e-23 * 300.15 / 1.602176634e-19
+GMIN = 1e-12
+VCC, V_TOL = 5.0, 0.05
+R1, R_TOL = 10e3, 0.05
+C1, C_TOL = 100e-9, 0.20
+RC = 0.1
+LEAK_HIGH, LEAK_LOW = (0.0, 1e-6), (-1e-6, 0.0)
+RX = receiver_electrical(leak_high=LEAK_HIGH, leak_low=LEAK_LOW)
+R_SW = 1.0 / (1.0 / RC + GMIN)  # the closed contact beside sw's gmin
+
+
+def diode_or():
+    return stage(resistors=(Resistor("R1", "vcc", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
+                 capacitors=(Capacitor("C1", "rx", "0", C1, C_TOL, C_TOL),),
+                 diodes=(Diode("D1", "rx", "sw", card=DiodeCard(IS, N, RS)),),
+                 rails=(RailSource("vcc", VCC, V_TOL),), throws=(Throw("sw", "0", "pressed", RC),))
+
+
+def v_diode(i: float) -> float:
+    """The diode and the closed contact in series at current i (Shockley with RS)."""
+    return NVT * math.log(i / IS + 1.0) + i * RS + i * R_SW
+
+
+def i_diode(v: float) -> float:
+    """The current the pin at v drives through the diode and the closed contact: `v_diode`
+    solved for i in closed form with Lambert's W (scipy.special.lambertw), checked by `v_diode`."""
+    rt = RS + R_SW
+    i = NVT / rt * float(np.real(lambertw(IS * rt / NVT * math.exp((v + IS * rt) / NVT)))) - IS
+    assert abs(v_diode(i) - v) < 1e-9 * max(1.0, v)
+    return i
+
+
+def pressed_level(vcc: float, r1: float, leak: float) -> float:
+    """KCL at the pin: (vcc - V)/r1 = leak + gmin·V + I_D(V)."""
+    return brentq(lambda v: (vcc - v) / r1 - leak - GMIN * v - i_diode(v), 0.0, vcc + 1.0,
+                  xtol=1e-15, rtol=1e-14)
+
+
+def released_level(vcc: float, r1: float, leak: float) -> float:
+    """KCL at the pin: (vcc - V)/r1 = leak + gmin·V + the diode's current into the floating sw,
+    which is sw's own gmin current (sw a few tens of microvolts under the pin: left out)."""
+    return (vcc - r1 * leak) / (1.0 + 2.0 * GMIN * r1)
+
+
+def press_times(vcc, r1, c, leak, thresholds):
+    """Time from the released level to each threshold: the pin's equation C dV/dt = f(V) is
+    one-dimensional, so t = C·∫ dV / (−f(V)) from the threshold up to the start
+    (separation of variables), by scipy.integrate.quad."""
+    v0 = released_level(vcc, r1, leak)
+
+    def outflow(v):
+        return leak + GMIN * v + i_diode(v) - (vcc - v) / r1
+
+    return [c * quad(lambda v: 1.0 / outflow(v), vth, v0, epsabs=0.0, epsrel=1e-11, limit=200)[0]
+            for vth in thresholds]
+
+
+def press_times_ivp(vcc, r1, c, leak, thresholds):
+    """The same times by integrating in time (scipy.integrate.solve_ivp, Radau) with an event
+    at each threshold."""
+    v0 = released_level(vcc, r1, leak)
+
+    def rhs(_t, y):
+        v = y[0]
+        return [((vcc - v) / r1 - leak - GMIN * v - i_diode(v)) / c]
+
+    events = []
+    for vth in thresholds:
+        def ev(_t, y, vth=vth):
+            return y[0] - vth
+        ev.direction = -1.0
+        events.append(ev)
+    sol = solve_ivp(rhs, (0.0, 50 * r1 * c), [v0], method="Radau", rtol=1e-10, atol=1e-13, events=events)
+    return [float(t[0]) for t in sol.t_events]
+
+
+def corners():
+    return itertools.product((R1 * (1 - R_TOL), R1 * (1 + R_TOL)), (C1 * (1 - C_TOL), C1 * (1 + C_TOL)),
+                             (VCC * (1 - V_TOL), VCC * (1 + V_TOL)))
+
+
+@pytest.fixture(scope="module")
+def result():
+    return analyse_stage(diode_or(), RX)
+
+
+def test_pressed_level_is_the_diode_drop_at_its_current(result):
+    lev = result.levels["pressed"]
+    assert lev.logic == "low"
+    i_mid = sum(LEAK_LOW) / 2
+    assert lev.nominal_v == pytest.approx(pressed_level(VCC, R1, i_mid), rel=1e-7)
+    # Worst (highest) low level over the corners: brute force over R1, rail and the leakage.
+    worst = max(pressed_level(v, r, i) for r, _c, v in corners() for i in LEAK_LOW)
+    assert lev.worst_v == pytest.approx(worst, rel=1e-7)
+    # About 0.58 V: a diode drop, far from the piecewise-linear 0.6 V + 10 ohm stand-in's 0.605 V.
+    assert 0.5 < worst < 0.6
+
+
+def test_the_contact_carries_the_diode_current(result):
+    # Pressed, the contact carries what the diode does: I_D at the pressed level, over the corners.
+    currents = [i_diode(pressed_level(v, r, i)) for r, _c, v in corners() for i in LEAK_LOW]
+    assert result.closed_current_a == pytest.approx(max(currents), rel=1e-6)
+    assert result.contact_current_a == pytest.approx(min(currents), rel=1e-6)
+
+
+def test_released_level_and_the_release_by_the_rc_law(result):
+    lev = result.levels["released"]
+    worst = min(released_level(v, r, i) for r, _c, v in corners() for i in LEAK_HIGH)
+    assert lev.worst_v == pytest.approx(worst, rel=1e-7)
+    e = result.edges["release"]
+    rows = [(r, c, v, i) for r, c, v in corners() for i in LEAK_HIGH]
+
+    def t(r, c, v, i, vth):
+        v0, vf = pressed_level(v, r, i), released_level(v, r, i)
+        return r * c * math.log((vf - v0) / (vf - vth))
+
+    # The integrator's own tolerance (rtol 1e-8) bounds the agreement.
+    assert e.fastest_s == pytest.approx(min(t(*x, RX.rising_threshold[0]) for x in rows), rel=1e-5)
+    assert e.slowest_s == pytest.approx(max(t(*x, RX.rising_threshold[2]) for x in rows), rel=1e-5)
+    i_mid = sum(LEAK_HIGH) / 2
+    assert e.nominal_s == pytest.approx(t(R1, C1, VCC, i_mid, RX.rising_threshold[1]), rel=1e-5)
+
+
+def test_press_edge_corners_by_integration(result):
+    e = result.edges["press"]
+    inner, typ, outer = RX.falling_threshold[2], RX.falling_threshold[1], RX.falling_threshold[0]
+    fast, slow = [], []
+    for r, c, v in corners():
+        for i in LEAK_LOW:
+            t_in, t_out = press_times(v, r, c, i, (inner, outer))
+            fast.append(t_in)
+            slow.append(t_out)
+    assert e.fastest_s == pytest.approx(min(fast), rel=1e-4)
+    assert e.slowest_s == pytest.approx(max(slow), rel=1e-4)
+    [t_nom] = press_times(VCC, R1, C1, sum(LEAK_LOW) / 2, (typ,))
+    assert e.nominal_s == pytest.approx(t_nom, rel=1e-4)
+    # The diode empties the capacitor in well under a microsecond (R1·C1 is a millisecond).
+    assert e.slowest_s < 2e-6
+
+
+def test_press_waveform_follows_the_integration():
+    # The samples of one edge (what a plot shows) lie on the integrated curve.
+    sol = edge_solution(diode_or(), RX, "press", {"R1": R1, "C1": C1, "rail:vcc": VCC, "leakage": 0.0,
+                                                   "threshold": 1.6})
+    [t_cross] = press_times_ivp(VCC, R1, C1, 0.0, (1.6,))
+    assert press_times(VCC, R1, C1, 0.0, (1.6,))[0] == pytest.approx(t_cross, rel=1e-6)  # both ways agree
+    assert sol.crossing_s == pytest.approx(t_cross, rel=1e-4)
+    assert sol.start_v == pytest.approx(released_level(VCC, R1, 0.0), rel=1e-9)
+    assert sol.final_v == pytest.approx(pressed_level(VCC, R1, 0.0), rel=1e-7)
+    # The slope at the crossing: the pin's equation at 1.6 V.
+    slope = abs((VCC - 1.6) / R1 - GMIN * 1.6 - i_diode(1.6)) / C1
+    assert sol.slope_v_per_s == pytest.approx(slope, rel=1e-3)
