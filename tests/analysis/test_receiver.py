@@ -1,4 +1,7 @@
-"""receiver_electrical(): thresholds, leakage and limits of one pin at its VCC."""
+"""receiver_electrical(): thresholds, leakage and limits of one pin at its VCC.
+
+(drc/analysis/receiver.py, read from the rules library: it lives beside the
+analysis tests so that the analysis package's mutation run judges it too.)"""
 
 import math
 
@@ -7,8 +10,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from drc.analysis.receiver import ReceiverElectrical, receiver_electrical, receiver_notes
-from drc.library.catalogue import load_library
+from drc.library.catalogue import Library, load_library
 from drc.library.entries import AbsMaxInput, SupplyOutOfRange, UnknownFamily
+
+
+@pytest.fixture(scope="module")
+def library() -> Library:
+    return load_library()
 
 
 def lerp(x, x0, y0, x1, y1):
