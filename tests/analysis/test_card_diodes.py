@@ -189,3 +189,72 @@ def test_press_waveform_follows_the_integration():
     # The slope at the crossing: the pin's equation at 1.6 V.
     slope = abs((VCC - 1.6) / R1 - GMIN * 1.6 - i_diode(1.6)) / C1
     assert sol.slope_v_per_s == pytest.approx(slope, rel=1e-3)
+
+
+def test_without_a_capacitor_both_edges_are_immediate():
+    # The same diode-OR input with no capacitor: each edge is there as the contact moves
+    # (nothing holds the pin), from one steady level to the other.
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
+               diodes=(Diode("D1", "rx", "sw", card=DiodeCard(IS, N, RS)),),
+               rails=(RailSource("vcc", VCC, V_TOL),), throws=(Throw("sw", "0", "pressed", RC),))
+    res = analyse_stage(st, RX)
+    for edge in ("press", "release"):
+        e = res.edges[edge]
+        assert (e.nominal_s, e.fastest_s, e.slowest_s) == (0.0, 0.0, 0.0)
+        assert e.slope_v_per_s == math.inf
+    press = res.edges["press"]
+    assert press.start_v == pytest.approx(released_level(VCC, R1, sum(LEAK_LOW) / 2), rel=1e-9)
+    assert press.final_v == pytest.approx(pressed_level(VCC, R1, sum(LEAK_LOW) / 2), rel=1e-7)
+
+
+# The pin switched directly, the capacitor behind the diode: R1 from the rail to the pin, the
+# contact from the pin to ground, D1 from the pin (anode) to m, C1 from m to ground. Pressed, the
+# pin drops at once (C1 is held off by the diode); released, R1 charges C1 through the diode and
+# the pin sits a diode drop over C1.
+
+def behind_the_diode():
+    return stage(resistors=(Resistor("R1", "vcc", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
+                 capacitors=(Capacitor("C1", "m", "0", C1, C_TOL, C_TOL),),
+                 diodes=(Diode("D1", "rx", "m", card=DiodeCard(IS, N, RS)),),
+                 rails=(RailSource("vcc", VCC, V_TOL),), throws=(Throw("rx", "0", "pressed", RC),))
+
+
+def charge_current(vcc, r1, leak, u):
+    """The diode's current into C1 at capacitor voltage u: KCL at the pin,
+    (vcc − V)/r1 = leak + gmin·V + I with V = u + N·Vt·ln(I/IS + 1) + I·RS."""
+    def pin(i):
+        return u + NVT * math.log(i / IS + 1.0) + i * RS
+
+    i = brentq(lambda i: (vcc - pin(i)) / r1 - leak - GMIN * pin(i) - i, 0.0, vcc / r1, xtol=1e-20, rtol=1e-14)
+    return i, pin(i)
+
+
+def pressed_start(vcc, r1, leak):
+    """C1's voltage while pressed: the pin at vcc·Rc/(r1 + Rc) (less the leakage through
+    r1 ∥ Rc; the diode and gmin draw picoamps), and m where the diode's current equals m's gmin
+    current, IS·(exp((V_pin − u)/(N·Vt)) − 1) = gmin·u (RS drops nothing at picoamps)."""
+    pin = vcc * RC / (r1 + RC) - leak * r1 * RC / (r1 + RC)
+    return brentq(lambda u: IS * math.expm1((pin - u) / NVT) - GMIN * u, 0.0, pin, xtol=1e-18, rtol=1e-14)
+
+
+def release_time(vcc, r1, c, leak, vth):
+    """C1 du/dt = I(u) − gmin·u from its pressed voltage until the pin reaches vth,
+    by separation of variables (scipy.integrate.quad)."""
+    u0 = pressed_start(vcc, r1, leak)
+    u_th = brentq(lambda u: charge_current(vcc, r1, leak, u)[1] - vth, 0.0, vth, xtol=1e-15, rtol=1e-14)
+    return c * quad(lambda u: 1.0 / (charge_current(vcc, r1, leak, u)[0] - GMIN * u), u0, u_th,
+                    epsabs=0.0, epsrel=1e-11, limit=200)[0]
+
+
+def test_a_pin_switched_directly_crosses_at_once_and_recharges_through_the_diode():
+    res = analyse_stage(behind_the_diode(), RX)
+    press = res.edges["press"]
+    assert (press.nominal_s, press.fastest_s, press.slowest_s) == (0.0, 0.0, 0.0)
+    assert press.slope_v_per_s == math.inf
+    e = res.edges["release"]
+    rows = [(v, r, c, i) for r, c, v in corners() for i in LEAK_HIGH]
+    lo, typ, hi = RX.rising_threshold
+    # The integrator's own tolerance (rtol 1e-8) bounds the agreement.
+    assert e.fastest_s == pytest.approx(min(release_time(*x, lo) for x in rows), rel=1e-5)
+    assert e.slowest_s == pytest.approx(max(release_time(*x, hi) for x in rows), rel=1e-5)
+    assert e.nominal_s == pytest.approx(release_time(VCC, R1, C1, sum(LEAK_HIGH) / 2, typ), rel=1e-5)
