@@ -53,3 +53,23 @@ def test_a_capacitor_whose_far_end_floats_does_not_slow_the_pin():
     v_th, r_th = 5.0 * r_low / (10e3 + r_low), 10e3 * r_low / (10e3 + r_low)
     i_mid = sum(RX.leak_low_a) / 2
     assert e.final_v == pytest.approx(v_th - i_mid * r_th, rel=1e-9)
+
+
+def test_a_floating_receiver_beside_another_input_on_the_contact_node():
+    # The same AC-coupled pin, and a second input (CMOS, at most 1 µA either way) on the contact
+    # node, which has a DC path. The contact still carries Vcc / (R1 + Rc), give or take that
+    # input's leakage: within 1 µA of the hand figure at every corner.
+    from dataclasses import replace
+
+    from drc.board.stage import InputLoad
+
+    st = stage(resistors=(Resistor("R1", "vcc", "sw", 10e3, role=ResistorRole.PULL),),
+               capacitors=(Capacitor("C1", "sw", "rx", 100e-9),), throws=(Throw("sw", "0", "pressed", RC),))
+    loads = (InputLoad("U1:1", "rx", "TEST", "vcc", RX.leak_high_a, RX.leak_low_a),
+             InputLoad("U2:1", "sw", "TEST", "vcc", (0.0, 1e-6), (-1e-6, 0.0)))
+    st = replace(st, circuit=replace(st.circuit, loads=loads))
+    currents = [v / (r + RC) for v, r in itertools.product((4.75, 5.25), (9.5e3, 10.5e3))]
+    res = _analyse_one(st, RX)
+    assert res.levels["pressed"].logic == "undefined"
+    assert res.contact_current_a == pytest.approx(min(currents), abs=1e-6)
+    assert res.closed_current_a == pytest.approx(max(currents), abs=1e-6)
