@@ -37,18 +37,20 @@ bounce-window reads this for Schmitt inputs (drc/checks/bounce_window.py).
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
 
-from drc.analysis.physics.compiled import THRESHOLD, LinearModel, compile_circuit
-from drc.analysis.physics.corners import Box, corner_dict, make_box, vertices
-from drc.analysis.physics.mna import cap_voltages, dc_solve, reduce_dynamic
-from drc.analysis.physics.supply import supply_pieces
+from drc.analysis.physics.batch import structure_key, template
+from drc.analysis.physics.compiled import THRESHOLD, LinearModel, param_table, rail_param
+from drc.analysis.physics.corners import corner_dict, make_box, vertices
+from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
+from drc.analysis.physics.supply import supply_column, supply_pieces
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import EDGE_STATES, Edge
 from drc.analysis.reuse import canonical_key, renamed_corner, stage_names
-from drc.analysis.stage_analysis import EdgeSetup, edge_setup, leak_ranges
+from drc.analysis.stage_analysis import EdgeSetup
 from drc.board.stage import Stage
 from drc.caching import Memo
 
@@ -97,90 +99,259 @@ def bounce_state(stage: Stage, edge: Edge | str) -> str:
 # the stage and receiver (analysis.reuse), edge, least closure -> (reading, the names it was made for).
 _PULL_BACKS: Memo[tuple, tuple[PullBack | None, tuple[str, ...]]] = Memo("first_edge.pull_back", 50_000)
 
+# One edge of one stage to read: (stage, receiver data, edge).
+Wanted = tuple[Stage, ReceiverElectrical, Edge | str]
+
 
 def pull_back(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
               min_closure_s: float = MIN_CLOSURE_S) -> PullBack | None:
     """The closure-and-opening reading of one edge; None where it does not apply (an input
     without hysteresis, several capacitors or none, diodes, an edge that never crosses).
     A stage identical to one read before but for its names gets that reading, renamed."""
-    stage_key = canonical_key(stage, rx)
-    if stage_key is None:
-        return _pull_back_now(stage, rx, edge, min_closure_s)
-    key = (stage_key, str(edge), float(min_closure_s))
-    names = stage_names(stage)
-    known = _PULL_BACKS.get(key)
-    if known is None:
-        back = _pull_back_now(stage, rx, edge, min_closure_s)
-        _PULL_BACKS.put(key, (back, names))
-        return back
+    return pull_backs([(stage, rx, edge)], min_closure_s)[0]
+
+
+def pull_backs(wanted: Sequence[Wanted], min_closure_s: float = MIN_CLOSURE_S) -> list[PullBack | None]:
+    """The readings of many edges, each what `pull_back` gives for it alone.
+
+    Edges not read before are read together: the stages of one circuit
+    structure (values aside) and one edge are stacked and solved in one
+    batch (three solves for all of them), where each alone costs a compiled
+    circuit and nine small solves.
+    """
+    out: list[PullBack | None] = [None] * len(wanted)
+    keys: list[tuple | None] = []
+    todo: dict[tuple, list[int]] = {}  # memo key -> the edges that want it (the first is read)
+    alone: list[int] = []  # edges of stages whose names are not distinct: read without the memo
+    for i, (stage, rx, edge) in enumerate(wanted):
+        stage_key = canonical_key(stage, rx)
+        key = None if stage_key is None else (stage_key, str(edge), float(min_closure_s))
+        keys.append(key)
+        if key is None:
+            alone.append(i)
+            continue
+        known = _PULL_BACKS.get(key)
+        if known is not None:
+            out[i] = _for_names(known, stage_names(stage))
+        else:
+            todo.setdefault(key, []).append(i)
+    first = [idx[0] for idx in todo.values()] + alone
+    read = _read(wanted, first, min_closure_s)
+    for i in alone:
+        out[i] = read[i]
+    for key, idx in todo.items():
+        known = (read[idx[0]], stage_names(wanted[idx[0]][0]))
+        _PULL_BACKS.put(key, known)
+        for i in idx:
+            out[i] = _for_names(known, stage_names(wanted[i][0]))
+    return out
+
+
+def _for_names(known: tuple[PullBack | None, tuple[str, ...]], names: tuple[str, ...]) -> PullBack | None:
     back, source = known
     if back is None or source == names:
         return back
     return replace(back, corner_fastest=renamed_corner(back.corner_fastest, source, names))
 
 
-def _pull_back_now(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
-                   min_closure_s: float) -> PullBack | None:
+def _read(wanted: Sequence[Wanted], which: list[int], min_closure_s: float) -> dict[int, PullBack | None]:
+    """The readings of the edges `which`, batched by circuit structure and edge."""
     min_closure_s = max(0.0, min_closure_s)  # a zero closure leaves the crossing threshold itself
-    if not rx.schmitt or len(stage.circuit.capacitors) != 1:
-        return None
-    model = compile_circuit(stage.circuit)
-    if model.has_diodes or model.k != 1 or model.rx < 0:
-        return None
-    try:
-        es = edge_setup(model, rx, edge)
-    except ValueError:
-        return None
-    back = bounce_state(stage, edge)
-    box = _both_levels_box(model, rx, es)
-    V = np.vstack([vertices(piece) for piece in supply_pieces(box, rx, es.supply_col)])
-    P = np.vstack([es.box.nominal[None, :], V])
-    opposite = _opposite(es, rx)
-    vh = rx.hysteresis_min_v or 0.0
-    nominal = _figures(model, es, back, P[:1], es.vth(P[:1], "typ"), opposite.vth(P[:1], "typ"),
-                       min_closure_s)
-    if nominal is None or np.isnan(nominal[0][0]):
-        return None  # the edge never crosses at nominal: nothing to pull back
-    best = None
-    for cross, opp in _threshold_pairs(es, opposite, V, vh):
-        fig = _figures(model, es, back, V, cross, opp, min_closure_s)
-        if fig is None:
-            return None
-        t = np.where(np.isnan(fig[0]), np.inf, fig[0])
-        if best is None:
-            best = (t, fig, cross, opp)
+    out: dict[int, PullBack | None] = {}
+    groups: dict[tuple, list[int]] = {}
+    for i in which:
+        stage, rx, edge = wanted[i]
+        if not rx.schmitt or len(stage.circuit.capacitors) != 1:
+            out[i] = None
             continue
-        take = t < best[0]
-        best = (np.where(take, t, best[0]),
-                tuple(np.where(take, a, b) for a, b in zip(fig, best[1], strict=True)),
-                np.where(take, cross, best[2]), np.where(take, opp, best[3]))
-    assert best is not None
-    tv, (_, left, at_thr, _, _, _), cross_v, opp_v = best
-    tau_n, tau_b = nominal[3], nominal[4]
-    t0 = nominal[0]
-    i = int(np.argmin(tv))
-    row = V[i]
-    return PullBack(
-        edge=Edge(edge), bounce_state=str(back), min_closure_s=min_closure_s,
-        closure_tau_s=float(tau_n[0]), bounce_tau_s=float(tau_b[0]), left_v=float(left[i]),
-        at_threshold=bool(at_thr[i]), opposite_v=float(opp_v[i]),
-        fastest_s=_time(tv[i]), nominal_s=_time(float(t0[0])),
-        corner_fastest=corner_dict(model.param_names, row, {THRESHOLD: float(cross_v[i])}),
-        first_crossing_s=_time(float(nominal[5][0])))
+        groups.setdefault((structure_key(stage.circuit), Edge(edge)), []).append(i)
+    for (key, edge), idx in groups.items():
+        model = template(key, wanted[idx[0]][0].circuit)
+        got = _read_group(model, [(wanted[i][0], wanted[i][1]) for i in idx], edge, min_closure_s)
+        out.update(zip(idx, got, strict=True))
+    return out
 
 
-def _time(x: float) -> float | None:
-    return float(x) if math.isfinite(x) else None
+@dataclass(frozen=True, slots=True)
+class _Edge:
+    """One stage's edge, set up: its edge and opposite thresholds, the rows to solve
+    (the nominal corner of the edge, then every vertex of the box with both levels'
+    leakage) and the names of the parameters."""
+
+    es: EdgeSetup
+    opposite: EdgeSetup
+    V: np.ndarray
+    names: tuple[str, ...]
 
 
-def _both_levels_box(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup) -> Box:
-    """The edge's box with every load's leakage over its high and its low range: the
-    capacitor crosses from one level towards the other and may come back."""
-    n = len(model.leak_cols)
-    high = leak_ranges(model, rx, ("high",) * n)
-    low = leak_ranges(model, rx, ("low",) * n)
-    both = tuple((min(*h, *lo), max(*h, *lo)) for h, lo in zip(high, low, strict=True))
-    return make_box(model.nominal, model.lo, model.hi, model.leak_cols, both)
+def _read_group(model: LinearModel, items: list[tuple[Stage, ReceiverElectrical]], edge: Edge,
+                min_closure_s: float) -> list[PullBack | None]:
+    """The readings of one edge of stages of `model`'s structure (each stage's values are its rows)."""
+    out: list[PullBack | None] = [None] * len(items)
+    if model.has_diodes or model.k != 1 or model.rx < 0:
+        return out
+    ready = [(j, s) for j, s in enumerate(_setups(model, items, edge)) if s is not None]
+    if not ready:
+        return out
+    back = bounce_state(items[ready[0][0]][0], edge)
+    rows = _Rows(model, [s for _, s in ready], back, min_closure_s)
+    for k, (j, s) in enumerate(ready):
+        out[j] = rows.pull_back(k, s, edge)
+    return out
+
+
+class _Rows:
+    """The rows of several stages' edges (each the edge's nominal corner, then its
+    vertices) solved together, and each row's best reading over the threshold pairs."""
+
+    def __init__(self, model: LinearModel, setups: list[_Edge], back: str, min_closure_s: float) -> None:
+        self.back, self.min_closure_s = back, min_closure_s
+        blocks = [np.vstack([s.es.box.nominal[None, :], s.V]) for s in setups]
+        sizes = [len(b) for b in blocks]
+        self.ends = np.cumsum(sizes).tolist()
+        self.P = P = np.vstack(blocks)
+        es = setups[0].es
+        u_old = cap_voltages(model, dc_solve(model, es.from_state, P))[:, 0]
+        self.new, self.bounce = _mode(model, es.to_state, P), _mode(model, back, P)
+        d = np.repeat([float(s.es.direction) for s in setups], sizes)
+        cross1, opp1, cross2, opp2 = (np.concatenate(x) for x in zip(*map(_thresholds, setups), strict=True))
+        self.f1 = f1 = _reading(d, u_old, self.new, self.bounce, cross1, opp1, min_closure_s)
+        f2 = _reading(d, u_old, self.new, self.bounce, cross2, opp2, min_closure_s)
+        t1 = np.where(np.isnan(f1.t), np.inf, f1.t)
+        t2 = np.where(np.isnan(f2.t), np.inf, f2.t)
+        take = t2 < t1  # the first pair wins ties
+        self.t = np.where(take, t2, t1)
+        self.left = np.where(take, f2.left_v, f1.left_v)
+        self.at_threshold = np.where(take, f2.at_threshold, f1.at_threshold)
+        self.cross, self.opp = np.where(take, cross2, cross1), np.where(take, opp2, opp1)
+        # The receiver must follow the capacitor in the new state at every row of a stage.
+        self.bad = (self.new[1] <= 0) | ~np.isfinite(self.new[3])
+
+    def pull_back(self, k: int, s: _Edge, edge: Edge) -> PullBack | None:
+        """The reading of the k-th edge; None where the receiver does not follow the
+        capacitor or the edge never crosses at nominal."""
+        hi = self.ends[k]
+        lo = hi - 1 - len(s.V)
+        f1 = self.f1
+        if self.bad[lo:hi].any() or np.isnan(f1.t[lo]):
+            return None
+        i = lo + 1 + int(np.argmin(self.t[lo + 1:hi]))  # the fastest vertex (the first of equals)
+        return PullBack(
+            edge=edge, bounce_state=str(self.back), min_closure_s=self.min_closure_s,
+            closure_tau_s=float(self.new[3][lo]), bounce_tau_s=float(self.bounce[3][lo]),
+            left_v=float(self.left[i]), at_threshold=bool(self.at_threshold[i]),
+            opposite_v=float(self.opp[i]), fastest_s=_time(self.t[i]), nominal_s=_time(float(f1.t[lo])),
+            corner_fastest=corner_dict(s.names, self.P[i], {THRESHOLD: float(self.cross[i])}),
+            first_crossing_s=_time(float(f1.t_cross[lo])))
+
+
+def _thresholds(s: _Edge) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(crossing, opposite) thresholds of a stage's rows, twice: the nominal row its
+    typical pair (both times), each vertex the two pairs of `_threshold_pairs`."""
+    nominal = s.es.box.nominal[None, :]
+    rx = s.es.rx
+    assert rx is not None
+    (c1, o1), (c2, o2) = _threshold_pairs(s.es, s.opposite, s.V, rx.hysteresis_min_v or 0.0)
+    typ_c, typ_o = s.es.vth(nominal, "typ"), s.opposite.vth(nominal, "typ")
+    return (np.concatenate([typ_c, c1]), np.concatenate([typ_o, o1]),
+            np.concatenate([typ_c, c2]), np.concatenate([typ_o, o2]))
+
+
+@dataclass(frozen=True, slots=True)
+class _Levels:
+    """The stages' values as rows and where each load sits, for the edge set-ups."""
+
+    names: list[tuple[str, ...]]
+    nom: np.ndarray  # (m, p)
+    lo: np.ndarray
+    hi: np.ndarray
+    ranges: list[tuple[tuple[tuple[float, float], tuple[float, float]], ...]]  # per load: (high, low)
+    high: np.ndarray  # (m, loads): the load sits high in the state the edge goes to
+    floating: np.ndarray  # (m,): the receiver floats in either state
+    rising: list[bool]
+
+
+def _levels(model: LinearModel, items: list[tuple[Stage, ReceiverElectrical]], edge: Edge) -> _Levels:
+    """Where each load sits in both states of the edge and the edge's direction (from the
+    nominal levels, as `stage_analysis.edge_setup` finds it): four stacked solves."""
+    a, b = EDGE_STATES[edge]
+    tables = [param_table(stage.circuit) for stage, _ in items]
+    nom = np.array([t[1] for t in tables], dtype=float)
+    cols = list(model.leak_cols)
+    ranges = [_load_ranges(stage, rx) for stage, rx in items]
+    bare = nom.copy()
+    bare[:, cols] = 0.0
+    high = {}
+    floating = np.zeros(len(items), dtype=bool)
+    for state in (a, b):
+        dc = dc_solve(model, state, bare)
+        floating |= dc.floating
+        high[state] = _loads_high(model, dc, nom, [rx for _, rx in items])
+    level = {}
+    for state in (a, b):
+        # The nominal level: each load's leakage at the middle of its range at its level.
+        rows = nom.copy()
+        for j, rng in enumerate(ranges):
+            for c, (h, lw), up in zip(cols, rng, high[state][j].tolist(), strict=True):
+                got = h if up else lw
+                rows[j, c] = 0.5 * (min(got) + max(got))
+        level[state] = dc_solve(model, state, rows).rx_v.tolist()
+    rising = [vb > va if vb != va else bool(up)
+              for va, vb, up in zip(level[a], level[b], high[b][:, 0].tolist(), strict=True)]
+    return _Levels([t[0] for t in tables], nom, np.array([t[2] for t in tables], dtype=float),
+                   np.array([t[3] for t in tables], dtype=float), ranges, high[b], floating, rising)
+
+
+def _setups(model: LinearModel, items: list[tuple[Stage, ReceiverElectrical]],
+            edge: Edge) -> list[_Edge | None]:
+    """Each stage's edge as `stage_analysis.edge_setup` sets it up, None where the
+    receiver floats in a state of the edge."""
+    lv = _levels(model, items, edge)
+    a, b = EDGE_STATES[edge]
+    out: list[_Edge | None] = []
+    for j, (_, rx) in enumerate(items):
+        if lv.floating[j]:
+            out.append(None)
+            continue
+        rising = lv.rising[j]
+        thr = rx.rising_threshold if rising else rx.falling_threshold
+        logic = (rising, *lv.high[j][1:].tolist())
+        own = tuple(h if up else lw for (h, lw), up in zip(lv.ranges[j], logic, strict=True))
+        box = make_box(lv.nom[j], lv.lo[j], lv.hi[j], model.leak_cols, own)
+        inner, outer = (thr[0], thr[2]) if rising else (thr[2], thr[0])
+        es = EdgeSetup(edge, a, b, 1 if rising else -1, thr, inner, outer, box, rx, supply_column(model, rx))
+        # Every load's leakage over its high and its low range: the capacitor crosses
+        # from one level towards the other and may come back.
+        both = tuple((min(*h, *lw), max(*h, *lw)) for h, lw in lv.ranges[j])
+        wide = make_box(lv.nom[j], lv.lo[j], lv.hi[j], model.leak_cols, both)
+        V = np.vstack([vertices(piece) for piece in supply_pieces(wide, rx, es.supply_col)])
+        out.append(_Edge(es, _opposite(es, rx), V, lv.names[j]))
+    return out
+
+
+def _load_ranges(stage: Stage, rx: ReceiverElectrical) -> tuple[tuple[tuple[float, float], tuple[float, float]], ...]:
+    """((high range, low range) per load): the loads' own data, the receiver's without loads."""
+    loads = stage.circuit.loads
+    if not loads:
+        return ((rx.leak_high_a, rx.leak_low_a),)
+    return tuple((ld.leak_high_a, ld.leak_low_a) for ld in loads)
+
+
+def _loads_high(model: LinearModel, dc, nom: np.ndarray, rxs: list[ReceiverElectrical]) -> np.ndarray:
+    """(m, loads) True where a load sits high (as `stage_analysis.load_logic`, per row)."""
+    vcc = np.array([rx.vcc for rx in rxs])
+    if not model.loads:
+        return (dc.rx_v > vcc / 2)[:, None]
+    out = np.empty((len(rxs), len(model.leak_cols)), dtype=bool)
+    for j, (load, node) in enumerate(zip(model.loads, model.leak_nodes, strict=True)):
+        v = node_voltage(model, dc.v, dc.vfix, node)
+        if node == model.rx:
+            half = vcc / 2
+        else:
+            name = rail_param(load.supply_net)
+            half = nom[:, model.column(name)] / 2 if name in model.param_names else vcc / 2
+        out[:, j] = v > half
+    return out
 
 
 def _opposite(es: EdgeSetup, rx: ReceiverElectrical) -> EdgeSetup:
@@ -215,6 +386,10 @@ def _threshold_pairs(es: EdgeSetup, opposite: EdgeSetup, V: np.ndarray,
     return [(c_in, opp_for(c_in)), (cross_b, opp_for(cross_b))]
 
 
+def _time(x: float) -> float | None:
+    return float(x) if math.isfinite(x) else None
+
+
 def _mode(model: LinearModel, state: str, P: np.ndarray):
     """(q, g, u_inf, tau) of one state, per row: v_rx = q + g u, u -> u_inf with tau."""
     red = reduce_dynamic(model, model.topology(state, ()), P)
@@ -225,35 +400,40 @@ def _mode(model: LinearModel, state: str, P: np.ndarray):
     return red.cv[:, model.rx], red.Mv[:, model.rx, 0], u_inf, tau
 
 
-def _figures(model: LinearModel, es: EdgeSetup, back: str, P: np.ndarray, cross_v: np.ndarray,
-             opp_v: np.ndarray, min_closure_s: float):
-    """Per row: (pull-back time (nan: no crossing, inf: never back), level left, left at
-    the threshold, tau of the new state, tau of the bounce state, time to the crossing)."""
-    d = es.direction
-    u_old = cap_voltages(model, dc_solve(model, es.from_state, P))[:, 0]
-    qn, gn, un, tau_n = _mode(model, es.to_state, P)
-    qb, gb, ub, tau_b = _mode(model, back, P)
-    if np.any(gn <= 0) or np.any(~np.isfinite(tau_n)):
-        return None  # the receiver does not follow the capacitor in the new state
-    sn = float(d)  # u moves the way the receiver does (g > 0)
+@dataclass(frozen=True, slots=True)
+class _Figures:
+    """Per row: pull-back time (nan: no crossing, inf: never back), level left, left at
+    the threshold, time to the crossing."""
+
+    t: np.ndarray
+    left_v: np.ndarray
+    at_threshold: np.ndarray
+    t_cross: np.ndarray
+
+
+def _reading(d: np.ndarray, u_old: np.ndarray, new: tuple, bounce: tuple, cross_v: np.ndarray,
+             opp_v: np.ndarray, min_closure_s: float) -> _Figures:
+    """The closure-and-opening reading per row (d: the edge's direction, +1 rising)."""
+    qn, gn, un, tau_n = new
+    qb, gb, ub, tau_b = bounce
+    sn = d  # u moves the way the receiver does (g > 0; rows where it does not are not read)
     # The steady start: the old level, or the bounce state's own level where it lies farther back.
     u_start = np.where(np.isfinite(ub) & (sn * (ub - u_old) < 0), ub, u_old)
-    u_cross = (cross_v - qn) / gn
-    reaches = sn * (un - u_cross) > 0
-    u_after = un + (u_start - un) * np.exp(-min_closure_s / tau_n)
-    crossed = sn * (u_after - u_cross) >= 0
-    u_left = np.where(crossed, u_after, u_cross)
-    left_v = qn + gn * u_left
-    v_back0 = qb + gb * u_left  # the receiver as the contact bounces open
     with np.errstate(divide="ignore", invalid="ignore"):
+        u_cross = (cross_v - qn) / gn
+        reaches = sn * (un - u_cross) > 0
+        u_after = un + (u_start - un) * np.exp(-min_closure_s / tau_n)
+        crossed = sn * (u_after - u_cross) >= 0
+        u_left = np.where(crossed, u_after, u_cross)
+        left_v = qn + gn * u_left
+        v_back0 = qb + gb * u_left  # the receiver as the contact bounces open
         u_opp = np.where(gb > 0, (opp_v - qb) / gb, np.nan)
         past = -d * (v_back0 - opp_v) >= 0  # already back across as the contact bounces
         gets_there = np.isfinite(ub) & (gb > 0) & (-d * (qb + gb * ub - opp_v) > 0)
         t = np.where(past, 0.0, np.where(gets_there, tau_b * np.log((ub - u_left) / (ub - u_opp)), np.inf))
-    t = np.where(reaches, t, np.nan)
-    with np.errstate(divide="ignore", invalid="ignore"):
+        t = np.where(reaches, t, np.nan)
         t_cross = np.where(reaches, np.maximum(tau_n * np.log((un - u_start) / (un - u_cross)), 0.0), np.inf)
-    return t, left_v, ~crossed, tau_n, tau_b, t_cross
+    return _Figures(t, left_v, ~crossed, t_cross)
 
 
-__all__ = ["MIN_CLOSURE_S", "TRANSIT", "PullBack", "bounce_state", "pull_back"]
+__all__ = ["MIN_CLOSURE_S", "TRANSIT", "PullBack", "bounce_state", "pull_back", "pull_backs"]

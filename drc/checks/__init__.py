@@ -75,6 +75,10 @@ def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float]
     board_name = getattr(board, "path", "") or ""
     contexts = _contexts(rules, board_name, limits, locations)
     stage_rules = [(r, c) for r, c in contexts if r.kind == RuleKind.STAGE]
+    results = list(results)
+    for r, ctx in stage_rules:
+        if r.prepare is not None:
+            r.prepare(results, ctx)
     findings: list[Finding] = []
     for result in results:
         for r, ctx in stage_rules:

@@ -17,7 +17,7 @@ reports the reading that comes nearer to passing (its fix is the smaller step).
 
 from __future__ import annotations
 
-from drc.analysis.first_edge import PullBack, pull_back
+from drc.analysis.first_edge import PullBack, pull_back, pull_backs
 from drc.analysis.results import EDGES, EdgeResult, StageResult
 from drc.checks.common import RC_KINDS, contact_name, is_schmitt, threshold_name, timing_parts, timing_text
 from drc.checks.context import RuleContext, figure
@@ -74,19 +74,33 @@ DOC = RuleDoc(
 )
 
 
-@rule(DOC, kind="stage")
-def check(result: StageResult, ctx: RuleContext):
+def _timed(result: StageResult, ctx: RuleContext):
+    """(edge, the time it must take) of each RC edge that reaches its threshold within the bounce."""
     stage = result.stage
     if stage.kind not in RC_KINDS:
         return
-    margin = ctx.limit(MARGIN)
-    needed = stage.contact.bounce_s * margin
-    rx = result.receiver_electrical
+    needed = stage.contact.bounce_s * ctx.limit(MARGIN)
     for name in EDGES:
         edge = result.edges.get(name)
-        if edge is None or edge.fastest_s is None or edge.fastest_s >= needed:
-            continue
-        back = (pull_back(stage, rx, name, ctx.limit(MIN_CLOSURE))
+        if edge is not None and edge.fastest_s is not None and edge.fastest_s < needed:
+            yield edge, needed
+
+
+def prepare(results: list[StageResult], ctx: RuleContext) -> None:
+    """The closure-and-opening readings of every edge the check will ask about, in one
+    batch (drc.analysis.first_edge keeps them; the check reads them one by one)."""
+    wanted = [(r.stage, r.receiver_electrical, edge.edge) for r in results
+              if r.receiver_electrical is not None and is_schmitt(r) for edge, _ in _timed(r, ctx)]
+    if wanted:
+        pull_backs(wanted, ctx.limit(MIN_CLOSURE))
+
+
+@rule(DOC, kind="stage", prepare=prepare)
+def check(result: StageResult, ctx: RuleContext):
+    margin = ctx.limit(MARGIN)
+    rx = result.receiver_electrical
+    for edge, needed in _timed(result, ctx):
+        back = (pull_back(result.stage, rx, edge.edge, ctx.limit(MIN_CLOSURE))
                 if rx is not None and is_schmitt(result) else None)
         if back is not None and (back.fastest_s is None or back.fastest_s >= needed):
             continue  # passes by the closure-and-opening reading

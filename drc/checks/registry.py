@@ -54,6 +54,11 @@ class Rule:
     doc: RuleDoc
     kind: RuleKind
     check: Callable
+    # Stage rules only, optional: prepare(results, ctx) is called once with all the
+    # board's StageResults before `check` sees any of them, so that a rule can work
+    # out what it needs for all stages at once (in one batch) and read it per stage.
+    # It returns nothing and must not change what `check` finds, only how fast.
+    prepare: Callable | None = None
 
     @property
     def id(self) -> str:
@@ -74,8 +79,9 @@ _REGISTRY: dict[str, Rule] = {}
 _GENERATION = 0
 
 
-def rule(doc: RuleDoc, kind: str = "stage") -> Callable[[Callable], Callable]:
-    """Decorator: register `check` under `doc.id` as a rule of `kind`.
+def rule(doc: RuleDoc, kind: str = "stage", prepare: Callable | None = None) -> Callable[[Callable], Callable]:
+    """Decorator: register `check` under `doc.id` as a rule of `kind` (a stage rule may
+    have a `prepare`, see `Rule`).
 
     Refuses a second rule with the same id (two packs colliding is a bug to
     see, not to resolve silently) and an unknown kind or severity.
@@ -84,12 +90,14 @@ def rule(doc: RuleDoc, kind: str = "stage") -> Callable[[Callable], Callable]:
         raise ValueError(f"rule {doc.id!r}: kind must be one of {RULE_KINDS}, got {kind!r}")
     if doc.severity not in _SEVERITY_NAMES:
         raise ValueError(f"rule {doc.id!r}: severity must be one of {_SEVERITY_NAMES}, got {doc.severity!r}")
+    if prepare is not None and kind != RuleKind.STAGE:
+        raise ValueError(f"rule {doc.id!r}: only a stage rule has a prepare step")
 
     def register(check: Callable) -> Callable:
         global _GENERATION
         if doc.id in _REGISTRY and _REGISTRY[doc.id].check is not check:
             raise ValueError(f"rule id {doc.id!r} is already registered")
-        _REGISTRY[doc.id] = Rule(doc=doc, kind=RuleKind(kind), check=check)
+        _REGISTRY[doc.id] = Rule(doc=doc, kind=RuleKind(kind), check=check, prepare=prepare)
         _GENERATION += 1
         return check
 

@@ -24,17 +24,17 @@ def test_reused_reading_equals_a_fresh_one_renamed(edge):
         fresh.append(first_edge.pull_back(stage, rx, edge))
     clear_caches()
     computed = []
-    real = first_edge._pull_back_now
+    real = first_edge._read
 
-    def counting(*args):
-        computed.append(args[0].contact.designator)
-        return real(*args)
+    def counting(wanted, which, min_closure_s):
+        computed.extend(wanted[i][0].contact.designator for i in which)
+        return real(wanted, which, min_closure_s)
 
-    first_edge._pull_back_now = counting
+    first_edge._read = counting
     try:
         again = [first_edge.pull_back(stage, rx, edge) for stage, rx in zip(stages, rxs, strict=True)]
     finally:
-        first_edge._pull_back_now = real
+        first_edge._read = real
     assert again == fresh
     assert any(back is not None for back in fresh)
     assert len(computed) == 2  # one per design: SW1's (shared by SW2, SW3) and SW4's

@@ -80,6 +80,35 @@ def test_unknown_kind_or_severity_is_refused():
         rule(replace(doc, id="x-bad", severity="fatal"))
 
 
+def test_a_prepare_step_sees_every_stage_before_the_check_and_only_stage_rules_have_one():
+    # The engine's promise (checks/registry.Rule.prepare): one call with all the results,
+    # before the first check, and only for a selected rule.
+    doc = RuleDoc(id="test-pack-prepared", title="counts what it was prepared for", severity="note",
+                  what="w" * 40, why="w" * 40, how="w" * 40, fix="w" * 40,
+                  failing_example="", passing_example="")
+    calls = []
+
+    def prepare(results, ctx):
+        calls.append(("prepare", len(results)))
+
+    @rule(doc, kind="stage", prepare=prepare)
+    def counted(res, ctx):
+        calls.append(("check", 1))
+        return ()
+
+    try:
+        results = [result(), result(pull_a=5e-3)]
+        run_rules(None, iter(results), LIMITS, selected_ids={"test-pack-prepared"})
+        assert calls == [("prepare", 2), ("check", 1), ("check", 1)]
+        calls.clear()
+        run_rules(None, results, LIMITS, selected_ids={"pullup-waste"})
+        assert calls == []
+    finally:
+        unregister(["test-pack-prepared"])
+    with pytest.raises(ValueError):
+        rule(doc, kind="board", prepare=prepare)
+
+
 def test_selection():
     res = result(pull_a=5e-3)  # over the 1 mA budget
     everything = run_rules(None, [res], LIMITS)
