@@ -32,6 +32,14 @@ The fastest pull back is searched over every vertex of the tolerance box
 opposite one nearest too; leakage over both levels' ranges), and the nominal
 corner with typical thresholds is what `drc simulate` counts. The rule
 bounce-window reads this for Schmitt inputs (drc/checks/bounce_window.py).
+
+A board has hundreds of such edges and few circuit shapes, so `pull_backs`
+reads many edges at once: the stages of one structure (values aside) and one
+edge share the compiled template of physics/batch.py, and their rows (each
+edge's nominal corner and every vertex of its box) are solved in one stack:
+the nominal levels that give each edge its direction, the old state's steady
+level and both states' time constants. Every row is its own arithmetic, so a
+reading is the same alone (`pull_back`: a batch of one) or in a batch.
 """
 
 from __future__ import annotations
