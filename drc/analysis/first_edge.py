@@ -144,7 +144,7 @@ def pull_backs(wanted: Sequence[Wanted], min_closure_s: float = MIN_CLOSURE_S) -
         else:
             todo.setdefault(key, []).append(i)
     first = [idx[0] for idx in todo.values()] + alone
-    read = _read(wanted, first, min_closure_s)
+    read = _read(wanted, first, min_closure_s) if first else {}
     for i in alone:
         out[i] = read[i]
     for key, idx in todo.items():

@@ -235,12 +235,12 @@ def _receivers_beyond(index: TraceIndex, nets: tuple[str, ...]) -> list[str]:
             continue  # an emitter to ground: the receivers on ground are not behind it
         for receiver in index.receivers_at.get(k, ()):
             found.setdefault(receiver.ref)
-        for i in index.passives.get(k, ()):
+        for i in index.passives_at(k, net):
             for node in index.elements[i].nodes:
                 other = key(node)
                 if other == k or index.is_boundary(other):
                     continue
-                region = index.region_id(other)
+                region = index.region_id(other, node)
                 for n in index.region_nets(region):
                     for receiver in index.receivers_at.get(n, ()):
                         found.setdefault(receiver.ref)

@@ -11,11 +11,19 @@ built in one pass over the netlist. The connected passive region around a
 net is walked once and shared by every contact in it, so a board with a
 hundred thousand elements and thousands of contacts is traced in one linear
 pass. No graph of every pin is built.
+
+Memory: the reader writes each net with one spelling (the first it met, for
+every element on the net), so the passive index is keyed by the spellings
+the elements already hold (no folded copy of every net name), and a net with
+one passive pin, most nets of a large board, holds its element's index
+itself rather than a list: at a million elements that is about 150 MB less.
+Lookups by key go through the spelling (`TraceIndex.passives_at`).
 """
 
 from __future__ import annotations
 
 from collections import defaultdict
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 
 from drc.board.board import Board, Contact, Receiver
@@ -69,7 +77,7 @@ class TraceIndex:
     board: Board
     elements: list[Element]
     names: dict[str, str]  # key(net) -> spelling of its first appearance
-    passives: dict[str, list[int]]  # key(net) -> indices into elements
+    passives: dict[str, int | list[int]]  # net as spelled -> index (or indices) into elements
     contacts_at: dict[str, list[int]]  # key(net) -> indices into board.contacts
     stops: frozenset[str]  # rails and ground
     driven: frozenset[str]  # nets a part output drives
@@ -77,31 +85,53 @@ class TraceIndex:
     outputs_at: dict[str, list[tuple[str, int]]]  # key(net) -> (part key, pin)
     _region_of: dict[str, int] = field(default_factory=dict)
     _regions: list[_Region] = field(default_factory=list)
+    _folded: dict[str, str] | None = None
 
     def name(self, net: str) -> str:
         return self.names.get(key(net), net)
+
+    def passives_at(self, net_key: str, spelled: str | None = None) -> Sequence[int]:
+        """Indices of the passive elements on the net of key `net_key`, in netlist order
+        (`spelled`: the net as written, where the caller has it)."""
+        if spelled is None:
+            spelled = self.names.get(net_key)
+            if spelled is None:  # a net no walk has met: its spelling from a pass over the index
+                spelled = self._spellings().get(net_key, net_key)
+        found = self.passives.get(spelled)
+        if found is None:
+            return ()
+        return (found,) if found.__class__ is int else found  # type: ignore[return-value]
 
     def is_boundary(self, net: str) -> bool:
         k = key(net)
         return k in self.stops or k in self.driven
 
+    def _spellings(self) -> dict[str, str]:
+        """key(net) -> its spelling, for every net of the index (made once, when first needed)."""
+        if self._folded is None:
+            self._folded = {spelled.casefold(): spelled for spelled in reversed(self.passives)}
+        return self._folded
+
     def region_nets(self, rid: int) -> list[str]:
         """The interior net keys of region `rid` (see region_id)."""
         return self._regions[rid].nets
 
-    def region_id(self, start: str) -> int:
-        """The number of the connected passive region containing interior net key `start`.
+    def region_id(self, start: str, spelled: str | None = None) -> int:
+        """The number of the connected passive region containing interior net key `start`
+        (`spelled`: the net as written, where the caller has it).
 
         Regions are walked on first use and remembered by the index.
         """
         found = self._region_of.get(start)
         if found is not None:
             return found
+        if spelled is not None:
+            self.names.setdefault(start, spelled)
         rid = len(self._regions)
         region = _Region()
         self._regions.append(region)
         region_of, stops, driven, names = self._region_of, self.stops, self.driven, self.names
-        passives, contacts_at = self.passives, self.contacts_at
+        contacts_at = self.contacts_at
         elements, contacts = self.elements, self.board.contacts
         region_of[start] = rid
         stack = [start]
@@ -109,7 +139,7 @@ class TraceIndex:
             net = stack.pop()
             region.nets.append(net)
             neighbours: list[str] = []
-            for index in passives.get(net, ()):
+            for index in self.passives_at(net):
                 if index not in region.elements:
                     region.elements.add(index)
                     neighbours.extend(elements[index].nodes)
@@ -133,20 +163,22 @@ def build_index(board: Board) -> TraceIndex:
     """Index the board's nets for tracing, in one pass over the netlist."""
     elements = board.netlist.elements
     kinds = PASSIVE_KINDS
-    # Every passive pin of the board passes here: group by spelling first (a
-    # comprehension and a defaultdict, no casefold per pin), then fold each
-    # spelling once. Lists stay in element order (merged spellings re-sorted).
-    # (A plain loop: a list of every (pin, index) pair first cost 180 MB at 1M elements.)
-    by_spelling: defaultdict[str, list[int]] = defaultdict(list)
+    # Every passive pin of the board passes here (a plain loop: a list of every
+    # (pin, index) pair first cost 180 MB at 1M elements). Keyed by the net's
+    # spelling: one per net, the reader's (see the module docstring); one pin's
+    # net holds the bare index, a list starts at the second pin, in element order.
+    passives: dict[str, int | list[int]] = {}
+    get = passives.get
     for index, element in enumerate(elements):
         if element.kind in kinds:
             for node in element.nodes:
-                by_spelling[node].append(index)
-    passives: dict[str, list[int]] = {}
-    for spelled, indices in by_spelling.items():
-        k = spelled.casefold()
-        found = passives.get(k)
-        passives[k] = indices if found is None else sorted(found + indices)
+                found = get(node)
+                if found is None:
+                    passives[node] = index
+                elif found.__class__ is int:
+                    passives[node] = [found, index]
+                else:
+                    found.append(index)  # type: ignore[union-attr]
     # Spellings: the reader keeps one spelling per net, so any occurrence
     # names it; board objects first, element nodes as regions are walked.
     names: dict[str, str] = {key(GROUND): GROUND}
@@ -246,7 +278,7 @@ def _region_summary(index: TraceIndex, region_ids: list[int], landed_driven: lis
     # On an output-driven net the contact lands on, keep the parts that only
     # tie that net to a rail or ground (its pull resistor, a capacitor).
     for net in landed_driven:
-        for i in index.passives.get(net, ()):
+        for i in index.passives_at(net):
             if all(key(n) in index.stops or key(n) == net for n in index.elements[i].nodes):
                 element_ids.add(i)
                 boundary.update(key(n) for n in index.elements[i].nodes)

@@ -70,18 +70,55 @@ class Locations(Mapping):
 
     Elements are indexed by designator (the first of a duplicate wins) and
     their location made only when a finding asks for it: a board has a
-    hundred thousand elements and a few thousand findings.
+    hundred thousand elements and a few thousand findings. The index is made
+    on first use, keyed by the designators as written (the reader refuses two
+    designators that differ only in case, so the spelling finds the element);
+    the folded keys of every element are made only if a lookup needs them
+    (at a million elements they are 100 MB).
     """
 
-    __slots__ = ("_elements", "_others")
+    __slots__ = ("_elements", "_others", "_spelled", "_shadow", "_folded")
 
     def __init__(self, elements, others: dict[str, SourceLocation]) -> None:
-        backwards = elements[::-1]  # later duplicates first, so the first one wins
-        self._elements = dict(zip(map(str.casefold, map(_DESIGNATOR, backwards)), backwards, strict=True))
+        self._elements = elements
         self._others = others
+        self._spelled: dict[str, object] | None = None
+        self._shadow: dict[str, object] | None = None
+        self._folded: dict[str, object] | None = None
+
+    def _by_key(self) -> dict:
+        if self._folded is None:
+            backwards = self._elements[::-1]  # later duplicates first, so the first one wins
+            self._folded = dict(zip(map(str.casefold, map(_DESIGNATOR, backwards)), backwards, strict=True))
+        return self._folded
+
+    def find(self, designator: str) -> SourceLocation | None:
+        """What `get(key(designator))` gives, without folding every designator of the board:
+        the element written so, else the first element of the part's or contact's key
+        (one pass, keeping only those), else the part or contact."""
+        if self._folded is not None:
+            return self.get(designator.casefold())
+        if self._spelled is None:
+            backwards = self._elements[::-1]
+            self._spelled = dict(zip(map(_DESIGNATOR, backwards), backwards, strict=True))
+        element = self._spelled.get(designator)
+        if element is not None:
+            return element.location  # type: ignore[attr-defined]
+        k = designator.casefold()
+        if k not in self._others:
+            return self.get(k)  # written otherwise than in the netlist: every key, once
+        if self._shadow is None:
+            shadow: dict[str, object] = {}
+            for e in self._elements:
+                folded = e.designator.casefold()
+                if folded in self._others and folded not in shadow:
+                    shadow[folded] = e
+            self._shadow = shadow
+        element = self._shadow.get(k)
+        return element.location if element is not None else self._others[k]  # type: ignore[attr-defined]
 
     def get(self, k, default=None):
-        element = self._elements.get(k)
+        element = self._by_key().get(k)
         if element is not None:
             return element.location
         return self._others.get(k, default)
@@ -93,11 +130,13 @@ class Locations(Mapping):
         return found
 
     def __iter__(self):
-        yield from self._elements
-        yield from (k for k in self._others if k not in self._elements)
+        folded = self._by_key()
+        yield from folded
+        yield from (k for k in self._others if k not in folded)
 
     def __len__(self) -> int:
-        return len(self._elements) + sum(1 for k in self._others if k not in self._elements)
+        folded = self._by_key()
+        return len(folded) + sum(1 for k in self._others if k not in folded)
 
 
 _MISSING = object()
@@ -144,7 +183,10 @@ class RuleContext:
         return Severity(finding_default) if finding_default else self.default_severity
 
     def location(self, designator: str) -> SourceLocation | None:
-        return self.locations.get(key(designator))
+        locations = self.locations
+        if isinstance(locations, Locations):
+            return locations.find(designator)
+        return locations.get(key(designator))
 
     def finding(self, *, parts: tuple[str, ...], message: str, fix: str,
                 measured: Figure | None, limit: Figure | None,
