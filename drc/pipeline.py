@@ -87,6 +87,9 @@ class CheckedBoard:
     reader_diagnostics: tuple = ()
     survey: Survey | None = None  # what became of every contact (drc/board/coverage.py)
     config_diagnostics: tuple = ()  # config entries that override a part number in the netlist
+    # The board's inventory, counted right after tracing, while the least else is held
+    # (the count of distinct nets of a million elements is a set of them); None: count it later.
+    inventory: Inventory | None = None
 
 
 # What checking a board imports, beyond this module: `preload` imports it ahead.
@@ -251,10 +254,12 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
                      if options.default_bounce_s is not None else config.default_bounce_s,
                      debounces=annotations.debounces if annotations else None)
     survey = survey_board(board, lib)
+    counted = inventory(board)
     results = analyse_board(board, config, survey.paths)
     limits = effective_limits(config)
     selected = selected_rule_ids(config, options)
-    findings = run_rules(board, results, limits, selected, survey.unchecked)
+    near = (e for path in survey.paths for e in path.elements)  # what findings are about
+    findings = run_rules(board, results, limits, selected, survey.unchecked, near)
     if options.propose_fixes and findings:
         findings = _with_fixes(results, findings, limits, options.eseries or config.eseries)
     waived = [(w.rule, w.parts, w.reason, w.location) for w in annotations.waivers] if annotations else []
@@ -265,7 +270,8 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
                         annotation_notes=judged.annotation_notes, files=tuple(netlist.files),
                         reader_diagnostics=tuple(netlist.diagnostics)
                         + _annotation_diagnostics(annotations, board), survey=survey,
-                        config_diagnostics=tuple(override_warnings(netlist, lib, config)))
+                        config_diagnostics=tuple(override_warnings(netlist, lib, config)),
+                        inventory=counted)
 
 
 def _annotation_diagnostics(annotations, board) -> tuple:
@@ -310,7 +316,7 @@ def board_report(check: CheckedBoard) -> BoardReport:
                        contacts=len(board.contacts), stage_kinds=dict(kinds),
                        diagnostics=tuple(seen), notes=tuple(notes),
                        config_path=check.config.path if check.config else None,
-                       files=check.files, inventory=inventory(board), coverage=coverage)
+                       files=check.files, inventory=check.inventory or inventory(board), coverage=coverage)
 
 
 def contact_coverage(survey: Survey):

@@ -61,17 +61,20 @@ def _selected(selected_ids: Iterable[str] | None, kind: str | None = None) -> li
 
 
 def run_rules(board, results: Iterable[StageResult], limits: Mapping[str, float],
-              selected_ids: Iterable[str] | None = None, unchecked: Iterable = ()) -> list[Finding]:
+              selected_ids: Iterable[str] | None = None, unchecked: Iterable = (),
+              near: Iterable = ()) -> list[Finding]:
     """Run the selected rules (None = all) on one board; findings in a stable order.
 
     Order: stage by stage (in the order of `results`), rules in catalogue
     order within a stage; then the input rules over `unchecked` (the
     UncheckedInputs of drc/board/coverage.py); then the board rules. Each
     finding has its rule's severity; the user's overrides are the gate's
-    (drc.gate.decision).
+    (drc.gate.decision). near: the netlist elements the findings are most likely
+    about (those on the checked paths): their locations are found without an index
+    of every element of the board.
     """
     rules = _selected(selected_ids)
-    locations = locations_of(board)
+    locations = locations_of(board, near)
     board_name = getattr(board, "path", "") or ""
     contexts = _contexts(rules, board_name, limits, locations)
     stage_rules = [(r, c) for r, c in contexts if r.kind == RuleKind.STAGE]

@@ -11,7 +11,7 @@ once per board, not per finding.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from operator import attrgetter
 
@@ -77,11 +77,14 @@ class Locations(Mapping):
     (at a million elements they are 100 MB).
     """
 
-    __slots__ = ("_elements", "_others", "_spelled", "_shadow", "_folded")
+    __slots__ = ("_elements", "_others", "_near", "_spelled", "_shadow", "_folded")
 
-    def __init__(self, elements, others: dict[str, SourceLocation]) -> None:
+    def __init__(self, elements, others: dict[str, SourceLocation], near: Iterable = ()) -> None:
         self._elements = elements
         self._others = others
+        # Elements asked about most (on the checked paths): found by their designator as
+        # written before any index of the whole board is made (designators are unique).
+        self._near: dict[str, object] = {e.designator: e for e in near}
         self._spelled: dict[str, object] | None = None
         self._shadow: dict[str, object] | None = None
         self._folded: dict[str, object] | None = None
@@ -94,28 +97,38 @@ class Locations(Mapping):
 
     def find(self, designator: str) -> SourceLocation | None:
         """What `get(key(designator))` gives, without folding every designator of the board:
-        the element written so, else the first element of the part's or contact's key
-        (one pass, keeping only those), else the part or contact."""
+        an element near the findings written so; for a part's or contact's name, the first
+        element of that key (one pass, keeping only those), else the part or contact;
+        else the element written so (an index of the designators as written)."""
         if self._folded is not None:
             return self.get(designator.casefold())
+        element = self._near.get(designator)
+        if element is not None:
+            return element.location  # type: ignore[attr-defined]
+        k = designator.casefold()
+        if k in self._others:
+            element = self._shadowed().get(k)
+            return element.location if element is not None else self._others[k]  # type: ignore[attr-defined]
         if self._spelled is None:
             backwards = self._elements[::-1]
             self._spelled = dict(zip(map(_DESIGNATOR, backwards), backwards, strict=True))
         element = self._spelled.get(designator)
         if element is not None:
             return element.location  # type: ignore[attr-defined]
-        k = designator.casefold()
-        if k not in self._others:
-            return self.get(k)  # written otherwise than in the netlist: every key, once
+        return self.get(k)  # written otherwise than in the netlist: every key, once
+
+    def _shadowed(self) -> dict[str, object]:
+        """The first element of each part's or contact's key (most have none: a contact
+        of an X instance is named without its X)."""
         if self._shadow is None:
             shadow: dict[str, object] = {}
+            others = self._others
             for e in self._elements:
                 folded = e.designator.casefold()
-                if folded in self._others and folded not in shadow:
+                if folded in others and folded not in shadow:
                     shadow[folded] = e
             self._shadow = shadow
-        element = self._shadow.get(k)
-        return element.location if element is not None else self._others[k]  # type: ignore[attr-defined]
+        return self._shadow
 
     def get(self, k, default=None):
         element = self._by_key().get(k)
@@ -142,8 +155,9 @@ class Locations(Mapping):
 _MISSING = object()
 
 
-def locations_of(board) -> Mapping[str, SourceLocation]:
-    """Designator key -> netlist location, for every element and part of a board."""
+def locations_of(board, near: Iterable = ()) -> Mapping[str, SourceLocation]:
+    """Designator key -> netlist location, for every element and part of a board
+    (`near`: elements of the board asked about most, see `Locations`)."""
     if board is None:
         return {}
     others: dict[str, SourceLocation] = {}
@@ -154,7 +168,7 @@ def locations_of(board) -> Mapping[str, SourceLocation]:
     netlist = getattr(board, "netlist", None)
     if netlist is None:
         return others
-    return Locations(netlist.elements, others)
+    return Locations(netlist.elements, others, near)
 
 
 @dataclass(slots=True)

@@ -298,6 +298,10 @@ def _print_report(name: str, run, options: RenderOptions) -> None:
         with stdout_console() as console:
             chosen.print_to(console, run, options)
         return
+    render_utf8 = getattr(chosen, "render_utf8", None)
+    write_utf8 = getattr(sys.stdout, "write_utf8", None)
+    if render_utf8 is not None and write_utf8 is not None and write_utf8(render_utf8(run, options)):
+        return  # the same bytes, never held as text (a large board's JSON is tens of MB)
     write_stdout(chosen.render(run, options))
 
 

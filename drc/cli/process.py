@@ -104,6 +104,20 @@ class _GuardedStream:
         except OSError as exc:
             raise _failure(exc) from None
 
+    def write_utf8(self, data: bytes) -> bool:
+        """Write UTF-8 text already encoded (a large report: no text copy of it), where the
+        stream writes UTF-8 to a descriptor with "\n" line ends; False (nothing written)
+        elsewhere, for the caller to write text."""
+        encoding = (self._stream.encoding or "utf-8").replace("_", "-").lower()
+        if self._fd is None or os.linesep != "\n" or encoding not in ("utf-8", "utf8"):
+            return False
+        try:
+            self._stream.flush()
+            write_all(self._fd, data)
+            return True
+        except OSError as exc:
+            raise _failure(exc) from None
+
     def flush(self) -> None:
         try:
             self._stream.flush()

@@ -188,18 +188,28 @@ def render_json(run: RunReport) -> str:
     return dump_indented(report_document(run)) + "\n"
 
 
+def render_json_utf8(run: RunReport) -> bytes:
+    """`render_json`'s text as UTF-8 bytes, made without a text copy (orjson writes bytes)."""
+    return dump_indented_utf8(report_document(run)) + b"\n"
+
+
 def dump_indented(value) -> str:
     """`value` as indented JSON (two spaces, sorted keys, UTF-8 kept); keys that are
     not strings (enums, numbers) are written as strings."""
+    return dump_indented_utf8(value).decode("utf-8")
+
+
+def dump_indented_utf8(value) -> bytes:
+    """`dump_indented`'s text, UTF-8 encoded."""
     import orjson
     option = orjson.OPT_INDENT_2 | orjson.OPT_SORT_KEYS | orjson.OPT_NON_STR_KEYS
     try:
-        return orjson.dumps(value, option=option).decode("utf-8")
+        return orjson.dumps(value, option=option)
     except orjson.JSONEncodeError:
         # A string holding a byte of a file name that is not UTF-8 (Python keeps it
         # as a lone surrogate, which JSON cannot carry): U+FFFD, as every output
         # writes it (drc.atomic). Only this rare case pays for the walk.
-        return orjson.dumps(_valid_text(value), option=option).decode("utf-8")
+        return orjson.dumps(_valid_text(value), option=option)
 
 
 _SURROGATE = re.compile("[\ud800-\udfff]")
@@ -223,3 +233,7 @@ class JsonFormatter:
 
     def render(self, run: RunReport, options: RenderOptions) -> str:
         return render_json(run)
+
+    def render_utf8(self, run: RunReport, options: RenderOptions) -> bytes:
+        """The same report as UTF-8 bytes (standard output writes them as they are)."""
+        return render_json_utf8(run)

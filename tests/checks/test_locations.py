@@ -42,9 +42,9 @@ def _names(board):
     return names[:400] + [n.lower() for n in names[:50]] + [n.upper() for n in names[:50]] + ["NOSUCH9"]
 
 
-def _context(board):
+def _context(board, near=()):
     return RuleContext(rule_id="x", default_severity=Severity.ERROR, board_name="b", limits={},
-                       locations=locations_of(board))
+                       locations=locations_of(board, near))
 
 
 @pytest.mark.parametrize("name", ["front_panel.cir", "remote_pod.cir", "generated"])
@@ -56,7 +56,10 @@ def test_a_finding_is_located_as_the_definition_says(name, tmp_path):
         path = ROOT / "boards" / "lx24" / name
     board = check_board_in_memory(path, CheckOptions(propose_fixes=False)).board
     names = _names(board)
-    ctx = _context(board)
-    assert [ctx.location(n) for n in names] == [_plain(board, n) for n in names]
+    plain = [_plain(board, n) for n in names]
+    assert [_context(board).location(n) for n in names] == plain
+    # With the elements of the checked paths found first (what the pipeline passes).
+    near = [e for e in board.netlist.elements[::3]]
+    assert [_context(board, near).location(n) for n in names] == plain
     assert any(c.designator not in {e.designator for e in board.netlist.elements} for c in board.contacts) \
         or name != "generated"  # contacts named apart from their X instance: the part of the lookup that scans
