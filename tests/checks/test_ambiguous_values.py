@@ -12,6 +12,8 @@ letter-digit code (`4k7` is 4.7 kΩ, `2R2` is 2.2 Ω).
 
 from __future__ import annotations
 
+import re
+
 import pytest
 
 from drc.checks.ambiguous_value import classify_value_text
@@ -55,13 +57,18 @@ def test_an_m_on_a_resistor_is_read_as_ngspice_reads_it(value):
     assert f.measured.value == pytest.approx(spice_reads(value), rel=1e-9) and f.measured.unit == "Ω"
 
 
-@pytest.mark.parametrize("value, meant", [("4k7", 4.7e3), ("2R2", 2.2), ("1M5", 1.5e6), ("8k2", 8.2e3),
-                                          ("1M", 1e-3), ("10M", 10e-3), ("470m", 0.47)])
-def test_the_fix_spells_the_value_with_the_spice_scale_letters(value, meant):
-    [f] = finding_for(value)
+@pytest.mark.parametrize("kind, value, meant", [
+    ("R", "4k7", 4.7e3), ("R", "2R2", 2.2), ("R", "1M5", 1.5e6), ("R", "8k2", 8.2e3),
+    ("R", "1M", 1e-3), ("R", "10M", 10e-3), ("R", "470m", 0.47),
+    ("C", "4u7", 4.7e-6), ("C", "4n7", 4.7e-9), ("C", "2n2", 2.2e-9), ("C", "4p7", 4.7e-12)])
+def test_the_fix_spells_the_value_with_the_spice_scale_letters(kind, value, meant):
+    # Engineering notation (SI prefixes in steps of 1000): the mantissa is in [1, 1000).
+    [f] = finding_for(value, kind)
     spelled = [w.strip("',") for w in f.fix.split() if w.startswith("'")][-1]  # the value as read
     number = next(s for s in sorted(SPICE_SCALE, key=len, reverse=True) if spelled.endswith(s))
-    assert float(spelled[:len(spelled) - len(number)]) * SPICE_SCALE[number] == pytest.approx(meant, rel=1e-3)
+    mantissa = float(spelled[:len(spelled) - len(number)])
+    assert mantissa * SPICE_SCALE[number] == pytest.approx(meant, rel=1e-3)
+    assert 1.0 <= mantissa < 1000.0, spelled
 
 
 def test_a_capacitor_with_a_farad_letter_is_femto():
@@ -75,3 +82,36 @@ def test_a_capacitor_with_a_farad_letter_is_femto():
                                         ("R", "k4"), ("C", "1M"), ("R", "1f")])
 def test_plain_values_are_not_ambiguous(kind, text):
     assert classify_value_text(kind, text) is None
+
+
+@pytest.mark.parametrize("value, number", [("1M", 1.0), ("10M", 10.0), ("4.7M", 4.7), ("470m", 470.0)])
+def test_an_m_on_a_resistor_offers_the_megohm_spelling(value, number):
+    # If a megohm was meant, the written number with SPICE's Meg (1e6, ngspice manual 2.1.3).
+    [f] = finding_for(value)
+    first = [w.strip("',") for w in f.fix.split() if w.startswith("'")][0]
+    assert first.endswith("Meg") and float(first[:-3]) * SPICE_SCALE["Meg"] == pytest.approx(number * 1e6)
+
+
+def _quoted(text: str, unit: str) -> float:
+    prefixes = {"M": 1e6, "k": 1e3, "": 1.0, "m": 1e-3, "µ": 1e-6, "n": 1e-9, "p": 1e-12, "f": 1e-15}
+    number, scaled = text.split()
+    assert scaled.endswith(unit), text
+    return float(number) * prefixes[scaled[:-len(unit)]]
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("value, pattern", [
+    ("4k7", r"ngspice's default mode reads (\S+ \S+)$"), ("2R2", r"ngspice's default mode reads (\S+ \S+)$"),
+    ("1M5", r"ngspice's default mode reads (\S+ \S+)$"),
+    ("1M", r"is (\S+ \S+) in SPICE"), ("470m", r"is (\S+ \S+) in SPICE")])
+def test_the_message_quotes_what_ngspice_reads(value, pattern):
+    [f] = finding_for(value)
+    [quoted] = re.findall(pattern, f.message)
+    assert _quoted(quoted, "Ω") == pytest.approx(spice_reads(value), rel=1e-3)
+
+
+def test_the_message_quotes_a_farad_letter_as_femto():
+    # SPICE scale table (ngspice manual 2.1.3): f is 1e-15, whatever its case.
+    [f] = finding_for("47F", "C")
+    [quoted] = re.findall(r"is (\S+ \S+) in SPICE", f.message)
+    assert _quoted(quoted, "F") == pytest.approx(47e-15)

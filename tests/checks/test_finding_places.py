@@ -9,6 +9,7 @@ designators match case-insensitively and the first of a duplicate wins.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Mapping
 
 import pytest
@@ -38,6 +39,9 @@ def test_a_stage_finding_sits_at_its_contact_with_its_parts_related():
     assert LINE["SW1"] not in related and LINE["XU1"] in related
     assert set(related) <= {LINE["R1"], LINE["R2"], LINE["C1"], LINE["XU1"]} and LINE["C1"] in related
     assert len(related) == len(set(related))
+    for g in (g for g in findings if g.rule == "bounce-window"):  # each part named, the contact aside
+        named = [LINE["XU1" if p == "U1" else p] for p in g.parts[1:]]
+        assert sorted(loc.line for loc in g.related) == sorted(named)
     assert f.contact == "SW1" and f.receiver == "U1:1" and f.board == "place.cir"
     assert "SWN" in f.nets and "IN" in f.nets
 
@@ -48,6 +52,7 @@ def test_a_part_finding_sits_at_its_part():
     [f] = [f for f in findings if f.rule == "ambiguous-value"]
     assert f.parts == ("R3",) and f.location.line == LINE["C1"]  # R3 is the sixth line now
     assert f.severity == "warning" and f.measured.value == pytest.approx(1e-3) and f.measured.unit == "Ω"
+    assert f.nets == ("IN", "0") and f.related == ()  # the part's own nets, as written on its line
 
 
 def test_locations_index_every_element_and_part():
@@ -57,8 +62,9 @@ def test_locations_index_every_element_and_part():
     assert where["sw1"].line == LINE["SW1"] and where["r2"].line == LINE["R2"] and where["xu1"].line == LINE["XU1"]
     assert where.get("u1") is not None and where["u1"].line == LINE["XU1"]  # the part by its own name
     assert where.get("nothing") is None and where.get("nothing", 7) == 7
-    with pytest.raises(KeyError):
+    with pytest.raises(KeyError) as missing:
         where["nothing"]
+    assert missing.value.args == ("nothing",)  # the Mapping protocol: a dict's KeyError carries the key
     names = list(where)
     assert len(names) == len(set(names)) == len(where)
     assert {"v1", "xu1", "r1", "r2", "c1", "sw1", "u1"} <= set(names)
@@ -74,10 +80,10 @@ def test_the_first_of_a_duplicate_designator_wins_and_elements_before_parts():
     loc = [SourceLocation("x.cir", n, 1) for n in range(5)]
     elements = [SimpleNamespace(designator="R1", location=loc[1]), SimpleNamespace(designator="r1", location=loc[2]),
                 SimpleNamespace(designator="C1", location=loc[3])]
-    where = Locations(elements, {"r1": loc[4], "u1": loc[0]})
+    where = Locations(elements, {"r1": loc[4], "u1": loc[0], "u2": loc[4]})
     assert where["r1"] == loc[1] and where["c1"] == loc[3] and where["u1"] == loc[0]
-    assert sorted(where) == ["c1", "r1", "u1"]
-    assert len(where) == 3
+    assert sorted(where) == ["c1", "r1", "u1", "u2"]
+    assert len(where) == 4 == len(list(where))  # a Mapping's length is the number of keys it iterates
 
 
 def test_a_timing_finding_names_the_parts_its_edge_charges_through():
@@ -91,6 +97,25 @@ def test_a_timing_finding_names_the_parts_its_edge_charges_through():
     assert set(found) == {"press", "release"}
     assert found["press"].parts == ("SW1", "R2", "C1", "U1")
     assert found["release"].parts == ("SW1", "R1", "R2", "C1", "U1")
+    for f in found.values():  # the fix names the same parts, no others
+        assert re.findall(r"\b[RC]\d+\b", f.fix) == list(f.parts[1:-1])
+
+
+def test_a_resistor_across_the_capacitor_is_on_both_edges_paths():
+    # R9 from the pin to ground (neither pull nor series: role "other") sits in parallel with
+    # C1, so by hand (Thevenin seen from C1) it sets both edges' time constants.
+    from dataclasses import replace
+
+    from drc.board.stage import Resistor
+    from drc.checks import run_stage_rules
+    from tests.checks.builders import LIMITS, analysed, rc_stage
+    stage = rc_stage(r1=10e3, r2=10e3, c1=10e-9)
+    bled = replace(stage, circuit=replace(stage.circuit, resistors=stage.circuit.resistors + (
+        Resistor("R9", "in", "0", 100e3, role="other"),)), parts=stage.parts + ("R9",))
+    res = analysed(bled)
+    found = {f.message.split()[0]: f for f in run_stage_rules(res, LIMITS, selected_ids={"bounce-window"})}
+    assert found["press"].parts == ("SW1", "R2", "R9", "C1", "U1")
+    assert found["release"].parts == ("SW1", "R1", "R2", "R9", "C1", "U1")
 
 
 def test_no_latency_finding_when_the_edge_starts_from_a_floating_level():
@@ -104,3 +129,16 @@ def test_no_latency_finding_when_the_edge_starts_from_a_floating_level():
     assert run_stage_rules(res, LIMITS, selected_ids={"response-latency"}) == []
     defined = replace(res, levels={**res.levels, "pressed": level("pressed", "low", 0.0, 0.9, 0.9)})
     assert len(run_stage_rules(defined, LIMITS, selected_ids={"response-latency"})) == 1
+
+
+def test_a_finding_without_a_place_sits_at_its_first_part():
+    # RuleContext.finding, what a rule pack calls for a finding about parts: located at the
+    # first part's line, the others' lines related (the lines of BOARD, counted by hand).
+    from drc.checks.context import RuleContext
+    from drc.severity import Severity
+    board, _results, _findings = check_netlist_text(BOARD, "place.cir")
+    ctx = RuleContext("x-pack", Severity.NOTE, "place.cir", {}, locations_of(board))
+    f = ctx.finding(parts=("R2", "C1", "R1"), message="m", fix="f", measured=None, limit=None)
+    assert f.location.line == LINE["R2"] and [loc.line for loc in f.related] == [LINE["C1"], LINE["R1"]]
+    g = ctx.finding(parts=("C1", "C1"), message="m", fix="f", measured=None, limit=None)
+    assert g.location.line == LINE["C1"] and g.related == ()  # its own place is not a related one

@@ -83,6 +83,7 @@ def test_a_syntax_error_points_at_the_pack_line_and_column(packs):
         compile(path.read_text(), str(path), "exec")
     except SyntaxError as python:
         assert e.message.endswith(python.msg) and e.location.line == python.lineno
+        assert e.source_line == python.text and "y = (2 +" in e.source_line  # the line, shown under the place
 
 
 def test_an_error_in_the_pack_points_at_its_own_line(packs):

@@ -121,3 +121,28 @@ def test_a_missing_limit_is_a_clear_library_error():
     del limits["pull_current_budget"]
     with pytest.raises(LibraryError, match="pull_current_budget"):
         run_rules(None, [result()], limits)
+
+
+@pytest.mark.parametrize("rule_id", [rid for rid, _ in CATALOGUE])
+def test_get_rule_finds_the_rule_it_is_asked_for(rule_id):
+    assert get_rule(rule_id).id == rule_id
+
+
+def test_an_unknown_rule_id_names_the_known_ones():
+    # get_rule's contract (its docstring): the KeyError names the known ids.
+    with pytest.raises(KeyError) as err:
+        get_rule("no-such-rule")
+    text = str(err.value)
+    assert "no-such-rule" in text and all(rid in text for rid, _ in CATALOGUE)
+
+
+def test_a_refused_rule_is_named_in_the_refusal():
+    # A pack author reads this through RulePackError: it must say which rule was refused.
+    from dataclasses import replace
+    doc = get_rule("bounce-window").doc
+    with pytest.raises(ValueError, match="x-bad-kind"):
+        rule(replace(doc, id="x-bad-kind"), kind="netlist")
+    with pytest.raises(ValueError, match="x-bad-severity"):
+        rule(replace(doc, id="x-bad-severity", severity="fatal"))
+    with pytest.raises(ValueError, match="bounce-window"):
+        rule(doc)(lambda res, ctx: ())

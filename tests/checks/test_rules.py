@@ -7,6 +7,7 @@ asserted in messages are the inputs, re-read from the finding.
 
 from __future__ import annotations
 
+import re
 from dataclasses import replace
 
 import pytest
@@ -152,6 +153,44 @@ def test_headroom_ttl_iil_through_series_resistor():
     assert fired(good, "leakage-headroom") == []
 
 
+def _headroom(logic: str, rx):
+    # A level 0.1 V inside its threshold (margin 0.1 V, under the 0.5 V needed).
+    levels = {"released": level("released", "high", 4.9, 3.5, 1.4), "pressed": level("pressed", "low", 0.0, 0.9, 0.9)}
+    if logic == "high":
+        levels["released"] = level("released", "high", 3.6, 3.5, 0.1)
+    else:
+        levels["pressed"] = level("pressed", "low", 0.8, 0.9, 0.1)
+    [f] = fired(result(levels=levels, rx=rx), "leakage-headroom")
+    return f
+
+
+def _amps(text: str) -> float:
+    number, prefix = text.split()[0], text.split()[1][:-1]
+    return float(number) * {"": 1.0, "m": 1e-3, "µ": 1e-6, "n": 1e-9}[prefix]
+
+
+def test_headroom_names_the_current_that_shifts_the_level():
+    # The cause of a shifted level is the input current through the resistors (families.md
+    # note 4: a TTL input's IIL flows out of the pin, 0.4 mA for LS, and lifts a low level;
+    # a CMOS input's leakage, either way up to its maximum, moves a high one).
+    ttl = hc(schmitt=False, leak_low=(-0.4e-3, 0.0), family="LS")
+    low = _headroom("low", ttl)
+    [iil] = re.findall(r"IIL (\S+ \S+) out of the pin", low.message)
+    assert _amps(iil) == pytest.approx(0.4e-3)
+    assert "IIL" in low.fix and "CMOS" in low.fix  # a CMOS input draws no IIL
+    both_ways = replace(hc(), leak_high_a=(-2e-6, 1e-6))  # 2 µA out of the pin, 1 µA into it
+    high = _headroom("high", both_ways)
+    [leak] = re.findall(r"leakage up to (\S+ \S+)\)", high.message)
+    assert _amps(leak) == pytest.approx(2e-6)  # the larger of the two directions
+    assert "IIL" not in high.message and "IIL" not in high.fix
+
+
+def test_headroom_names_no_iil_when_no_current_leaves_the_pin():
+    into_pin = hc(leak_low=(0.0, 1e-6))  # the low level's leakage flows into the pin only
+    low = _headroom("low", into_pin)
+    assert "IIL" not in low.message and "IIL" not in low.fix
+
+
 def test_headroom_silent_with_wide_margin():
     assert fired(result(), "leakage-headroom") == []
 
@@ -252,3 +291,26 @@ def test_locations_come_from_the_netlist():
     res = result(stage, pull_a=5e-3)
     [f] = run_rules(board, [res], LIMITS, selected_ids={"pullup-waste"})
     assert f.board == "b.cir" and f.location == stage.contact.location
+
+
+# which states an edge joins -------------------------------------------------------
+
+@pytest.mark.parametrize("edge_name, floating", [("press", "pressed"), ("press", "released"),
+                                                 ("release", "released"), ("release", "pressed")])
+def test_no_latency_for_an_edge_into_or_out_of_a_floating_state(edge_name, floating):
+    # An edge joins its start state and the state it ends in (press: released -> pressed);
+    # when either has no defined level there is no edge to time: floating-input reports it.
+    direction = "falling" if edge_name == "press" else "rising"
+    late = {edge_name: edge(edge_name, 0.2, 0.3, direction)}  # 300 ms: over the 100 ms limit
+    defined = {"released": level("released", "high", 4.7, 3.5, 1.2), "pressed": level("pressed", "low", 0.0, 0.9, 0.9)}
+    assert len(fired(result(levels=defined, edges=late), "response-latency")) == 1
+    levels = {**defined, floating: level(floating, "undefined")}
+    assert fired(result(levels=levels, edges=late), "response-latency") == []
+
+
+@pytest.mark.parametrize("schmitt, kind", [(True, "Schmitt"), (False, "plain")])
+def test_the_message_says_whether_the_input_has_hysteresis(schmitt, kind):
+    stage = rc_stage(r2=None, c1=None, schmitt=schmitt)
+    [f] = fired(result(stage, rx=hc(schmitt)), "undebounced-input")
+    other = "plain" if schmitt else "Schmitt"
+    assert re.search(rf"\b{kind}\b", f.message) and not re.search(rf"\b{other}\b", f.message.split(" with ")[0])

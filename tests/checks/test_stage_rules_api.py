@@ -26,7 +26,7 @@ SW2 IN2 0 TACTILE
 
 
 def stage_ids(findings):
-    return [(f.rule, f.contact, f.receiver, f.parts, f.location, f.related) for f in findings
+    return [(f.rule, f.board, f.contact, f.receiver, f.parts, f.location, f.related) for f in findings
             if get_rule(f.rule).kind == RuleKind.STAGE]
 
 
@@ -50,3 +50,24 @@ def test_limits_are_read_per_call():
     loose = dict(limits, pull_current_budget=1.0)
     count = [len([f for r in results for f in run_stage_rules(r, lim, {"pullup-waste"})]) for lim in (strict, loose)]
     assert count == [2, 0]
+
+
+def test_without_a_board_both_ways_give_the_same_findings():
+    # No board: no board name and no netlist locations, the same through either way in.
+    board, results, _findings = check_netlist_text(BOARD, "two.cir")
+    limits = effective_limits(Config())
+    for selected in (None, {"bounce-window", "pullup-waste"}):
+        whole = run_rules(None, results, limits, selected)
+        alone = [f for r in results for f in run_stage_rules(r, limits, selected)]
+        assert alone == whole and whole
+        assert all(f.board == "" for f in whole)
+
+
+def test_a_board_without_a_path_has_no_name():
+    from dataclasses import replace
+    board, results, _findings = check_netlist_text(BOARD, "two.cir")
+    limits = effective_limits(Config())
+    nameless = replace(board, path="")
+    whole = run_rules(nameless, results, limits, {"pullup-waste"})
+    alone = [f for r in results for f in run_stage_rules(r, limits, {"pullup-waste"}, board=nameless)]
+    assert whole and stage_ids(alone) == stage_ids(whole) and all(f.board == "" for f in alone)
