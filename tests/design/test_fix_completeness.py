@@ -41,14 +41,14 @@ C_VALUES = np.array(list(iec.erange(iec.E12, 1e-12, 10e-3)))
 MARGIN = 1e-6
 
 
-def _vertices(r1, r2, c, leak_range):
+def _vertices(r1, r2, c, leak_range, vcc=VCC):
     """Every vertex of the tolerance box for each row: arrays of shape (N, 32)."""
     bits = np.array([[(i >> k) & 1 for k in range(5)] for i in range(32)], dtype=float)
     sign = 2 * bits - 1
     R1 = r1[:, None] * (1 + R_TOL * sign[None, :, 0])
     R2 = r2[:, None] * (1 + R_TOL * sign[None, :, 1])
     C = c[:, None] * (1 + C_TOL * sign[None, :, 2])
-    V = VCC * (1 + V_TOL * sign[None, :, 3])
+    V = vcc * (1 + V_TOL * sign[None, :, 3])
     lo, hi = min(leak_range), max(leak_range)
     current = np.where(bits[None, :, 4] == 1, hi, lo) + 0 * R1
     return R1, R2, C, V, current
@@ -68,45 +68,49 @@ def _node(R1, R2, V, current, pressed, pull_up):
     return pin, np.abs(rail_pull - n1) / R1, seen
 
 
-def _level(r1, r2, c, pressed, pull_up):
+def _level(r1, r2, c, pressed, pull_up, rx=RX, limits=LIMITS):
     """Worst level margin and largest pull current of one state, per row."""
-    nominal_high = _node(r1, r2, np.full_like(r1, VCC), np.mean(RX.leak_high_a), pressed, pull_up)[0]
-    high = nominal_high > VCC / 2
+    vcc = rx.vcc
+    nominal_high = _node(r1, r2, np.full_like(r1, vcc), np.mean(rx.leak_high_a), pressed, pull_up)[0]
+    high = nominal_high > vcc / 2
     out_margin, out_pull = np.empty_like(r1), np.empty_like(r1)
     for logic, sel in ((True, high), (False, ~high)):
         if not sel.any():
             continue
-        rng = RX.leak_high_a if logic else RX.leak_low_a
-        R1, R2, _C, V, current = _vertices(r1[sel], r2[sel], c[sel], rng)
+        rng = rx.leak_high_a if logic else rx.leak_low_a
+        R1, R2, _C, V, current = _vertices(r1[sel], r2[sel], c[sel], rng, vcc)
         pin, pull, _ = _node(R1, R2, V, current, pressed, pull_up)
         if logic:
-            worst, required = pin.min(axis=1), RX.rising_threshold[2]
+            worst, required = pin.min(axis=1), rx.rising_threshold[2]
             margin = worst - required
-            room = VCC - required
+            room = vcc - required
         else:
-            worst, required = pin.max(axis=1), RX.falling_threshold[0]
+            worst, required = pin.max(axis=1), rx.falling_threshold[0]
             margin = required - worst
             room = required
-        needed = min(LIMITS["leakage_headroom_margin"] * VCC, 0.5 * max(room, 0.0))
+        needed = min(limits["leakage_headroom_margin"] * vcc, 0.5 * max(room, 0.0))
         out_margin[sel] = margin - needed
         out_pull[sel] = pull.max(axis=1)
     return out_margin, out_pull, high
 
 
-def _edge(r1, r2, c, press, pull_up, high_before, high_after):
-    """(fastest, slowest) time of one edge per row; inf where not reached."""
+def _edge(r1, r2, c, press, pull_up, high_before, high_after, rx=RX):
+    """(fastest, slowest, s/V at the slowest vertex's crossing) of one edge per row; times
+    inf where not reached. The slope of v(t) = v_inf + (v0 - v_inf) exp(-t / tau) where it
+    crosses vth is |v_inf - vth| / tau."""
     rising = high_after & ~high_before
     out = []
+    rate = np.zeros_like(r1)
     for inner in (True, False):
         result = np.empty_like(r1)
         for up in (True, False):
             sel = rising == up
             if not sel.any():
                 continue
-            rng = RX.leak_high_a if up else RX.leak_low_a
-            thr = RX.rising_threshold if up else RX.falling_threshold
+            rng = rx.leak_high_a if up else rx.leak_low_a
+            thr = rx.rising_threshold if up else rx.falling_threshold
             vth = (thr[0] if up else thr[2]) if inner else (thr[2] if up else thr[0])
-            R1, R2, C, V, current = _vertices(r1[sel], r2[sel], c[sel], rng)
+            R1, R2, C, V, current = _vertices(r1[sel], r2[sel], c[sel], rng, rx.vcc)
             start = _node(R1, R2, V, current, not press, pull_up)[0]
             final, _, seen = _node(R1, R2, V, current, press, pull_up)
             direction = 1.0 if up else -1.0
@@ -115,31 +119,41 @@ def _edge(r1, r2, c, press, pull_up, high_before, high_after):
             ok = (direction * (vth - start) > 0) & (direction * (final - vth) > 0)
             t = np.where(ok, t, np.inf)
             result[sel] = t.min(axis=1) if inner else t.max(axis=1)
+            if not inner:
+                at = np.argmax(t, axis=1)
+                rows = np.arange(at.size)
+                rate[sel] = seen[rows, at] * C[rows, at] / np.abs(final[rows, at] - vth)
         out.append(result)
-    return out[0], out[1]
+    return out[0], out[1], rate
 
 
-def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0):
-    """Whether each row passes every stage rule (with a relative slack in its favour)."""
+def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS):
+    """Whether each row passes every stage rule (with a relative slack in its favour).
+
+    rx: the receiver (a plain input adds slow-edge: the edge's s/V at the slowest
+    vertex's crossing against its transition limit); limits: the rule limits.
+    """
     ok = np.ones_like(r1, dtype=bool)
     for value in (r1, r2):  # resistance-range
-        ok &= (value >= LIMITS["resistance_min"]) & (value <= LIMITS["resistance_max"])
+        ok &= (value >= limits["resistance_min"]) & (value <= limits["resistance_max"])
     levels = {}
     for pressed in (False, True):
-        margin, pull, high = _level(r1, r2, c, pressed, pull_up)
-        ok &= margin >= -slack * VCC  # leakage-headroom
-        ok &= pull <= LIMITS["pull_current_budget"] * (1 + slack)  # pullup-waste
+        margin, pull, high = _level(r1, r2, c, pressed, pull_up, rx, limits)
+        ok &= margin >= -slack * rx.vcc  # leakage-headroom
+        ok &= pull <= limits["pull_current_budget"] * (1 + slack)  # pullup-waste
         levels[pressed] = high
     for press in (True, False):
         before, after = levels[not press], levels[press]
-        fast, slow = _edge(r1, r2, c, press, pull_up, before, after)
-        need = bounce * LIMITS["bounce_margin"]
+        fast, slow, rate = _edge(r1, r2, c, press, pull_up, before, after, rx)
+        need = bounce * limits["bounce_margin"]
         ok &= np.isinf(fast) | (fast >= need * (1 - slack))  # bounce-window
-        ok &= np.isfinite(slow) & (slow <= LIMITS["latency_limit"] * (1 + slack))  # response-latency
+        ok &= np.isfinite(slow) & (slow <= limits["latency_limit"] * (1 + slack))  # response-latency
+        if not rx.schmitt and rx.transition_limit_s_per_v is not None:  # slow-edge
+            ok &= ~np.isfinite(slow) | (rate <= rx.transition_limit_s_per_v * (1 + slack))
     return ok
 
 
-def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0):
+def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS):
     """Every passing one- and two-part change, as (sort key, {designator: value})."""
     present = {"R1": r1, "R2": r2, "C1": c}
     grids = {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES}
@@ -151,7 +165,8 @@ def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0):
         cols = {n: a.ravel() for n, a in zip(names, axes, strict=True)}
         n = next(iter(cols.values())).size
         rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
-        passing = np.flatnonzero(reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack))
+        passing = np.flatnonzero(reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack,
+                                                  rx, limits))
         for i in passing:
             change = {k: float(cols[k][i]) for k in names}
             cost = round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9)
@@ -160,15 +175,15 @@ def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0):
     return sorted(out, key=lambda item: item[0])
 
 
-def _stage(r1, r2, c, pull_up, bounce=BOUNCE):
+def _stage(r1, r2, c, pull_up, bounce=BOUNCE, schmitt=True):
     if pull_up:
-        return rc_stage(r1=r1, r2=r2, c1=c, contact_=contact(bounce_s=bounce))
+        return rc_stage(r1=r1, r2=r2, c1=c, contact_=contact(bounce_s=bounce), schmitt=schmitt)
     circuit_r = (Resistor("R1", "n1", "0", r1, role="pull"), Resistor("R2", "n1", "in", r2, role="series"))
     from drc.board.stage import Stage, StageCircuit
     circuit = StageCircuit(circuit_r, (Capacitor("C1", "in", "0", c),), (), (RailSource("vcc", VCC, V_TOL),),
                            (Throw("vcc", "n1", "pressed", RC_OHMS),), "in")
-    return Stage(contact(bounce_s=bounce), receiver(True), "rc-schmitt", ("R1", "R2", "C1"), circuit,
-                 circuit.nodes())
+    return Stage(contact(bounce_s=bounce), receiver(schmitt), "rc-schmitt" if schmitt else "rc",
+                 ("R1", "R2", "C1"), circuit, circuit.nodes())
 
 
 CASES = [

@@ -1,0 +1,85 @@
+"""The complete search when the full analysis refutes what the screen passed.
+
+The numpy screen (drc.design.screen) restates the value rules it can bound
+from a few vertices; slow-edge (a plain input's transition limit, read as a
+slope at one corner) it does not, so on a plain input the full analysis
+refutes capacitor values the screen passes, and the search walks on to the
+next capacitor inside the screened interval (`CompleteSearch._next_capacitor`).
+Its answer must still be the first passing change in the stated order.
+
+Outside reference: the brute force of tests/design/test_fix_completeness.py
+(node equations and the RC law v(t) = v_inf + (v0 - v_inf) exp(-t / tau) by
+hand at every vertex of the tolerance box, *Lessons In Electric Circuits*,
+Vol. I, ch. 16; E-series values from IEC 60063 through `eseries`), with
+slow-edge added as the rule's documentation states it: 1 / |dV/dt| at the
+threshold crossing of the slowest vertex, tau / |v_inf - vth|, against the
+plain input's transition limit (500 ns 10-90 % over 0.8 x 4.5 V for the
+test's plain 74HC input, tests/checks/builders.py). The latency limits and
+bounce times are chosen so that the passing capacitors lie a few E12 steps
+below the largest one the latency allows: each of those steps is one
+refutation.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from drc.checks import run_stage_rules
+from drc.design.fixes import search
+from tests.checks.builders import LIMITS, analysed, hc
+from tests.design.test_fix_completeness import MARGIN, _stage, brute_force, reference_passes
+
+PLAIN = hc(schmitt=False)
+ORDER = {"R1": 0, "R2": 1, "C1": 2}
+
+CASES = [
+    # (R1, R2, C1, pull-up, bounce, latency limit): present C1 far too large (latency and slow-edge fail)
+    (10e3, 10e3, 1e-9, True, 5e-9, 0.5e-6),
+    (10e3, 10e3, 1e-9, True, 10e-9, 1e-6),
+    (22e3, 4.7e3, 470e-12, True, 5e-9, 1e-6),
+    (10e3, 10e3, 1e-9, False, 5e-9, 0.5e-6),
+]
+
+
+def _key(change, present):
+    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
+            tuple((ORDER[k], change[k]) for k in sorted(change, key=ORDER.get)))
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", CASES)
+def test_refuted_capacitors_lead_to_the_first_passing_change(r1, r2, c, pull_up, bounce, latency):
+    limits = {**LIMITS, "latency_limit": latency}
+    stage = _stage(r1, r2, c, pull_up, bounce, schmitt=False)
+    fired = {f.rule for f in run_stage_rules(analysed(stage, PLAIN), limits)}
+    assert "slow-edge" in fired  # the rule the screen leaves to the full analysis
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN, limits=limits)
+    assert robust, "the reference finds a passing change"
+    solution, _count = search(stage, PLAIN, limits, "E24")
+    assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
+    assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, rx=PLAIN,
+                            limits=limits)[0], change
+    earlier = [item for item in robust if item[0] < _key(change, present)]
+    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    # The screen's cheapest capacitor was refuted at least once: the answer is not it.
+    assert robust[0][1] == change
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", CASES)
+def test_the_reference_agrees_with_the_analysis_on_plain_inputs(r1, r2, c, pull_up, bounce, latency):
+    # The reference's slow-edge is the rule's: its verdict on the present values and on the
+    # answer's neighbours is the rules' own.
+    limits = {**LIMITS, "latency_limit": latency}
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN, limits=limits)
+    best = robust[0][1]["C1"] if robust and "C1" in robust[0][1] else c
+    for value in (c, best, best * 1.2, best / 1.2, best * 1.5):
+        stage = _stage(r1, r2, value, pull_up, bounce, schmitt=False)
+        passes = not run_stage_rules(analysed(stage, PLAIN), limits)
+        got = reference_passes(np.array([r1]), np.array([r2]), np.array([value]), pull_up, bounce, rx=PLAIN,
+                               limits=limits)[0]
+        assert got == passes, value
