@@ -198,6 +198,12 @@ CASES = [
     (8.2e3, 39e3, 1e-6, True, 0.200),       # a bounce longer than the latency limit: nothing passes
     (10e3, 1e3, 100e-9, False, BOUNCE),     # pull-down stage
     (1e3, 470.0, 47e-9, False, BOUNCE),
+    (10e3, 100e3, 470e-9, True, BOUNCE),    # only the series resistor outside the window: it alone moves
+    # A resistor pair cheaper than the cheapest resistor-and-capacitor change (0.636 against 0.871,
+    # 0.950 against 1.085, 1.150 against 1.172): the pairs must be screened before a two-part answer.
+    (43e3, 4.3e3, 1.8e-6, True, 0.005),
+    (3.9e3, 1.5e3, 3.3e-6, True, 0.005),
+    (15e3, 3.6e3, 3.9e-6, False, 0.005),
 ]
 
 
@@ -236,3 +242,14 @@ def test_reference_agrees_with_the_analysis_on_the_present_values():
         result = analysed(_stage(r1, r2, c, pull_up, bounce), RX)
         passes = not run_stage_rules(result, LIMITS)
         assert reference_passes(np.array([r1]), np.array([r2]), np.array([c]), pull_up, bounce)[0] == passes
+
+
+def test_a_held_part_outside_the_window_leaves_no_change():
+    # R2 (100 kOhm) is outside the resistance-range window and held: every change of the other
+    # parts fails that rule (the reference says so over the whole R1 x C1 plane), and so the
+    # search proposes nothing rather than a change that moves the held part.
+    stage = _stage(10e3, 100e3, 470e-9, True)
+    r1, c = np.meshgrid(R_VALUES, C_VALUES, indexing="ij")
+    assert not reference_passes(r1.ravel(), np.full(r1.size, 100e3), c.ravel(), True).any()
+    solution, _count = search(stage, RX, LIMITS, "E24", fixed_parts=("R2",))
+    assert solution is None
