@@ -127,20 +127,23 @@ def _edge(r1, r2, c, press, pull_up, high_before, high_after, rx=RX):
     return out[0], out[1], rate
 
 
-def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS):
+def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True):
     """Whether each row passes every stage rule (with a relative slack in its favour).
 
     rx: the receiver (a plain input adds slow-edge: the edge's s/V at the slowest
-    vertex's crossing against its transition limit); limits: the rule limits.
+    vertex's crossing against its transition limit); limits: the rule limits; lead: the
+    contact's first stage (on the others, the contact-level rules and the pull
+    resistor's window are not checked: the rules' documentation).
     """
     ok = np.ones_like(r1, dtype=bool)
-    for value in (r1, r2):  # resistance-range
+    for value in (r1, r2) if lead else (r2,):  # resistance-range
         ok &= (value >= limits["resistance_min"]) & (value <= limits["resistance_max"])
     levels = {}
     for pressed in (False, True):
         margin, pull, high = _level(r1, r2, c, pressed, pull_up, rx, limits)
         ok &= margin >= -slack * rx.vcc  # leakage-headroom
-        ok &= pull <= limits["pull_current_budget"] * (1 + slack)  # pullup-waste
+        if lead:
+            ok &= pull <= limits["pull_current_budget"] * (1 + slack)  # pullup-waste
         levels[pressed] = high
     for press in (True, False):
         before, after = levels[not press], levels[press]
@@ -153,7 +156,7 @@ def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits
     return ok
 
 
-def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS):
+def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True):
     """Every passing one- and two-part change, as (sort key, {designator: value})."""
     present = {"R1": r1, "R2": r2, "C1": c}
     grids = {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES}
@@ -166,7 +169,7 @@ def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMI
         n = next(iter(cols.values())).size
         rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
         passing = np.flatnonzero(reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack,
-                                                  rx, limits))
+                                                  rx, limits, lead))
         for i in passing:
             change = {k: float(cols[k][i]) for k in names}
             cost = round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9)
@@ -253,3 +256,24 @@ def test_a_held_part_outside_the_window_leaves_no_change():
     assert not reference_passes(r1.ravel(), np.full(r1.size, 100e3), c.ravel(), True).any()
     solution, _count = search(stage, RX, LIMITS, "E24", fixed_parts=("R2",))
     assert solution is None
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce", [(4.7e3, 4.7e3, 1e-6, True, BOUNCE),
+                                                        (2.2e3, 100e3, 220e-9, True, BOUNCE),
+                                                        (100e3, 10e3, 470e-9, True, BOUNCE)])
+def test_a_later_stage_of_a_contact_is_searched_without_the_contact_level_rules(r1, r2, c, pull_up, bounce):
+    # The contact's second receiver (Stage.lead False): pullup-waste and the pull resistor's
+    # window speak on the first stage only, so a wasteful or out-of-window pull resistor may stay.
+    from dataclasses import replace
+    stage = replace(_stage(r1, r2, c, pull_up, bounce), lead=False)
+    solution, _count = search(stage, RX, LIMITS, "E24")
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, lead=False)
+    assert solution is not None and robust
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    order = {"R1": 0, "R2": 1, "C1": 2}
+    key = (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
+           tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+    rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
+    assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, lead=False)[0]
+    assert not [item for item in robust if item[0] < key], (change, robust[0])
