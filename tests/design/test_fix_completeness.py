@@ -69,11 +69,12 @@ def _node(R1, R2, V, current, pressed, pull_up):
 
 
 def _level(r1, r2, c, pressed, pull_up, rx=RX, limits=LIMITS):
-    """Worst level margin and largest pull current of one state, per row."""
+    """Worst level margin, largest pull current and least contact current (Ohm's law over the
+    closed contact, from the node n1 = pin + I x R2) of one state, per row."""
     vcc = rx.vcc
     nominal_high = _node(r1, r2, np.full_like(r1, vcc), np.mean(rx.leak_high_a), pressed, pull_up)[0]
     high = nominal_high > vcc / 2
-    out_margin, out_pull = np.empty_like(r1), np.empty_like(r1)
+    out_margin, out_pull, out_contact = np.empty_like(r1), np.empty_like(r1), np.empty_like(r1)
     for logic, sel in ((True, high), (False, ~high)):
         if not sel.any():
             continue
@@ -91,7 +92,9 @@ def _level(r1, r2, c, pressed, pull_up, rx=RX, limits=LIMITS):
         needed = min(limits["leakage_headroom_margin"] * vcc, 0.5 * max(room, 0.0))
         out_margin[sel] = margin - needed
         out_pull[sel] = pull.max(axis=1)
-    return out_margin, out_pull, high
+        n1 = pin + current * R2
+        out_contact[sel] = (np.abs(n1 - (0 * V if pull_up else V)) / RC_OHMS).min(axis=1)
+    return out_margin, out_pull, high, out_contact
 
 
 def _edge(r1, r2, c, press, pull_up, high_before, high_after, rx=RX):
@@ -127,7 +130,8 @@ def _edge(r1, r2, c, press, pull_up, high_before, high_after, rx=RX):
     return out[0], out[1], rate
 
 
-def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True):
+def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True,
+                     wetting=None):
     """Whether each row passes every stage rule (with a relative slack in its favour).
 
     rx: the receiver (a plain input adds slow-edge: the edge's s/V at the slowest
@@ -140,7 +144,9 @@ def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits
         ok &= (value >= limits["resistance_min"]) & (value <= limits["resistance_max"])
     levels = {}
     for pressed in (False, True):
-        margin, pull, high = _level(r1, r2, c, pressed, pull_up, rx, limits)
+        margin, pull, high, through = _level(r1, r2, c, pressed, pull_up, rx, limits)
+        if pressed and lead and wetting is not None:  # contact-wetting: the least closed current
+            ok &= through >= wetting * (1 - slack)
         ok &= margin >= -slack * rx.vcc  # leakage-headroom
         if lead:
             ok &= pull <= limits["pull_current_budget"] * (1 + slack)  # pullup-waste
@@ -156,7 +162,7 @@ def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits
     return ok
 
 
-def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True):
+def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True, wetting=None):
     """Every passing one- and two-part change, as (sort key, {designator: value})."""
     present = {"R1": r1, "R2": r2, "C1": c}
     grids = {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES}
@@ -169,7 +175,7 @@ def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMI
         n = next(iter(cols.values())).size
         rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
         passing = np.flatnonzero(reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack,
-                                                  rx, limits, lead))
+                                                  rx, limits, lead, wetting))
         for i in passing:
             change = {k: float(cols[k][i]) for k in names}
             cost = round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9)
@@ -178,14 +184,14 @@ def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMI
     return sorted(out, key=lambda item: item[0])
 
 
-def _stage(r1, r2, c, pull_up, bounce=BOUNCE, schmitt=True):
+def _stage(r1, r2, c, pull_up, bounce=BOUNCE, schmitt=True, wetting=None):
     if pull_up:
-        return rc_stage(r1=r1, r2=r2, c1=c, contact_=contact(bounce_s=bounce), schmitt=schmitt)
+        return rc_stage(r1=r1, r2=r2, c1=c, contact_=contact(bounce_s=bounce, wetting_a=wetting), schmitt=schmitt)
     circuit_r = (Resistor("R1", "n1", "0", r1, role="pull"), Resistor("R2", "n1", "in", r2, role="series"))
     from drc.board.stage import Stage, StageCircuit
     circuit = StageCircuit(circuit_r, (Capacitor("C1", "in", "0", c),), (), (RailSource("vcc", VCC, V_TOL),),
                            (Throw("vcc", "n1", "pressed", RC_OHMS),), "in")
-    return Stage(contact(bounce_s=bounce), receiver(schmitt), "rc-schmitt" if schmitt else "rc",
+    return Stage(contact(bounce_s=bounce, wetting_a=wetting), receiver(schmitt), "rc-schmitt" if schmitt else "rc",
                  ("R1", "R2", "C1"), circuit, circuit.nodes())
 
 
@@ -277,3 +283,26 @@ def test_a_later_stage_of_a_contact_is_searched_without_the_contact_level_rules(
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, lead=False)[0]
     assert not [item for item in robust if item[0] < key], (change, robust[0])
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up", [(22e3, 22e3, 470e-9, True), (22e3, 10e3, 1e-6, False)])
+def test_a_contact_needing_wetting_current_gets_the_first_passing_change(r1, r2, c, pull_up):
+    # A contact class with a 0.3 mA wetting minimum (contact-wetting: the least current through the
+    # closed contact, Ohm's law at every vertex): the pull resistor must come down far enough.
+    wetting = 0.3e-3
+    stage = _stage(r1, r2, c, pull_up, wetting=wetting)
+    solution, _count = search(stage, RX, LIMITS, "E24")
+    robust = brute_force(r1, r2, c, pull_up, slack=-MARGIN, wetting=wetting)
+    assert solution is not None and robust
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    order = {"R1": 0, "R2": 1, "C1": 2}
+    key = (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
+           tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+    rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
+    assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, slack=MARGIN, wetting=wetting)[0]
+    assert not [item for item in robust if item[0] < key], (change, robust[0])
+    # The reference's least closed current is the analysis' on the present values (Ohm's law).
+    from tests.checks.builders import analysed
+    through = _level(np.array([r1]), np.array([r2]), np.array([c]), True, pull_up)[3][0]
+    assert analysed(stage, RX).contact_current_a == pytest.approx(through, rel=1e-9)
