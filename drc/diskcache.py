@@ -197,7 +197,8 @@ def prune(kind: str, limit: int | None = None, force: bool = False) -> None:
 def encode(value: Any) -> Any:
     """`value` as JSON data that `decode` turns back into an equal value.
 
-    Handles None, bool, int, str, float (non-finite too), list, tuple, dict,
+    Handles None, bool, int, str, float (non-finite too; a subclass such as numpy's
+    float64 as the plain float it equals), list, tuple, dict,
     set, frozenset, date, paths, enums and dataclasses of the drc package;
     TypeError for anything else. A record met again (the same object: one
     receiver's data shared by a thousand stages) is written once and then
@@ -255,6 +256,8 @@ class _Encoder:
             return value
         if kind is float:
             return value if math.isfinite(value) else {"~f": repr(value)}
+        if isinstance(value, float):  # a float subclass (numpy's float64): kept as the float it equals
+            return self.value(float(value))
         if kind is list:
             return [self.value(v) for v in value]
         if kind is tuple:

@@ -417,9 +417,9 @@ def _rules_digest() -> str:
 def _rule_packs() -> tuple[tuple[str, str, str], ...]:
     """Rule packs installed (entry point name, module, distribution version): their rules
     change results."""
-    from importlib.metadata import entry_points
+    from drc.checks.registry import pack_entry_points
     found = []
-    for point in entry_points(group="drc.rules"):
+    for point in pack_entry_points():
         dist = getattr(point, "dist", None)
         found.append((point.name, point.value, getattr(dist, "version", "") if dist else ""))
     return tuple(sorted(found))

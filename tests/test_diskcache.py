@@ -230,3 +230,24 @@ def test_the_cache_is_pruned_least_recently_used_first(cache):
     diskcache.prune("board", limit=6 * size, force=True)
     kept = sorted(int(p.stem) for p in cache.glob("board/*/*.json"))
     assert kept == [0, 5, 6, 7]  # at most 4.5 entries' bytes stay: 1 to 4 were used longest ago
+
+
+def test_every_demo_board_is_read_back_from_the_cache(cache, fresh_checks):
+    """A second check of each demo board (fixes on, as the command line runs) comes from
+    disk and equals a fresh one: no record of theirs holds a value the cache refuses
+    (a numpy scalar in a figure once made one board a miss on every re-run)."""
+    boards = sorted((ROOT / "boards" / "lx24").glob("*.cir"))
+    options = CheckOptions(result_cache=True)
+    first = [check_board(b, options) for b in boards]
+    assert [check_board(b, options) for b in boards] == first
+    assert fresh_checks == [str(b) for b in boards]
+
+
+def test_a_float_subclass_is_kept_as_the_float_it_equals():
+    """numpy's float64 is a float (numpy's documentation: it subclasses Python's float);
+    the cache keeps it as that plain float instead of refusing the entry."""
+    import numpy as np
+    back = diskcache.decode(json.loads(json.dumps(diskcache.encode((np.float64(52.5), np.float64("inf"))))))
+    assert back == (52.5, float("inf")) and all(type(x) is float for x in back)
+    with pytest.raises(TypeError):
+        diskcache.encode(np.int64(3))  # not an int subclass: refused, never guessed

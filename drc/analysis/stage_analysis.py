@@ -493,7 +493,7 @@ def _surge_peak(model: LinearModel) -> float | None:
         v = (red.cv[0] + red.Mv[0] @ u0)[None, :]
         va = node_voltage(model, v, red.vfix, model.node_code(t.a))[0]
         vb = node_voltage(model, v, red.vfix, model.node_code(t.b))[0]
-        peaks.append(abs(va - vb) / t.closed_ohms)
+        peaks.append(float(abs(va - vb)) / t.closed_ohms)  # a plain float: records hold no numpy scalars
     return max(peaks) if peaks else None
 
 

@@ -17,7 +17,8 @@ reports the reading that comes nearer to passing (its fix is the smaller step).
 
 from __future__ import annotations
 
-from drc.analysis.first_edge import PullBack, pull_back, pull_backs
+from typing import TYPE_CHECKING
+
 from drc.analysis.results import EDGES, EdgeResult, StageResult
 from drc.checks.common import RC_KINDS, contact_name, is_schmitt, threshold_name, timing_parts, timing_text
 from drc.checks.context import RuleContext, figure
@@ -25,6 +26,9 @@ from drc.checks.context import quantity_text as fq
 from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
 from drc.checks.ruledoc import RuleDoc
+
+if TYPE_CHECKING:
+    from drc.analysis.first_edge import PullBack
 
 MARGIN = "bounce_margin"
 MIN_CLOSURE = "min_closure"
@@ -89,6 +93,9 @@ def _timed(result: StageResult, ctx: RuleContext):
 def prepare(results: list[StageResult], ctx: RuleContext) -> None:
     """The closure-and-opening readings of every edge the check will ask about, in one
     batch (drc.analysis.first_edge keeps them; the check reads them one by one)."""
+    # The solver (numpy) is imported here and in `check`, when used: listing the rules or
+    # reading cached results does not need it.
+    from drc.analysis.first_edge import pull_backs
     wanted = [(r.stage, r.receiver_electrical, edge.edge) for r in results
               if r.receiver_electrical is not None and is_schmitt(r) for edge, _ in _timed(r, ctx)]
     if wanted:
@@ -97,6 +104,7 @@ def prepare(results: list[StageResult], ctx: RuleContext) -> None:
 
 @rule(DOC, kind="stage", prepare=prepare)
 def check(result: StageResult, ctx: RuleContext):
+    from drc.analysis.first_edge import pull_back
     margin = ctx.limit(MARGIN)
     rx = result.receiver_electrical
     for edge, needed in _timed(result, ctx):

@@ -143,11 +143,9 @@ def load_rule_packs() -> None:
     again on the next use, so the error does not go away silently.
     """
     global _packs_loaded
-    from importlib.metadata import entry_points  # lazy: only when the registry is read
-
     _packs_loaded = True  # a pack that reads the registry while it loads sees the rules so far
     try:
-        for entry_point in entry_points(group=ENTRY_POINT_GROUP):
+        for entry_point in pack_entry_points():
             try:
                 entry_point.load()
             except _PACK_FAILURES as exc:
@@ -155,6 +153,57 @@ def load_rule_packs() -> None:
     except RulePackError:
         _packs_loaded = False
         raise
+
+
+def pack_entry_points() -> list:
+    """The entry points of the "drc.rules" group (importlib.metadata's), in its order.
+
+    Where no installed distribution can declare one (the usual case), the
+    answer is found without importing importlib.metadata, which costs a small
+    check more than all its rules (see `may_declare_packs`)."""
+    if not may_declare_packs():
+        return []
+    from importlib.metadata import entry_points
+    return list(entry_points(group=ENTRY_POINT_GROUP))
+
+
+def may_declare_packs() -> bool:
+    """False only when no distribution importlib.metadata would find can declare a
+    "drc.rules" entry point: only the standard finders find distributions, and no
+    `*.dist-info` or `*.egg-info` folder on sys.path has an entry_points.txt naming
+    the group. Anything else (a zip on the path, a file that cannot be read, another
+    finder) answers True, and importlib.metadata decides."""
+    import os
+    import sys
+    if any(hasattr(finder, "find_distributions") and not _scans_the_path(finder) for finder in sys.meta_path):
+        return True
+    for entry in sys.path:
+        try:
+            with os.scandir(entry or ".") as listing:
+                names = [e.path for e in listing if e.name.lower().endswith((".dist-info", ".egg-info"))]
+        except NotADirectoryError:
+            return True  # a zip or an egg: importlib.metadata reads it
+        except OSError:
+            continue  # a folder that is not there holds no distribution
+        for folder in names:
+            try:
+                with open(os.path.join(folder, "entry_points.txt"), "rb") as handle:
+                    if ENTRY_POINT_GROUP.encode() in handle.read():
+                        return True
+            except (FileNotFoundError, NotADirectoryError):
+                continue  # no entry points (or an egg-info file: PKG-INFO only)
+            except OSError:
+                return True
+    return False
+
+
+def _scans_the_path(finder) -> bool:
+    """The standard finder of distributions, or the importlib_metadata backport's (which
+    takes its place when imported): both read the `*-info` folders on sys.path."""
+    import importlib.machinery
+    kind = finder if isinstance(finder, type) else type(finder)
+    return finder is importlib.machinery.PathFinder or (
+        kind.__name__ == "MetadataPathFinder" and kind.__module__.split(".")[0] in ("importlib", "importlib_metadata"))
 
 
 def _pack_error(entry_point, exc: BaseException) -> RulePackError:

@@ -39,6 +39,7 @@ def packs(tmp_path, monkeypatch):
     points: list = []
     monkeypatch.setattr(importlib.metadata, "entry_points",
                         lambda group=None: [p for p in points if p.group == group])
+    monkeypatch.setattr(registry, "may_declare_packs", lambda: True)  # the packs here are not installed
     before = {r.id for r in registry.registered_rules()}
     monkeypatch.setattr(registry, "_packs_loaded", False)
 
@@ -123,3 +124,47 @@ def test_a_failed_load_is_tried_again(packs):
     path.write_text(GOOD, encoding="utf-8")
     sys.modules.pop("inproc_again", None)
     assert "inproc-demo" in [r.id for r in registry.registered_rules()]
+
+
+# The quick scan (registry.may_declare_packs) must never say "no packs" where
+# importlib.metadata, the outside reference, finds one.
+
+def _dist(folder, name: str, entry_points: str | None) -> None:
+    info = folder / f"{name}-0.1.dist-info"
+    info.mkdir(parents=True)
+    (info / "METADATA").write_text(f"Metadata-Version: 2.1\nName: {name}\nVersion: 0.1\n", encoding="utf-8")
+    if entry_points is not None:
+        (info / "entry_points.txt").write_text(entry_points, encoding="utf-8")
+    importlib.invalidate_caches()  # importlib.metadata keeps folder listings by their time (coarse)
+
+
+def _found_by_importlib() -> list:
+    return list(importlib.metadata.entry_points(group=registry.ENTRY_POINT_GROUP))
+
+
+def test_the_quick_scan_agrees_with_importlib_metadata_here():
+    assert registry.may_declare_packs() or not _found_by_importlib()
+    assert registry.pack_entry_points() == _found_by_importlib()
+
+
+def test_a_distribution_declaring_a_pack_is_seen_by_the_quick_scan(tmp_path, monkeypatch):
+    _dist(tmp_path, "other_tool", "[console_scripts]\nother = other_tool:main\n")
+    _dist(tmp_path, "no_entry_points", None)
+    monkeypatch.syspath_prepend(str(tmp_path))
+    found = _found_by_importlib()
+    assert registry.may_declare_packs() == bool(found)  # neither declares the group
+    _dist(tmp_path, "scan_demo_pack", "[drc.rules]\nscan_demo = scan_demo_pack\n")
+    assert [p.name for p in _found_by_importlib()] == [p.name for p in found] + ["scan_demo"]
+    assert registry.may_declare_packs()
+    assert "scan_demo" in [p.name for p in registry.pack_entry_points()]
+
+
+def test_a_zip_on_the_path_is_left_to_importlib_metadata(tmp_path, monkeypatch):
+    import zipfile
+    archive = tmp_path / "packs.zip"
+    with zipfile.ZipFile(archive, "w") as z:
+        z.writestr("zipped-0.1.dist-info/METADATA", "Metadata-Version: 2.1\nName: zipped\nVersion: 0.1\n")
+        z.writestr("zipped-0.1.dist-info/entry_points.txt", "[drc.rules]\nzipped = zipped\n")
+    monkeypatch.syspath_prepend(str(archive))
+    assert "zipped" in [p.name for p in _found_by_importlib()]
+    assert registry.may_declare_packs()
