@@ -3,9 +3,10 @@
 Each figure is the median of several fresh processes (3 by default), run one
 at a time; times are the child's CPU time (user + system, so that other
 load on a shared machine counts less), except where parallelism is the point
-(`--jobs`), which is wall time. Every child runs `drc` from compiled bytecode
-(a cache prefix in the temporary folder, warmed once), as an installed
-package does, with its result cache in a temporary folder (never the user's)
+(`--jobs`), which is wall time. Every child runs the `drc` console script
+beside the interpreter (never a version manager's shim: see `drc_command`)
+from compiled bytecode (a cache prefix in the temporary folder, warmed
+once), as an installed package does, with its result cache in a temporary folder (never the user's)
 and `--no-cache` unless the measurement is the cache itself. ngspice reads
 the very same deck with a `.control / quit / .endc` block: parse and expand
 only (`ngspice -n -b`).
@@ -83,7 +84,13 @@ _PEAK = ("import resource, subprocess, sys; p = subprocess.run(sys.argv[1:], std
 
 
 def drc_command() -> list[str]:
-    """The console script when installed, else the module."""
+    """The console script as an install runs it: the one beside this interpreter, else the
+    first on PATH, else the module. The first on PATH may be a version manager's shim (a
+    shell script that finds the interpreter: pyenv's costs about 70 ms of CPU per run,
+    more than ngspice's whole parse of a demo board), which is not drc's time."""
+    beside = Path(sys.executable).parent / "drc"
+    if beside.is_file() and os.access(beside, os.X_OK):
+        return [str(beside)]
     exe = shutil.which("drc")
     return [exe] if exe else [sys.executable, "-m", "drc.cli"]
 

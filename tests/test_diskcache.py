@@ -197,6 +197,9 @@ def test_rule_library_from_the_cache_equals_the_parsed_one(cache):
     from_disk = load_library()
     assert from_disk is not first and from_disk.fingerprint == first.fingerprint == parsed.fingerprint
     assert from_disk.records == parsed.records
+    # The entry keeps the fingerprint with the records: the records read back digest to it.
+    from drc.library.catalogue import Library
+    assert Library(*from_disk.records).fingerprint == from_disk.fingerprint
     entry.write_bytes(entry.read_bytes()[:-10])
     clear_caches()
     assert load_library().fingerprint == parsed.fingerprint
@@ -251,3 +254,31 @@ def test_a_float_subclass_is_kept_as_the_float_it_equals():
     assert back == (52.5, float("inf")) and all(type(x) is float for x in back)
     with pytest.raises(TypeError):
         diskcache.encode(np.int64(3))  # not an int subclass: refused, never guessed
+
+
+_IMPORTED = """import sys
+from drc.cli.parser import main
+status = main(sys.argv[1:])
+sys.stdout.write("\\nIMPORTED " + " ".join(m for m in ("numpy", "scipy", "lark", "importlib.metadata")
+                                            if m in sys.modules) + "\\n")
+"""
+
+
+def test_a_run_from_the_cache_imports_no_solver(tmp_path):
+    """A run whose boards all come from the result cache pays start-up, the entries and
+    the report: it never imports numpy or scipy (the solvers'), lark (the grammar's) or
+    importlib.metadata (rule packs are looked up without it where none is installed)."""
+    import os
+    import subprocess
+    import sys
+    folder = tmp_path / "boards"
+    shutil.copytree(ROOT / "boards" / "lx24", folder)
+    (tmp_path / ".git").mkdir()
+    env = dict(os.environ, DRC_CACHE_DIR=str(tmp_path / "cache"))
+    args = [sys.executable, "-c", _IMPORTED, "check", str(folder), "--format", "json", "--report-only"]
+    first = subprocess.run(args, env=env, capture_output=True, text=True, timeout=300)
+    second = subprocess.run(args, env=env, capture_output=True, text=True, timeout=300)
+    assert first.returncode == second.returncode == 0, second.stderr
+    assert "numpy" in first.stdout.rpartition("IMPORTED")[2]  # the first run analysed the boards
+    assert second.stdout.rpartition("IMPORTED")[2].split() == []
+    assert second.stdout.rpartition("\nIMPORTED")[0] == first.stdout.rpartition("\nIMPORTED")[0]

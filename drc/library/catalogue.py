@@ -56,7 +56,7 @@ class Library:
                  contact_classes: dict[str, ContactClass], limits: dict[str, Limit],
                  form_words: Mapping[str, frozenset[str]],
                  other_parts: dict[str, OtherPart] | None = None,
-                 pin_names: PinNames | None = None) -> None:
+                 pin_names: PinNames | None = None, fingerprint: str | None = None) -> None:
         self.families = families
         self.part_types = part_types
         self.contact_classes = contact_classes
@@ -74,10 +74,14 @@ class Library:
         # (drc.diskcache) and passed back to this constructor. Every argument goes here.
         self.records = (families, part_types, contact_classes, limits, dict(form_words),
                         self.other_parts, self.pin_names)
-        content = (families, part_types, contact_classes, limits,
-                   sorted((k, sorted(v)) for k, v in form_words.items()), self.other_parts,
-                   _sorted_pin_names(self.pin_names))
-        self.fingerprint = hashlib.sha256(repr(content).encode()).hexdigest()
+        # `fingerprint`: the digest of these records computed when they were parsed (the
+        # disk cache keeps it with them: the repr of every record is most of a load).
+        if fingerprint is None:
+            content = (families, part_types, contact_classes, limits,
+                       sorted((k, sorted(v)) for k, v in form_words.items()), self.other_parts,
+                       _sorted_pin_names(self.pin_names))
+            fingerprint = hashlib.sha256(repr(content).encode()).hexdigest()
+        self.fingerprint = fingerprint
 
     def __eq__(self, other: object) -> bool:
         return isinstance(other, Library) and other.fingerprint == self.fingerprint
@@ -235,13 +239,14 @@ def _load_cached(folder: Path) -> Library:
     from drc import diskcache
     key = diskcache.make_key("library", (str(folder), diskcache.folder_digest(folder)))
     kept = diskcache.load("library", key)
-    if type(kept) is tuple and len(kept) == 7:
+    if type(kept) is tuple and len(kept) == 2 and type(kept[0]) is tuple and len(kept[0]) == 7 \
+            and type(kept[1]) is str:
         try:
-            return Library(*kept)
+            return Library(*kept[0], fingerprint=kept[1])
         except (TypeError, ValueError, AttributeError):
             pass  # an entry of another shape: parse the files
     library = _load_folder(folder)
-    diskcache.store("library", key, library.records)
+    diskcache.store("library", key, (library.records, library.fingerprint))
     return library
 
 
