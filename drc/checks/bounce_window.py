@@ -93,18 +93,22 @@ def _timed(result: StageResult, ctx: RuleContext):
 def prepare(results: list[StageResult], ctx: RuleContext) -> None:
     """The closure-and-opening readings of every edge the check will ask about, in one
     batch (drc.analysis.first_edge keeps them; the check reads them one by one)."""
-    # The solver (numpy) is imported here and in `check`, when used: listing the rules or
-    # reading cached results does not need it.
-    from drc.analysis.first_edge import pull_backs
     wanted = [(r.stage, r.receiver_electrical, edge.edge) for r in results
               if r.receiver_electrical is not None and is_schmitt(r) for edge, _ in _timed(r, ctx)]
     if wanted:
         pull_backs(wanted, ctx.limit(MIN_CLOSURE))
 
 
+def pull_backs(wanted, min_closure_s: float) -> list[PullBack | None]:
+    """drc.analysis.first_edge.pull_backs, imported when first used: the solver (numpy) is
+    not needed to list the rules or to read cached results."""
+    from drc.analysis import first_edge
+    return first_edge.pull_backs(wanted, min_closure_s)
+
+
 @rule(DOC, kind="stage", prepare=prepare)
 def check(result: StageResult, ctx: RuleContext):
-    from drc.analysis.first_edge import pull_back
+    from drc.analysis.first_edge import pull_back  # when used (see pull_backs)
     margin = ctx.limit(MARGIN)
     rx = result.receiver_electrical
     for edge, needed in _timed(result, ctx):
