@@ -258,3 +258,49 @@ def test_a_pin_switched_directly_crosses_at_once_and_recharges_through_the_diode
     assert e.fastest_s == pytest.approx(min(release_time(*x, lo) for x in rows), rel=1e-5)
     assert e.slowest_s == pytest.approx(max(release_time(*x, hi) for x in rows), rel=1e-5)
     assert e.nominal_s == pytest.approx(release_time(VCC, R1, C1, sum(LEAK_HIGH) / 2, typ), rel=1e-5)
+
+
+@pytest.mark.parametrize("rs", [RS, 0.0])
+def test_the_diode_current_and_its_slope_are_the_shockley_equation(rs):
+    # I from V: the equation solved for V by hand at chosen currents; dI/dV by implicit
+    # differentiation, 1 / (RS + N·Vt / (I + IS)). The transient's scalar form is the same.
+    from drc.analysis.physics.nonlinear import _diode_scalar, diode_current
+
+    d = Diode("D1", "a", "k", card=DiodeCard(IS, N, rs))
+    for i_want in (1e-9, 1e-6, 1e-3, 0.1):
+        v = NVT * math.log(i_want / IS + 1.0) + i_want * rs
+        i, di = diode_current(d, np.array([v]))
+        slope = 1.0 / (rs + NVT / (i_want + IS))
+        assert float(i[0]) == pytest.approx(i_want, rel=1e-9)
+        assert float(di[0]) == pytest.approx(slope, rel=1e-6)
+        i_s, di_s = _diode_scalar(d, v)
+        assert i_s == pytest.approx(i_want, rel=1e-9) and di_s == pytest.approx(slope, rel=1e-6)
+    # Reverse: the saturation current, whatever the reverse voltage far beyond N·Vt.
+    i, _di = diode_current(d, np.array([-5.0]))
+    assert float(i[0]) == pytest.approx(-IS, rel=1e-9)
+
+
+def test_a_diode_without_a_card_is_piecewise_linear_in_the_same_equations():
+    # rules/limits.toml: 0.6 V in series with 10 ohm while conducting, open below.
+    from drc.analysis.physics.nonlinear import _diode_scalar, diode_current
+
+    d = Diode("D2", "a", "k", 0.6, 10.0)
+    i, di = diode_current(d, np.array([0.3, 0.6, 0.85]))
+    np.testing.assert_allclose(i, [0.0, 0.0, 0.025], rtol=1e-12)
+    np.testing.assert_allclose(di, [0.0, 0.0, 0.1], rtol=1e-12)
+    assert _diode_scalar(d, 0.85) == pytest.approx((0.025, 0.1), rel=1e-12)
+    assert _diode_scalar(d, 0.3) == (0.0, 0.0)
+
+
+def test_a_blocking_clamp_beside_the_card_diode_changes_nothing():
+    # A diode without a card from ground to the pin (a clamp) never conducts at these levels
+    # (the pin stays above ground): the levels are the hand figures of the card diode alone.
+    st = diode_or()
+    st = stage(resistors=st.circuit.resistors, capacitors=st.circuit.capacitors,
+               diodes=st.circuit.diodes + (Diode("D2", "0", "rx"),), rails=st.circuit.rails,
+               throws=st.circuit.throws)
+    res = analyse_stage(st, RX)
+    worst = max(pressed_level(v, r, i) for r, _c, v in corners() for i in LEAK_LOW)
+    assert res.levels["pressed"].worst_v == pytest.approx(worst, rel=1e-7)
+    worst_high = min(released_level(v, r, i) for r, _c, v in corners() for i in LEAK_HIGH)
+    assert res.levels["released"].worst_v == pytest.approx(worst_high, rel=1e-7)
