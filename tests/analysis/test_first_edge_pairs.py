@@ -39,7 +39,7 @@ def back_time(r_pu, r_s, c, vcc, left, opposite):
 
 def test_release_pull_back_takes_the_pair_nearest_the_top():
     pb = pull_back(pullup_series_rc(r_pu=10e3, r_s=1e3, c=100e-9), RX, "release")
-    assert pb is not None and pb.bounce_state == "pressed" and pb.at_threshold
+    assert pb is not None and pb.edge == "release" and pb.bounce_state == "pressed" and pb.at_threshold
     pairs = {(2.0, 1.6): [], (2.6, 2.2): []}
     for r_pu, r_s, c, vcc in itertools.product((9.5e3, 10.5e3), (0.95e3, 1.05e3), (80e-9, 120e-9), (4.75, 5.25)):
         for (left, opp), times in pairs.items():
