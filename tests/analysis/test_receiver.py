@@ -5,6 +5,7 @@ analysis tests so that the analysis package's mutation run judges it too.)"""
 
 import math
 
+import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -265,3 +266,42 @@ def test_thresholds_follow_the_supply_across_its_tolerance(library):
     # Between two sample points the curve is linear: interpolation is exact.
     mid = e45.at_supply(4.2)
     assert mid.rising[0] == pytest.approx(lerp(4.2, 2.0, 0.7, 4.5, 1.55))
+
+
+@pytest.mark.parametrize("schmitt", [False, True])
+def test_thresholds_across_the_supply_band_follow_the_jedec_points(library, schmitt):
+    # HC at 4.5 V +-10 % (4.05-4.95 V) spans the 4.5 V point of the JESD7A tables (from memory:
+    # VIH 1.5/3.15/4.2 V and VIL 0.5/1.35/1.8 V at 2.0/4.5/6.0 V; the HC14 class VT+ and VT- rows
+    # of rules/families.toml): linear between the points, the band's end value beyond it.
+    e = receiver_electrical(library, "HC", 4.5, schmitt=schmitt, supply_tolerance=0.1)
+    assert [p.vcc for p in e.supply_points] == pytest.approx([4.05, 4.5, 4.95])
+    pts = [2.0, 4.5, 6.0]
+
+    def hand(v, values):
+        return float(np.interp(min(max(v, 4.05), 4.95), pts, values))
+
+    for v in (3.9, 4.05, 4.2, 4.5, 4.6, 4.95, 5.2):
+        got = e.at_supply(v)
+        assert got.vih_min == pytest.approx(hand(v, [1.5, 3.15, 4.2]), abs=1e-12)
+        assert got.vil_max == pytest.approx(hand(v, [0.5, 1.35, 1.8]), abs=1e-12)
+        if schmitt:
+            assert got.rising[0] == pytest.approx(hand(v, [0.7, 1.55, 2.1]), abs=1e-12)
+            assert got.rising[2] == pytest.approx(hand(v, [1.5, 3.15, 4.2]), abs=1e-12)
+            assert got.falling[0] == pytest.approx(hand(v, [0.3, 0.9, 1.2]), abs=1e-12)
+            assert got.falling[2] == pytest.approx(hand(v, [1.0, 2.45, 3.2]), abs=1e-12)
+        else:  # a plain input: the VIL-VIH band, its midpoint typical
+            lo, hi = hand(v, [0.5, 1.35, 1.8]), hand(v, [1.5, 3.15, 4.2])
+            assert got.rising == pytest.approx((lo, 0.5 * (lo + hi), hi), abs=1e-12)
+            assert got.falling == got.rising
+    assert e.supply_breaks(4.05, 4.95) == pytest.approx((4.5,))
+    assert e.supply_breaks(4.5, 4.95) == ()
+
+
+def test_hand_built_thresholds_hold_at_any_supply():
+    # No supply points: the figures given are the figures, whatever the VCC asked about.
+    e = ReceiverElectrical("T", 5.0, True, (2.0, 2.9, 3.5), (0.9, 1.6, 2.2), 3.5, 1.5, (0.0, 1e-6),
+                           (-1e-6, 0.0), 5.5, False, None)
+    got = e.at_supply(4.2)
+    assert (got.vcc, got.rising, got.falling, got.vih_min, got.vil_max) == \
+        (5.0, (2.0, 2.9, 3.5), (0.9, 1.6, 2.2), 3.5, 1.5)
+    assert not e.tracks_supply
