@@ -73,3 +73,19 @@ def test_a_floating_receiver_beside_another_input_on_the_contact_node():
     assert res.levels["pressed"].logic == "undefined"
     assert res.contact_current_a == pytest.approx(min(currents), abs=1e-6)
     assert res.closed_current_a == pytest.approx(max(currents), abs=1e-6)
+
+
+def test_floating_receivers_solved_together_keep_their_own_contact_currents():
+    # Two AC-coupled pins of one structure, 10k and 2.2k pull-ups, in one batch: each contact
+    # carries its own Vcc / (R1 + Rc).
+    from drc.analysis.stage_analysis import analyse_stages
+
+    def coupled(r1):
+        return stage(resistors=(Resistor("R1", "vcc", "sw", r1, role=ResistorRole.PULL),),
+                     capacitors=(Capacitor("C1", "sw", "rx", 100e-9),), throws=(Throw("sw", "0", "pressed", RC),))
+
+    values = (10e3, 2.2e3)
+    for r1, res in zip(values, analyse_stages([coupled(r) for r in values], [RX, RX]), strict=True):
+        currents = [v / (r + RC) for v, r in itertools.product((4.75, 5.25), (r1 * 0.95, r1 * 1.05))]
+        assert res.contact_current_a == pytest.approx(min(currents), rel=1e-9)
+        assert res.closed_current_a == pytest.approx(max(currents), rel=1e-9)
