@@ -212,8 +212,10 @@ def test_without_a_capacitor_both_edges_are_immediate():
 # pin drops at once (C1 is held off by the diode); released, R1 charges C1 through the diode and
 # the pin sits a diode drop over C1.
 
-def behind_the_diode():
-    return stage(resistors=(Resistor("R1", "vcc", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
+def behind_the_diode(bleed=None):
+    """bleed: a resistor from m to ground, listed first (so m is the network's first node)."""
+    bleeder = (Resistor("R2", "m", "0", bleed, 0.0, 0.0),) if bleed else ()
+    return stage(resistors=bleeder + (Resistor("R1", "vcc", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
                  capacitors=(Capacitor("C1", "m", "0", C1, C_TOL, C_TOL),),
                  diodes=(Diode("D1", "rx", "m", card=DiodeCard(IS, N, RS)),),
                  rails=(RailSource("vcc", VCC, V_TOL),), throws=(Throw("rx", "0", "pressed", RC),))
@@ -229,25 +231,27 @@ def charge_current(vcc, r1, leak, u):
     return i, pin(i)
 
 
-def pressed_start(vcc, r1, leak):
+def pressed_start(vcc, r1, leak, g_m=GMIN):
     """C1's voltage while pressed: the pin at vcc·Rc/(r1 + Rc) (less the leakage through
     r1 ∥ Rc; the diode and gmin draw picoamps), and m where the diode's current equals m's gmin
     current, IS·(exp((V_pin − u)/(N·Vt)) − 1) = gmin·u (RS drops nothing at picoamps)."""
     pin = vcc * RC / (r1 + RC) - leak * r1 * RC / (r1 + RC)
-    return brentq(lambda u: IS * math.expm1((pin - u) / NVT) - GMIN * u, 0.0, pin, xtol=1e-18, rtol=1e-14)
+    return brentq(lambda u: IS * math.expm1((pin - u) / NVT) - g_m * u, 0.0, pin, xtol=1e-18, rtol=1e-14)
 
 
-def release_time(vcc, r1, c, leak, vth):
-    """C1 du/dt = I(u) − gmin·u from its pressed voltage until the pin reaches vth,
+def release_time(vcc, r1, c, leak, vth, bleed=None):
+    """C1 du/dt = I(u) − (gmin + 1/bleed)·u from its pressed voltage until the pin reaches vth,
     by separation of variables (scipy.integrate.quad)."""
-    u0 = pressed_start(vcc, r1, leak)
+    g_m = GMIN + (1.0 / bleed if bleed else 0.0)
+    u0 = pressed_start(vcc, r1, leak, g_m)
     u_th = brentq(lambda u: charge_current(vcc, r1, leak, u)[1] - vth, 0.0, vth, xtol=1e-15, rtol=1e-14)
-    return c * quad(lambda u: 1.0 / (charge_current(vcc, r1, leak, u)[0] - GMIN * u), u0, u_th,
+    return c * quad(lambda u: 1.0 / (charge_current(vcc, r1, leak, u)[0] - g_m * u), u0, u_th,
                     epsabs=0.0, epsrel=1e-11, limit=200)[0]
 
 
-def test_a_pin_switched_directly_crosses_at_once_and_recharges_through_the_diode():
-    res = analyse_stage(behind_the_diode(), RX)
+@pytest.mark.parametrize("bleed", [None, 1e6])
+def test_a_pin_switched_directly_crosses_at_once_and_recharges_through_the_diode(bleed):
+    res = analyse_stage(behind_the_diode(bleed), RX)
     press = res.edges["press"]
     assert (press.nominal_s, press.fastest_s, press.slowest_s) == (0.0, 0.0, 0.0)
     assert press.slope_v_per_s == math.inf
@@ -255,9 +259,9 @@ def test_a_pin_switched_directly_crosses_at_once_and_recharges_through_the_diode
     rows = [(v, r, c, i) for r, c, v in corners() for i in LEAK_HIGH]
     lo, typ, hi = RX.rising_threshold
     # The integrator's own tolerance (rtol 1e-8) bounds the agreement.
-    assert e.fastest_s == pytest.approx(min(release_time(*x, lo) for x in rows), rel=1e-5)
-    assert e.slowest_s == pytest.approx(max(release_time(*x, hi) for x in rows), rel=1e-5)
-    assert e.nominal_s == pytest.approx(release_time(VCC, R1, C1, sum(LEAK_HIGH) / 2, typ), rel=1e-5)
+    assert e.fastest_s == pytest.approx(min(release_time(*x, lo, bleed) for x in rows), rel=1e-5)
+    assert e.slowest_s == pytest.approx(max(release_time(*x, hi, bleed) for x in rows), rel=1e-5)
+    assert e.nominal_s == pytest.approx(release_time(VCC, R1, C1, sum(LEAK_HIGH) / 2, typ, bleed), rel=1e-5)
 
 
 @pytest.mark.parametrize("rs", [RS, 0.0])
