@@ -219,9 +219,13 @@ def test_sensitivity_search_finds_the_worst_vertex_of_a_monotone_figure():
     def f(P):
         return P @ W14 + 0.1 * np.tanh(P[:, 0] * W14[0])
 
-    row, best = worst_vertex(_box(n), f)
+    counted = Counted(f)
+    row, best = worst_vertex(_box(n), counted)
     assert best == pytest.approx(_brute(n, f), rel=1e-12)
     np.testing.assert_array_equal(row, np.sign(W14))
+    # The sensitivities (2n rows) point straight at it: the vertex (1 row) and one round of its
+    # n neighbours confirm it (corners' module docstring: read from sensitivities, confirmed).
+    assert counted.rows == 2 * n + 1 + n
 
 
 def test_sensitivity_search_moves_to_a_better_neighbour():
