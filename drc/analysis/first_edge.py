@@ -27,6 +27,12 @@ capacitor voltage u, so:
   short of it). Closures in between only push u further away, so one pull
   back lasting the whole bounce is the worst a bounce can do.
 
+Stages with diodes or several capacitors are read the same way on their
+exact trajectories (physics.flows: exponential sums between diode events,
+card diodes by quadrature) from any capacitor voltages, the fastest corner
+found by the exact edge timing's sign search (`_ExactRows` says why the
+same levels bound the bounce there).
+
 The fastest pull back is searched over every vertex of the tolerance box
 (its own threshold limits: the crossing threshold nearest the old level, the
 opposite one nearest too; leakage over both levels' ranges), and the nominal
@@ -51,14 +57,15 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from drc.analysis.physics.batch import structure_key, template
-from drc.analysis.physics.compiled import THRESHOLD, LinearModel, param_table, rail_param
-from drc.analysis.physics.corners import corner_dict, make_box, vertices
+from drc.analysis.physics.compiled import THRESHOLD, LinearModel, compile_circuit, param_table, rail_param
+from drc.analysis.physics.corners import Box, corner_dict, make_box, sign_search, vertices
+from drc.analysis.physics.flows import flow
 from drc.analysis.physics.mna import cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from drc.analysis.physics.supply import supply_column, supply_pieces
 from drc.analysis.receiver import ReceiverElectrical
 from drc.analysis.results import EDGE_STATES, Edge
 from drc.analysis.reuse import canonical_key, renamed_corner, stage_names
-from drc.analysis.stage_analysis import EdgeSetup
+from drc.analysis.stage_analysis import EdgeSetup, edge_setup, leak_ranges
 from drc.board.stage import Stage
 from drc.caching import Memo
 
@@ -72,7 +79,8 @@ class PullBack:
 
     bounce_state: the state the contact bounces into ("transit": no throw closed).
     closure_tau_s / bounce_tau_s: the new state's and the bounce state's time
-    constants at the nominal corner. left_v: the level a crossing new-state
+    constants at the nominal corner (nan where the stage has no single one:
+    diodes, several capacitors). left_v: the level a crossing new-state
     interval can leave, at the fastest corner; at_threshold: that level is the
     crossing threshold itself (the new state's path is slow). opposite_v: the
     opposite threshold there. fastest_s: the shortest pull back from left_v
@@ -114,7 +122,8 @@ Wanted = tuple[Stage, ReceiverElectrical, Edge | str]
 def pull_back(stage: Stage, rx: ReceiverElectrical, edge: Edge | str,
               min_closure_s: float = MIN_CLOSURE_S) -> PullBack | None:
     """The closure-and-opening reading of one edge; None where it does not apply (an input
-    without hysteresis, several capacitors or none, diodes, an edge that never crosses).
+    without hysteresis, no capacitor, several capacitors not each to a rail or ground or
+    with a card diode, an edge that never crosses).
     A stage identical to one read before but for its names gets that reading, renamed."""
     return pull_backs([(stage, rx, edge)], min_closure_s)[0]
 
@@ -169,7 +178,7 @@ def _read(wanted: Sequence[Wanted], which: list[int], min_closure_s: float) -> d
     groups: dict[tuple, list[int]] = {}
     for i in which:
         stage, rx, edge = wanted[i]
-        if not rx.schmitt or len(stage.circuit.capacitors) != 1:
+        if not rx.schmitt or not stage.circuit.capacitors:
             out[i] = None
             continue
         groups.setdefault((structure_key(stage.circuit), Edge(edge)), []).append(i)
@@ -196,8 +205,10 @@ def _read_group(model: LinearModel, items: list[tuple[Stage, ReceiverElectrical]
                 min_closure_s: float) -> list[PullBack | None]:
     """The readings of one edge of stages of `model`'s structure (each stage's values are its rows)."""
     out: list[PullBack | None] = [None] * len(items)
-    if model.has_diodes or model.k != 1 or model.rx < 0:
+    if model.k == 0 or model.rx < 0:
         return out
+    if model.has_diodes or model.k != 1:  # on the exact trajectories, stage by stage
+        return [_exact_one(stage, rx, edge, min_closure_s) for stage, rx in items]
     ready = [(j, s) for j, s in enumerate(_setups(model, items, edge)) if s is not None]
     if not ready:
         return out
@@ -442,6 +453,179 @@ def _reading(d: np.ndarray, u_old: np.ndarray, new: tuple, bounce: tuple, cross_
         t = np.where(reaches, t, np.nan)
         t_cross = np.where(reaches, np.maximum(tau_n * np.log((un - u_start) / (un - u_cross)), 0.0), np.inf)
     return _Figures(t, left_v, ~crossed, t_cross)
+
+
+# ---------------------------------------------------------------- diodes, several capacitors
+
+@dataclass(frozen=True, slots=True)
+class _ExactFigures:
+    """One row and threshold pair read on the exact trajectories."""
+
+    pull_s: float  # nan: the edge never crosses; inf: the bounce never brings it back
+    left_v: float
+    at_threshold: bool
+    cross_s: float  # from the steady start to the crossing, in the new state
+
+
+class _ExactRows:
+    """The closure-and-opening reading at rows of parameters, on the exact trajectories
+    (physics.flows): what the closed forms above do for one capacitor without diodes.
+
+    One capacitor: its voltage is the whole state, so the argument of the
+    module docstring holds as it stands (a one-dimensional flow keeps its
+    order). Several capacitors, each with one end on a rail or ground: the
+    network is cooperative (a capacitor's voltage only pulls its neighbours
+    its way), so the state a crossing closure can leave is at most the state
+    after `min_closure_s` from the steady start, capacitor by capacitor; when
+    the closure path is slow, that state with the receiver's own capacitor
+    at the crossing threshold bounds it (pessimistic: a recharge from there
+    is at least as fast as from any state a real bounce leaves). The bounce
+    state must then be the old state itself (its steady start one point).
+    """
+
+    def __init__(self, model: LinearModel, es: EdgeSetup, back: str, min_closure_s: float) -> None:
+        self.model, self.es, self.back, self.min_closure_s = model, es, back, min_closure_s
+        self.rows: dict[bytes, tuple | None] = {}
+
+    def _start(self, row: np.ndarray) -> tuple | None:
+        key = row.tobytes()
+        if key not in self.rows:
+            self.rows[key] = self._start_now(row)
+        return self.rows[key]
+
+    def _start_now(self, row: np.ndarray) -> tuple | None:
+        model, es = self.model, self.es
+        new, bounce = flow(model, es.to_state, row), flow(model, self.back, row)
+        if new is None or bounce is None:
+            return None
+        P = row[None, :]
+        u_start = cap_voltages(model, dc_solve(model, es.from_state, P))[0]
+        if self.back != es.from_state:
+            u_b = cap_voltages(model, dc_solve(model, self.back, P))[0]
+            if model.k == 1:
+                u_new = cap_voltages(model, dc_solve(model, es.to_state, P))[0]
+                if (u_new[0] - u_start[0]) * (u_b[0] - u_start[0]) < 0:
+                    u_start = u_b  # the bounce state's own level lies farther back
+            elif not np.allclose(u_b, u_start, rtol=0.0, atol=1e-9):
+                return None
+        return new, bounce, u_start, new.after(u_start, self.min_closure_s)
+
+    def figures(self, row: np.ndarray, cross: float, opp: float) -> _ExactFigures | None:
+        start = self._start(row)
+        if start is None:
+            return None
+        new, bounce, u_start, u_after = start
+        d = self.es.direction
+        hit = new.reach(u_start, cross, d)
+        if hit is None:
+            return _ExactFigures(math.nan, math.nan, False, math.inf)
+        crossed = hit[0] <= self.min_closure_s
+        if crossed:
+            u_left = u_after
+        elif self.model.k == 1:
+            u_left = hit[1]  # the crossing threshold itself
+        else:
+            u_left = self._at_threshold(row, u_after, cross)
+            if u_left is None:
+                return None
+        way_back = bounce.reach(u_left, opp, -d)
+        return _ExactFigures(math.inf if way_back is None else way_back[0], new.receiver(u_left), not crossed, hit[0])
+
+    def _at_threshold(self, row: np.ndarray, u: np.ndarray, level: float) -> np.ndarray | None:
+        """u with the capacitor from the receiver to a rail or ground set to put the receiver
+        at `level`; None when no capacitor sits there."""
+        model = self.model
+        vfix = model.fixed_voltages(row[None, :])[0]
+        for j, (a, b) in enumerate(model.cap_nodes):
+            if model.rx in (a, b) and min(a, b) < 0:
+                out = u.copy()
+                out[j] = model.Ac[j, model.rx] * level + float(model.Acf[j] @ vfix)
+                return out
+        return None
+
+    def fastest(self, row: np.ndarray, pairs: list[tuple[float, float]]) -> tuple[float, _ExactFigures, int] | None:
+        """The quickest pull back at `row` over the threshold pairs: (time, figures, pair)."""
+        best = None
+        for i, (cross, opp) in enumerate(pairs):
+            fig = self.figures(row, cross, opp)
+            if fig is None:
+                return None
+            t = math.inf if math.isnan(fig.pull_s) else fig.pull_s
+            if best is None or t < best[0]:
+                best = (t, fig, i)
+        return best
+
+
+def _exact_one(stage: Stage, rx: ReceiverElectrical, edge: Edge, min_closure_s: float) -> PullBack | None:
+    model = compile_circuit(stage.circuit)
+    try:
+        es = edge_setup(model, rx, edge)
+    except ValueError:
+        return None
+    return _exact_reading(model, rx, es, bounce_state(stage, edge), min_closure_s)
+
+
+def _both_levels_box(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup) -> Box:
+    """The edge's box with every load's leakage over its high and its low range: the
+    capacitor crosses from one level towards the other and may come back."""
+    n = len(model.leak_cols)
+    high = leak_ranges(model, rx, ("high",) * n)
+    low = leak_ranges(model, rx, ("low",) * n)
+    both = tuple((min(*h, *lo), max(*h, *lo)) for h, lo in zip(high, low, strict=True))
+    return make_box(model.nominal, model.lo, model.hi, model.leak_cols, both)
+
+
+def _grounded(model: LinearModel) -> bool:
+    """Every capacitor has one end on a rail or ground."""
+    return all(min(a, b) < 0 for a, b in model.cap_nodes)
+
+
+def _row_pairs(es: EdgeSetup, opposite: EdgeSetup, row: np.ndarray, vh: float) -> list[tuple[float, float]]:
+    return [(float(c[0]), float(o[0])) for c, o in _threshold_pairs(es, opposite, row[None, :], vh)]
+
+
+def _exact_reading(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup, back: str,
+                   min_closure_s: float) -> PullBack | None:
+    """The reading of a stage with diodes or several capacitors: the same closures and
+    openings on the exact trajectories (card diodes by quadrature, the rest by exponential
+    sums between diode events), the fastest pull back found by the corner search the exact
+    edge timing uses (corners.sign_search: a sign per parameter, confirmed by single flips)."""
+    if model.k > 1 and not _grounded(model):
+        return None
+    reader = _ExactRows(model, es, back, min_closure_s)
+    opposite = _opposite(es, rx)
+    nominal_row = es.box.nominal
+    nominal = reader.figures(nominal_row, float(es.vth(nominal_row[None, :], "typ")[0]),
+                             float(opposite.vth(nominal_row[None, :], "typ")[0]))
+    if nominal is None or math.isnan(nominal.pull_s):
+        return None  # no exact path, or the edge never crosses at nominal
+    vh = rx.hysteresis_min_v or 0.0
+    failed = False
+
+    def badness(P: np.ndarray) -> np.ndarray:
+        nonlocal failed
+        out = np.empty(P.shape[0])
+        for i, row in enumerate(P):
+            got = reader.fastest(row, _row_pairs(es, opposite, row, vh))
+            failed = failed or got is None
+            out[i] = -np.inf if got is None else -got[0]
+        return out
+
+    box = _both_levels_box(model, rx, es)
+    found = [sign_search(piece, badness) for piece in supply_pieces(box, rx, es.supply_col)]
+    if failed:
+        return None
+    row, _bad = max(found, key=lambda x: x[1])
+    pairs = _row_pairs(es, opposite, row, vh)
+    got = reader.fastest(row, pairs)
+    assert got is not None
+    t, fig, i = got
+    return PullBack(
+        edge=es.edge, bounce_state=str(back), min_closure_s=min_closure_s,
+        closure_tau_s=math.nan, bounce_tau_s=math.nan, left_v=fig.left_v,
+        at_threshold=fig.at_threshold, opposite_v=pairs[i][1], fastest_s=_time(t),
+        nominal_s=_time(nominal.pull_s), corner_fastest=corner_dict(model.param_names, row, {THRESHOLD: pairs[i][0]}),
+        first_crossing_s=_time(nominal.cross_s))
 
 
 __all__ = ["MIN_CLOSURE_S", "TRANSIT", "PullBack", "bounce_state", "pull_back", "pull_backs"]

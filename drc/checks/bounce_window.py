@@ -56,15 +56,18 @@ DOC = RuleDoc(
          "nominal calculation."),
     how=("Time to threshold: t = R·C·ln((Vf − V0)/(Vf − Vth)) for one capacitor (exact multi-capacitor "
          "solution otherwise) at the fastest corner: R and C at their minimum, the threshold nearest the "
-         "start (VT+ min rising, VT- max falling), the final value farthest. Closure and opening (one "
-         "capacitor, no diodes): the bounce alternates the edge's new state (a closure, on a press) and "
+         "start (VT+ min rising, VT- max falling), the final value farthest. Closure and opening: the bounce alternates the edge's new state (a closure, on a press) and "
          "the state it bounces into (no throw closed); each new-state interval lasts at least "
          "`min_closure` (1 µs) and drives the capacitor with that path's own time constant "
          "(nanoseconds through a bare contact, the series RC otherwise). The pull back starts from the "
          "highest level such an interval can leave after crossing (the level after `min_closure`, or "
          "the crossing threshold itself when the path is slower) and, at the fastest corner over every "
          "vertex (the two thresholds at most VH min apart), must take at least bounce × margin "
-         "(limit `bounce_margin`) to reach the opposite threshold."),
+         "(limit `bounce_margin`) to reach the opposite threshold. One capacitor without diodes is read in "
+         "closed form over every vertex; diodes (from their .model card: the Shockley law) and several "
+         "capacitors (each to a rail or ground; the receiver's own capacitor set at the threshold when "
+         "the closure path is slow, a bound) on the exact trajectories, the fastest corner found by a "
+         "sign search over the parameters."),
     fix=("Raise the series resistor or the capacitor (press edge), or the pull plus series "
          "resistance (release edge); on a Schmitt input with a capacitor across the contact, slow the "
          "recharge instead (a larger pull resistor or capacitor). Check latency afterwards. drc "

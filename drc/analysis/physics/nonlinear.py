@@ -5,10 +5,12 @@ I = IS (exp((V - I RS) / (N Vt)) - 1), solved for I in closed form with
 Wright's omega function (W(exp(y)), so it never overflows). A stage holding
 one is no longer linear: its steady states are found by Newton's method on
 the nodal equations (started from the piecewise-linear solution, steps
-limited to half a volt), and its edges by integrating the capacitor voltages
-with scipy's Radau method (stiff: a diode's nanoseconds beside a pull-up's
-milliseconds) with an event at the threshold; at each step the rest of the
-network is solved by Newton with the capacitors as voltage sources. Other
+limited to half a volt). With one capacitor its edges are quadratures
+(`oneport`); with several, the capacitor voltages are integrated with
+scipy's Radau method (stiff: a diode's nanoseconds beside a pull-up's
+milliseconds) with an event at the threshold (`numeric_edge`); at each step
+the rest of the network is solved by Newton with the capacitors as voltage
+sources (`CapacitorSystem`). Other
 diodes of such a stage (piecewise linear: TTL input stages, clamps, diodes
 without a card) keep their piecewise-linear current in the same equations.
 Every free node has 1e-12 S to ground (SPICE's gmin), so a node left
@@ -144,7 +146,7 @@ def dc_newton(model: LinearModel, state: str, P: np.ndarray, v0: np.ndarray) -> 
     return v, currents
 
 
-class _Transient:
+class CapacitorSystem:
     """C du/dt = i_c(u): the capacitor currents of a state, with the rest solved by Newton.
 
     One row: the linear part of the nodal matrix is assembled once; each Newton
@@ -240,7 +242,7 @@ def numeric_edge(model: LinearModel, from_state: str, to_state: str, row: np.nda
                            np.array([0.0]), np.array([final_v]))
     # The capacitor branch voltages of the starting state (as mna.cap_voltages).
     u0 = (v_start @ model.Ac.T + model.fixed_voltages(P) @ model.Acf.T)[0]
-    sys = _Transient(model, to_state, row, v_start[0])
+    sys = CapacitorSystem(model, to_state, row, v_start[0])
     v_jump = _rx(model, sys.solve(u0)[0], vfix)
     if before and direction * (v_jump - vth) >= 0:  # the receiver jumps past the threshold
         return NumericEdge(start_v, final_v, 0.0, math.inf, np.array([0.0]), np.array([v_jump]))

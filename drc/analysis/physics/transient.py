@@ -18,6 +18,7 @@ same segments give the plotted waveform, so a plot is the analysis' own data.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,6 +26,7 @@ import numpy as np
 from drc.analysis.physics.compiled import LinearModel
 from drc.analysis.physics.mna import Reduced, cap_voltages, dc_solve, node_voltage, reduce_dynamic
 from drc.analysis.physics.nonlinear import nonlinear, numeric_edge
+from drc.analysis.physics.oneport import one_cap_edge
 from drc.analysis.physics.roots import brent_root
 
 MAX_EVENTS = 32  # diode state changes followed during one edge
@@ -284,6 +286,43 @@ def settle_diodes(model: LinearModel, state: str, P: np.ndarray, u: np.ndarray,
     return on, reduce_dynamic(model, model.topology(state, on), P)
 
 
+@dataclass(frozen=True, slots=True)
+class Stretch:
+    """One linear stretch of a state's trajectory from given capacitor voltages: from t0
+    (absolute) for `duration` (inf: the last), the receiver as an exponential sum in local
+    time, and the capacitor voltages at any local time (`u_at`)."""
+
+    t0: float
+    duration: float
+    rx: ExpSum
+    modal: _Modal
+
+    def u_at(self, t: float) -> np.ndarray:
+        return self.modal.u_at(t)
+
+
+def walk(model: LinearModel, state: str, params: np.ndarray, u0: np.ndarray,
+         on: tuple[bool, ...]) -> Iterator[Stretch]:
+    """The trajectory of `state` from capacitor voltages u0, stretch by stretch (a diode
+    changing state ends one): what `solve_edge` follows from a steady state, from any start.
+    on: a first guess of the diodes' states (settled against u0 here)."""
+    P = np.atleast_2d(np.asarray(params, dtype=float))
+    u = np.asarray(u0, dtype=float)
+    t_abs = 0.0
+    for _ in range(MAX_EVENTS):
+        on, red = settle_diodes(model, state, P, u, on)
+        modal = _Modal(red.C[0], red.Y[0], red.h[0], u)
+        events = _diode_events(model, red, modal, on)
+        t_event = min((t for t, _ in events), default=math.inf)
+        yield Stretch(t_abs, t_event, _node_expr(model, red, modal, model.rx), modal)
+        if not math.isfinite(t_event):
+            return
+        u = modal.u_at(t_event)
+        flips = {j for t, j in events if t <= t_event * (1 + 1e-12)}
+        on = tuple((not x) if j in flips else x for j, x in enumerate(on))
+        t_abs += t_event
+
+
 def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.ndarray,
                vth: float, direction: int, *, full: bool = False, exact: bool = True) -> EdgeSolution:
     """The edge from the steady state of `from_state` into `to_state`.
@@ -341,7 +380,10 @@ def _numeric_solution(model: LinearModel, from_state: str, to_state: str, P: np.
     taus = [t for t in pwl.time_constants if math.isfinite(t) and t > 0]
     horizon = 200.0 * max(taus, default=1e-6) + 10.0 * (pwl.crossing_s or 0.0)
     starts = (dc_solve(model, from_state, P[:1], exact=False).v, dc_solve(model, to_state, P[:1], exact=False).v)
-    got = numeric_edge(model, from_state, to_state, P[0], vth, direction, horizon, starts, full=full)
+    if model.k == 1:  # one-dimensional: by quadrature (oneport)
+        got = one_cap_edge(model, from_state, to_state, P[0], vth, direction, starts, full=full)
+    else:
+        got = numeric_edge(model, from_state, to_state, P[0], vth, direction, horizon, starts, full=full)
     # The crossing time joins the time scales: a diode's edge is far faster than its stand-in's.
     scales = taus + ([got.crossing_s] if got.crossing_s else [])
     return EdgeSolution(got.start_v, got.final_v, got.crossing_s, got.slope_v_per_s, (), tuple(scales),
