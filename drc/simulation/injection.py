@@ -40,7 +40,7 @@ compared. drc.report.simulation_view words a result.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -405,11 +405,19 @@ def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, 
     if stage.kind == "latch" and latch is None:
         return not_simulated(stage, rx, "a latch stage needs its gates (their logic and the other input); "
                                         "none are known for this stage", seed, bounce_s)
-    system = _StageSystem(stage, rx, latch)
     bounce = stage.contact.bounce_s if bounce_s is None else float(bounce_s)
     if not (bounce >= 0 and math.isfinite(bounce)):
         raise UsageError(f"bounce time must be a non-negative number of seconds, not {bounce_s!r}")
     interval = (min_closure_s or INTERVAL_S[0], INTERVAL_S[1])
+    model = compile_circuit(stage.circuit)
+    if model.has_diodes:
+        for edge in EDGE_STATES:
+            try:
+                edge_setup(model, rx, edge)
+            except ValueError as exc:
+                raise UsageError(f"cannot simulate {stage.name}: {exc}") from None
+        return _with_diodes(stage, rx, model.circuit.diodes, interval, seed, bounce, latch is not None)
+    system = _StageSystem(stage, rx, latch)
     rng = np.random.default_rng(seed)
     settle = _settle_s(system, bounce)
     trains: dict[Edge, np.ndarray] = {}
@@ -439,11 +447,25 @@ def simulate_stage(stage: Stage, rx: ReceiverElectrical, *, trials: int = 1000, 
         linger_limit_s=system.band[2] if system.band else None)
 
 
+def _with_diodes(stage: Stage, rx: ReceiverElectrical, diodes, interval: tuple[float, float], seed: int,
+                 bounce: float, latch: bool) -> SimulationResult:
+    """A stage with diodes (a board's, a TTL input's, a clamp's) is not simulated (the
+    trials are solved in closed form per linear state); the result says why, and what
+    the check's closure-and-opening reading says of its first edges."""
+    names = ", ".join(d.designator for d in diodes)
+    out = not_simulated(stage, rx, f"chatter simulation covers stages without diodes, TTL inputs or "
+                                   f"conducting clamps (here: {names}); the check's readings apply", seed, bounce)
+    notes = out.notes + tuple(_reading_notes(stage, rx, interval, latch, simulated=False))
+    return replace(out, notes=notes)
+
+
 def _reading_notes(stage: Stage, rx: ReceiverElectrical, interval: tuple[float, float],
-                   system: _StageSystem) -> list[str]:
+                   system: _StageSystem | bool, simulated: bool = True) -> list[str]:
     """What the check's closure-and-opening reading says of the same stage at this corner:
-    the opening (or re-closure) that brings the input back, against the longest drawn here."""
-    if system.latch is not None or not rx.schmitt:
+    the opening (or re-closure) that brings the input back, against the longest drawn here
+    (system: the simulated stage, or whether it is a latch when it was not simulated)."""
+    latch = system if isinstance(system, bool) else system.latch is not None
+    if latch or not rx.schmitt:
         return []
     from drc.analysis.first_edge import pull_back
     out = []
@@ -454,11 +476,12 @@ def _reading_notes(stage: Stage, rx: ReceiverElectrical, interval: tuple[float, 
         way = "opening" if pb.bounce_state == TRANSIT or edge == Edge.PRESS else "re-closure"
         verdict = ("so none drawn here can" if pb.nominal_s > interval[1]
                    else "so the trials with a longer one count extra edges")
+        tail = (f"intervals drawn here last {_seconds(interval[0])} to {_seconds(interval[1])}, {verdict}"
+                if simulated else f"after a {_seconds(interval[0])} closure, at the nominal corner")
         out.append(f"{edge} crosses at once (a first-edge stage); after that an {way} longer than "
                    f"{_seconds(pb.nominal_s)} brings the input back across the other threshold (the check's "
-                   f"closure-and-opening reading at this corner); intervals drawn here last "
-                   f"{_seconds(interval[0])} to {_seconds(interval[1])}, {verdict}; the check's worst case "
-                   f"is one as long as the bounce, at the fastest corner")
+                   f"closure-and-opening reading, {tail}); the check's worst case is one as long as the "
+                   f"bounce, at the fastest corner")
     return out
 
 
