@@ -56,8 +56,9 @@ DOC = RuleDoc(
          "nominal calculation."),
     how=("Time to threshold: t = R·C·ln((Vf − V0)/(Vf − Vth)) for one capacitor (exact multi-capacitor "
          "solution otherwise) at the fastest corner: R and C at their minimum, the threshold nearest the "
-         "start (VT+ min rising, VT- max falling), the final value farthest. Closure and opening: the bounce alternates the edge's new state (a closure, on a press) and "
-         "the state it bounces into (no throw closed); each new-state interval lasts at least "
+         "start (VT+ min rising, VT- max falling), the final value farthest. Closure and opening: the "
+         "bounce alternates the edge's new state (a closure, on a press) and the state it bounces "
+         "into (no throw closed); each new-state interval lasts at least "
          "`min_closure` (1 µs) and drives the capacitor with that path's own time constant "
          "(nanoseconds through a bare contact, the series RC otherwise). The pull back starts from the "
          "highest level such an interval can leave after crossing (the level after `min_closure`, or "
