@@ -498,12 +498,12 @@ class _ExactRows:
         new, bounce = flow(model, es.to_state, row), flow(model, self.back, row)
         if new is None or bounce is None:
             return None
-        P = row[None, :]
-        u_start = cap_voltages(model, dc_solve(model, es.from_state, P))[0]
+        u_start = bounce.steady() if self.back == es.from_state else \
+            cap_voltages(model, dc_solve(model, es.from_state, row[None, :]))[0]
         if self.back != es.from_state:
-            u_b = cap_voltages(model, dc_solve(model, self.back, P))[0]
+            u_b = bounce.steady()
             if model.k == 1:
-                u_new = cap_voltages(model, dc_solve(model, es.to_state, P))[0]
+                u_new = new.steady()
                 if (u_new[0] - u_start[0]) * (u_b[0] - u_start[0]) < 0:
                     u_start = u_b  # the bounce state's own level lies farther back
             elif not np.allclose(u_b, u_start, rtol=0.0, atol=1e-9):

@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from drc.analysis.physics.compiled import LinearModel
-from drc.analysis.physics.mna import dc_solve
+from drc.analysis.physics.mna import cap_voltages, dc_solve
 from drc.analysis.physics.nonlinear import nonlinear
 from drc.analysis.physics.oneport import OnePort
 from drc.analysis.physics.transient import first_crossing, walk
@@ -37,6 +37,10 @@ class Flow:
 
     def receiver(self, u: np.ndarray) -> float:
         """The receiver's voltage with capacitor voltages u."""
+        raise NotImplementedError
+
+    def steady(self) -> np.ndarray:
+        """The capacitor voltages the state settles to."""
         raise NotImplementedError
 
 
@@ -62,6 +66,9 @@ class _Exponential(Flow):
         s = next(walk(self.model, self.state, self.row, u, self.on))
         return s.rx(0.0)
 
+    def steady(self) -> np.ndarray:
+        return cap_voltages(self.model, dc_solve(self.model, self.state, self.row[None, :]))[0]
+
 
 class _Quadrature(Flow):
     def __init__(self, model: LinearModel, state: str, row: np.ndarray) -> None:
@@ -80,6 +87,9 @@ class _Quadrature(Flow):
 
     def receiver(self, u: np.ndarray) -> float:
         return float(self.port.solve(np.array([float(u[0])]))[1][0])
+
+    def steady(self) -> np.ndarray:
+        return np.array([self.port.u_inf])
 
 
 def flow(model: LinearModel, state: str, row: np.ndarray) -> Flow | None:

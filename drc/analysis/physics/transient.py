@@ -375,11 +375,14 @@ def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.nd
 def _numeric_solution(model: LinearModel, from_state: str, to_state: str, P: np.ndarray, vth: float,
                       direction: int, full: bool) -> EdgeSolution:
     """A stage with a card diode: integrated numerically (`nonlinear`). The horizon and the
-    time constants reported are those of its piecewise-linear stand-in, generously."""
-    pwl = _pwl_edge(model, from_state, to_state, P, vth, direction)
-    taus = [t for t in pwl.time_constants if math.isfinite(t) and t > 0]
-    horizon = 200.0 * max(taus, default=1e-6) + 10.0 * (pwl.crossing_s or 0.0)
+    time constants reported are those of its piecewise-linear stand-in, generously (one
+    capacitor needs no horizon, and timing alone, full=False, no time constants)."""
     starts = (dc_solve(model, from_state, P[:1], exact=False).v, dc_solve(model, to_state, P[:1], exact=False).v)
+    taus: list[float] = []
+    if model.k != 1 or full:
+        pwl = _pwl_edge(model, from_state, to_state, P, vth, direction)
+        taus = [t for t in pwl.time_constants if math.isfinite(t) and t > 0]
+        horizon = 200.0 * max(taus, default=1e-6) + 10.0 * (pwl.crossing_s or 0.0)
     if model.k == 1:  # one-dimensional: by quadrature (oneport)
         got = one_cap_edge(model, from_state, to_state, P[0], vth, direction, starts, full=full)
     else:
