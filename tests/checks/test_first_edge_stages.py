@@ -55,6 +55,7 @@ def test_a_plain_input_keeps_the_time_to_threshold_reading():
     _, _, findings = check_netlist_text(_deck("100k", "1u", part="74HC04"))
     press = [f for f in _bounce(findings) if f.message.startswith("press")]
     assert len(press) == 1 and "time-to-threshold reading" in press[0].message
+    assert "closure-and-opening" not in press[0].message and "None" not in press[0].message  # no reading to quote
     assert press[0].measured.value < 1e-6
 
 

@@ -79,6 +79,7 @@ def test_a_syntax_error_points_at_the_pack_line_and_column(packs):
         registry.registered_rules()
     e = err.value
     assert "'inproc_syntax'" in e.message and "'drc.rules'" in e.message and "SyntaxError" in e.message
+    assert "'inproc_syntax' (entry point" in e.message  # no distribution known: none named
     assert e.location.file == str(path) and e.location.line == 2 and e.location.column >= 1
     try:
         compile(path.read_text(), str(path), "exec")

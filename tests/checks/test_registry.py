@@ -146,3 +146,12 @@ def test_a_refused_rule_is_named_in_the_refusal():
         rule(replace(doc, id="x-bad-severity", severity="fatal"))
     with pytest.raises(ValueError, match="bounce-window"):
         rule(doc)(lambda res, ctx: ())
+    with pytest.raises(ValueError, match="x-board-prepare"):  # a prepare step is a stage rule's only
+        rule(replace(doc, id="x-board-prepare"), kind="board", prepare=lambda results, ctx: None)
+
+
+def test_an_unknown_rule_id_lists_every_known_id():
+    with pytest.raises(KeyError) as err:
+        get_rule("no-such-rule")
+    listed = str(err.value).split("known: ")[1].rstrip("'\"").split(", ")
+    assert listed == [r.id for r in all_rules()]
