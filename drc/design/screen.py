@@ -387,11 +387,17 @@ class _Rows:
         rows = np.arange(self.X.shape[0]) if rows is None else rows
         out = np.repeat(fixed[rows][:, None], V.shape[1], axis=1)
         owner = np.repeat(np.arange(len(self.reqs)), self.sizes)[rows]
+        # Requests that share a receiver share its table (one per receiver, drc.analysis.physics.supply):
+        # one interpolation per table and supply column, not one pass over every row per request.
+        curves: dict[tuple[int, int], tuple[SupplyTable, int, list[int]]] = {}
         for q, r in enumerate(self.reqs):
-            sc = r.screen
-            sel = owner == q
-            if sc.table is not None and sel.any():
-                out[sel] = np.interp(V[sel][:, :, sc.supply_col], sc.table.vcc, pick(sc.table))
+            table, col = r.screen.table, r.screen.supply_col
+            if table is not None and col is not None:
+                curves.setdefault((id(table), col), (table, col, []))[2].append(q)
+        for table, col, owners in curves.values():
+            sel = np.isin(owner, owners)
+            if sel.any():
+                out[sel] = np.interp(V[sel][:, :, col], table.vcc, pick(table))
         return out
 
     def split(self, a: np.ndarray) -> list[np.ndarray]:
