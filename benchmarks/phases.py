@@ -1,0 +1,92 @@
+"""Where one check spends its time and memory: CPU seconds and resident memory per phase.
+
+    python benchmarks/phases.py BOARD [--with-fixes] [drc check options...]
+
+runs `drc check BOARD --format json --no-cache --no-fixes --max-elements 10000000`
+(plus the options given; `--with-fixes` leaves the fix search on) in this process and prints, for each phase of the
+pipeline (read, classify, survey, analyse, rules, fixes, report), its CPU time and
+the resident memory before and after it, then the start-up (interpreter and
+imports up to the first phase) and the process' peak. The phases are the
+pipeline's own functions, timed where they are called; nothing else changes.
+benchmarks/run.py gives the ratios; this script says which phase a ratio that
+is short of its goal should be looked for in.
+"""
+
+from __future__ import annotations
+
+import resource
+import sys
+import time
+from contextlib import redirect_stdout
+from io import StringIO
+
+import drc.board.classify as classify_module  # noqa: E402
+import drc.board.coverage as coverage_module  # noqa: E402
+import drc.checks as checks_module  # noqa: E402
+import drc.pipeline as pipeline  # noqa: E402
+from drc.cli.parser import main  # noqa: E402
+
+PHASES = (  # (module, function, phase name)
+    (pipeline, "read_board", "read"),
+    (classify_module, "classify", "classify"),
+    (coverage_module, "survey_board", "survey"),
+    (pipeline, "analyse_board", "analyse"),
+    (checks_module, "run_rules", "rules"),
+    (pipeline, "_with_fixes", "fixes"),
+    (pipeline, "board_report", "report records"),
+)
+ROWS: list[tuple[str, float, float, float]] = []
+FIRST: list[float] = []
+
+
+def resident_mb() -> float:
+    with open("/proc/self/statm", encoding="ascii") as f:
+        return int(f.read().split()[1]) * resource.getpagesize() / 2**20
+
+
+def peak_mb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # kB on Linux
+
+
+def timed(module, name: str, phase: str) -> None:
+    inner = getattr(module, name)
+
+    def wrapper(*args, **kwargs):
+        FIRST.append(time.process_time())
+        before, t0 = resident_mb(), time.process_time()
+        out = inner(*args, **kwargs)
+        ROWS.append((phase, time.process_time() - t0, before, resident_mb()))
+        return out
+
+    setattr(module, name, wrapper)
+
+
+def run(argv: list[str]) -> None:
+    for module, name, phase in PHASES:
+        timed(module, name, phase)
+    args = ["check", argv[0], "--format", "json", "--no-cache", "--no-fixes", "--max-elements", "10000000",
+            *argv[1:]]
+    if "--with-fixes" in args:  # this script's own option: the fix search on
+        args.remove("--no-fixes")
+        args.remove("--with-fixes")
+    out = StringIO()
+    with redirect_stdout(out):
+        try:
+            main(args)
+        except SystemExit:
+            pass
+    total = time.process_time()  # CPU since the process started: interpreter start-up included
+    start_up = FIRST[0] if FIRST else total
+    print(f"{'phase':16s} {'CPU s':>7s} {'MB before':>10s} {'MB after':>9s}")
+    print(f"{'start-up':16s} {start_up:7.2f}")
+    for phase, cpu, before, after in ROWS:
+        print(f"{phase:16s} {cpu:7.2f} {before:10.0f} {after:9.0f}")
+    rest = total - start_up - sum(r[1] for r in ROWS)
+    print(f"{'writing, other':16s} {rest:7.2f}")
+    print(f"{'total':16s} {total:7.2f}   peak {peak_mb():.0f} MB")
+
+
+if __name__ == "__main__":
+    if len(sys.argv) < 2:
+        sys.exit(__doc__)
+    run(sys.argv[1:])
