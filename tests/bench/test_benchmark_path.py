@@ -69,3 +69,17 @@ def test_batched_analysis_equals_one_by_one(board):
         return receiver_electrical(lib, s.receiver.family, s.receiver.supply_v, s.receiver.schmitt)
 
     assert analyse_stages(stages, rx) == [analyse_stage(s, rx(s)) for s in stages]
+
+
+def test_phase_profile_names_every_phase_of_a_demo_check():
+    """benchmarks/phases.py times the pipeline's own phases: on a demo board with fixes on,
+    every phase is printed once, in the pipeline's order, and the report is not (it goes
+    to a buffer). Times are not checked."""
+    board = ROOT / "boards" / "lx24" / "front_panel.cir"
+    proc = subprocess.run([sys.executable, str(ROOT / "benchmarks" / "phases.py"), str(board), "--with-fixes"],
+                          capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    names = [line.split()[0] for line in proc.stdout.splitlines()[1:]]
+    assert names == ["start-up", "read", "classify", "survey", "analyse", "rules", "fixes", "report",
+                     "writing,", "total"]
+    assert '"boards"' not in proc.stdout
