@@ -34,9 +34,6 @@ class Figure:
     unit: str
     text: str
 
-    def as_json(self) -> dict:
-        return {"value": self.value, "unit": self.unit, "text": self.text}
-
 
 @dataclass(frozen=True, slots=True)
 class Finding:
