@@ -78,3 +78,33 @@ def test_min_closure_is_read_from_the_config_with_its_unit(tmp_path):
     (tmp_path / "drc.toml").write_text('[limits]\nmin-closure = "20 V"\n', encoding="utf-8")
     with pytest.raises(ConfigError, match="min-closure"):
         load_config_file(tmp_path / "drc.toml")
+
+
+def test_the_batch_step_reads_what_the_first_edge_solver_reads():
+    # bounce_window.pull_backs (the batch step's solver, imported when first used) against
+    # first_edge.pull_back of each edge alone, and the RC law by hand, with a minimum closure
+    # other than the default (20 ns, two closure time constants; 1 us empties the capacitor).
+    from drc.analysis import first_edge
+    from drc.board.stage import Capacitor, Resistor, Throw
+    from drc.caching import clear_caches
+    from drc.checks import bounce_window
+    from tests.analysis.builders import receiver_electrical, stage
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3, role="pull"),),
+               capacitors=(Capacitor("C1", "rx", "0", 100e-9),), throws=(Throw("rx", "0", "pressed", 0.1),))
+    rx = receiver_electrical(leak_high=(0.0, 0.0), leak_low=(0.0, 0.0))
+    clear_caches()
+    press, release = bounce_window.pull_backs([(st, rx, "press"), (st, rx, "release")], 20e-9)
+    # By hand, nominal: the closure is 5 V x 0.1 / (10k + 0.1) behind 10k || 0.1 ohm (tau 10 ns);
+    # after 20 ns it leaves v1 = v_th + (5 - v_th) e^(-20 ns / tau) (about 0.68 V); the opening
+    # recharges through 10k x 100 nF towards 5 V, to VT+ typ 2.9 V: t = RC ln((5 - v1) / (5 - 2.9)).
+    tau = 10e3 * 0.1 / (10e3 + 0.1) * 100e-9
+    v_th = 5.0 * 0.1 / (10e3 + 0.1)
+    v1 = v_th + (5.0 - v_th) * math.exp(-20e-9 / tau)
+    assert press.min_closure_s == 20e-9 and press.closure_tau_s == pytest.approx(tau, rel=1e-9)
+    assert press.nominal_s == pytest.approx(10e3 * 100e-9 * math.log((5.0 - v1) / (5.0 - 2.9)), rel=1e-9)
+    for got, edge in ((press, "press"), (release, "release")):
+        clear_caches()
+        alone = first_edge.pull_back(st, rx, edge, 20e-9)
+        assert (got.edge, got.bounce_state, got.at_threshold) == (alone.edge, alone.bounce_state, alone.at_threshold)
+        for name in ("left_v", "opposite_v", "fastest_s", "nominal_s", "bounce_tau_s"):
+            assert getattr(got, name) == pytest.approx(getattr(alone, name), rel=1e-9), name
