@@ -86,6 +86,46 @@ def test_the_first_of_a_duplicate_designator_wins_and_elements_before_parts():
     assert len(where) == 4 == len(list(where))  # a Mapping's length is the number of keys it iterates
 
 
+def test_a_rule_context_finds_each_name_as_the_definition_says_in_any_order():
+    # One context is asked many names in turn (one per finding), and the index answers the
+    # first of them from its quick paths and later ones from the folded index once a name
+    # written otherwise built it. The definition, by hand for the index below: the first
+    # element whose designator equals the name case-insensitively, else the part or
+    # contact of that name (an element named like a part or contact comes first).
+    from types import SimpleNamespace
+
+    from drc.checks.context import Locations, RuleContext
+    from drc.errors import SourceLocation
+    from drc.severity import Severity
+    loc = [SourceLocation("x.cir", n, 1) for n in range(10)]
+    elements = [SimpleNamespace(designator="R1", location=loc[1]), SimpleNamespace(designator="r1", location=loc[2]),
+                SimpleNamespace(designator="C1", location=loc[3]), SimpleNamespace(designator="SW1", location=loc[5]),
+                SimpleNamespace(designator="U2", location=loc[6]), SimpleNamespace(designator="C1", location=loc[8])]
+    others = {"r1": loc[4], "u1": loc[0], "u2": loc[4], "sw1": loc[7]}
+    expected = {"R1": loc[1], "r1": loc[1], "C1": loc[3], "c1": loc[3], "U1": loc[0], "u2": loc[6],
+                "U2": loc[6], "SW1": loc[5], "sw1": loc[5], "Q9": None}
+    for near in ((), (elements[3],)):
+        for order in (list(expected), list(reversed(expected))):
+            ctx = RuleContext(rule_id="x", default_severity=Severity.ERROR, board_name="b", limits={},
+                              locations=Locations(elements, others, near))
+            assert [ctx.location(n) for n in order] == [expected[n] for n in order], (near, order)
+
+
+def test_a_board_without_a_netlist_locates_its_parts_and_contacts():
+    # The same definition where only the parts and contacts are known (no netlist elements).
+    from types import SimpleNamespace
+
+    from drc.checks.context import RuleContext
+    from drc.errors import SourceLocation
+    from drc.severity import Severity
+    part, contact = SourceLocation("b.cir", 3, 1), SourceLocation("b.cir", 7, 1)
+    board = SimpleNamespace(parts={"u1": SimpleNamespace(designator="U1", location=part)},
+                            contacts=[SimpleNamespace(designator="SW1", location=contact)], netlist=None)
+    ctx = RuleContext(rule_id="x", default_severity=Severity.ERROR, board_name="b", limits={},
+                      locations=locations_of(board))
+    assert [ctx.location(n) for n in ("U1", "u1", "SW1", "sw1", "R9")] == [part, part, contact, contact, None]
+
+
 def test_a_timing_finding_names_the_parts_its_edge_charges_through():
     # Pull-up R1 to the contact node, series R2, C1 at the pin, contact to ground.
     # By hand (Thevenin seen from C1): the press discharges C1 through R2 and the
