@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import codecs
 import json
+import os
+import sys
 
 import pytest
 
@@ -148,3 +150,29 @@ def test_board_keys(tmp_path):
     assert board_key("./boards/a.cir", None) == "boards/a.cir"
     assert board_key(str(tmp_path / "boards" / "a.cir"), tmp_path) == "boards/a.cir"
     assert board_key(str(tmp_path / "a.cir"), tmp_path / "boards") == "../a.cir"
+
+
+def test_board_keys_of_names_that_are_not_utf8():
+    # A file name is bytes on Linux; Python hands a byte that is not UTF-8 over as a lone
+    # surrogate (PEP 383, os.fsdecode), which a JSON baseline cannot hold. The key writes
+    # such a byte as \xNN (the codecs module's "backslashreplace"), and keeps UTF-8 text.
+    odd = os.fsdecode(b"caf\xe9.cir")  # Latin-1 e-acute: not UTF-8
+    assert board_key(odd, None) == "caf\\xe9.cir"
+    assert board_key("café.cir", None) == "café.cir"  # UTF-8 text stays as it is
+    key = board_key(os.fsdecode(b"boards/\xff\xfe/x.cir"), None)
+    assert key == "boards/\\xff\\xfe/x.cir"
+    json.dumps(key).encode("utf-8")  # text a JSON file can hold (a lone surrogate raises here)
+
+
+def test_a_number_too_long_to_read_is_located(tmp_path):
+    # Python's int() refuses more than sys.get_int_max_str_digits() digits (4300 by default,
+    # since 3.11); json.loads lets that ValueError through. The error points at the line and
+    # column where the number starts (here line 3, column 12, counted by hand below).
+    digits = "7" * (sys.get_int_max_str_digits() + 1)
+    text = "{\n" + f' "format": "{BASELINE_FORMAT}",\n "entries": {digits}\n' + "}\n"
+    path = write(tmp_path, text)
+    with pytest.raises(ConfigError) as err:
+        load_baseline(path)
+    where = err.value.location
+    assert (where.file, where.line, where.column) == (str(path), 3, len(' "entries": ') + 1)
+    assert str(sys.get_int_max_str_digits()) in err.value.message
