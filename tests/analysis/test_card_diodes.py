@@ -308,3 +308,18 @@ def test_a_blocking_clamp_beside_the_card_diode_changes_nothing():
     assert res.levels["pressed"].worst_v == pytest.approx(worst, rel=1e-7)
     worst_high = min(released_level(v, r, i) for r, _c, v in corners() for i in LEAK_HIGH)
     assert res.levels["released"].worst_v == pytest.approx(worst_high, rel=1e-7)
+
+
+def test_the_slope_of_a_pin_behind_the_diode_from_its_capacitor():
+    # The pin is not the capacitor's node: v_pin = u + N·Vt·ln(I/IS + 1) + I·RS, I the charging
+    # current, so its slope is dv_pin/du · du/dt with du/dt = (I − gmin·u)/C1 (the pin's KCL in
+    # `charge_current`); dv_pin/du by a central difference of that hand solution.
+    corner = {"R1": R1, "C1": C1, "rail:vcc": VCC, "leakage": 0.0, "threshold": 2.9}
+    sol = edge_solution(behind_the_diode(), RX, "release", corner)
+    u_th = brentq(lambda u: charge_current(VCC, R1, 0.0, u)[1] - 2.9, 0.0, 2.9, xtol=1e-15, rtol=1e-14)
+    h = 1e-5
+    dpin = (charge_current(VCC, R1, 0.0, u_th + h)[1] - charge_current(VCC, R1, 0.0, u_th - h)[1]) / (2 * h)
+    i, _pin = charge_current(VCC, R1, 0.0, u_th)
+    assert 0.5 < dpin < 1.0  # the diode's drop falls as the charging current does
+    assert sol.slope_v_per_s == pytest.approx(dpin * (i - GMIN * u_th) / C1, rel=1e-5)
+    assert sol.crossing_s == pytest.approx(release_time(VCC, R1, C1, 0.0, 2.9), rel=1e-6)

@@ -524,3 +524,37 @@ def test_a_closure_through_a_diode_event_by_two_rc_stretches():
     v_inf2, tau2 = 5.0 * r_closed / (10e3 + r_closed), 10e-9 * 10e3 * r_closed / (10e3 + r_closed)
     t1 = brentq(lambda x: clamped_closure(10e3, 47.0, 10e-9, 5.0, 3.3, x) - 3.9, 0.0, 1e-6, xtol=1e-18)
     assert pb.first_crossing_s == pytest.approx(t1 + tau2 * math.log((3.9 - v_inf2) / (1.6 - v_inf2)), rel=1e-7)
+
+
+# ---------------------------------------------------------------- leakage over both levels
+
+# A CMOS-like input: ±1 µA at a high level, ±0.1 µA at a low one (current out of the pin).
+RX_LEAKY = receiver_electrical(leak_high=(-1e-6, 1e-6), leak_low=(-0.1e-6, 0.1e-6))
+
+
+@pytest.mark.parametrize("diode", [False, True], ids=["closed-form", "exact-path"])
+def test_the_pull_back_takes_the_leakage_over_both_levels_ranges(diode):
+    # Pull-up at the pin, C across the contact; with D1 (never conducting, pin to rail) the same
+    # stage takes the exact path. The capacitor crosses from one level towards the other and may
+    # come back, so the leakage may be anywhere in the union of both ranges: -1 µA to +1 µA.
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3, role="pull"),),
+               capacitors=(Capacitor("C1", "rx", "0", 100e-9),),
+               diodes=(Diode("D1", "rx", "vcc"),) if diode else (),
+               rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("rx", "0", "pressed", RC),))
+    pb = pull_back(st, RX_LEAKY, "press")
+    assert pb is not None
+
+    def reading(r, c, v, leak, vt_plus):
+        # KCL at the pin, leak out of it: open, (v - x)/r = leak, so the level is v - leak r;
+        # closed, (v - x)/r = leak + x/Rc, the Thevenin level (v/r - leak)/(1/r + 1/Rc).
+        high = v - leak * r
+        closed = (v / r - leak) / (1 / r + 1 / RC)
+        left = closed + (high - closed) * math.exp(-CLOSURE * (1 / r + 1 / RC) / c)
+        return r * c * math.log((high - left) / (high - vt_plus)), left
+
+    rows = [reading(r, c, v, leak, 2.0) for r, c, v, leak in itertools.product(
+        ends(10e3, 0.05), ends(100e-9, 0.2), ends(5.0, 0.05), (-1e-6, 1e-6))]
+    t, left = min(rows)
+    assert pb.fastest_s == pytest.approx(t, rel=1e-7)
+    assert pb.left_v == pytest.approx(left, rel=1e-6)
+    assert pb.corner_fastest["leakage"] == pytest.approx(-1e-6)  # into the pin: the fastest rise
