@@ -97,3 +97,39 @@ def test_plain_inputs_are_not_read_this_way():
 def test_the_bounce_state_of_a_normally_open_contact_is_no_throw_closed():
     st = _across()
     assert bounce_state(st, "press") == "transit" and bounce_state(st, "release") == "pressed"
+
+
+def test_a_closure_level_just_past_the_threshold_still_crosses():
+    # Pull-up R1 = 10k at the pin, the contact through R3 = 3.3k: the closed level is the
+    # divider 5 * 3.3k / 13.3k = 1.24 V, only 0.36 V under VT- typ 1.6 V. C1 = 10 nF at the pin:
+    # the closure's time constant 10 nF * (10k // 3.3k) = 24.8 µs, far over 1 µs, so the pin is
+    # left at VT- and pulled back through R1 by the RC law.
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3, role="pull"),
+                          Resistor("R3", "rx", "sw", 3.3e3, role="series")),
+               capacitors=(Capacitor("C1", "rx", "0", 10e-9),),
+               rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("sw", "0", "pressed", 0.1),))
+    pb = pull_back(st, receiver_electrical(**NO_LEAK), "press")
+    assert pb is not None and pb.at_threshold
+    assert pb.nominal_s == pytest.approx(10e3 * 10e-9 * math.log((5.0 - 1.6) / (5.0 - 2.9)), rel=1e-9)
+    r_closed = 3.3e3 + 0.1
+    v_closed = 5.0 * r_closed / (10e3 + r_closed)
+    tau = 10e-9 * 10e3 * r_closed / (10e3 + r_closed)
+    assert pb.first_crossing_s == pytest.approx(tau * math.log((5.0 - v_closed) / (1.6 - v_closed)), rel=1e-9)
+    # With VT- typ 1.1 V, under the closed level, the edge never crosses at nominal: no reading
+    # (though VT- could be as high as 2.2 V at other corners).
+    low = receiver_electrical(falling=(0.9, 1.1, 2.2), **NO_LEAK)
+    assert pull_back(st, low, "press") is None
+
+
+def test_a_pin_on_the_contact_is_back_across_as_the_contact_opens():
+    # R1 = 10k pull-up at the pin, the contact from the pin to ground, and R2 = 10k with
+    # C1 = 1 µF from the pin to ground (a snubber beside the contact). A closure pins the pin at
+    # once; C1 loses only 1 - exp(-1 µs / (10k * 1 µF)) = 1e-4 of its charge, so as the contact
+    # opens the pin is at the divider (5 V * R2 + u * R1) / (R1 + R2), about 5 V, far over VT+.
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3, role="pull"),
+                          Resistor("R2", "rx", "n", 10e3, role="other")),
+               capacitors=(Capacitor("C1", "n", "0", 1e-6),),
+               rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("rx", "0", "pressed", 0.1),))
+    pb = pull_back(st, receiver_electrical(**NO_LEAK), "press")
+    assert pb is not None and not pb.at_threshold
+    assert pb.fastest_s == 0.0 and pb.nominal_s == 0.0
