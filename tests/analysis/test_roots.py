@@ -85,3 +85,18 @@ def test_sorted_distinct_is_numpy_unique():
     for size in (0, 1, 2, 50, 500):
         values = np.round(rng.uniform(-3, 3, size), 1)  # many repeats
         assert np.array_equal(sorted_distinct(values), np.unique(values))
+
+
+def test_a_dip_that_just_grazes_the_threshold_is_found():
+    # f(t) = 1 - exp(-t) + 1.5 exp(-3t) falls to a minimum and comes back. By hand: f'(t) = 0 at
+    # exp(2t) = 4.5, t* = ln(4.5)/2; a threshold 1e-10 over f(t*) is crossed twice, about 2e-5
+    # apart around t*, which no grid of the time constants alone resolves. The first crossing is
+    # the root of f - target on [0, t*], where f falls monotonically (scipy's brentq).
+    f = ExpSum(1.0, np.array([-1.0, 1.5]), np.array([1.0, 3.0]), 0.0)
+    t_star = math.log(4.5) / 2
+    assert abs(f.deriv(t_star)) < 1e-12
+    target = f(t_star) + 1e-10
+    root = brentq(lambda t: f(t) - target, 0.0, t_star, xtol=1e-15, rtol=RTOL)
+    assert first_crossing(f, target, -1) == pytest.approx(root, rel=1e-9)
+    # Just under the minimum: never reached.
+    assert first_crossing(f, f(t_star) - 1e-10, -1) is None
