@@ -4,7 +4,9 @@ of the kinds the event solver brackets: sums of decaying exponentials crossing
 a threshold (one to four modes, both directions, steep and flat crossings),
 plus textbook cases (cos x = x, a cubic, a root at an end of the bracket).
 Each root must agree with SciPy's within the shared tolerance and must bracket
-a sign change of the function at that tolerance. The solver's grid of distinct
+a sign change of the function at that tolerance. A dip of two modes that just
+grazes a threshold: its minimum worked by hand (f'(t) = 0), the first crossing
+by brentq on the falling side. The solver's grid of distinct
 instants (transient.sorted_distinct) is numpy.unique's, compared directly.
 """
 
