@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import itertools
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -33,7 +34,7 @@ from scipy.optimize import brentq
 from scipy.special import lambertw
 
 from drc.analysis.stage_analysis import analyse_stage, edge_solution
-from drc.board.stage import Capacitor, Diode, DiodeCard, RailSource, Resistor, ResistorRole, Throw
+from drc.board.stage import Capacitor, Diode, DiodeCard, InputLoad, RailSource, Resistor, ResistorRole, Throw
 from tests.analysis.builders import receiver_electrical, stage
 
 IS, N, RS = 4e-9, 1.9, 0.6
@@ -323,3 +324,18 @@ def test_the_slope_of_a_pin_behind_the_diode_from_its_capacitor():
     assert 0.5 < dpin < 1.0  # the diode's drop falls as the charging current does
     assert sol.slope_v_per_s == pytest.approx(dpin * (i - GMIN * u_th) / C1, rel=1e-5)
     assert sol.crossing_s == pytest.approx(release_time(VCC, R1, C1, 0.0, 2.9), rel=1e-6)
+
+
+def test_a_clamp_current_beside_a_card_diode_by_ohms_law():
+    # The diode-OR input pulled up to a 12 V rail while its part is supplied from 5 V: released,
+    # the input's clamp to its supply (0.6 V + 10 ohm, the family's clamp data of this test)
+    # carries (V12 - V5 - 0.6) / (R1 + 10) by Ohm's law (the card diode's floating sw and gmin
+    # draw picoamps); the worst is the 12 V rail high, the 5 V rail low and R1 at its least.
+    load = InputLoad("U1:1", "rx", "TEST", "v5", (0.0, 0.0), (0.0, 0.0), clamp=(0.6, 10.0), clamp_to_supply=True)
+    base = diode_or()
+    circuit = replace(base.circuit, resistors=(Resistor("R1", "v12", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
+                      rails=(RailSource("v12", 12.0, 0.05), RailSource("v5", 5.0, 0.05)), loads=(load,))
+    st = replace(base, circuit=circuit, nets=circuit.nodes())
+    res = analyse_stage(st, receiver_electrical(leak_high=(0.0, 0.0), leak_low=(0.0, 0.0)))
+    worst = (12.0 * 1.05 - 5.0 * 0.95 - 0.6) / (R1 * (1 - R_TOL) + 10.0)
+    assert res.clamp_current_a == pytest.approx(worst, rel=1e-6)

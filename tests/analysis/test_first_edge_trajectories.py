@@ -528,7 +528,8 @@ def test_a_closure_through_a_diode_event_by_two_rc_stretches():
 
 # ---------------------------------------------------------------- leakage over both levels
 
-# A CMOS-like input: ±1 µA at a high level, ±0.1 µA at a low one (current out of the pin).
+# A CMOS-like input: ±1 µA at a high level, ±0.1 µA at a low one (current into the pin,
+# rules/families.toml's sign).
 RX_LEAKY = receiver_electrical(leak_high=(-1e-6, 1e-6), leak_low=(-0.1e-6, 0.1e-6))
 
 
@@ -545,7 +546,7 @@ def test_the_pull_back_takes_the_leakage_over_both_levels_ranges(diode):
     assert pb is not None
 
     def reading(r, c, v, leak, vt_plus):
-        # KCL at the pin, leak out of it: open, (v - x)/r = leak, so the level is v - leak r;
+        # KCL at the node, the leakage into the pin leaving it: open, (v - x)/r = leak, so the level is v - leak r;
         # closed, (v - x)/r = leak + x/Rc, the Thevenin level (v/r - leak)/(1/r + 1/Rc).
         high = v - leak * r
         closed = (v / r - leak) / (1 / r + 1 / RC)
@@ -557,4 +558,4 @@ def test_the_pull_back_takes_the_leakage_over_both_levels_ranges(diode):
     t, left = min(rows)
     assert pb.fastest_s == pytest.approx(t, rel=1e-7)
     assert pb.left_v == pytest.approx(left, rel=1e-6)
-    assert pb.corner_fastest["leakage"] == pytest.approx(-1e-6)  # into the pin: the fastest rise
+    assert pb.corner_fastest["leakage"] == pytest.approx(-1e-6)  # out of the pin: the fastest rise
