@@ -305,3 +305,15 @@ def test_hand_built_thresholds_hold_at_any_supply():
     assert (got.vcc, got.rising, got.falling, got.vih_min, got.vil_max) == \
         (5.0, (2.0, 2.9, 3.5), (0.9, 1.6, 2.2), 3.5, 1.5)
     assert not e.tracks_supply
+
+
+def test_a_band_edge_inside_the_supply_range_is_a_step(library):
+    # LVC at 2.7 V +-5 % (2.565-2.835 V) spans the edge of two JESD8 bands (rules/families.toml,
+    # from memory): VIH 1.7 V and VIL 0.7 V up to 2.7 V (JESD8-5), 2.0 V and 0.8 V from 2.7 V
+    # (JESD8C); at 2.7 V itself the more demanding neighbour (VIH 2.0 V, VIL 0.7 V). Either side
+    # of the edge each band's value holds: a step, not a ramp across the range.
+    e = receiver_electrical(library, "LVC", 2.7, schmitt=False, supply_tolerance=0.05)
+    for v, vih, vil in ((2.6, 1.7, 0.7), (2.7 - 1e-3, 1.7, 0.7), (2.7, 2.0, 0.7), (2.7 + 1e-3, 2.0, 0.8),
+                        (2.8, 2.0, 0.8)):
+        got = e.at_supply(v)
+        assert got.vih_min == pytest.approx(vih, abs=1e-12) and got.vil_max == pytest.approx(vil, abs=1e-12)
