@@ -326,14 +326,18 @@ def test_the_slope_of_a_pin_behind_the_diode_from_its_capacitor():
     assert sol.crossing_s == pytest.approx(release_time(VCC, R1, C1, 0.0, 2.9), rel=1e-6)
 
 
-def test_a_clamp_current_beside_a_card_diode_by_ohms_law():
+@pytest.mark.parametrize("card", [True, False], ids=["card-diode", "piecewise-linear"])
+def test_a_clamp_current_beside_a_card_diode_by_ohms_law(card):
     # The diode-OR input pulled up to a 12 V rail while its part is supplied from 5 V: released,
     # the input's clamp to its supply (0.6 V + 10 ohm, the family's clamp data of this test)
     # carries (V12 - V5 - 0.6) / (R1 + 10) by Ohm's law (the card diode's floating sw and gmin
     # draw picoamps); the worst is the 12 V rail high, the 5 V rail low and R1 at its least.
+    # The same with D1 piecewise linear: the clamp is then the stage's only nonlinear part.
     load = InputLoad("U1:1", "rx", "TEST", "v5", (0.0, 0.0), (0.0, 0.0), clamp=(0.6, 10.0), clamp_to_supply=True)
     base = diode_or()
-    circuit = replace(base.circuit, resistors=(Resistor("R1", "v12", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL),),
+    diodes = base.circuit.diodes if card else (Diode("D1", "rx", "sw"),)
+    pull = Resistor("R1", "v12", "rx", R1, R_TOL, R_TOL, role=ResistorRole.PULL)
+    circuit = replace(base.circuit, diodes=diodes, resistors=(pull,),
                       rails=(RailSource("v12", 12.0, 0.05), RailSource("v5", 5.0, 0.05)), loads=(load,))
     st = replace(base, circuit=circuit, nets=circuit.nodes())
     res = analyse_stage(st, receiver_electrical(leak_high=(0.0, 0.0), leak_low=(0.0, 0.0)))

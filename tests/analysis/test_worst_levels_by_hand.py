@@ -77,7 +77,7 @@ def surge_worst():
     return max(vr / (RC + r4) for vr, _r1, r4 in corners())
 
 
-@pytest.mark.parametrize("with_diode", [False, True], ids=["batch", "per-stage"])
+@pytest.mark.parametrize("with_diode", [False, True], ids=["linear", "blocking-diode"])
 def test_worst_levels_are_the_corners_worst(with_diode):
     results = both(build(with_diode))
     assert len(results) == (1 if with_diode else 2)
@@ -93,7 +93,7 @@ def test_worst_levels_are_the_corners_worst(with_diode):
         assert hi.nominal_v == pytest.approx(V - np.mean(LEAK_HIGH) * R1, rel=1e-9)
 
 
-@pytest.mark.parametrize("with_diode", [False, True], ids=["batch", "per-stage"])
+@pytest.mark.parametrize("with_diode", [False, True], ids=["linear", "blocking-diode"])
 def test_closing_surge_at_rail_maximum_and_resistance_minimum(with_diode):
     for res in both(build(with_diode)):
         assert res.surge_peak_a == pytest.approx(surge_worst(), rel=1e-9)
@@ -109,7 +109,7 @@ def pressed_currents():
             yield (vr - v) / r1, v / rb
 
 
-@pytest.mark.parametrize("with_diode", [False, True], ids=["batch", "per-stage"])
+@pytest.mark.parametrize("with_diode", [False, True], ids=["linear", "blocking-diode"])
 def test_pull_and_contact_currents_at_their_corners(with_diode):
     # Ohm's law at the pressed level above: the held current through R1 at its largest,
     # the contact's current at its smallest (the wetting check reads the smallest).
@@ -117,3 +117,27 @@ def test_pull_and_contact_currents_at_their_corners(with_diode):
         assert res.pull_current_a == pytest.approx(max(i for i, _ in pressed_currents()), rel=1e-9)
         assert res.contact_current_a == pytest.approx(min(c for _, c in pressed_currents()), rel=1e-9)
         assert res.closed_current_a == pytest.approx(max(c for _, c in pressed_currents()), rel=1e-9)
+
+
+@pytest.mark.parametrize("with_diode", [False, True], ids=["linear", "blocking-diode"])
+def test_a_second_input_loads_each_level_with_its_own_range(with_diode):
+    # A second input on the pin with a TTL-like data of this test's own (into the pin: 0 to
+    # 20 µA high, -400 µA to 0 low) beside the receiver (no leakage). By hand (Ohm's law,
+    # every corner of R1 = 10k, the rail and the load's range at that level): released
+    # (high), V = Vr - I R1, worst at 4.75 V, 10.5k, 20 µA; pressed (low), the Thevenin level
+    # of R1 against Rc less I (R1 // Rc), worst at 5.25 V, 9.5k, -400 µA (out of the pin).
+    from dataclasses import replace
+
+    from drc.board.stage import InputLoad
+
+    own = InputLoad("U1:1", "rx", "TEST", "vcc", (0.0, 0.0), (0.0, 0.0))
+    other = InputLoad("U2:1", "rx", "TEST", "vcc", (0.0, 20e-6), (-400e-6, 0.0))
+    diodes = (Diode("D1", "0", "rx"),) if with_diode else ()
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", 10e3, role=ResistorRole.PULL),), diodes=diodes,
+               rails=(RailSource("vcc", V, V_TOL),), throws=(Throw("rx", "0", "pressed", RC),))
+    st = replace(st, circuit=replace(st.circuit, loads=(own, other)))
+    res = _analyse_one(st, receiver_electrical(leak_high=(0.0, 0.0), leak_low=(0.0, 0.0)))
+    assert res.levels["released"].worst_v == pytest.approx(4.75 - 20e-6 * 10.5e3, rel=1e-9)
+    pressed = max((v * RC / (r + RC) - i * r * RC / (r + RC))
+                  for v in (4.75, 5.25) for r in (9.5e3, 10.5e3) for i in (-400e-6, 0.0))
+    assert res.levels["pressed"].worst_v == pytest.approx(pressed, rel=1e-9)
