@@ -141,3 +141,13 @@ def test_a_second_input_loads_each_level_with_its_own_range(with_diode):
     pressed = max((v * RC / (r + RC) - i * r * RC / (r + RC))
                   for v in (4.75, 5.25) for r in (9.5e3, 10.5e3) for i in (-400e-6, 0.0))
     assert res.levels["pressed"].worst_v == pytest.approx(pressed, rel=1e-9)
+
+
+def test_a_receiver_on_its_rail_sits_at_the_rail():
+    # The pin tied to the 5 V ± 5 % rail (the contact only switches a filter beside it): both
+    # levels are the rail itself, nominal 5 V and worst (lowest, a high level) 4.75 V.
+    st = stage(resistors=(Resistor("R1", "vcc", "sw", 10e3),), capacitors=(Capacitor("C1", "sw", "0", 10e-9),),
+               rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("sw", "0", "pressed", RC),), receiver_node="vcc")
+    res = _analyse_one(st, receiver_electrical(leak_high=(0.0, 0.0), leak_low=(0.0, 0.0)))
+    for state in ("released", "pressed"):
+        assert res.levels[state].nominal_v == 5.0 and res.levels[state].worst_v == pytest.approx(4.75, rel=1e-12)
