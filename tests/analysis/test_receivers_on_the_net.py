@@ -14,6 +14,8 @@ Sources, named beside each check:
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 
@@ -185,3 +187,31 @@ def test_a_supply_range_across_a_bend_is_searched_in_pieces():
     # (VT+ min / V falls up to 4.5 V and rises after it): the pieces hold that vertex.
     ratio = np.log(vs / (vs - vtmin))
     assert vs[np.argmin(ratio)] == pytest.approx(4.5)
+
+
+def test_the_fastest_edge_at_a_band_edge_inside_the_supply_range():
+    # A 74LVC04 input (plain: thresholds VIL max / VIH min, the JESD8 bands of
+    # rules/families.toml, from memory) on a 2.7 V +-5 % rail, pulled up by R1 = 10k with
+    # C1 = 100 nF. VIL max is 0.7 V up to 2.7 V (JESD8-5) and 0.8 V above (JESD8C), 0.7 V at
+    # 2.7 V itself (the more demanding neighbour): the release reaches 0.7 V soonest at the
+    # band edge, where the rail is highest with the lower threshold. By hand, the RC law
+    # t = R C ln((Vf - V0) / (Vf - VIL)) from the pressed level (the divider of R1 and the
+    # contact's 0.1 ohm, limits.toml) towards Vf = V - I R1 (I: the leakage into the pin,
+    # -5 to +5 uA for LVC), over every vertex with the rail also at the band edge.
+    text = ("band edge\nV1 +2V7 0 DC 2.7\nR1 +2V7 IN 10k\nC1 IN 0 100n\nSW1 IN 0 TACTILE\n"
+            + HC04.format(n=1, a="IN", vcc="+2V7").replace("74HC04", "74LVC04"))
+    by_name, _ = results(text)
+    e = by_name["SW1 -> U1:1"].edges["release"]
+    times = []
+    for r in (9.5e3, 10.5e3):
+        for c in (80e-9, 120e-9):
+            for v in (2.565, 2.7, 2.835):
+                for i in (-5e-6, 5e-6):
+                    vil = 0.7 if v <= 2.7 else 0.8
+                    v0 = (v / r - i) / (1 / r + 1 / 0.1)
+                    vf = v - i * r
+                    times.append((r * c * math.log((vf - v0) / (vf - vil)), v))
+    t, v = min(times)
+    assert v == 2.7
+    assert e.fastest_s == pytest.approx(t, rel=1e-6)
+    assert e.corner_fastest["rail:+2V7"] == pytest.approx(2.7, abs=1e-5)
