@@ -559,3 +559,32 @@ def test_the_pull_back_takes_the_leakage_over_both_levels_ranges(diode):
     assert pb.fastest_s == pytest.approx(t, rel=1e-7)
     assert pb.left_v == pytest.approx(left, rel=1e-6)
     assert pb.corner_fastest["leakage"] == pytest.approx(-1e-6)  # out of the pin: the fastest rise
+
+
+@pytest.mark.parametrize("diode", [False, True], ids=["closed-form", "exact-path"])
+def test_a_falling_pull_back_takes_the_leakage_at_the_top_of_both_ranges(diode):
+    # The mirror stage: R1 = 10k pull-down at the pin, C1 across the contact from the pin to the
+    # rail. The press rises in nanoseconds; the opening pulls the pin down through R1, soonest
+    # with the most leakage into the pin (+1 µA, the high range's top) and to VT- at its
+    # highest, 2.2 V (no least hysteresis: VT+ may sit as low as VT-, so the crossing at
+    # 2.2 V counts). KCL at the node: open, x / r = -leak, the level -leak r; closed,
+    # (v - x)/Rc = x/r + leak.
+    st = stage(resistors=(Resistor("R1", "rx", "0", 10e3, role="pull"),),
+               capacitors=(Capacitor("C1", "rx", "vcc", 100e-9),),
+               diodes=(Diode("D1", "0", "rx"),) if diode else (),
+               rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("rx", "vcc", "pressed", RC),))
+    pb = pull_back(st, RX_LEAKY, "press")
+    assert pb is not None and pb.opposite_v == pytest.approx(2.2)
+
+    def reading(r, c, v, leak):
+        low = -leak * r
+        closed = (v / RC - leak) / (1 / r + 1 / RC)
+        left = closed + (low - closed) * math.exp(-CLOSURE * (1 / r + 1 / RC) / c)
+        return r * c * math.log((left - low) / (2.2 - low)), left
+
+    rows = [reading(r, c, v, leak) for r, c, v, leak in itertools.product(
+        ends(10e3, 0.05), ends(100e-9, 0.2), ends(5.0, 0.05), (-1e-6, 1e-6))]
+    t, left = min(rows)
+    assert pb.fastest_s == pytest.approx(t, rel=1e-7)
+    assert pb.left_v == pytest.approx(left, rel=1e-6)
+    assert pb.corner_fastest["leakage"] == pytest.approx(1e-6)
