@@ -18,6 +18,15 @@ test folders (one operating point each) stay in.
     python3 tests/mutation.py --summary        # counts of the last runs, no run
     python3 tests/mutation.py --sample 600 analysis   # a seeded random sample of its mutants
     python3 tests/mutation.py --survivors gate # run again what survived (after new tests)
+    python3 tests/mutation.py --names FILE design      # run again exactly the mutants named in FILE
+    python3 tests/mutation.py --summary --names FILE design   # their counts only
+
+`--names FILE`: one mutant a line, as mutmut names it (`drc.design.complete.x__cost__mutmut_4`)
+or without the package's module prefix as docs/mutation.md prints it (`complete.x__cost__mutmut_4`);
+blank lines and `#` comments are skipped. The mutants are generated first, every name must
+be one of them, and each named one is run even if it has a result (the tests are mapped
+anew, as with `--survivors`). With `--summary` or `--markdown` the counts are those of the
+named mutants only.
 
 Prints killed/total per package and the surviving mutants (`mutmut show
 NAME` in the package's folder shows the change). docs/mutation.md lists the
@@ -151,10 +160,14 @@ def results(name: str) -> dict[str, int | None]:
     return out
 
 
-def chosen(name: str, folder: Path, env: dict, sample: int | None, survivors: bool) -> list[str]:
-    """The mutants to run: a seeded sample of those not run yet, or those that survived."""
+def chosen(name: str, folder: Path, env: dict, sample: int | None, survivors: bool,
+           named: list[str] | None = None) -> list[str]:
+    """The mutants to run: a seeded sample of those not run yet, those that survived, or the named ones."""
     subprocess.run([sys.executable, "-c", GENERATE], cwd=folder, env=env, check=True, capture_output=True)
     codes = results(name)
+    if named is not None:
+        (folder / "mutants" / "mutmut-stats.json").unlink(missing_ok=True)  # tests may be new: map them again
+        return resolve(named, codes)
     if survivors:
         (folder / "mutants" / "mutmut-stats.json").unlink(missing_ok=True)  # new tests: map them again
         names = [m for m, code in codes.items() if code is not None and code not in KILLED]
@@ -164,17 +177,42 @@ def chosen(name: str, folder: Path, env: dict, sample: int | None, survivors: bo
     return [m for m in sampled(codes, sample or len(codes)) if codes[m] is None]
 
 
+def read_names(path: str) -> list[str]:
+    """The mutant names of a `--names` file: one a line, `#` comments and blank lines skipped."""
+    lines = Path(path).read_text(encoding="utf-8").splitlines()
+    return [t for t in (line.split("#", 1)[0].strip().strip("`") for line in lines) if t]
+
+
+def resolve(named: list[str], codes: dict[str, int | None]) -> list[str]:
+    """Full mutmut names of `named` (full, or without the module prefix); SystemExit on an unknown one."""
+    by_short: dict[str, list[str]] = {}
+    for m in codes:
+        by_short.setdefault(m.split(".", 2)[-1], []).append(m)
+    out, unknown = [], []
+    for n in named:
+        found = [n] if n in codes else by_short.get(n, [])
+        if len(found) != 1:
+            unknown.append(n)
+        else:
+            out.append(found[0])
+    if unknown:
+        raise SystemExit(f"not generated (or ambiguous): {', '.join(unknown[:10])}"
+                         + (f" and {len(unknown) - 10} more" if len(unknown) > 10 else ""))
+    return sorted(set(out))
+
+
 def sampled(codes: dict[str, int | None], n: int) -> list[str]:
     return sorted(random.Random(SEED).sample(sorted(codes), min(n, len(codes))))
 
 
-def run(name: str, children: int, fresh: bool, sample: int | None = None, survivors: bool = False) -> int:
+def run(name: str, children: int, fresh: bool, sample: int | None = None, survivors: bool = False,
+        named: list[str] | None = None) -> int:
     folder = prepare(name, fresh)
     env = {k: v for k, v in os.environ.items() if k not in ("PYTHONPATH", "MUTANT_UNDER_TEST")}
     cmd = [shutil.which("mutmut") or "mutmut", "run", "--max-children", str(children)]
     print(f"== {name}: {' '.join(cmd)} (in {folder.relative_to(ROOT)})", flush=True)
-    if sample or survivors:
-        names = chosen(name, folder, env, sample, survivors)
+    if sample or survivors or named is not None:
+        names = chosen(name, folder, env, sample, survivors, named)
         print(f"   {len(names)} mutants to run", flush=True)
         if not names:
             return 0
@@ -182,11 +220,15 @@ def run(name: str, children: int, fresh: bool, sample: int | None = None, surviv
     return subprocess.run(cmd, cwd=folder, env=env).returncode
 
 
-def counts(name: str, sample: int | None = None) -> tuple[int, int, dict[str, list[str]]]:
-    """(killed, run, {status: mutant names}) over the mutants run so far (of the sample, if one)."""
+def counts(name: str, sample: int | None = None, named: list[str] | None = None
+           ) -> tuple[int, int, dict[str, list[str]]]:
+    """(killed, run, {status: mutant names}) over the mutants run so far (of the sample and the
+    named ones, if given)."""
     killed, total, other = 0, 0, {}
     codes = results(name)
     keep = set(sampled(codes, sample)) if sample else set(codes)
+    if named is not None:
+        keep &= set(resolve(named, codes))
     for mutant, code in codes.items():
         if code is None or mutant not in keep:
             continue
@@ -224,23 +266,24 @@ def mutant_diff(name: str, package: str) -> str:
     return "; ".join(f"`{a.strip()}` → `{b.strip()}`" for a, b in changed[:2]).replace("|", "\\|")
 
 
-def markdown(names: list[str], sample: int | None = None) -> None:
+def markdown(names: list[str], sample: int | None = None, named: list[str] | None = None) -> None:
     """The survivors of the last runs as markdown rows: package | mutant | change."""
     print("| package | mutant | status | change |\n|---|---|---|---|")
     for name in names:
-        _k, _t, other = counts(name, sample)
+        _k, _t, other = counts(name, sample, named)
         for status, mutants in sorted(other.items()):
             for m in mutants:
                 print(f"| {name} | `{m.split('.', 2)[-1]}` | {status} | {mutant_diff(m, name)} |")
 
 
-def summary(names: list[str], sample: int | None = None) -> None:
+def summary(names: list[str], sample: int | None = None, named: list[str] | None = None) -> None:
     all_k = all_t = 0
     for name in names:
-        k, t, other = counts(name, sample)
+        k, t, other = counts(name, sample, named)
         all_k, all_t = all_k + k, all_t + t
         share = f"{100 * k / t:.1f} %" if t else "-"
         of = f"a sample of {sample} of" if sample else "of"
+        of = f"{len(named)} named of {of}" if named is not None else of
         print(f"{name:9s} killed {k}/{t} ({share}) {of} {len(results(name))} generated")
         for status, mutants in sorted(other.items()):
             for m in mutants:
@@ -258,19 +301,23 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--markdown", action="store_true", help="print the survivors as markdown rows, no run")
     ap.add_argument("--sample", type=int, help=f"run a random sample of this many mutants (seed {SEED})")
     ap.add_argument("--survivors", action="store_true", help="run again the mutants that were not killed")
+    ap.add_argument("--names", metavar="FILE", help="run exactly the mutants named in FILE (one a line)")
     opts = ap.parse_args(argv)
     names = opts.packages or list(PACKAGES)
     unknown = [n for n in names if n not in PACKAGES]
     if unknown:
         ap.error(f"unknown package {', '.join(unknown)}; choose from {', '.join(PACKAGES)}")
+    named = read_names(opts.names) if opts.names else None
+    if named is not None and len(names) != 1:
+        ap.error("--names goes with one package")
     if opts.markdown:
-        markdown(names, opts.sample)
+        markdown(names, opts.sample, named)
         return 0
     status = 0
     if not opts.summary:
         for name in names:
-            status |= run(name, opts.max_children, opts.fresh, opts.sample, opts.survivors)
-    summary(names, opts.sample)
+            status |= run(name, opts.max_children, opts.fresh, opts.sample, opts.survivors, named)
+    summary(names, opts.sample, named)
     return status
 
 
