@@ -442,6 +442,16 @@ class CompleteSearch:
             jj = np.clip(j, 0, scale.size - 1)
             valid &= (scale[jj] >= lo[idx]) & (scale[jj] <= hi[idx])
             rows.append(self._option_rows(bi, idx[valid], c.candidates[jj[valid]]))
+            # The present values when the screen passes them: they fail a rule the screen does
+            # not restate (slow-edge), so the capacitor alone may still fix the stage. Its first
+            # value in order inside the interval is an option (the later ones follow as each is
+            # refuted, `_next_capacitor`).
+            for i in np.flatnonzero(usable & (nmoves == 0) & (lo <= 1.0) & (1.0 <= hi)):
+                inside = np.flatnonzero((scale >= lo[i]) & (scale <= hi[i]) & (c.candidates != c.present))
+                if inside.size:
+                    dist = np.round(np.abs(np.log(scale[inside])), _COST_DIGITS)
+                    j = inside[np.lexsort((c.candidates[inside], dist))[0]]
+                    rows.append(self._option_rows(bi, np.array([i]), np.array([float(c.candidates[j])])))
         return np.vstack(rows)
 
     def _option_rows(self, bi: int, idx: np.ndarray, cap: np.ndarray) -> np.ndarray:
@@ -475,6 +485,10 @@ class CompleteSearch:
         order = np.lexsort(tuple(table[:, k] for k in range(7, -1, -1)))
         out: list[_Option] = []
         for r in order:
+            # A refuted row's option moves on to its next capacitor, which comes later in the
+            # order than the row itself: stop only once `count` options come before this row.
+            if len(out) >= count and out[count - 1].key[:2] < (int(table[r, 0]), float(table[r, 1]) - 1e-9):
+                break
             bi, i = int(table[r, 10]), int(table[r, 8])
             cap = None if np.isnan(table[r, 9]) else float(table[r, 9])
             opt: _Option | None = self._make_option(bi, i, cap)
@@ -483,10 +497,8 @@ class CompleteSearch:
             if opt is None:
                 continue
             out.append(opt)
-            if len(out) >= count:
-                break
-        out.sort(key=lambda o: o.key)
-        return out
+            out.sort(key=lambda o: o.key)
+        return out[:count]
 
     def _make_option(self, bi: int, i: int, cap: float | None) -> _Option:
         block = self.blocks[bi]

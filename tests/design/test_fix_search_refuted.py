@@ -41,6 +41,9 @@ CASES = [
     (10e3, 10e3, 1e-9, True, 10e-9, 1e-6),
     (22e3, 4.7e3, 470e-12, True, 5e-9, 1e-6),
     (10e3, 10e3, 1e-9, False, 5e-9, 0.5e-6),
+    # Eleven refutations before the answer: the twelfth and last confirmation the search allows
+    # (MAX_CONFIRMATIONS) is the first passing change.
+    (3.6e3, 4.3e3, 100e-12, False, 10e-9, 0.5e-6),
 ]
 
 
@@ -83,3 +86,26 @@ def test_the_reference_agrees_with_the_analysis_on_plain_inputs(r1, r2, c, pull_
         got = reference_passes(np.array([r1]), np.array([r2]), np.array([value]), pull_up, bounce, rx=PLAIN,
                                limits=limits)[0]
         assert got == passes, value
+
+
+# Present values the screen passes (they fail slow-edge only), where a capacitor change alone
+# passes before any two-part change: the search once skipped both the capacitor-only options
+# (none was made for the present values' row) and the one-part options after the first
+# refuted ones (a refuted option's next capacitor took their place), and proposed a two-part
+# change while the reference passes one part alone ({C1: 3.9 pF} first here). Whatever it
+# proposes must be the first passing change in order; it may also run out of confirmations.
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", [
+    (16e3, 20e3, 8.2e-12, False, 5e-9, 0.5e-6),
+    (9.1e3, 27e3, 5.6e-12, False, 20e-9, 5e-6),
+])
+def test_what_the_search_proposes_comes_first_in_order(r1, r2, c, pull_up, bounce, latency):
+    limits = {**LIMITS, "latency_limit": latency}
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN, limits=limits)
+    assert robust and len(robust[0][1]) == 1, "the reference passes a one-part change"
+    solution, _count = search(_stage(r1, r2, c, pull_up, bounce, schmitt=False), PLAIN, limits, "E24")
+    if solution is None:
+        return  # out of confirmations: the fix text says so
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    earlier = [item for item in robust if item[0] < _key(change, present)]
+    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
