@@ -306,3 +306,19 @@ def test_a_contact_needing_wetting_current_gets_the_first_passing_change(r1, r2,
     from tests.checks.builders import analysed
     through = _level(np.array([r1]), np.array([r2]), np.array([c]), True, pull_up)[3][0]
     assert analysed(stage, RX).contact_current_a == pytest.approx(through, rel=1e-9)
+
+
+def test_without_a_window_the_resistors_come_from_10_ohm_to_10_megohm():
+    # DEVELOPERS.md ("fix search"): resistors from the series inside the resistance-range
+    # window, 10 Ohm-10 MOhm when the limits set none; capacitors E12 1 pF-10 mF. The values
+    # are IEC 60063's, through `eseries`.
+    from drc.design.complete import search_vars
+    limits = {k: v for k, v in LIMITS.items() if k not in ("resistance_min", "resistance_max")}
+    found = {v.designator: v.candidates for v in search_vars(_stage(10e3, 1e3, 100e-9, True), "E24", "E12", limits)}
+    assert list(found) == ["R1", "R2", "C1"]
+    for name in ("R1", "R2"):
+        assert np.allclose(found[name], list(iec.erange(iec.E24, 10.0, 10e6)), rtol=1e-12)
+    assert np.allclose(found["C1"], C_VALUES, rtol=1e-12)
+    # With a window set, the window's values only.
+    found = {v.designator: v.candidates for v in search_vars(_stage(10e3, 1e3, 100e-9, True), "E24", "E12", LIMITS)}
+    assert np.allclose(found["R2"], R_VALUES, rtol=1e-12)

@@ -1,0 +1,130 @@
+"""The complete search when a refuted option teaches the screen new vertices.
+
+The numpy screen (drc.design.screen) judges a candidate at the vertices of
+the tolerance box that were worst for values already analysed. Where the
+worst vertex moves with the values, the screen passes a candidate the full
+analysis refutes; that candidate's worst vertices then join the screen and
+every block of candidates is screened again (`CompleteSearch._receive`,
+`complete._split_verdicts`). The answer must still be the first passing
+change in the stated order.
+
+Where the worst vertex moves: a CMOS input's leakage is two-sided, +-1 uA over
+temperature (JESD7A for 74HC, as rules/families.toml's HC entry quotes it), and
+with resistors of hundreds of kilohms to megohms the leakage times the
+resistance is a good part of a volt. An edge's time
+t = tau ln((v_inf - v0) / (v_inf - vth)) (the RC law) then no longer falls
+monotonically with the rail: the sign of its slope in V is that of
+-(vth + I R2), so the fastest vertex sits at the high rail for small
+resistors and at the low rail for large ones. The window is widened to 10 MOhm
+(the test's own limits) so the search may reach such values.
+
+Outside reference: the brute force of tests/design/test_fix_completeness.py
+(node equations and the RC law v(t) = v_inf + (v0 - v_inf) exp(-t / tau) by
+hand at every vertex of the tolerance box, *Lessons In Electric Circuits*,
+Vol. I, ch. 16; E-series values from IEC 60063 through `eseries`), over the
+same grid: resistors E24 1 kOhm-10 MOhm, capacitors E12 1 pF-10 mF.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import eseries as iec
+import numpy as np
+import pytest
+
+import drc.design.complete as complete
+from drc.design.fixes import search
+from tests.checks.builders import LIMITS, hc
+from tests.design.test_fix_completeness import C_VALUES, MARGIN, _stage, reference_passes
+
+LIMITS_WIDE = {**LIMITS, "resistance_max": 10e6}
+R_WIDE = np.array(list(iec.erange(iec.E24, 1e3, 10e6)))
+# 74HC Schmitt input (tests/checks/builders.py) with the two-sided leakage of JESD7A.
+RX = replace(hc(), leak_high_a=(-1e-6, 1e-6), leak_low_a=(-1e-6, 1e-6))
+ORDER = {"R1": 0, "R2": 1, "C1": 2}
+
+
+def _key(change, present):
+    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
+            tuple((ORDER[k], change[k]) for k in sorted(change, key=ORDER.get)))
+
+
+def brute_force(r1, r2, c, pull_up, bounce, slack):
+    """Every passing one- and two-part change on the wide grid, in the stated order."""
+    present = {"R1": r1, "R2": r2, "C1": c}
+    grids = {"R1": R_WIDE, "R2": R_WIDE, "C1": C_VALUES}
+    out = []
+    for names in (("R1",), ("R2",), ("C1",), ("R1", "R2"), ("R1", "C1"), ("R2", "C1")):
+        axes = np.meshgrid(*(grids[n][grids[n] != present[n]] for n in names), indexing="ij")
+        cols = {n: a.ravel() for n, a in zip(names, axes, strict=True)}
+        n = next(iter(cols.values())).size
+        rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ok = reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack, RX, LIMITS_WIDE)
+        for i in np.flatnonzero(ok):
+            change = {k: float(cols[k][i]) for k in names}
+            out.append((_key(change, present), change))
+    return sorted(out, key=lambda item: item[0])
+
+
+@pytest.fixture
+def relearned(monkeypatch):
+    """The sizes of the blocks screened again after a refutation taught the screen vertices."""
+    seen: list[list[int]] = []
+    original = complete._split_verdicts
+
+    def spy(verdicts, sizes):
+        seen.append(list(sizes))
+        return original(verdicts, sizes)
+
+    monkeypatch.setattr(complete, "_split_verdicts", spy)
+    return seen
+
+
+CASES = [
+    # (R1, R2, C1, pull-up, bounce): megohm parts the search moves into the kilohms
+    (18e3, 1.6e6, 150e-9, True, 0.001),      # the series resistor alone
+    (43e3, 5.6e6, 3.3e-6, True, 0.010),      # the series resistor and the capacitor
+    (2.0e6, 9.1e3, 4.7e-9, True, 0.005),     # the pull-up and the capacitor
+    (1.1e6, 75e3, 68e-9, False, 0.005),      # pull-down stage
+    (680e3, 750e3, 3.9e-6, True, 0.005),     # a resistor pair, after pairs are screened
+    (4.3e6, 680e3, 150e-9, False, 0.001),    # a resistor pair on a pull-down stage
+    (15e3, 2.2e6, 330e-9, False, 0.010),     # nothing passes
+]
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce", CASES)
+def test_a_refutation_that_teaches_vertices_keeps_the_first_passing_change(r1, r2, c, pull_up, bounce,
+                                                                          relearned):
+    stage = _stage(r1, r2, c, pull_up, bounce)
+    solution, _count = search(stage, RX, LIMITS_WIDE, "E24")
+    assert relearned, "the case reaches what it is for: a refutation that teaches the screen"
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN)
+    if solution is None:
+        assert not robust, f"the search found nothing, the reference passes {robust[0]}"
+        return
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
+    with np.errstate(divide="ignore", invalid="ignore"):
+        assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, MARGIN, RX, LIMITS_WIDE)[0]
+    earlier = [item for item in robust if item[0] < _key(change, present)]
+    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce", CASES)
+def test_the_reference_agrees_with_the_analysis_with_two_sided_leakage(r1, r2, c, pull_up, bounce):
+    # The reference is the same maths with the leakage of either sign: its verdict on the
+    # present values and on the brute force's first answer is the rules'.
+    from drc.checks import run_stage_rules
+    from tests.checks.builders import analysed
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN)
+    values = [{"R1": r1, "R2": r2, "C1": c}] + ([{"R1": r1, "R2": r2, "C1": c, **robust[0][1]}] if robust else [])
+    for v in values:
+        passes = not run_stage_rules(analysed(_stage(v["R1"], v["R2"], v["C1"], pull_up, bounce), RX), LIMITS_WIDE)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            got = reference_passes(np.array([v["R1"]]), np.array([v["R2"]]), np.array([v["C1"]]), pull_up, bounce,
+                                   0.0, RX, LIMITS_WIDE)[0]
+        assert got == passes, v
