@@ -128,3 +128,23 @@ def test_the_reference_agrees_with_the_analysis_with_two_sided_leakage(r1, r2, c
             got = reference_passes(np.array([v["R1"]]), np.array([v["R2"]]), np.array([v["C1"]]), pull_up, bounce,
                                    0.0, RX, LIMITS_WIDE)[0]
         assert got == passes, v
+
+
+def test_verdicts_of_stacked_blocks_go_back_to_their_blocks():
+    # After a refutation every live block is screened again in one request; each block gets
+    # back its own rows: the stacked arrays cut at the cumulative sizes (numpy slicing by hand).
+    from drc.design.screen import Verdicts
+    sizes = [2, 3, 1, 4]
+    n = sum(sizes)
+    rng = np.random.default_rng(13)
+    stacked = Verdicts(rng.random(n) < 0.5, rng.random(n), rng.random(n) + 1.0, rng.random((n, 5)) < 0.5)
+    parts = complete._split_verdicts(stacked, sizes)
+    assert len(parts) == len(sizes)
+    start = 0
+    for part, size in zip(parts, sizes, strict=True):
+        rows = slice(start, start + size)
+        assert np.array_equal(part.fixed_ok, stacked.fixed_ok[rows])
+        assert np.array_equal(part.scale_lo, stacked.scale_lo[rows])
+        assert np.array_equal(part.scale_hi, stacked.scale_hi[rows])
+        assert np.array_equal(part.fails, stacked.fails[rows])
+        start += size
