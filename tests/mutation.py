@@ -283,7 +283,7 @@ def summary(names: list[str], sample: int | None = None, named: list[str] | None
         all_k, all_t = all_k + k, all_t + t
         share = f"{100 * k / t:.1f} %" if t else "-"
         of = f"a sample of {sample} of" if sample else "of"
-        of = f"{len(named)} named of {of}" if named is not None else of
+        of = f"of {len(named)} named, of" if named is not None else of
         print(f"{name:9s} killed {k}/{t} ({share}) {of} {len(results(name))} generated")
         for status, mutants in sorted(other.items()):
             for m in mutants:
