@@ -74,7 +74,7 @@ def test_batched_analysis_equals_one_by_one(board):
 def test_phase_profile_names_every_phase_of_a_demo_check():
     """benchmarks/phases.py times the pipeline's own phases: on a demo board with fixes on,
     every phase is printed once, in the pipeline's order, and the report is not (it goes
-    to a buffer). Times are not checked."""
+    to the null device). Times are not checked."""
     board = ROOT / "boards" / "lx24" / "front_panel.cir"
     proc = subprocess.run([sys.executable, str(ROOT / "benchmarks" / "phases.py"), str(board), "--with-fixes"],
                           capture_output=True, text=True, timeout=120)
