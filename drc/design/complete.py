@@ -29,6 +29,7 @@ Bounds, as counts (so the answer is the same on every machine): at most
 
 from __future__ import annotations
 
+import bisect
 import math
 from collections.abc import Generator, Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
@@ -496,8 +497,7 @@ class CompleteSearch:
                 opt = self._next_capacitor(bi, i)
             if opt is None:
                 continue
-            out.append(opt)
-            out.sort(key=lambda o: o.key)
+            bisect.insort(out, opt, key=lambda o: o.key)  # after equal keys, as a stable sort puts it
         return out[:count]
 
     def _make_option(self, bi: int, i: int, cap: float | None) -> _Option:
