@@ -363,7 +363,7 @@ def _loads_high(model: LinearModel, dc, nom: np.ndarray, rxs: list[ReceiverElect
         return (dc.rx_v > vcc / 2)[:, None]
     out = np.empty((len(rxs), len(model.leak_cols)), dtype=bool)
     for j, (load, node) in enumerate(zip(model.loads, model.leak_nodes, strict=True)):
-        v = node_voltage(model, dc.v, dc.vfix, node)
+        v = node_voltage(dc.v, dc.vfix, node)
         if node == model.rx:
             half = vcc / 2
         else:

@@ -207,7 +207,7 @@ def load_logic(model: LinearModel, state: str, rx: ReceiverElectrical) -> tuple[
         return ("high" if dc.rx_v[0] > rx.vcc / 2 else "low",)
     out = []
     for load, node in zip(model.loads, model.leak_nodes, strict=True):
-        v = float(node_voltage(model, dc.v, dc.vfix, node)[0])
+        v = float(node_voltage(dc.v, dc.vfix, node)[0])
         vcc = rx.vcc if node == model.rx else _supply_nominal(model, load.supply_net, rx.vcc)
         out.append("high" if v > vcc / 2 else "low")
     return tuple(out)
@@ -491,8 +491,8 @@ def _surge_peak(model: LinearModel) -> float | None:
         on = tuple(bool(x) for x in dc0.diodes_on[0])
         on, red = settle_diodes(model, t.closed_when, P, u0, on)
         v = (red.cv[0] + red.Mv[0] @ u0)[None, :]
-        va = node_voltage(model, v, red.vfix, model.node_code(t.a))[0]
-        vb = node_voltage(model, v, red.vfix, model.node_code(t.b))[0]
+        va = node_voltage(v, red.vfix, model.node_code(t.a))[0]
+        vb = node_voltage(v, red.vfix, model.node_code(t.b))[0]
         peaks.append(float(abs(va - vb)) / t.closed_ohms)  # a plain float: records hold no numpy scalars
     return max(peaks) if peaks else None
 

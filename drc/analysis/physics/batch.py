@@ -199,7 +199,7 @@ def _logic(g: _Group, state: ActuatorState) -> tuple[bool, np.ndarray]:
     high = np.empty((m, len(model.leak_cols)), dtype=bool)
     vcc = np.array([r.vcc for r in g.rxs])
     for j, node in enumerate(model.leak_nodes):
-        v = node_voltage(model, dc.v, dc.vfix, node)
+        v = node_voltage(dc.v, dc.vfix, node)
         if node == model.rx or not model.loads:
             half = vcc / 2
         else:
@@ -351,8 +351,8 @@ def _surge(g: _Group) -> np.ndarray | None:
         u0 = cap_voltages(model, dc0)
         red = reduce_dynamic(model, model.topology(t.closed_when, ()), row)
         v = red.cv + np.einsum("Nnk,Nk->Nn", red.Mv, u0)
-        va = node_voltage(model, v, red.vfix, model.node_code(t.a))
-        vb = node_voltage(model, v, red.vfix, model.node_code(t.b))
+        va = node_voltage(v, red.vfix, model.node_code(t.a))
+        vb = node_voltage(v, red.vfix, model.node_code(t.b))
         peaks.append(np.abs(va - vb) / t.closed_ohms)
     return np.max(np.vstack(peaks), axis=0) if peaks else None
 

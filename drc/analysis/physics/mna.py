@@ -60,7 +60,7 @@ class Reduced:
     nodes: np.ndarray  # (n,) bool: nodes the solution defines
 
 
-def node_voltage(model: LinearModel, v: np.ndarray, vfix: np.ndarray, code: int) -> np.ndarray:
+def node_voltage(v: np.ndarray, vfix: np.ndarray, code: int) -> np.ndarray:
     """Voltage of a node code (free >= 0, fixed < 0) across corners."""
     return v[:, code] if code >= 0 else vfix[:, -1 - code]
 
@@ -172,8 +172,8 @@ def _consistent(model: LinearModel, topo: Topology, v, vfix, g, vb) -> np.ndarra
             i = g[:, col] * (v @ topo.A[col] + vb[:, col])
             out[:, j] = i >= -_DIODE_I_TOL
         else:
-            vak = (node_voltage(model, v, vfix, model.node_code(d.anode))
-                   - node_voltage(model, v, vfix, model.node_code(d.cathode)))
+            vak = (node_voltage(v, vfix, model.node_code(d.anode))
+                   - node_voltage(v, vfix, model.node_code(d.cathode)))
             out[:, j] = vak > d.forward_v + _DIODE_V_TOL
     return out
 

@@ -161,7 +161,6 @@ class Segment:
     t0: float
     duration: float
     rx: ExpSum  # receiver voltage in local time
-    diodes_on: tuple[bool, ...]
 
 
 @dataclass(frozen=True, slots=True)
@@ -270,8 +269,8 @@ def settle_diodes(model: LinearModel, state: str, P: np.ndarray, u: np.ndarray,
         v = red.cv[0] + red.Mv[0] @ u if model.k else red.cv[0]
         new = []
         for d, is_on in zip(model.circuit.diodes, on, strict=True):
-            va = node_voltage(model, v[None], red.vfix, model.node_code(d.anode))[0]
-            vc = node_voltage(model, v[None], red.vfix, model.node_code(d.cathode))[0]
+            va = node_voltage(v[None], red.vfix, model.node_code(d.anode))[0]
+            vc = node_voltage(v[None], red.vfix, model.node_code(d.cathode))[0]
             vak = va - vc
             if math.isnan(vak):
                 new.append(False)
@@ -362,7 +361,7 @@ def solve_edge(model: LinearModel, from_state: str, to_state: str, params: np.nd
                 crossing = t_abs + tc
                 # tc == 0: the receiver jumps past the threshold as the contact moves
                 slope = math.inf if tc == 0.0 else abs(rx.deriv(tc))
-        segments.append(Segment(t_abs, t_event, rx, on))
+        segments.append(Segment(t_abs, t_event, rx))
         if not math.isfinite(t_event) or (crossing is not None and not full):
             break
         u = modal.u_at(t_event)
