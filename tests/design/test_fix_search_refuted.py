@@ -98,10 +98,18 @@ def test_the_reference_agrees_with_the_analysis_on_plain_inputs(r1, r2, c, pull_
 # refuted ones (a refuted option's next capacitor took their place), and proposed a two-part
 # change while the reference passes one part alone ({C1: 3.9 pF} first here). Whatever it
 # proposes must be the first passing change in order; it may also run out of confirmations.
-@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", [
+# 18 kOhm / 6.2 kOhm / 6.8 pF pull-up: eleven one-part options are refuted (slow-edge) before
+# R2 8.2 kOhm and then R1 13 kOhm, the reference's first passing change (cost |ln(13/18)| =
+# 0.325); C1 4.7 pF passes too but costs |ln(4.7/6.8)| = 0.369. A stop test of the option
+# list that reads the wrong key column stops before R1 13 kOhm and proposes C1 4.7 pF.
+REFERENCE_FIRST = [
     (16e3, 20e3, 8.2e-12, False, 5e-9, 0.5e-6),
     (9.1e3, 27e3, 5.6e-12, False, 20e-9, 5e-6),
-])
+    (18e3, 6.2e3, 6.8e-12, True, 5e-9, 0.5e-6),
+]
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", REFERENCE_FIRST)
 def test_what_the_search_proposes_comes_first_in_order(r1, r2, c, pull_up, bounce, latency):
     limits = {**LIMITS, "latency_limit": latency}
     robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN, limits=limits)
@@ -113,3 +121,18 @@ def test_what_the_search_proposes_comes_first_in_order(r1, r2, c, pull_up, bounc
     change = {ch.designator: ch.new for ch in solution.changes}
     earlier = [item for item in robust if item[0] < _key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", REFERENCE_FIRST)
+def test_the_reference_agrees_with_the_analysis_on_its_first_passing_changes(r1, r2, c, pull_up, bounce, latency):
+    # The reference's verdict on the present values and on its first three passing changes
+    # (one part each here) is the rules' own: the order the search is held to is the true one.
+    limits = {**LIMITS, "latency_limit": latency}
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN, limits=limits)
+    present = {"R1": r1, "R2": r2, "C1": c}
+    for v in [present] + [{**present, **change} for _key_, change in robust[:3]]:
+        stage = _stage(v["R1"], v["R2"], v["C1"], pull_up, bounce, schmitt=False)
+        passes = not run_stage_rules(analysed(stage, PLAIN), limits)
+        got = reference_passes(np.array([v["R1"]]), np.array([v["R2"]]), np.array([v["C1"]]), pull_up, bounce,
+                               rx=PLAIN, limits=limits)[0]
+        assert got == passes, v
