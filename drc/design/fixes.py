@@ -32,7 +32,6 @@ Identical stages (a keypad) are searched once (a memo keyed by values).
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, replace
 
@@ -84,10 +83,6 @@ class Change:
     new: float
     unit: str  # "Ω" or "F"
 
-    @property
-    def log_ratio(self) -> float:
-        return abs(math.log(self.new / self.old))
-
     def text(self) -> str:
         return f"{self.designator} {fq(self.old, self.unit)} → {fq(self.new, self.unit)}"
 
@@ -97,10 +92,6 @@ class Solution:
     changes: tuple[Change, ...]
     result: StageResult
     analyses: int
-
-    @property
-    def cost(self) -> tuple[int, float]:
-        return (len(self.changes), sum(c.log_ratio for c in self.changes))
 
 
 @dataclass(frozen=True, slots=True)

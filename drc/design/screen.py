@@ -400,9 +400,6 @@ class _Rows:
                 out[sel] = np.interp(V[sel][:, :, col], table.vcc, pick(table))
         return out
 
-    def split(self, a: np.ndarray) -> list[np.ndarray]:
-        return np.split(a, np.cumsum(self.sizes)[:-1])
-
     def leak_range(self, high: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         rng = np.where(high[:, None], self.leak_high, self.leak_low)
         return rng[:, 0], rng[:, 1]
