@@ -216,6 +216,7 @@ class CompleteSearch:
         self.pairs_bound = -math.inf  # pair rows screened up to this cost
         self.corner_rows = 0  # rows screened to rule out boxes of pairs
         self.refuted: set[tuple] = set()
+        self.passed: dict[tuple, StageResult] = {}  # confirmed options (by `_refute_key`), their results
         self.analyses = 0
         self.trusted = False  # the screen agreed with the full analysis on the present values
         self.found: Found | None = None
@@ -247,20 +248,38 @@ class CompleteSearch:
         first = True
         while not self.done:
             left = MAX_CONFIRMATIONS - self.analyses
-            if left <= 0:
+            if left <= 0 and not self.passed:
                 self._finish(None, None, exhausted=True)
                 return
-            take = min(_FIRST_ROUND if first else _LATER_ROUNDS, left)
+            take = max(1, min(_FIRST_ROUND if first else _LATER_ROUNDS, left))
             first = False
             options = yield from self._ordered_options(take)
             if not options:
                 self._finish(None, None, exhausted=False)
                 return
-            # Never past a change with more parts: its turn comes after all fewer-part ones are refuted.
-            proposed = [o for o in options[:take] if o.key[0] == options[0].key[0]]
+            # A confirmed option is the answer once it comes first: every option before it
+            # (a refuted row's next capacitor, pairs up to its cost) is refuted or screened out.
+            known = self.passed.get(_refute_key(options[0].moves))
+            if known is not None:
+                self._finish(options[0].moves, known, exhausted=False)
+                return
+            if left <= 0:
+                self._finish(None, None, exhausted=True)
+                return
+            proposed = self._proposals(options)
             results = yield Analyse(self.stage, self.rx, tuple({m.designator: m.new for m in o.moves}
                                                                for o in proposed))
             yield from self._receive(proposed, results)
+
+    def _proposals(self, options: list[_Option]) -> list[_Option]:
+        """The options to confirm this round: never past a change with more parts (its turn
+        comes after all fewer-part ones are refuted), nor past a confirmed one."""
+        out: list[_Option] = []
+        for o in options:
+            if o.key[0] != options[0].key[0] or _refute_key(o.moves) in self.passed:
+                break
+            out.append(o)
+        return out
 
     def _receive(self, proposed: list[_Option], results: Sequence[StageResult]) -> Steps:
         learned = False
@@ -269,8 +288,10 @@ class CompleteSearch:
             result = result if result.receiver_electrical else replace(result, receiver_electrical=self.rx)
             fired = {f.rule for f in run_stage_rules(result, self.limits)} - self.tolerated
             if not fired:
-                self._finish(opt.moves, result, exhausted=False)
-                return
+                # The answer only if nothing before it is left when the refutations of this
+                # round are taken in (`run`); the proposals after it come after it in order.
+                self.passed[_refute_key(opt.moves)] = result
+                break
             row = self.blocks[opt.block].X[opt.row].copy()
             cap = next((m for m in opt.moves if m.unit == "F"), None)
             if cap is not None:

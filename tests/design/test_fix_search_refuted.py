@@ -23,6 +23,7 @@ refutation.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -135,4 +136,42 @@ def test_the_reference_agrees_with_the_analysis_on_its_first_passing_changes(r1,
         passes = not run_stage_rules(analysed(stage, PLAIN), limits)
         got = reference_passes(np.array([v["R1"]]), np.array([v["R2"]]), np.array([v["C1"]]), pull_up, bounce,
                                rx=PLAIN, limits=limits)[0]
+        assert got == passes, v
+
+
+# A plain input with a transition limit of 1 us 10-90 % (twice the builders' 74HC one: the
+# test's own receiver). 22 kOhm / 1.6 kOhm / 68 pF pull-up, bounce 20 ns, latency 0.5 us: the
+# reference's first passing change is R2 13 kOhm with C1 6.8 pF (cost ln(13/1.6) + ln(68/6.8)
+# = 2.095 + 2.303 = 4.398), then R2 15 kOhm with C1 6.8 pF (2.238 + 2.303 = 4.541). The search
+# once proposed the second: in one round it confirmed R2 13 kOhm with C1 8.2 pF (cost 4.210,
+# refuted by slow-edge) beside R2 15 kOhm with C1 6.8 pF (passes), and took the passing one,
+# although the refuted row's next capacitor, 6.8 pF, comes between the two.
+PLAIN_1US = replace(PLAIN, transition_limit_s_per_v=1e-6 / (0.8 * 4.5))
+NEXT_CAPACITOR = (22e3, 1.6e3, 68e-12, True, 20e-9, 0.5e-6)
+
+
+def test_a_refuted_rows_next_capacitor_comes_before_a_later_proposal_that_passes():
+    r1, r2, c, pull_up, bounce, latency = NEXT_CAPACITOR
+    limits = {**LIMITS, "latency_limit": latency}
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN_1US, limits=limits)
+    assert robust[0][1] == {"R2": 13e3, "C1": 6.8e-12}
+    solution, _count = search(_stage(r1, r2, c, pull_up, bounce, schmitt=False), PLAIN_1US, limits, "E24")
+    assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    earlier = [item for item in robust if item[0] < _key(change, present)]
+    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+
+
+def test_the_reference_agrees_with_the_analysis_on_the_next_capacitor_case():
+    # The rules' own verdicts: R2 13 kOhm passes with C1 6.8 pF and fails slow-edge with 8.2 pF;
+    # R2 15 kOhm with C1 6.8 pF passes; the present values fail.
+    r1, r2, c, pull_up, bounce, latency = NEXT_CAPACITOR
+    limits = {**LIMITS, "latency_limit": latency}
+    for v, passes in (((r1, r2, c), False), ((r1, 13e3, 6.8e-12), True), ((r1, 13e3, 8.2e-12), False),
+                      ((r1, 15e3, 6.8e-12), True)):
+        fired = {f.rule for f in run_stage_rules(analysed(_stage(*v, pull_up, bounce, schmitt=False), PLAIN_1US),
+                                                 limits)}
+        assert (not fired) == passes, (v, fired)
+        got = reference_passes(*(np.array([x]) for x in v), pull_up, bounce, rx=PLAIN_1US, limits=limits)[0]
         assert got == passes, v
