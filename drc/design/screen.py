@@ -201,9 +201,11 @@ class Screen:
             value = corner[name]
             lo, hi = ((leak[0], leak[1]) if j == self.leak
                       else (self.nominal[j] * self.f_lo[j], self.nominal[j] * self.f_hi[j]))
-            if _close(value, hi) and not _close(value, lo):
+            # Relative only: a capacitor of a few picofarads is within any absolute slack of
+            # both its ends.
+            if _same(value, hi) and not _same(value, lo):
                 bits[j] = 1
-            elif not _close(value, lo):
+            elif not _same(value, lo):
                 return None
         return bits
 
@@ -603,6 +605,11 @@ def _add(bits: list[np.ndarray], new: np.ndarray) -> bool:
 
 def _time(x: float) -> float | None:
     return None if not math.isfinite(x) else x
+
+
+def _same(a: float, b: float) -> bool:
+    """Equal up to rounding, at any scale (zero only to zero)."""
+    return abs(a - b) <= _AGREE_REL * max(abs(a), abs(b))
 
 
 def _close(a: float | None, b: float | None) -> bool:
