@@ -51,7 +51,7 @@ def _key(change, present):
             tuple((ORDER[k], change[k]) for k in sorted(change, key=ORDER.get)))
 
 
-def brute_force(r1, r2, c, pull_up, bounce, slack):
+def brute_force(r1, r2, c, pull_up, bounce, slack, rx=RX, limits=LIMITS_WIDE):
     """Every passing one- and two-part change on the wide grid, in the stated order."""
     present = {"R1": r1, "R2": r2, "C1": c}
     grids = {"R1": R_WIDE, "R2": R_WIDE, "C1": C_VALUES}
@@ -62,7 +62,7 @@ def brute_force(r1, r2, c, pull_up, bounce, slack):
         n = next(iter(cols.values())).size
         rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
         with np.errstate(divide="ignore", invalid="ignore"):
-            ok = reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack, RX, LIMITS_WIDE)
+            ok = reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack, rx, limits)
         for i in np.flatnonzero(ok):
             change = {k: float(cols[k][i]) for k in names}
             out.append((_key(change, present), change))
@@ -148,3 +148,47 @@ def test_verdicts_of_stacked_blocks_go_back_to_their_blocks():
         assert np.array_equal(part.scale_hi, stacked.scale_hi[rows])
         assert np.array_equal(part.fails, stacked.fails[rows])
         start += size
+
+
+# A plain input with the same two-sided leakage and a slow transition limit (the test's own
+# receivers: 0.5 ms and 0.1 ms 10-90 % over 0.8 x 4.5 V, so that megohm stages can pass
+# slow-edge at all). Here a round confirms several options: the first teaches the screen a
+# vertex that rules out options still to come (its own row fails the screen afterwards), the
+# others are refuted by slow-edge, which the screen does not restate, and teach nothing. The
+# blocks must be screened again after such a round, whatever its last proposal taught: else
+# the ruled-out options come back round after round (a row whose own full screen fails is
+# not marked refuted) and the confirmations run out before the answer.
+def _plain(transition_s):
+    return replace(hc(schmitt=False), leak_high_a=RX.leak_high_a, leak_low_a=RX.leak_low_a,
+                   transition_limit_s_per_v=transition_s / (0.8 * 4.5))
+
+
+PLAIN_CASES = [
+    # (R1, R2, C1, pull-up, bounce, latency limit, transition limit)
+    (6.2e3, 3.9e6, 18e-12, False, 5e-6, 50e-6, 0.5e-3),
+    (10e3, 5.1e6, 22e-12, False, 5e-6, 50e-6, 0.1e-3),
+    (200e3, 2.7e6, 12e-12, True, 5e-6, 1e-3, 0.5e-3),
+]
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency, transition", PLAIN_CASES)
+def test_a_round_that_teaches_before_its_last_proposal_keeps_the_first_passing_change(
+        r1, r2, c, pull_up, bounce, latency, transition):
+    rx, limits = _plain(transition), {**LIMITS_WIDE, "latency_limit": latency}
+    robust = brute_force(r1, r2, c, pull_up, bounce, -MARGIN, rx, limits)
+    assert robust, "the reference finds a passing change"
+    solution, _count = search(_stage(r1, r2, c, pull_up, bounce, schmitt=False), rx, limits, "E24")
+    assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
+    present = {"R1": r1, "R2": r2, "C1": c}
+    change = {ch.designator: ch.new for ch in solution.changes}
+    earlier = [item for item in robust if item[0] < _key(change, present)]
+    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    # The reference's verdicts on the present values and its first passing change are the rules'.
+    from drc.checks import run_stage_rules
+    from tests.checks.builders import analysed
+    for v in (present, {**present, **robust[0][1]}):
+        stage = _stage(v["R1"], v["R2"], v["C1"], pull_up, bounce, schmitt=False)
+        passes = not run_stage_rules(analysed(stage, rx), limits)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            got = reference_passes(*(np.array([v[k]]) for k in ("R1", "R2", "C1")), pull_up, bounce, 0.0, rx, limits)
+        assert got[0] == passes, v
