@@ -390,10 +390,15 @@ def _threshold_pairs(es: EdgeSetup, opposite: EdgeSetup, V: np.ndarray,
     The pull-back time moves monotonically along that bound, so its two ends do: the
     crossing threshold nearest the start (the opposite one as near as the hysteresis
     allows) and the opposite threshold nearest the start (the crossing one as far)."""
-    d = float(es.direction)
-    c_in, c_out = es.vth(V, "inner"), es.vth(V, "outer")
-    o_in = opposite.vth(V, "inner")
+    return threshold_pairs(float(es.direction), es.vth(V, "inner"), es.vth(V, "outer"),
+                           opposite.vth(V, "inner"), vh)
 
+
+def threshold_pairs(d, c_in: np.ndarray, c_out: np.ndarray, o_in: np.ndarray,
+                    vh) -> list[tuple[np.ndarray, np.ndarray]]:
+    """`_threshold_pairs` from the thresholds themselves (d: the edge's direction, +1
+    rising; c_in/c_out: the crossing threshold's ends nearest and farthest from the
+    start, o_in: the opposite one's nearest; vh: the least hysteresis), per row."""
     def clip_cross(x: np.ndarray) -> np.ndarray:
         lo, hi = np.minimum(c_in, c_out), np.maximum(c_in, c_out)
         return np.clip(x, lo, hi)
@@ -453,6 +458,48 @@ def _reading(d: np.ndarray, u_old: np.ndarray, new: tuple, bounce: tuple, cross_
         t = np.where(reaches, t, np.nan)
         t_cross = np.where(reaches, np.maximum(tau_n * np.log((un - u_start) / (un - u_cross)), 0.0), np.inf)
     return _Figures(t, left_v, ~crossed, t_cross)
+
+
+def pull_back_floor(model: LinearModel, edge: Edge, back: str, P: np.ndarray, d: np.ndarray,
+                    pairs: Sequence[tuple[np.ndarray, np.ndarray]], need: np.ndarray,
+                    min_closure_s: float | np.ndarray = MIN_CLOSURE_S) -> np.ndarray:
+    """Per row of P (one capacitor, no diodes): the least factor on the capacitor at
+    which the closure-and-opening reading of `edge` can take `need` or longer, from below.
+
+    For the fix search's screen (drc.design.screen), which solves each row once and
+    scales the capacitor. With the capacitor times s every time constant is s times
+    its own and no level moves, so in `_reading`: a closure crosses within the least
+    closure while s <= min_closure_s / t_cross; then the level it leaves lies between
+    the crossing level and the new state's own, and the pull back takes at most s
+    times the time from the new state's level; beyond, it leaves the crossing level
+    itself and takes exactly s times the time from there. The readings that reach
+    `need` therefore lie at or above the returned factor (0: any factor may; inf: none
+    can). pairs: the (crossing, opposite) thresholds per row, each pair as
+    `threshold_pairs` gives them (the reading takes the faster pair); d: each row's
+    direction, +1 rising.
+    """
+    a, b = EDGE_STATES[edge]
+    u_old = cap_voltages(model, dc_solve(model, a, P))[:, 0]
+    qn, gn, un, tau_n = _mode(model, b, P)
+    qb, gb, ub, tau_b = _mode(model, back, P)
+    floor = np.zeros(P.shape[0])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u_start = np.where(np.isfinite(ub) & (d * (ub - u_old) < 0), ub, u_old)
+        for cross_v, opp_v in pairs:
+            u_cross = (cross_v - qn) / gn
+            u_opp = np.where(gb > 0, (opp_v - qb) / gb, np.nan)
+            t_cross = np.maximum(tau_n * np.log((un - u_start) / (un - u_cross)), 0.0)
+            deep = tau_b * np.log((ub - un) / (ub - u_opp))  # from the new state's level
+            shallow = tau_b * np.log((ub - u_cross) / (ub - u_opp))  # from the crossing level
+            fast = np.where(deep > 0, need / deep, np.inf)
+            slow = np.where(shallow > 0, need / shallow, np.inf)
+            switch = np.where(t_cross > 0, min_closure_s / t_cross, np.inf)
+            got = np.where(fast <= switch, fast, np.maximum(switch, slow))
+            # Rows the reading does not time (no crossing, never back, not following) bound nothing.
+            unknown = (~(d * (un - u_cross) > 0) | ~(np.isfinite(ub) & (gb > 0) & (-d * (qb + gb * ub - opp_v) > 0))
+                       | (gn <= 0) | ~np.isfinite(tau_n) | np.isnan(got))
+            floor = np.maximum(floor, np.where(unknown, 0.0, got))
+    return np.where(need > 0, floor, 0.0)
 
 
 # ---------------------------------------------------------------- diodes, several capacitors
@@ -628,4 +675,5 @@ def _exact_reading(model: LinearModel, rx: ReceiverElectrical, es: EdgeSetup, ba
         first_crossing_s=_time(nominal.cross_s))
 
 
-__all__ = ["MIN_CLOSURE_S", "TRANSIT", "PullBack", "bounce_state", "pull_back", "pull_backs"]
+__all__ = ["MIN_CLOSURE_S", "TRANSIT", "PullBack", "bounce_state", "pull_back", "pull_back_floor", "pull_backs",
+           "threshold_pairs"]

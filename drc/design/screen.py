@@ -48,6 +48,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from drc.analysis.first_edge import MIN_CLOSURE_S, bounce_state, pull_back_floor, threshold_pairs
 from drc.analysis.physics.batch import batchable, structure_key, template
 from drc.analysis.physics.compiled import LinearModel, param_table
 from drc.analysis.physics.mna import dc_solve
@@ -61,7 +62,7 @@ from drc.board.stage import ActuatorState, Stage
 SCREENED_RULES = ("bounce-window", "response-latency", "leakage-headroom", "pullup-waste", "shorted-pull",
                   "contact-wetting")
 _LIMIT_KEYS = ("bounce_margin", "latency_limit", "leakage_headroom_margin", "pull_current_budget")
-_OPTIONAL_KEYS = ("short_current",)
+_OPTIONAL_KEYS = ("short_current", "min_closure")
 _RC_KINDS = ("rc", "rc-schmitt")  # the stage kinds bounce-window reads (checks.common.RC_KINDS)
 # Comparisons lean to passing by this relative slack: a candidate exactly on a
 # boundary is sent to the full analysis rather than screened out by rounding.
@@ -107,6 +108,9 @@ class Figures:
     slow: dict[Edge, np.ndarray] = field(default_factory=dict)
     rising: dict[Edge, np.ndarray] = field(default_factory=dict)
     start: dict[Edge, np.ndarray] = field(default_factory=dict)
+    # Schmitt inputs: the least capacitor factor at which the closure-and-opening reading
+    # can pass bounce-window (first_edge.pull_back_floor, worst vertex used; inf: no such reading).
+    back: dict[Edge, np.ndarray] = field(default_factory=dict)
 
 
 @dataclass(frozen=True, slots=True)
@@ -238,6 +242,8 @@ class Screen:
                      if "bounce-window" not in t and self.stage.kind in _RC_KINDS else 0.0),
             "latency": lim["latency_limit"] if "response-latency" not in t else np.inf,
             "outer_r": rx.rising_threshold[2], "outer_f": rx.falling_threshold[0],
+            "min_closure": lim.get("min_closure", MIN_CLOSURE_S),
+            "schmitt": 1.0 if rx.schmitt else 0.0, "hysteresis": rx.hysteresis_min_v or 0.0,
         }
 
     # ------------------------------------------------------------ trust
@@ -311,7 +317,7 @@ def screen_all(requests: Sequence[Request]) -> list[Screened | None]:
 
 
 _LIMIT_NAMES = ("vcc", "high_req", "low_req", "headroom", "budget", "short", "wetting", "need", "latency",
-                "outer_r", "outer_f")
+                "outer_r", "outer_f", "min_closure", "schmitt", "hysteresis")
 
 
 class _Limits:
@@ -357,6 +363,8 @@ def judge(f: Figures, lim: _Limits) -> Verdicts:
             fast, slow, rising, start = f.fast[edge], f.slow[edge], f.rising[edge], f.start[edge]
             lo = np.where(np.isinf(fast) | (v["need"] <= 0), 0.0,
                           np.where(fast > 0, v["need"] / fast, np.inf)) * (1 - _SLACK)
+            if edge in f.back:  # bounce-window also passes by the closure-and-opening reading
+                lo = np.minimum(lo, f.back[edge] * (1 - _SLACK))
             outer = np.where(rising, v["outer_r"], v["outer_f"])
             beyond = np.where(rising, start >= outer, start <= outer)
             unreached = np.isinf(slow)
@@ -454,7 +462,7 @@ def _group(reqs: Sequence[Request]) -> list[Screened]:
         if r.full:
             sel = slice(int(starts[k]), int(starts[k]) + r.X.shape[0])
             for name in ("worst", "required", "level", "high", "pull", "contact", "closed", "fast", "slow",
-                         "rising", "start"):
+                         "rising", "start", "back"):
                 getattr(figures[k], name).update({key: a[sel] for key, a in getattr(whole, name).items()})
     return [Screened(Verdicts(*p), f, got) for p, f, got in zip(parts, figures, learned, strict=True)]
 
@@ -555,12 +563,39 @@ def _edges(model: LinearModel, rows: _Rows, reqs: Sequence[Request], edge: Edge,
     f.fast[edge][idx] = fast.min(axis=1)
     f.slow[edge] = np.zeros(n)
     f.slow[edge][idx] = slow.max(axis=1)
+    back = _pull_back_floors(model, rows, reqs, edge, V, np.where(up, 1.0, -1.0), inner, outer, idx)
+    f.back[edge] = np.zeros(n)
+    f.back[edge][idx] = back.max(axis=1)
     first = np.cumsum([0] + rows.sizes[:-1])
     for q, r in enumerate(reqs):
         if r.all_edges:
             j, bt = int(np.searchsorted(idx, first[q])), bits[q]
-            for i in {int(np.argmin(fast[j])), int(np.argmax(slow[j]))}:
+            for i in {int(np.argmin(fast[j])), int(np.argmax(slow[j])), int(np.argmax(back[j]))}:
                 learned[q] |= _add(r.screen.edge_bits[edge], bt[i] if i < bt.shape[0] else bt[0])
+
+
+def _pull_back_floors(model: LinearModel, rows: _Rows, reqs: Sequence[Request], edge: Edge, V: np.ndarray,
+                      d: np.ndarray, inner: np.ndarray, outer: np.ndarray, idx: np.ndarray) -> np.ndarray:
+    """(k, m): at each vertex of the rows `idx`, the least capacitor factor at which
+    bounce-window's closure-and-opening reading can pass this edge (an input with
+    hysteresis; the rule passes an edge by that reading or by its own time), and inf
+    where the reading does not apply (a plain input). Optimistic as the rest: the
+    vertices are a subset of the reading's box (it spans both levels' leakage)."""
+    k, m = inner.shape
+    out = np.full((k, m), np.inf)
+    schmitt = limits_of(reqs, "schmitt")[idx] > 0
+    if not schmitt.any() or model.k != 1 or model.rx < 0:  # the reading needs the capacitor to follow
+        return out
+    opposite = np.where(d > 0, rows.at_supply(V.reshape(k, m, -1), lambda t: t.falling[:, 2],
+                                              rows.falling_thr[:, 2], idx),
+                        rows.at_supply(V.reshape(k, m, -1), lambda t: t.rising[:, 0], rows.rising_thr[:, 0], idx))
+    per_row = lambda a: np.repeat(a[idx], m)  # noqa: E731
+    dd = np.repeat(d.ravel(), m) if d.size == k else d.ravel()
+    pairs = threshold_pairs(dd, inner.ravel(), outer.ravel(), opposite.ravel(), per_row(limits_of(reqs, "hysteresis")))
+    back = bounce_state(reqs[0].screen.stage, edge)  # the throws are structural: one for the group
+    floor = pull_back_floor(model, edge, back, V, dd, pairs, per_row(limits_of(reqs, "need")),
+                            per_row(limits_of(reqs, "min_closure"))).reshape(k, m)
+    return np.where(schmitt[:, None], floor, np.inf)
 
 
 # ---------------------------------------------------------------- helpers
