@@ -50,7 +50,8 @@ class CheckOptions:
     config_path: an explicit config file (wins over discovery); None = discover.
     default_bounce_s: the `--bounce` option. only_rules / skip_rules: rule ids
     from the command line (added to the config's). propose_fixes: search
-    standard-value fixes for failing stages. reader_limits: ReaderOptions
+    standard-value fixes for failing stages (thorough_fixes: those on the
+    exact event solver too, seconds each). reader_limits: ReaderOptions
     overrides as (name, value) pairs. today: the date waivers expire against.
     result_cache: keep each board's result on disk and reuse it while nothing
     it depends on changed (drc.diskcache; the command line's default).
@@ -66,6 +67,7 @@ class CheckOptions:
     reader_limits: tuple[tuple[str, int], ...] = ()
     today: date | None = None
     result_cache: bool = False
+    thorough_fixes: bool = False  # also search stages on the exact event solver (seconds each)
 
 
 @dataclass(frozen=True)
@@ -224,14 +226,14 @@ def selected_rule_ids(config: Config, options: CheckOptions) -> set[str]:
                              tuple(config.skip_rules) + tuple(options.skip_rules))
 
 
-def _with_fixes(results, findings: list[Finding], limits, series: str) -> list[Finding]:
+def _with_fixes(results, findings: list[Finding], limits, series: str, thorough: bool = False) -> list[Finding]:
     """Upgrade the plain-words fix of each stage finding to concrete standard values.
 
     The search is bounded per stage and per board by a count of analyses
     (drc/design/fixes.py), so the result is the same on every machine.
     """
-    from drc.design.fixes import propose_board_fixes
-    fixed = propose_board_fixes(results, findings, limits, series)
+    from drc.design.fixes import EXACT_FIX_BUDGET, propose_board_fixes
+    fixed = propose_board_fixes(results, findings, limits, series, exact_budget=EXACT_FIX_BUDGET if thorough else 0)
     return [replace(f, fix=fixed[f]) if f in fixed else f for f in findings]
 
 
@@ -261,7 +263,8 @@ def check_netlist_in_memory(netlist, config: Config, options: CheckOptions, path
     near = (e for path in survey.paths for e in path.elements)  # what findings are about
     findings = run_rules(board, results, limits, selected, survey.unchecked, near)
     if options.propose_fixes and findings:
-        findings = _with_fixes(results, findings, limits, options.eseries or config.eseries)
+        findings = _with_fixes(results, findings, limits, options.eseries or config.eseries,
+                               options.thorough_fixes)
     waived = [(w.rule, w.parts, w.reason, w.location) for w in annotations.waivers] if annotations else []
     judged = judge_board(findings, path, options.today or date.today(), severities=config.severities,
                          annotations=waived, waivers=config.waivers)

@@ -163,7 +163,7 @@ def _check_options(args):
         only_rules=_ids(args.only_rules), skip_rules=_ids(args.skip_rules),
         propose_fixes=not args.no_fixes, eseries=_eseries(args.eseries, "--eseries"),
         include_folders=tuple(args.include_folder), reader_limits=_reader_limits(args),
-        today=_as_of(args.as_of), result_cache=not args.no_cache)
+        today=_as_of(args.as_of), result_cache=not args.no_cache, thorough_fixes=args.thorough_fixes)
 
 
 def _run_fail_level(args, options, files: list[Path]) -> str:

@@ -69,6 +69,9 @@ def build_parser() -> argparse.ArgumentParser:
                        help="order of the table of boards: worst first (default) or by path")
     check.add_argument("--eseries", metavar="SERIES", help="series for proposed values (E12, E24, E96...)")
     check.add_argument("--no-fixes", action="store_true", help="skip the search for standard-value fixes")
+    check.add_argument("--thorough-fixes", action="store_true",
+                       help="also search values for stages with diodes, several capacitors, TTL inputs or "
+                       "conducting clamps (up to 100 analyses each: seconds per stage)")
     check.add_argument("--no-cache", action="store_true", help="check every board afresh: neither read nor "
                        "write the result cache (kept in the user's cache folder, or $DRC_CACHE_DIR)")
     check.add_argument("--include-folder", action="append", default=[], metavar="DIR",

@@ -67,6 +67,9 @@ MAX_ANALYSES = bisection.MAX_ANALYSES
 # The bisection search (stages the complete search cannot screen): analyses per stage in
 # a board check, and per board in all.
 FIX_BUDGET = 100
+# Analyses a stage on the exact event solver may spend when asked (`--thorough-fixes`):
+# tens of milliseconds each, so seconds a stage; none by default.
+EXACT_FIX_BUDGET = 100
 BOARD_FIX_BUDGET = 2000
 # Capacitors are rarely stocked finer than E12 (common practice, no source).
 _CAPACITOR_SERIES = {"E3": "E3", "E6": "E6", "E12": "E12"}
@@ -313,7 +316,7 @@ _SEARCHES: Memo[tuple, _Outcome] = Memo("design.fix_searches", 4096)
 
 
 def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
-              tolerated: frozenset[str], budget: int) -> tuple | None:
+              tolerated: frozenset[str], budget: int | tuple[int, int]) -> tuple | None:
     c, k, r = stage.circuit, stage.contact, stage.receiver
     key = (
         structure_key_of(stage), stage.kind,
@@ -344,13 +347,16 @@ def _mine(result: StageResult, findings: Sequence[Finding]) -> list[Finding]:
 
 def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Finding],
                         limits: Mapping[str, float], series: str = "E24",
-                        board_budget: int = BOARD_FIX_BUDGET) -> dict[Finding, str]:
+                        board_budget: int = BOARD_FIX_BUDGET, exact_budget: int = 0) -> dict[Finding, str]:
     """Fix texts for a whole board, keyed by finding.
 
     Every failing stage's search runs together (drc.design.complete.run_lockstep);
     identical stages share one search. `board_budget` bounds the analyses of the
     bisection searches (a stage never gets more than `FIX_BUDGET`); the bound
     counts analyses, not seconds, so the texts are the same on every machine.
+    `exact_budget`: the analyses of a stage on the exact event solver (several
+    capacitors, diodes, TTL inputs, conducting clamps); 0, the default, leaves
+    their values unsearched (their text says so).
     A search first done for another board in the same process costs what it
     cost there, so a board's texts do not depend on what was checked before.
     """
@@ -382,15 +388,15 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
         job = _job(result.stage, result.receiver_electrical, limits, series, tolerated, result,
                    present_rules=present_rules)
         todo.append((result, mine, _memo_key(result.stage, result.receiver_electrical, limits, series,
-                                             tolerated, FIX_BUDGET), job))
-    outcomes = _board_outcomes(todo, board_budget)
+                                             tolerated, (FIX_BUDGET, exact_budget)), job))
+    outcomes = _board_outcomes(todo, board_budget, exact_budget)
     for (_result, mine, _key, job), outcome in zip(todo, outcomes, strict=True):
         out.update(_texts(job, mine, outcome))
     return out
 
 
 def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple | None, _Job]],
-                    board_budget: int) -> list[_Outcome | None]:
+                    board_budget: int, exact_budget: int = 0) -> list[_Outcome | None]:
     """Each stage's outcome: from the memo, or searched (distinct searches once, in lockstep)."""
     outcomes: list[_Outcome | None] = [None] * len(todo)
     fresh: dict[tuple | int, list[int]] = {}
@@ -402,7 +408,7 @@ def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple | None, _
             fresh.setdefault(key if key is not None else i, []).append(i)
     firsts = [idx[0] for idx in fresh.values()]
     jobs = [todo[i][3] for i in firsts]
-    budgets = _bisection_budgets(jobs, board_budget)
+    budgets = _bisection_budgets(jobs, board_budget, exact_budget)
     for idx, outcome in zip(fresh.values(), _run_jobs(jobs, budgets), strict=True):
         key = todo[idx[0]][2]
         if key is not None:
@@ -412,16 +418,19 @@ def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple | None, _
     return _charge(todo, outcomes, board_budget)
 
 
-def _bisection_budgets(jobs: Sequence[_Job], board_budget: int) -> list[int]:
+def _bisection_budgets(jobs: Sequence[_Job], board_budget: int, exact_budget: int = 0) -> list[int]:
     """Each job's analyses if it falls back to bisection: FIX_BUDGET while the board's lasts.
 
     A stage whose edges need the exact event solver (several capacitors, diodes) is not
     searched in a board check: at tens of milliseconds an analysis, the few a check can
-    afford never finish a bisection (its text says values were not searched).
+    afford never finish a bisection (its text says values were not searched), unless
+    `exact_budget` grants it that many analyses.
     """
     if board_budget <= 0:
         return [0] * len(jobs)
-    return [FIX_BUDGET if batchable(template(structure_key(j.stage.circuit), j.stage.circuit)) else 0
+    # The bisection's evaluator divides a slow stage's budget by what one of its analyses costs.
+    slow = exact_budget * bisection.SLOW_ANALYSIS_COST
+    return [FIX_BUDGET if batchable(template(structure_key(j.stage.circuit), j.stage.circuit)) else slow
             for j in jobs]
 
 
@@ -461,7 +470,8 @@ def _no_change_texts(mine: list[Finding], job: _Job, outcome: _Outcome) -> dict[
     ranges = ranges_text(job.series, capacitor_series(job.series), job.limits)
     if not outcome.searched:
         honest = ("values not searched: this stage needs the exact event solver (several capacitors, "
-                  "diodes, TTL inputs or conducting clamps), too slow to search within a check")
+                  "diodes, TTL inputs or conducting clamps), too slow to search within a check by default "
+                  "(drc check --thorough-fixes searches it)")
     elif outcome.complete:
         honest = f"no change of one or two of {names} passes every rule at worst case ({ranges})"
     elif outcome.screened:

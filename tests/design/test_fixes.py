@@ -101,3 +101,31 @@ def test_a_stage_needing_the_exact_solver_says_its_values_were_not_searched():
     assert "bounce-window" in {f.rule for f in findings}
     texts = propose_fixes(res, findings, LIMITS)
     assert texts and all("values not searched" in t and "exact event solver" in t for t in texts.values())
+
+
+def test_the_exact_stage_is_searched_when_asked_and_its_change_passes_the_rules():
+    # A two-capacitor stage with an exact budget (drc check --thorough-fixes): the
+    # bisection proposes standard values, and the stage with them fires none of the rules
+    # the search fixes (the proposal re-analysed from scratch: the full analysis is the
+    # authority, whose two-capacitor edges are held to ngspice in tests/oracle).
+    import re
+
+    from drc.board.stage import Capacitor
+    from drc.design.fixes import FIXABLE, propose_board_fixes
+    stage = rc_stage(r1=10e3, r2=22e3, c1=220e-9, extra_caps=(Capacitor("C2", "n1", "0", 10e-9),))
+    res = analysed(stage)
+    findings = run_stage_rules(res, LIMITS)
+    assert "bounce-window" in {f.rule for f in findings}
+    texts = propose_board_fixes([res], findings, LIMITS, exact_budget=100)
+    assert texts and not any("not searched" in t for t in texts.values())
+    changes = {m.group(1): m.group(2) for t in texts.values()
+               for m in re.finditer(r"(R1|R2|C1|C2) [0-9.]+ [kµn]?[ΩF] → ([0-9.]+ [kµnM]?[ΩF])", t)}
+    assert changes, texts
+    scale = {"": 1.0, "k": 1e3, "M": 1e6, "µ": 1e-6, "n": 1e-9}
+    values = {name: float(v.split()[0]) * scale[v.split()[1][:-1]] for name, v in changes.items()}
+    # IEC 60063 through eseries: every proposed value is an E24 resistor or an E12 capacitor
+    for name, v in values.items():
+        series = oracle.E24 if name.startswith("R") else oracle.E12
+        assert any(abs(v - x) <= 1e-9 * v for x in oracle.erange(series, v / 2, v * 2)), (name, v)
+    fixed = analysed(with_values(stage, values))
+    assert not {f.rule for f in run_stage_rules(fixed, LIMITS)} & set(FIXABLE)
