@@ -208,3 +208,42 @@ def test_picofarad_stages_get_the_first_passing_change(r1, r2, c, pull_up, bounc
                                               PLAIN), limits)
         assert reference_passes(*(np.array([v[k]]) for k in ("R1", "R2", "C1")), pull_up, bounce, rx=PLAIN,
                                 limits=limits)[0] == passes, v
+
+
+def _complete_search(stage, rx, limits):
+    """The complete search of one stage run to its end, as the board driver runs it."""
+    from drc.design.complete import CompleteSearch, run_lockstep, search_vars
+    from drc.design.screen import Screen
+    present = analysed(stage, rx)
+    fired = frozenset(f.rule for f in run_stage_rules(present, limits))
+    screen = Screen.build(stage, rx, limits, frozenset())
+    assert screen is not None
+    found = CompleteSearch(stage, rx, limits, frozenset(), screen, search_vars(stage, "E24", "E12", limits),
+                           present, fired)
+    run_lockstep([found])
+    assert found.trusted and found.found is not None
+    return found.found
+
+
+@pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", REFERENCE_FIRST[:1] + REFERENCE_FIRST[2:])
+def test_a_search_that_proposes_nothing_while_a_change_passes_says_it_ran_out(r1, r2, c, pull_up, bounce,
+                                                                              latency):
+    # "No change passes" is a statement about every change in the ranges (the fix text's
+    # claim): where the reference passes one and the search proposes none, the search must
+    # say it stopped at its bound of confirmations instead.
+    limits = {**LIMITS, "latency_limit": latency}
+    robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN, rx=PLAIN, limits=limits)
+    assert robust
+    found = _complete_search(_stage(r1, r2, c, pull_up, bounce, schmitt=False), PLAIN, limits)
+    assert found.moves == () and found.exhausted
+
+
+def test_a_search_that_ends_its_order_says_nothing_passes():
+    # 8.2 kOhm / 39 kOhm / 1 uF pull-up into the 74HC Schmitt input, bounce 200 ms against the
+    # 100 ms latency limit: the reference passes no change at all (a bounce longer than the
+    # latency limit, tests/design/test_fix_completeness.py), and the search, having gone
+    # through its whole order, says so rather than that it ran out.
+    r1, r2, c, bounce = 8.2e3, 39e3, 1e-6, 0.200
+    assert not brute_force(r1, r2, c, True, bounce, slack=MARGIN, rx=hc(), limits=LIMITS)
+    found = _complete_search(_stage(r1, r2, c, True, bounce), hc(), LIMITS)
+    assert found.moves == () and not found.exhausted
