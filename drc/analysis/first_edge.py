@@ -406,7 +406,9 @@ def threshold_pairs(d, c_in: np.ndarray, c_out: np.ndarray, o_in: np.ndarray,
     def opp_for(cross: np.ndarray) -> np.ndarray:  # as near the crossing as allowed
         return np.where(d * (cross - o_in) >= vh, o_in, cross - d * vh)
 
-    cross_b = clip_cross(np.where(d * (c_in - o_in) >= vh, c_in, o_in + d * vh))
+    # The crossing threshold as near the opposite one as the hysteresis allows (where the
+    # two ranges are that far apart already, the clip gives the crossing's nearest end).
+    cross_b = clip_cross(o_in + d * vh)
     return [(c_in, opp_for(c_in)), (cross_b, opp_for(cross_b))]
 
 

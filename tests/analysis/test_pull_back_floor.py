@@ -42,6 +42,28 @@ def _stage(r1: float, r2: float | None, c: float):
                  rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw(node, "0", "pressed", 0.1),))
 
 
+def _divider_stage(c: float):
+    """R1 10 kOhm up to the contact node, R4 4.7 kOhm from it to C1, and the pin behind a
+    divider from C1 (R2 10 kOhm to the pin, R3 100 kOhm from the pin to ground): the pin is
+    a fixed fraction of C1's voltage, not C1's voltage."""
+    resistors = [Resistor("R1", "vcc", "sw", 10e3, role=ResistorRole.PULL),
+                 Resistor("R4", "sw", "c", 4.7e3, role=ResistorRole.SERIES),
+                 Resistor("R2", "c", "rx", 10e3, role=ResistorRole.SERIES),
+                 Resistor("R3", "rx", "0", 100e3, role=ResistorRole.PULL)]
+    return stage(resistors=resistors, capacitors=[Capacitor("C1", "c", "0", c)],
+                 rails=(RailSource("vcc", 5.0, 0.05),), throws=(Throw("sw", "0", "pressed", 0.1),))
+
+
+def test_a_pin_behind_a_divider_reaches_need_exactly_at_the_floor():
+    # The reading's levels are the pin's, the floor's arithmetic is in C1's voltage: the
+    # two must map through the divider alike (slow closure through R4: exact at the floor).
+    c, need = 1e-6, 0.010
+    floor = _floor(_divider_stage(c), "press", need)
+    assert 0 < floor < np.inf
+    back = pull_back(_divider_stage(c * floor), RX, "press", MIN_CLOSURE)
+    assert back is not None and back.fastest_s == pytest.approx(need, rel=1e-6)
+
+
 def _floor(st, edge: str, need: float) -> float:
     model = template(structure_key(st.circuit), st.circuit)
     (setup,) = _setups(model, [(st, RX)], edge)
@@ -90,3 +112,34 @@ def test_a_re_closure_through_the_bare_contact_is_never_long_enough():
     floor = _floor(_stage(10e3, None, 100e-9), "release", 0.010)
     assert floor > 1e6
     assert _reading(10e3, None, 100e-9 * 1e3, "release") < 0.010
+
+
+def test_the_floor_of_a_capacitor_across_the_contact_by_hand():
+    # C1 straight across the contact, R1 up to the 5 V rail, the pin on C1 drawing I. At each
+    # vertex of the reading's box (R1 +-5 %, C1 +-20 %, rail +-5 %, I over both levels' ranges,
+    # -1..+1 uA): released level ub = V - I R1 (tau_b = R1 C1), pressed level
+    # un = (V / R1 - I) / (1 / R1 + 1 / 0.1 ohm); the closure (tau 0.1 ohm x C1, nanoseconds)
+    # crosses within the least closure, so the floor is need over the recharge time from un,
+    # tau_b ln((ub - un) / (ub - opp)) (RC law), at the worst vertex and threshold pair. The
+    # pairs (the rule's documentation: each threshold anywhere in its range, never closer than
+    # VH min = 0.3 V): VT- at its top, 2.2 V, with VT+ 0.3 V above it, 2.5 V; or VT+ at its
+    # bottom, 2.0 V, with VT- 0.3 V below it, 1.7 V. Only the opposite one matters from un.
+    r1, c, need = 10e3, 100e-9, 0.010
+    worst = 0.0
+    for R in (r1 * 0.95, r1 * 1.05):
+        for C in (c * 0.8, c * 1.2):
+            for V in (4.75, 5.25):
+                for current in (-1e-6, 1e-6):
+                    ub = V - current * R
+                    un = (V / R - current) / (1 / R + 1 / 0.1)
+                    # pair 1: crossing at VT- max 2.2 V, opposite as near as VH allows: 2.5 V;
+                    # pair 2: opposite at VT+ min 2.0 V, crossing 0.3 V below it: 1.7 V
+                    t = min(R * C * np.log((ub - un) / (ub - opp)) for opp in (2.5, 2.0))
+                    worst = max(worst, need / t)
+    assert _floor(_stage(r1, None, c), "press", need) == pytest.approx(worst, rel=1e-9)
+
+
+def test_no_bounce_to_reach_means_any_capacitor_may():
+    # need = 0 (bounce-window not asked): the floor is 0 whatever the stage
+    assert _floor(_stage(10e3, None, 100e-9), "press", 0.0) == 0.0
+    assert _floor(_stage(10e3, 22e3, 1e-6), "release", 0.0) == 0.0
