@@ -176,7 +176,8 @@ def test_reference_agrees_with_the_rules_on_the_present_values_and_the_answers()
             assert reference_passes(np.array([rr]), np.array([cc]), bounce)[0] == (not fired), (rr, cc, fired)
 
 
-def test_the_screen_never_fails_what_the_closure_and_opening_reading_passes():
+@pytest.mark.parametrize("min_closure, c_range", [(1e-6, (1e-9, 10e-6)), (20e-6, (1e-6, 200e-6))])
+def test_the_screen_never_fails_what_the_closure_and_opening_reading_passes(min_closure, c_range):
     # The screen must stay optimistic (drc/design/screen.py): wherever the rule's own reading
     # (drc.analysis.first_edge.pull_back, the figure bounce-window reads) passes an edge, the
     # screen's least capacitor factor for that reading is at most the present one. Seeded
@@ -185,25 +186,58 @@ def test_the_screen_never_fails_what_the_closure_and_opening_reading_passes():
 
     from drc.analysis.first_edge import pull_back
     from drc.design.screen import Request, Screen, screen_all
+    # The second draw: a least closure of 20 us and capacitors whose closure through the
+    # contact's 0.1 ohm takes microseconds, so the closure regime turns on the limit.
     rx = replace(RX, hysteresis_min_v=0.4)
+    limits = dict(LIMITS, min_closure=min_closure)
     rng = np.random.default_rng(13)
     checked = 0
     for _ in range(40):
         r1 = float(np.exp(rng.uniform(math.log(1e3), math.log(50e3))))
         r2 = None if rng.random() < 0.5 else float(np.exp(rng.uniform(math.log(1e3), math.log(50e3))))
-        c = float(np.exp(rng.uniform(math.log(1e-9), math.log(10e-6))))
+        c = float(np.exp(rng.uniform(math.log(c_range[0]), math.log(c_range[1]))))
         probe = rc_stage(r1=r1, r2=r2, c1=c)
-        backs = {e: pull_back(probe, rx, e, LIMITS["min_closure"]) for e in ("press", "release")}
-        times = [b.fastest_s for b in backs.values() if b is not None and b.fastest_s is not None]
-        if not times:
-            continue
-        bounce = float(min(times) * rng.uniform(0.5, 1.0))  # the reading passes at least one edge
-        stage = rc_stage(r1=r1, r2=r2, c1=c, contact_=contact(bounce_s=bounce))
-        screen = Screen.build(stage, rx, LIMITS, frozenset({"contact-surge"}))
-        got = screen_all([Request(screen, screen.rows(1), full=True, all_edges=True)])[0]
-        for edge, back in backs.items():
-            if back is not None and (back.fastest_s is None or back.fastest_s >= bounce):
-                floor = got.figures.back[edge][0]
-                assert floor <= 1.0 + 1e-9, (r1, r2, c, edge, back.fastest_s, bounce, floor)
-                checked += 1
+        for edge in ("press", "release"):
+            back = pull_back(probe, rx, edge, min_closure)
+            if back is None or back.fastest_s is None:
+                continue
+            bounce = float(back.fastest_s * rng.uniform(0.5, 1.0))  # the reading passes this edge
+            stage = rc_stage(r1=r1, r2=r2, c1=c, contact_=contact(bounce_s=bounce))
+            screen = Screen.build(stage, rx, limits, frozenset({"contact-surge"}))
+            got = screen_all([Request(screen, screen.rows(1), full=True, all_edges=True)])[0]
+            floor = got.figures.back[edge][0]
+            assert floor <= 1.0 + 1e-9, (r1, r2, c, edge, back.fastest_s, bounce, floor)
+            checked += 1
     assert checked >= 20
+
+
+@pytest.mark.parametrize("min_closure", [1e-6, 20e-6])
+def test_the_fix_figure_is_the_reading_it_passes_by(min_closure):
+    # A board check's fix text for the first case: the press passes by the closure-and-opening
+    # reading, and its figure is that reading's fastest pull back at the proposed value (the
+    # reference above, to the three digits printed); the release passes by its own time (the
+    # RC law of test_fix_completeness). The least closure is the rule's limit: a closure of
+    # 20 us leaves the capacitor nearer the pressed level than one of 1 us does (its time
+    # constant, 0.1 ohm x a few uF, is a fraction of a microsecond), so the pull back is
+    # longer, and the figure must be the one read with the limit in force.
+    import re
+
+    from drc.checks import run_stage_rules
+    from drc.design.fixes import propose_board_fixes
+    from tests.checks.builders import analysed
+    r1, c, bounce = CASES[0]
+    limits = dict(LIMITS, min_closure=min_closure)
+    result = analysed(rc_stage(r1=r1, r2=None, c1=c, contact_=contact(bounce_s=bounce)), RX)
+    texts = list(propose_board_fixes([result], run_stage_rules(result, limits), limits).values())
+    answer = {m.group(1) for t in texts for m in re.finditer(r"C1 100 nF → ([0-9.]+) µF", t)}
+    assert len(answer) == 1, texts
+    c_new = np.array([float(answer.pop()) * 1e-6])
+    back = [float(m.group(1)) for t in texts
+            for m in re.finditer(r"press back across in ([0-9.]+) ms ≥ 10 ms at fastest corner", t)]
+    own = [float(m.group(1)) for t in texts for m in re.finditer(r"release ([0-9.]+) ms ≥ 10 ms", t)]
+    assert back and own, texts
+    expected_back = pull_back_fastest(np.array([r1]), c_new, True, min_closure)[0] * 1e3
+    assert back[0] == pytest.approx(expected_back, rel=5e-3)
+    levels = {p: _level(np.array([r1]), np.zeros(1), c_new, p, True, RX, LIMITS)[2] for p in (False, True)}
+    fast, _, _ = _edge(np.array([r1]), np.zeros(1), c_new, False, True, levels[True], levels[False], RX)
+    assert own[0] == pytest.approx(fast[0] * 1e3, rel=5e-3)
