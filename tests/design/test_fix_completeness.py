@@ -23,6 +23,7 @@ before the answer in the stated order.
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import eseries as iec
@@ -164,23 +165,34 @@ def reference_passes(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits
 
 def brute_force(r1, r2, c, pull_up, bounce=BOUNCE, slack=0.0, rx=RX, limits=LIMITS, lead=True, wetting=None):
     """Every passing one- and two-part change, as (sort key, {designator: value})."""
-    present = {"R1": r1, "R2": r2, "C1": c}
-    grids = {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES}
-    order = {"R1": 0, "R2": 1, "C1": 2}
+    return passing_changes(
+        {"R1": r1, "R2": r2, "C1": c}, {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES},
+        lambda rows: reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack, rx, limits,
+                                      lead, wetting))
+
+
+def order_key(change, present):
+    """The stated order of a change: fewest parts, the least sum of |ln(new/old)|, the parts
+    first in the stage's order (that of `present`), the lower values."""
+    order = {k: i for i, k in enumerate(present)}
+    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
+            tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+
+
+def passing_changes(present, grids, passes):
+    """Every one- and two-part change of the parts in `present` over their value `grids` that
+    `passes` (rows of values by designator -> one verdict per row), in the stated order."""
     out = []
-    combos = [("R1",), ("R2",), ("C1",), ("R1", "R2"), ("R1", "C1"), ("R2", "C1")]
-    for names in combos:
+    for names in [*itertools.combinations(present, 1), *itertools.combinations(present, 2)]:
         axes = np.meshgrid(*(grids[n][grids[n] != present[n]] for n in names), indexing="ij")
         cols = {n: a.ravel() for n, a in zip(names, axes, strict=True)}
         n = next(iter(cols.values())).size
         rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
-        passing = np.flatnonzero(reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack,
-                                                  rx, limits, lead, wetting))
-        for i in passing:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ok = passes(rows)
+        for i in np.flatnonzero(ok):
             change = {k: float(cols[k][i]) for k in names}
-            cost = round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9)
-            tie = tuple((order[k], change[k]) for k in sorted(change, key=order.get))
-            out.append(((len(change), cost, tie), change))
+            out.append((order_key(change, present), change))
     return sorted(out, key=lambda item: item[0])
 
 
@@ -224,11 +236,9 @@ def test_search_answer_is_the_brute_force_optimum(r1, r2, c, pull_up, bounce):
     if solution is None:
         assert not robust, f"the search found nothing, the reference passes {robust[0]}"
         return
-    order = {"R1": 0, "R2": 1, "C1": 2}
     change = {ch.designator: ch.new for ch in solution.changes}
     present = {"R1": r1, "R2": r2, "C1": c}
-    key = (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-           tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+    key = order_key(change, present)
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN)[0], change
     earlier = [item for item in robust if item[0] < key]
@@ -277,9 +287,7 @@ def test_a_later_stage_of_a_contact_is_searched_without_the_contact_level_rules(
     assert solution is not None and robust
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    order = {"R1": 0, "R2": 1, "C1": 2}
-    key = (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-           tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+    key = order_key(change, present)
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, lead=False)[0]
     assert not [item for item in robust if item[0] < key], (change, robust[0])
@@ -296,9 +304,7 @@ def test_a_contact_needing_wetting_current_gets_the_first_passing_change(r1, r2,
     assert solution is not None and robust
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    order = {"R1": 0, "R2": 1, "C1": 2}
-    key = (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-           tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+    key = order_key(change, present)
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, slack=MARGIN, wetting=wetting)[0]
     assert not [item for item in robust if item[0] < key], (change, robust[0])

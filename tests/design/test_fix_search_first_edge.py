@@ -36,7 +36,17 @@ import pytest
 
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS, contact, rc_stage
-from tests.design.test_fix_completeness import C_VALUES, MARGIN, R_VALUES, RC_OHMS, RX, _edge, _level
+from tests.design.test_fix_completeness import (
+    C_VALUES,
+    MARGIN,
+    R_VALUES,
+    RC_OHMS,
+    RX,
+    _edge,
+    _level,
+    order_key,
+    passing_changes,
+)
 
 C_TOL, R_TOL, V_TOL = 0.20, 0.05, 0.05
 
@@ -104,24 +114,8 @@ def reference_passes(r1, c, bounce, slack=0.0):
 
 
 def brute_force(r1, c, bounce, slack=0.0):
-    present = {"R1": r1, "C1": c}
-    grids = {"R1": R_VALUES, "C1": C_VALUES}
-    out = []
-    for names in (("R1",), ("C1",), ("R1", "C1")):
-        axes = np.meshgrid(*(grids[n][grids[n] != present[n]] for n in names), indexing="ij")
-        cols = {n: a.ravel() for n, a in zip(names, axes, strict=True)}
-        n = next(iter(cols.values())).size
-        rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
-        for i in np.flatnonzero(reference_passes(rows["R1"], rows["C1"], bounce, slack)):
-            change = {k: float(cols[k][i]) for k in names}
-            out.append((_key(change, present), change))
-    return sorted(out, key=lambda item: item[0])
-
-
-def _key(change, present):
-    order = {"R1": 0, "C1": 1}
-    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-            tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
+    return passing_changes({"R1": r1, "C1": c}, {"R1": R_VALUES, "C1": C_VALUES},
+                           lambda rows: reference_passes(rows["R1"], rows["C1"], bounce, slack))
 
 
 CASES = [
@@ -146,7 +140,7 @@ def test_search_answer_is_the_brute_force_optimum_with_both_readings(r1, c, boun
     change = {ch.designator: ch.new for ch in solution.changes}
     rows = {k: np.array([change.get(k, v)]) for k, v in {"R1": r1, "C1": c}.items()}
     assert reference_passes(rows["R1"], rows["C1"], bounce, slack=MARGIN)[0], change
-    earlier = [item for item in robust if item[0] < _key(change, {"R1": r1, "C1": c})]
+    earlier = [item for item in robust if item[0] < order_key(change, {"R1": r1, "C1": c})]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
 
 

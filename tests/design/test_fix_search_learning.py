@@ -27,7 +27,6 @@ same grid: resistors E24 1 kOhm-10 MOhm, capacitors E12 1 pF-10 mF.
 
 from __future__ import annotations
 
-import math
 from dataclasses import replace
 
 import eseries as iec
@@ -37,36 +36,26 @@ import pytest
 import drc.design.complete as complete
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS, hc
-from tests.design.test_fix_completeness import C_VALUES, MARGIN, _stage, reference_passes
+from tests.design.test_fix_completeness import (
+    C_VALUES,
+    MARGIN,
+    _stage,
+    order_key,
+    passing_changes,
+    reference_passes,
+)
 
 LIMITS_WIDE = {**LIMITS, "resistance_max": 10e6}
 R_WIDE = np.array(list(iec.erange(iec.E24, 1e3, 10e6)))
 # 74HC Schmitt input (tests/checks/builders.py) with the two-sided leakage of JESD7A.
 RX = replace(hc(), leak_high_a=(-1e-6, 1e-6), leak_low_a=(-1e-6, 1e-6))
-ORDER = {"R1": 0, "R2": 1, "C1": 2}
-
-
-def _key(change, present):
-    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-            tuple((ORDER[k], change[k]) for k in sorted(change, key=ORDER.get)))
 
 
 def brute_force(r1, r2, c, pull_up, bounce, slack, rx=RX, limits=LIMITS_WIDE):
     """Every passing one- and two-part change on the wide grid, in the stated order."""
-    present = {"R1": r1, "R2": r2, "C1": c}
-    grids = {"R1": R_WIDE, "R2": R_WIDE, "C1": C_VALUES}
-    out = []
-    for names in (("R1",), ("R2",), ("C1",), ("R1", "R2"), ("R1", "C1"), ("R2", "C1")):
-        axes = np.meshgrid(*(grids[n][grids[n] != present[n]] for n in names), indexing="ij")
-        cols = {n: a.ravel() for n, a in zip(names, axes, strict=True)}
-        n = next(iter(cols.values())).size
-        rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
-        with np.errstate(divide="ignore", invalid="ignore"):
-            ok = reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack, rx, limits)
-        for i in np.flatnonzero(ok):
-            change = {k: float(cols[k][i]) for k in names}
-            out.append((_key(change, present), change))
-    return sorted(out, key=lambda item: item[0])
+    return passing_changes(
+        {"R1": r1, "R2": r2, "C1": c}, {"R1": R_WIDE, "R2": R_WIDE, "C1": C_VALUES},
+        lambda rows: reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack, rx, limits))
 
 
 @pytest.fixture
@@ -110,7 +99,7 @@ def test_a_refutation_that_teaches_vertices_keeps_the_first_passing_change(r1, r
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     with np.errstate(divide="ignore", invalid="ignore"):
         assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, MARGIN, RX, LIMITS_WIDE)[0]
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
 
 
@@ -181,7 +170,7 @@ def test_a_round_that_teaches_before_its_last_proposal_keeps_the_first_passing_c
     assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
     # The reference's verdicts on the present values and its first passing change are the rules'.
     from drc.checks import run_stage_rules

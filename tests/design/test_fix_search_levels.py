@@ -28,8 +28,6 @@ the capacitor E12 1 pF-10 mF) is evaluated and ordered as the search states.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pytest
 
@@ -37,12 +35,11 @@ from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit
 from drc.checks import run_stage_rules
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS, analysed, contact, hc, receiver
-from tests.design.test_fix_completeness import C_VALUES, MARGIN, R_VALUES
+from tests.design.test_fix_completeness import C_VALUES, MARGIN, R_VALUES, order_key, passing_changes
 
 VCC, RC_OHMS = 5.0, 0.1
 R_TOL, C_TOL, V_TOL = 0.05, 0.20, 0.05
 RX = hc()  # a 74HC Schmitt input at 5 V (tests/checks/builders.py)
-ORDER = {"R1": 0, "R2": 1, "C1": 2}
 
 
 def divider_stage(r1, r2, c, bounce):
@@ -127,25 +124,10 @@ def reference_passes(r1, r2, c, bounce, slack=0.0, limits=LIMITS):
     return ok
 
 
-def _key(change, present):
-    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-            tuple((ORDER[k], change[k]) for k in sorted(change, key=ORDER.get)))
-
-
 def brute_force(r1, r2, c, bounce, slack):
     """Every passing one- and two-part change, in the stated order."""
-    present = {"R1": r1, "R2": r2, "C1": c}
-    grids = {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES}
-    out = []
-    for names in (("R1",), ("R2",), ("C1",), ("R1", "R2"), ("R1", "C1"), ("R2", "C1")):
-        axes = np.meshgrid(*(grids[n][grids[n] != present[n]] for n in names), indexing="ij")
-        cols = {n: a.ravel() for n, a in zip(names, axes, strict=True)}
-        n = next(iter(cols.values())).size
-        rows = {k: cols.get(k, np.full(n, v)) for k, v in present.items()}
-        for i in np.flatnonzero(reference_passes(rows["R1"], rows["R2"], rows["C1"], bounce, slack)):
-            change = {k: float(cols[k][i]) for k in names}
-            out.append((_key(change, present), change))
-    return sorted(out, key=lambda item: item[0])
+    return passing_changes({"R1": r1, "R2": r2, "C1": c}, {"R1": R_VALUES, "R2": R_VALUES, "C1": C_VALUES},
+                           lambda rows: reference_passes(rows["R1"], rows["R2"], rows["C1"], bounce, slack))
 
 
 CASES = [
@@ -174,7 +156,7 @@ def test_a_level_that_changes_logic_keeps_the_first_passing_change(r1, r2, c, bo
     change = {ch.designator: ch.new for ch in solution.changes}
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], bounce, MARGIN)[0], change
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
 
 

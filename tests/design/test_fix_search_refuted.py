@@ -22,7 +22,6 @@ refutation.
 
 from __future__ import annotations
 
-import math
 from dataclasses import replace
 
 import numpy as np
@@ -31,10 +30,9 @@ import pytest
 from drc.checks import run_stage_rules
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS, analysed, hc
-from tests.design.test_fix_completeness import MARGIN, _stage, brute_force, reference_passes
+from tests.design.test_fix_completeness import MARGIN, _stage, brute_force, order_key, reference_passes
 
 PLAIN = hc(schmitt=False)
-ORDER = {"R1": 0, "R2": 1, "C1": 2}
 
 CASES = [
     # (R1, R2, C1, pull-up, bounce, latency limit): present C1 far too large (latency and slow-edge fail)
@@ -52,11 +50,6 @@ CASES = [
 ]
 
 
-def _key(change, present):
-    return (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-            tuple((ORDER[k], change[k]) for k in sorted(change, key=ORDER.get)))
-
-
 @pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", CASES)
 def test_refuted_capacitors_lead_to_the_first_passing_change(r1, r2, c, pull_up, bounce, latency):
     limits = {**LIMITS, "latency_limit": latency}
@@ -72,7 +65,7 @@ def test_refuted_capacitors_lead_to_the_first_passing_change(r1, r2, c, pull_up,
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, rx=PLAIN,
                             limits=limits)[0], change
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
     # The screen's cheapest capacitor was refuted at least once: the answer is not it.
     assert robust[0][1] == change
@@ -120,7 +113,7 @@ def test_what_the_search_proposes_comes_first_in_order(r1, r2, c, pull_up, bounc
         return  # out of confirmations: the fix text says so
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
 
 
@@ -159,7 +152,7 @@ def test_a_refuted_rows_next_capacitor_comes_before_a_later_proposal_that_passes
     assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
 
 
@@ -200,7 +193,7 @@ def test_picofarad_stages_get_the_first_passing_change(r1, r2, c, pull_up, bounc
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, rx=PLAIN,
                             limits=limits)[0], change
-    earlier = [item for item in robust if item[0] < _key(change, present)]
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
     assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
     # The reference's verdicts on the present values and its first passing change are the rules'.
     for v in (present, {**present, **robust[0][1]}):
