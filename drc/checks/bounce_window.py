@@ -110,6 +110,12 @@ def pull_backs(wanted, min_closure_s: float) -> list[PullBack | None]:
     return first_edge.pull_backs(wanted, min_closure_s)
 
 
+def passes_by_pull_back(back: PullBack | None, needed: float) -> bool:
+    """Whether the closure-and-opening reading passes an edge: it applies, and the bounce
+    never brings the input back or takes at least `needed` to."""
+    return back is not None and (back.fastest_s is None or back.fastest_s >= needed)
+
+
 @rule(DOC, kind="stage", prepare=prepare)
 def check(result: StageResult, ctx: RuleContext):
     from drc.analysis.first_edge import pull_back  # when used (see pull_backs)
@@ -118,7 +124,7 @@ def check(result: StageResult, ctx: RuleContext):
     for edge, needed in _timed(result, ctx):
         back = (pull_back(result.stage, rx, edge.edge, ctx.limit(MIN_CLOSURE))
                 if rx is not None and is_schmitt(result) else None)
-        if back is not None and (back.fastest_s is None or back.fastest_s >= needed):
+        if passes_by_pull_back(back, needed):
             continue  # passes by the closure-and-opening reading
         if back is not None and back.fastest_s is not None and back.fastest_s > edge.fastest_s:
             yield _closure_finding(result, ctx, edge, back, needed, margin)

@@ -224,15 +224,16 @@ def _bounce_reading(result: StageResult, limits: Mapping[str, float], e: EdgeRes
     or where that is short on an input with hysteresis and the closure-and-opening
     reading passes, that reading's pull back ("" or how it was read)."""
     from drc.analysis.first_edge import MIN_CLOSURE_S, pull_back
-    from drc.checks.bounce_window import CLOSURE_READING
+    from drc.checks.bounce_window import CLOSURE_READING, passes_by_pull_back
     from drc.checks.common import is_schmitt
     own = float(e.fastest_s) if e.fastest_s is not None else math.inf
     rx = result.receiver_electrical
     if own >= need or rx is None or not is_schmitt(result):
         return own, ""
     back = pull_back(result.stage, rx, e.edge, limits.get("min_closure", MIN_CLOSURE_S))
-    if back is None or (back.fastest_s is not None and back.fastest_s < need):
+    if not passes_by_pull_back(back, need):
         return own, ""
+    assert back is not None
     return (math.inf if back.fastest_s is None else back.fastest_s), CLOSURE_READING
 
 
