@@ -143,6 +143,20 @@ def test_schmitt_part_of_a_family_without_schmitt_data_falls_back_to_the_band(li
     assert receiver_notes(library, "HC", 5.0, schmitt=True) == ()
 
 
+def test_a_plain_input_without_a_known_transition_limit_carries_a_note(library):
+    # Fail closed: slow-edge cannot judge a plain input of a family whose transition limit
+    # families.toml does not record (LVX, 4000B, LVCMOS33: `transition_note` only), so the
+    # receiver's caveats say so, naming the family; a family with a limit (HC, AC, LVC: a rise
+    # time in families.toml) has nothing to say about a plain input.
+    for family, vcc in (("LVX", 3.3), ("4000B", 10.0), ("LVCMOS33", 3.3)):
+        assert receiver_electrical(library, family, vcc, schmitt=False).transition_limit_s_per_v is None
+        notes = receiver_notes(library, family, vcc, schmitt=False)
+        assert len(notes) == 1 and family in notes[0]
+    for family, vcc in (("HC", 5.0), ("AC", 5.0), ("LVC", 3.3)):
+        assert receiver_electrical(library, family, vcc, schmitt=False).transition_limit_s_per_v is not None
+        assert receiver_notes(library, family, vcc, schmitt=False) == ()
+
+
 def test_leakage_is_current_into_the_pin(library):
     # common practice, no source: about 20 uA IIH into an LS input, about
     # -0.4 mA IIL out of it (families.md Table 1, from memory).

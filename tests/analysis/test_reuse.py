@@ -99,3 +99,26 @@ def test_demo_boards_same_figures(name):
 def test_generated_board_same_figures():
     stages, rxs = _stages(generate(3000, 7, contacts=60))
     assert _compare(stages, rxs) < len(stages)  # the generator repeats values: some stages reused
+
+
+def test_a_renamed_copy_in_a_later_call_is_taken_from_the_memo():
+    # The module's contract: the results live in one memo for the process, so a renamed copy of a
+    # stage solved by an earlier call (another board of an archive) is not solved again, and gets
+    # the figures a fresh analysis gives it (analyse_stages itself, no memo), under its own names.
+    stages, rxs = _stages(KEYPAD)
+    first, copy = stages[0], stages[1]
+    clear_caches()
+    fresh = analyse_stages([copy], [rxs[1]])[0]
+    clear_caches()
+    solved: list[str] = []
+
+    def counting(batch, batch_rxs):
+        solved.extend(s.name for s in batch)
+        return analyse_stages(batch, batch_rxs)
+
+    by_rx = dict(zip((id(s) for s in stages), rxs, strict=True))
+    reuse.analyse_stages_reusing([first], lambda s: by_rx[id(s)], counting)
+    assert solved == [first.name]
+    again = reuse.analyse_stages_reusing([copy], lambda s: by_rx[id(s)], counting)
+    assert solved == [first.name]  # the copy was not solved
+    assert again == [fresh] and again[0].stage is copy

@@ -102,3 +102,45 @@ def test_a_dip_that_just_grazes_the_threshold_is_found():
     assert first_crossing(f, target, -1) == pytest.approx(root, rel=1e-9)
     # Just under the minimum: never reached.
     assert first_crossing(f, f(t_star) - 1e-10, -1) is None
+
+
+def _calls(f, lo, hi, xtol):
+    """Evaluations of f by brent_root, by SciPy's brentq (its full_output count), and by
+    bisection to the same tolerance (the bracket halved until it is below xtol + rtol |x|)."""
+    seen = [0]
+
+    def counted(x):
+        seen[0] += 1
+        return f(x)
+
+    brent_root(counted, lo, hi, xtol=xtol, rtol=RTOL)
+    root, info = brentq(f, lo, hi, xtol=xtol, rtol=RTOL, maxiter=200, full_output=True)
+    bisection = math.ceil(math.log2((hi - lo) / (xtol + RTOL * abs(root))))
+    return seen[0], info.function_calls, bisection
+
+
+def test_brent_converges_superlinearly_on_smooth_functions():
+    # Brent's method (Brent 1973, ch. 4, from memory): on a smooth function with a simple root the
+    # interpolation steps converge superlinearly, so it needs far fewer evaluations than
+    # bisection's log2(bracket / tolerance), and as few as SciPy's brentq (the same method, the
+    # outside reference; its function_calls) give or take two. Cases: the textbook roots, the RC
+    # law v(t) = 5 (1 - exp(-t / RC)) at a threshold (a ns edge, a creeping one), an exponential,
+    # and the exponential sums the event solver brackets.
+    cases = [(lambda x: math.cos(x) - x, 0.0, 1.0),
+             (lambda x: x ** 3 - 2 * x - 5, 2.0, 3.0),
+             (lambda t: 5.0 * (1 - math.exp(-t / 1e-9)) - 2.5, 0.0, 1e-7),
+             (lambda t: 5.0 * (1 - math.exp(-t / 10.0)) - 4.9999, 0.0, 1e3),
+             (lambda x: math.exp(x) - 2.0, 0.0, 5.0)]
+    for f in _random_expsums(60, seed=11):
+        target = f.c + 0.5 * float(np.sum(f.a)) * 0.999
+        grid = np.geomspace(1e-9, 1e-1, 400)
+        for direction in (1, -1):
+            hits = np.flatnonzero(direction * (f.many(grid) - target) >= 0)
+            if hits.size and hits[0] > 0:
+                cases.append((lambda t, f=f, d=direction, y=target: d * (f(t) - y),
+                              float(grid[hits[0] - 1]), float(grid[hits[0]])))
+    assert len(cases) > 40
+    for f, lo, hi in cases:
+        ours, scipys, bisection = _calls(f, lo, hi, xtol=max(hi * 1e-15, 1e-300))
+        assert ours <= scipys + 2, (lo, hi, ours, scipys)
+        assert ours <= bisection / 2, (lo, hi, ours, bisection)

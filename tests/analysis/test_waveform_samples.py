@@ -52,3 +52,11 @@ def test_a_slow_crossing_extends_the_plot_past_it():
     assert crossing > 7 * R1 * C1
     assert t[-1] == pytest.approx(1.5 * crossing, rel=1e-9)
     assert np.interp(crossing, t[1:], v[1:]) == pytest.approx(4.999, abs=1e-9)
+
+
+def test_an_unknown_corner_is_refused_naming_it():
+    # A clear error: a corner that is neither a name edge_waveform knows nor a mapping is refused,
+    # and the error names the value given, so that the caller sees what was wrong.
+    st = pullup_c_at_pin(r_pu=R1, c=C1, vcc=VCC, closed_ohms=0.1)
+    with pytest.raises(ValueError, match="warmest"):
+        edge_waveform(st, RX, "release", "warmest")
