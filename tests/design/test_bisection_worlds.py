@@ -174,6 +174,32 @@ def test_one_part_fails_closed_when_the_budget_runs_out(world):
     assert got is None or not _fails_of(rules, var.candidates)({"X1": got[0]})
 
 
+
+@SETTINGS
+@given(one_part_worlds())
+def test_the_regions_leave_out_exactly_where_a_rule_passing_at_both_ends_fails(world):
+    # `_outside_inner_failures`: "the parts of `span` outside the stretches where a rule
+    # passing at both ends fails" (one that fails at the span's candidate nearest the
+    # present value, the only place it looks). Reference: the drawn failing sets, by
+    # enumeration. The span is given as the brute force has it (every rule failing at an
+    # end of the list passes there), so this checks the regions alone.
+    var, rules, _exact = world
+    cand = var.candidates
+    n = len(cand)
+    at_ends = frozenset(r for r, bad in rules.items() if 0 in bad or n - 1 in bad)
+    span = [i for i in range(n) if not any(i in rules[r] for r in at_ends)]
+    assume(span)
+    first, last = span[0], span[-1]
+    assert span == list(range(first, last + 1))  # the drawn end-failing rules leave an interval
+    here = _nearest(range(first, last + 1), cand, var.present)
+    fails = _fails_of(rules, cand)
+    regions = bisection._outside_inner_failures(lambda i: fails({"X1": cand[i]}), var, (first, last), at_ends)
+    assert regions is not None
+    inner = [bad for r, bad in rules.items() if r not in at_ends and here in bad]
+    want = {i for i in range(first, last + 1) if not any(i in bad for bad in inner)}
+    assert {i for a, b in regions for i in range(a, b + 1)} == want, (regions, rules, here)
+
+
 # ------------------------------------------------------------------ two or three parts
 
 @st.composite
