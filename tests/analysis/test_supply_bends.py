@@ -90,3 +90,30 @@ def test_the_fastest_pull_back_lies_at_the_bend_of_vt_minus(extra):
     ends = min(pull_back_time(r1, c1, v, i) for r1, c1, v, i in itertools.product(
         (9.5e3, 10.5e3), (80e-9, 120e-9), (4.275, 4.725), (-1e-6, 1e-6)))
     assert ends > want * 1.004
+
+
+def release_time(r1: float, c1: float, vcc: float, leak: float) -> float:
+    """From the pressed level (the closed contact against R1, steady) down to VT- max by R1·C1."""
+    g = 1 / RC + 1 / r1
+    u_pressed = (vcc / RC - leak) / g
+    u_open = -leak * r1
+    return r1 * c1 * math.log((u_pressed - u_open) / (vt_minus_max(vcc) - u_open))
+
+
+def test_the_fastest_release_edge_lies_at_the_bend_of_vt_minus():
+    # The stage's own release edge (StageResult.edges, what the rules read), same box and RC law:
+    # quickest at the table point 4.5 V, inside the band; read at the band's ends only it would be
+    # longer (less safe).
+    lo, hi = 4.5 * 0.95, 4.5 * 1.05
+    rails = sorted({*np.linspace(lo, hi, 181).tolist(), 4.5})
+    box = list(itertools.product((9.5e3, 10.5e3), (80e-9, 120e-9), rails, (-1e-6, 1e-6)))
+    want, at = min((release_time(r1, c1, v, i), v) for r1, c1, v, i in box)
+    assert at == pytest.approx(4.5)
+    _board, results, _ = check_netlist_text(STAGE + HC14, "net.cir")
+    (r,) = results
+    edge = r.edges["release"]
+    assert edge.fastest_s == pytest.approx(want, rel=1e-6)
+    assert edge.corner_fastest["rail:+4V5"] == pytest.approx(4.5)
+    assert edge.threshold_fastest_v == pytest.approx(2.45)  # VT- max at 4.5 V (families.toml)
+    ends = min(release_time(r1, c1, v, i) for r1, c1, v, i in box if v in (rails[0], rails[-1]))
+    assert ends > want * 1.004
