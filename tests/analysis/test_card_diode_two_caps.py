@@ -123,3 +123,20 @@ def test_an_edge_with_two_capacitors_and_a_card_diode_follows_the_integration(ed
     assert inside.sum() > 5
     np.testing.assert_allclose(v[inside], ref.sol(t[inside])[0], rtol=1e-4, atol=1e-6)
     assert t[v.tolist().index(vth)] == sol.crossing_s
+
+
+@pytest.mark.parametrize("pressed", [False, True], ids=["released", "pressed"])
+def test_the_capacitor_system_gives_the_state_equations(pressed):
+    # CapacitorSystem.rhs is C du/dt of the capacitor voltages u, the rest of the network solved
+    # by Newton: at any u it must equal the state equations by Kirchhoff (rhs_of, with the
+    # diode's current by Lambert's W), at the nominal values, leakage zero as in RX.
+    from drc.analysis.physics.compiled import compile_circuit
+    from drc.analysis.physics.nonlinear import CapacitorSystem
+
+    model = compile_circuit(two_caps().circuit)
+    row = model.nominal.copy()
+    row[model.param_names.index("leakage")] = 0.0
+    system = CapacitorSystem(model, "pressed" if pressed else "released", row, np.zeros(model.n))
+    rhs, _jac = rhs_of(10e3, 100e-9, 5.0, pressed)
+    for u in ([0.0, 0.0], [2.0, 1.6], [4.9, 4.5], [1.0, 0.2], [3.0, 3.2]):
+        np.testing.assert_allclose(system.rhs(0.0, np.array(u)), rhs(0.0, u), rtol=1e-9, atol=1e-6)
