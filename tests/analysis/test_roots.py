@@ -144,3 +144,13 @@ def test_brent_converges_superlinearly_on_smooth_functions():
         ours, scipys, bisection = _calls(f, lo, hi, xtol=max(hi * 1e-15, 1e-300))
         assert ours <= scipys + 2, (lo, hi, ours, scipys)
         assert ours <= bisection / 2, (lo, hi, ours, bisection)
+
+
+def test_a_mode_the_start_does_not_excite_leaves_a_late_crossing_where_it_is():
+    # f(t) = -exp(-3t) + 0 * exp(-t): the slow mode has no amplitude (the starting state does not
+    # excite it). A threshold 1e-30 or 1e-35 under the final level 0 is crossed only after 60
+    # time constants of the fast mode (the solver's grid), at t = ln(1/y) / 3 by hand:
+    # 23.03 s and 26.86 s.
+    f = ExpSum(0.0, np.array([-1.0, 0.0]), np.array([3.0, 1.0]), 0.0)
+    for y in (1e-30, 1e-35):
+        assert first_crossing(f, -y, 1) == pytest.approx(math.log(1 / y) / 3, rel=1e-12)
