@@ -33,7 +33,7 @@ import bisect
 import math
 from collections.abc import Generator, Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
-from typing import Any, cast
+from typing import Any
 
 import numpy as np
 
@@ -202,7 +202,7 @@ class CompleteSearch:
         cvars = [v for v in variables if v.unit == "F"]
         self.cvar = cvars[0] if len(cvars) == 1 and len(stage.circuit.capacitors) == 1 else None
         self.order = {v.designator: i for i, v in enumerate(variables)}
-        self.r_order = np.array([self.order[v.designator] for v in self.rvars] + [-1], dtype=float)
+        self.r_order = np.array([self.order[v.designator] for v in self.rvars] + [-1])
         self.r_cols = [screen.column[v.designator] for v in self.rvars]
         lo, hi = self.window
         # resistance-range checks a pull resistor on the contact's lead stage only.
@@ -457,12 +457,12 @@ class CompleteSearch:
             idx = np.flatnonzero(want)
             scale = c.candidates / c.present
             up = lo[idx] > 1.0
-            j_up = np.searchsorted(scale, lo[idx], side="left")  # smallest candidate >= lo
-            j_dn = np.searchsorted(scale, hi[idx], side="right") - 1  # largest candidate <= hi
-            j = np.where(up, j_up, j_dn)
-            valid = (j >= 0) & (j < scale.size)
-            jj = np.clip(j, 0, scale.size - 1)
-            valid &= (scale[jj] >= lo[idx]) & (scale[jj] <= hi[idx])
+            j_up = np.searchsorted(scale, lo[idx])  # smallest candidate >= lo (size: none)
+            j_dn = np.searchsorted(scale, hi[idx], side="right") - 1  # largest candidate <= hi (-1: none)
+            # Where there is none, the end clipped to lies outside [lo, hi] (the last candidate
+            # below lo, the first above hi), so the interval test alone rules it out.
+            jj = np.clip(np.where(up, j_up, j_dn), 0, scale.size - 1)
+            valid = (scale[jj] >= lo[idx]) & (scale[jj] <= hi[idx])
             rows.append(self._option_rows(bi, idx[valid], c.candidates[jj[valid]]))
             # The present values when the screen passes them: they fail a rule the screen does
             # not restate (slow-edge), so the capacitor alone may still fix the stage. Its first
@@ -494,7 +494,9 @@ class CompleteSearch:
         pairs.append((np.where(has_cap, oc, np.inf), np.where(has_cap, cap, np.inf)))
         o = np.column_stack([p[0] for p in pairs])
         v = np.column_stack([p[1] for p in pairs])
-        order = np.argsort(o, axis=1, kind="stable")  # unused slots (inf) go last
+        # Unused slots (inf) go last; within a row only they are equal, and their values
+        # are inf too, so any sort gives the same rows.
+        order = np.argsort(o)
         o, v = np.take_along_axis(o, order, axis=1), np.take_along_axis(v, order, axis=1)
         keys = np.column_stack([nmoves, np.round(cost, _COST_DIGITS), o[:, 0], v[:, 0], o[:, 1], v[:, 1],
                                 o[:, 2], v[:, 2]])
@@ -595,10 +597,8 @@ def run_lockstep(searches: Sequence[CompleteSearch]) -> None:
         live[k] = (s, steps, next(steps))
     while live:
         keys = list(live)
-        screens = [k for k in keys if isinstance(live[k][2], Request)]
-        answers: dict[int, Any] = {}
-        got = screen_all([cast(Request, live[k][2]) for k in screens])
-        answers.update(zip(screens, got, strict=True))
+        screens = {k: ask for k in keys if isinstance(ask := live[k][2], Request)}
+        answers: dict[int, Any] = dict(zip(screens, screen_all(list(screens.values())), strict=True))
         asks = [(k, values) for k in keys if isinstance(ask := live[k][2], Analyse) for values in ask.values]
         if asks:
             results = analyse_stages([with_values(live[k][0].stage, v) for k, v in asks],
