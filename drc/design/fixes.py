@@ -34,7 +34,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 from drc.analysis.physics.batch import batchable, structure_key, template
 from drc.analysis.receiver import ReceiverElectrical
@@ -163,13 +163,11 @@ def _outcome(job: _Job, found: Found) -> _Outcome:
 
 
 def _job(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
-         tolerated: frozenset[str], present: StageResult | None, fixed_parts: Sequence[str] = (),
+         tolerated: frozenset[str], present: StageResult, fixed_parts: Sequence[str] = (),
          present_rules: frozenset[str] | None = None) -> _Job:
+    """present: the stage's analysis with `rx` (an analysis always carries the receiver it
+    was given; a board's result without one is never searched)."""
     series = series.upper()
-    if present is None:
-        present = analyse_stage(stage, rx)
-    if present.receiver_electrical is None:
-        present = replace(present, receiver_electrical=rx)
     if present_rules is None:
         present_rules = frozenset(f.rule for f in run_stage_rules(present, limits))
     fired = present_rules - tolerated
@@ -182,14 +180,16 @@ def search(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], se
            fixed_parts: Sequence[str] = ()) -> tuple[Solution | None, int]:
     """The preferred one- or two-part change that passes every stage rule; (solution, analyses).
 
+    analyses: every stage analysis run, the present values' included.
     `budget` bounds the bisection search only (stages the complete search
     cannot screen); `fixed_parts` are held at their values.
     """
-    job = _job(stage, rx, limits, series, frozenset(tolerated or ()), None, fixed_parts)
+    job = _job(stage, rx, limits, series, frozenset(tolerated or ()), analyse_stage(stage, rx), fixed_parts)
     outcome = _run_jobs([job], [budget])[0]
+    analyses = 1 + outcome.analyses
     if outcome.moves is None or outcome.result is None:
-        return None, outcome.analyses
-    return Solution(_changes(job, outcome.moves), outcome.result, outcome.analyses), outcome.analyses
+        return None, analyses
+    return Solution(_changes(job, outcome.moves), outcome.result, analyses), analyses
 
 
 def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
@@ -311,15 +311,17 @@ def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapp
 
 
 # Boards repeat one input design many times (a keypad): a search runs once per distinct
-# (structure, values, contact and receiver data, limits) and its answer is renamed for
-# every other stage of that kind. Bounded for long-lived processes.
+# (structure, values, contact and receiver data, limits, exact budget) and its answer is
+# renamed for every other stage of that kind. Bounded for long-lived processes.
 _SEARCHES: Memo[tuple, _Outcome] = Memo("design.fix_searches", 4096)
 
 
-def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str,
-              tolerated: frozenset[str], budget: int | tuple[int, int]) -> tuple | None:
+def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float], series: str) -> tuple:
+    """A stage's design by value, names set aside: all its analysis, the verdicts of its rules
+    and so its search read. Every field is a float, a string, an enum, or a tuple or frozen
+    record of them: the key is hashable."""
     c, k, r = stage.circuit, stage.contact, stage.receiver
-    key = (
+    return (
         structure_key_of(stage), stage.kind,
         tuple((x.ohms, x.tol_minus, x.tol_plus) for x in c.resistors),
         tuple((x.farads, x.tol_minus, x.tol_plus) for x in c.capacitors),
@@ -327,13 +329,8 @@ def _memo_key(stage: Stage, rx: ReceiverElectrical, limits: Mapping[str, float],
         (k.contact_class, k.form, k.bounce_s, k.wetting_a, k.rating_a, k.origin, k.closed_resistance),
         (r.part_type, r.family, r.schmitt, r.edge_sensitive, r.function, r.supply_v, r.supply_tolerance,
          r.internal_pull, r.firmware_debounce_s, r.dedicated_debounce),
-        rx, tuple(sorted(limits.items())), series, tolerated, budget,
+        rx, tuple(sorted(limits.items())), series,
     )
-    try:
-        hash(key)
-    except TypeError:  # an unhashable field somewhere: no memo, same answer
-        return None
-    return key
 
 
 def structure_key_of(stage: Stage) -> tuple:
@@ -352,7 +349,8 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
     """Fix texts for a whole board, keyed by finding.
 
     Every failing stage's search runs together (drc.design.complete.run_lockstep);
-    identical stages share one search. `board_budget` bounds the analyses of the
+    identical stages (equal `_memo_key`) share one search and one run of the stage
+    rules on their present values. `board_budget` bounds the analyses of the
     bisection searches (a stage never gets more than `FIX_BUDGET`); the bound
     counts analyses, not seconds, so the texts are the same on every machine.
     `exact_budget`: the analyses of a stage on the exact event solver (several
@@ -363,11 +361,10 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
     """
     series = series.upper()
     by_stage: dict[tuple, list[Finding]] = {}
-    for f in findings:
-        if f.contact is not None and f.receiver is not None and f.rule in FIXABLE:
-            by_stage.setdefault((f.contact, f.receiver), []).append(f)
+    for f in findings:  # _mine keeps a stage's fixable ones
+        by_stage.setdefault((f.contact, f.receiver), []).append(f)
     out: dict[Finding, str] = {}
-    todo: list[tuple[StageResult, list[Finding], tuple | None, _Job]] = []
+    todo: list[tuple[StageResult, list[Finding], tuple, _Job]] = []
     fired_by_design: dict[tuple, frozenset[str]] = {}
     for result in results:
         mine = _mine(result, by_stage.get((result.stage.contact.designator, result.stage.receiver.ref), []))
@@ -378,42 +375,39 @@ def propose_board_fixes(results: Sequence[StageResult], findings: Sequence[Findi
             if text:
                 out.update({f: text for f in mine})
                 continue
-        # Identical stages (a keypad) fire the same rules: run them once per design.
-        value_key = _memo_key(result.stage, result.receiver_electrical, limits, series, frozenset(), 0)
-        present_rules = fired_by_design.get(value_key) if value_key is not None else None
+        # Identical stages (a keypad) fire the same rules: run them once per design. What a
+        # search tolerates follows from them, so the search's key needs only the design's.
+        value_key = _memo_key(result.stage, result.receiver_electrical, limits, series)
+        present_rules = fired_by_design.get(value_key)
         if present_rules is None:
-            present_rules = frozenset(f.rule for f in run_stage_rules(result, limits))
-            if value_key is not None:
-                fired_by_design[value_key] = present_rules
+            present_rules = fired_by_design[value_key] = frozenset(
+                f.rule for f in run_stage_rules(result, limits))
         tolerated = frozenset(present_rules - set(FIXABLE))
         job = _job(result.stage, result.receiver_electrical, limits, series, tolerated, result,
                    present_rules=present_rules)
-        todo.append((result, mine, _memo_key(result.stage, result.receiver_electrical, limits, series,
-                                             tolerated, (FIX_BUDGET, exact_budget)), job))
+        todo.append((result, mine, (value_key, exact_budget), job))
     outcomes = _board_outcomes(todo, board_budget, exact_budget)
     for (_result, mine, _key, job), outcome in zip(todo, outcomes, strict=True):
         out.update(_texts(job, mine, outcome))
     return out
 
 
-def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple | None, _Job]],
+def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple, _Job]],
                     board_budget: int, exact_budget: int = 0) -> list[_Outcome | None]:
     """Each stage's outcome: from the memo, or searched (distinct searches once, in lockstep)."""
     outcomes: list[_Outcome | None] = [None] * len(todo)
-    fresh: dict[tuple | int, list[int]] = {}
+    fresh: dict[tuple, list[int]] = {}
     for i, (_r, _m, key, _job) in enumerate(todo):
-        hit = _SEARCHES.get(key) if key is not None else None
+        hit = _SEARCHES.get(key)
         if hit is not None:
             outcomes[i] = hit
         else:
-            fresh.setdefault(key if key is not None else i, []).append(i)
+            fresh.setdefault(key, []).append(i)
     firsts = [idx[0] for idx in fresh.values()]
     jobs = [todo[i][3] for i in firsts]
     budgets = _bisection_budgets(jobs, board_budget, exact_budget)
     for idx, outcome in zip(fresh.values(), _run_jobs(jobs, budgets), strict=True):
-        key = todo[idx[0]][2]
-        if key is not None:
-            _SEARCHES.put(key, outcome)
+        _SEARCHES.put(todo[idx[0]][2], outcome)
         for i in idx:
             outcomes[i] = outcome
     return _charge(todo, outcomes, board_budget)
@@ -444,7 +438,7 @@ def _charge(todo, outcomes: list[_Outcome | None], board_budget: int) -> list[_O
     for i, outcome in enumerate(outcomes):
         if outcome is None or outcome.complete or outcome.screened or not outcome.searched:
             continue
-        key = todo[i][2] if todo[i][2] is not None else i
+        key = todo[i][2]
         if left <= 0:
             outcomes[i] = None
             continue

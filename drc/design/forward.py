@@ -14,7 +14,7 @@ fragment. The analysis is `analysis.analyse_stage`, as for a board.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 from typing import Literal
 
 from drc.analysis.receiver import ReceiverElectrical, receiver_electrical
@@ -195,10 +195,13 @@ def _resistor(stage: Stage, designator: str) -> Resistor:
 
 
 def _spice(value: float) -> str:
-    """A value in SPICE spelling that no reader misreads: 4.7k, 1Meg, 100n, 1u."""
+    """A value in SPICE spelling that no reader misreads: 4.7k, 1Meg, 100n, 1u. Four
+    significant digits in engineering form (a mantissa from 1 to below 1000, SPICE's
+    lower-case scale suffix, none for units), from 1 p to below 1000 Meg."""
     for scale, suffix in ((1e6, "Meg"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"),
                           (1e-9, "n"), (1e-12, "p")):
-        if abs(value) >= scale * 0.9995:
+        # From scale x 0.99995 on, four digits of the next smaller scale would round to 1000.
+        if abs(value) >= scale * 0.99995:
             return f"{value / scale:.4g}{suffix}"
     return f"{value:.4g}"
 
@@ -258,20 +261,14 @@ def design_stage(request: DesignRequest, *, rx: ReceiverElectrical | None = None
     Raises DesignError when the data cannot answer the request.
     """
     plan = _plan(request, rx, limits)
+    stage, result = plan.base, analyse_stage(plan.base, plan.rx)  # carries plan.rx
     count = 1
-    if _repairable(_analysed(plan.base, plan), plan.limits):
-        solution, stage, used = _search_attempts(plan, _attempts(plan), count)
+    if _repairable(result, plan.limits):
+        solution, trial, used = _search_attempts(plan, _attempts(plan), count)
         count += used
-    else:
-        solution, stage = None, plan.base
-    if solution is not None:
-        stage = with_values(stage, {ch.designator: ch.new for ch in solution.changes})
-        result = solution.result
-    else:
-        result = analyse_stage(stage, plan.rx)
-        count += 1
-    if result.receiver_electrical is None:
-        result = replace(result, receiver_electrical=plan.rx)
+        if solution is not None:
+            stage = with_values(trial, {ch.designator: ch.new for ch in solution.changes})
+            result = solution.result
     failing = tuple(sorted({f.rule for f in run_stage_rules(result, plan.limits)}))
     return DesignResult(
         ok=not failing, reason=_reason(plan, failing, count), topology=request.topology,
@@ -307,11 +304,6 @@ def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
         raise DesignError(str(exc)) from exc
     base = build_stage(request, r_pull, r_series, c_start, limits, (rx.leak_high_a, rx.leak_low_a))
     return _Plan(request, series, cap_series, rx, limits, c_start, base)
-
-
-def _analysed(stage: Stage, plan: _Plan) -> StageResult:
-    result = analyse_stage(stage, plan.rx)
-    return result if result.receiver_electrical else replace(result, receiver_electrical=plan.rx)
 
 
 def _repairable(start: StageResult, limits: Mapping[str, float]) -> bool:

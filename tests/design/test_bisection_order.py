@@ -16,6 +16,7 @@ import math
 import numpy as np
 import pytest
 
+from drc.analysis.stage_analysis import analyse_stage
 from drc.design import bisection, fixes
 from tests.checks.builders import LIMITS
 from tests.design.test_fix_completeness import CASES, MARGIN, RX, _stage, brute_force, reference_passes
@@ -28,7 +29,7 @@ SEVERAL = [(47e3, 22e3, 470e-9, True, 0.010), (47e3, 33e3, 470e-9, True, 0.010)]
 @pytest.mark.parametrize("r1, r2, c, pull_up, bounce", CASES + SEVERAL)
 def test_the_fallback_takes_the_cheapest_change_it_finds(r1, r2, c, pull_up, bounce):
     stage = _stage(r1, r2, c, pull_up, bounce)
-    job = fixes._job(stage, RX, LIMITS, "E24", frozenset(), None)
+    job = fixes._job(stage, RX, LIMITS, "E24", frozenset(), analyse_stage(stage, RX))
     moves, _result, _count = bisection.search(job.stage, job.rx, LIMITS, job.vars_, set(), 400)
     robust = brute_force(r1, r2, c, pull_up, bounce, slack=-MARGIN)
     singles = [item for item in robust if item[0][0] == 1]
