@@ -151,6 +151,9 @@ def test_a_mode_the_start_does_not_excite_leaves_a_late_crossing_where_it_is():
     # excite it). A threshold 1e-30 or 1e-35 under the final level 0 is crossed only after 60
     # time constants of the fast mode (the solver's grid), at t = ln(1/y) / 3 by hand:
     # 23.03 s and 26.86 s.
-    f = ExpSum(0.0, np.array([-1.0, 0.0]), np.array([3.0, 1.0]), 0.0)
-    for y in (1e-30, 1e-35):
-        assert first_crossing(f, -y, 1) == pytest.approx(math.log(1 / y) / 3, rel=1e-12)
+    # The same with the idle mode one that does not decay (rate 0: a capacitor with no DC path
+    # holds its charge; the modal solution gives such a mode no amplitude).
+    for idle_rate in (1.0, 0.0):
+        f = ExpSum(0.0, np.array([-1.0, 0.0]), np.array([3.0, idle_rate]), 0.0)
+        for y in (1e-30, 1e-35):
+            assert first_crossing(f, -y, 1) == pytest.approx(math.log(1 / y) / 3, rel=1e-12)

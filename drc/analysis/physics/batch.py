@@ -388,7 +388,7 @@ def analyse_group(model: LinearModel, stages: list[Stage], rxs: list[ReceiverEle
             stage=st, levels=dict(levels), edges={e: build(j, names[i]) for e, build in builders.items()},
             pull_current_a=pull, contact_current_a=contact, surge_peak_a=surge_j,
             max_input_v=max_in, receiver_electrical=rxs[i],
-            notes=st.notes + notes_t if st.notes else notes_t, closed_current_a=closed_max,
+            notes=st.notes + notes_t, closed_current_a=closed_max,
         ))
     return out
 
