@@ -157,6 +157,21 @@ def test_the_steady_level_is_reached_only_after_forever():
     assert port.time_between(3.0, 3.711) == pytest.approx(t, rel=1e-8)
 
 
+def test_a_level_off_the_way_to_the_steady_level_is_never_reached():
+    # One capacitor moves monotonically towards its steady level: C du/dt = i(u) with i > 0 below
+    # it and i < 0 above it (KCL by hand), so a level behind the start or past the steady level
+    # is never reached (time_between: inf), and from above the time down to 3.8 V is the
+    # separation-of-variables integral (no kink between 3.9 and 3.8 V).
+    port = released_port()
+    assert i_into_c1(2.5) > 0 and i_into_c1(3.8) < 0 and i_into_c1(3.9) < 0
+    assert port.time_between(3.0, 2.5) == math.inf  # behind the start
+    assert port.time_between(3.0, 3.8) == math.inf  # past the steady level (3.7117 V)
+    assert port.time_between(3.9, 3.6) == math.inf  # past it from above
+    assert port.time_between(3.0, 3.0) == 0.0
+    t = C1 * quad(lambda u: 1.0 / i_into_c1(u), 3.9, 3.8, epsabs=0.0, epsrel=1e-12, limit=200)[0]
+    assert port.time_between(3.9, 3.8) == pytest.approx(t, rel=1e-8)
+
+
 def test_a_quadrature_cut_short_keeps_every_panel_it_accepted(monkeypatch):
     # From 3.0 V to 3.711 V across D2's kink: the hand integral, with refinement as usual and with
     # no panel refined at all (the cap at 0 panels: every panel's finest estimate stands, those

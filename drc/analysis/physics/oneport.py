@@ -280,6 +280,8 @@ class OnePort:
         w_a, w_b = self._w(u_a), self._w(u_b)
         if (u_b - u_a) * (self.u_inf - u_a) < 0 or w_b > w_a:
             return math.inf if u_b != u_a else 0.0
+        if (u_b - self.u_inf) * (self.u_inf - u_a) > 0:  # past the steady level: never (no overshoot)
+            return math.inf
         if w_b == w_a:
             return 0.0
         if not math.isfinite(w_b):
