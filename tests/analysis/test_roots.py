@@ -157,3 +157,13 @@ def test_a_mode_the_start_does_not_excite_leaves_a_late_crossing_where_it_is():
         f = ExpSum(0.0, np.array([-1.0, 0.0]), np.array([3.0, idle_rate]), 0.0)
         for y in (1e-30, 1e-35):
             assert first_crossing(f, -y, 1) == pytest.approx(math.log(1 / y) / 3, rel=1e-12)
+
+
+def test_a_crossing_exactly_at_the_end_of_the_interval_is_found():
+    # first_crossing's docstring: the first t in [0, t_max] (closed) with f(t) - target >= 0.
+    # f(t) = 2 t (a capacitor charged by a constant current) meets 1 exactly at t = 0.5 (exact
+    # in binary): with t_max = 0.5 the crossing is t_max itself; a hair shorter, none.
+    f = ExpSum(0.0, np.zeros(0), np.zeros(0), 2.0)
+    assert first_crossing(f, 1.0, 1, t_max=0.5) == 0.5
+    assert first_crossing(f, 1.0, 1, t_max=0.5 * (1 - 1e-12)) is None
+    assert first_crossing(f, 1.0, 1) == pytest.approx(0.5, rel=1e-13)
