@@ -206,7 +206,7 @@ def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
 
 
 def _bounce_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
-    need = result.stage.contact.bounce_s * limits.get("bounce_margin", 1.0)
+    need = result.stage.contact.bounce_s * limits["bounce_margin"]
     timed = [(*_bounce_reading(result, limits, e, need), e) for e in edges if e.fastest_s is not None]
     if not timed:
         return "no edge timed"
@@ -223,14 +223,14 @@ def _bounce_reading(result: StageResult, limits: Mapping[str, float], e: EdgeRes
     """The time bounce-window reads for one edge, as its check does: the edge's own time,
     or where that is short on an input with hysteresis and the closure-and-opening
     reading passes, that reading's pull back ("" or how it was read)."""
-    from drc.analysis.first_edge import MIN_CLOSURE_S, pull_back
+    from drc.analysis.first_edge import pull_back
     from drc.checks.bounce_window import CLOSURE_READING, passes_by_pull_back
     from drc.checks.common import is_schmitt
     own = float(e.fastest_s) if e.fastest_s is not None else math.inf
     rx = result.receiver_electrical
     if own >= need or rx is None or not is_schmitt(result):
         return own, ""
-    back = pull_back(result.stage, rx, e.edge, limits.get("min_closure", MIN_CLOSURE_S))
+    back = pull_back(result.stage, rx, e.edge, limits["min_closure"])
     if not passes_by_pull_back(back, need):
         return own, ""
     assert back is not None

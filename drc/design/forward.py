@@ -3,8 +3,8 @@
 Given the rail, the receiver's family (Schmitt or plain), the contact's
 bounce time and a latency limit (one `DesignRequest`), `design_stage` builds
 the usual stage (pull resistor at the contact node, series resistor,
-capacitor at the pin), starts from a textbook guess (pull resistor 10 kΩ,
-series 22 kΩ, τ about 2.5 × bounce) and lets the fix solver move one or two
+capacitor at the pin), starts from a textbook guess (the lowest pull resistor
+within the pull current budget, series 22 kΩ, τ about 2.5 × bounce) and lets the fix solver move one or two
 values along the E-series until every stage rule passes at worst case. It
 reports both edges' nominal, fastest and slowest times and every margin
 (`drc.report.design_view` words them), and gives the stage as a SPICE
@@ -35,16 +35,16 @@ from drc.board.stage import (
 )
 from drc.checks import run_stage_rules
 from drc.design.fixes import FIXABLE, MAX_ANALYSES, Solution, capacitor_series, search, with_values
-from drc.errors import DrcError, SourceLocation, UsageError
+from drc.errors import DrcError, SourceLocation, UsageError, unknown_name_message
 from drc.library import eseries
-from drc.library.entries import ContactForm
+from drc.library.entries import ContactClass, ContactForm
 from drc.units import format_quantity as fq
 
 DesignTopology = Literal["pull-up", "pull-down"]
 TOPOLOGIES: tuple[DesignTopology, ...] = ("pull-up", "pull-down")
 _LOC = SourceLocation("<design>")
-# Starting point of the search (common practice, no source): a 10 kΩ pull and
-# a series resistor of about twice that, τ ≈ 2.5 × bounce.
+# Starting point of the search (common practice, no source): a series resistor of
+# about twice a 10 kΩ pull, τ ≈ 2.5 × bounce.
 _START_SERIES, _START_TAU_PER_BOUNCE = 22e3, 2.5
 _CAPACITOR_TRIES = 8  # capacitor values tried around the start, the start included
 
@@ -62,7 +62,9 @@ class DesignRequest:
     value (snapped to the nearest series value). latency_s: the latency limit
     the design must meet (overrides the limits'). Values: resistors from
     `series`, capacitors from the coarser of `series` and E12. budget bounds
-    each solver run, design_budget the whole design (analyses).
+    each solver run, design_budget the whole design (analyses). contact_class:
+    a class of rules/contacts.toml, whose wetting minimum and rating the design
+    meets (its bounce is `bounce_s`).
     """
 
     rail_v: float
@@ -92,12 +94,10 @@ class DesignRequest:
 def _start_pull(series: str, rail_v: float, limits: Mapping[str, float]) -> float:
     """The smallest series value that holds the closed-contact current to 80 % of the
     budget at rail max and R min (a low pull keeps the release edge quick and the
-    leakage headroom wide); 10 kΩ where no budget is set."""
-    budget = limits.get("pull_current_budget")
-    if not budget:
-        return eseries.nearest(series, 10e3)
-    rt = float(limits.get("tolerance_resistor", 0.05))
-    vt = float(limits.get("tolerance_rail", 0.05))
+    leakage headroom wide). Limits as rules/limits.toml always defines them."""
+    budget = float(limits["pull_current_budget"])
+    rt = float(limits["tolerance_resistor"])
+    vt = float(limits["tolerance_rail"])
     need = rail_v * (1 + vt) / (0.8 * budget * (1 - rt))
     above = eseries.values_between(series, need, need * 10)
     return above[0]
@@ -208,17 +208,20 @@ def _spice(value: float) -> str:
 
 def build_stage(request: DesignRequest, r_pull: float, r_series: float, c: float,
                 limits: Mapping[str, float],
-                leak: tuple[tuple[float, float], tuple[float, float]] | None = None) -> Stage:
+                leak: tuple[tuple[float, float], tuple[float, float]] | None = None, *,
+                contact_class: ContactClass) -> Stage:
     """The designed stage: R1 pull at n1, SW1 at n1, R2 n1-in, C1 in-0. leak: the
     receiver's (high, low) leakage ranges; given, the receiver is a load supplied
-    from the pull rail (its thresholds then follow that rail's corners)."""
+    from the pull rail (its thresholds then follow that rail's corners). The contact
+    is the one drc reads from the fragment: its class's wetting minimum and rating
+    (rules/contacts.toml), the throw's terminals, named by an annotation."""
     topology = request.topology
     if topology not in TOPOLOGIES:
         raise UsageError(f"topology must be one of {', '.join(TOPOLOGIES)}, got {topology!r}")
-    rt = float(limits.get("tolerance_resistor", 0.05))
-    ct = float(limits.get("tolerance_capacitor", 0.20))
-    vt = float(limits.get("tolerance_rail", 0.05))
-    closed = float(limits.get("contact_closed_resistance", 0.1))
+    rt = float(limits["tolerance_resistor"])
+    ct = float(limits["tolerance_capacitor"])
+    vt = float(limits["tolerance_rail"])
+    closed = float(limits["contact_closed_resistance"])
     if topology == "pull-up":
         r1 = Resistor("R1", "vcc", "n1", r_pull, rt, rt, role=ResistorRole.PULL)
         throw = Throw("n1", "0", ActuatorState.PRESSED, closed)
@@ -231,8 +234,9 @@ def build_stage(request: DesignRequest, r_pull: float, r_series: float, c: float
                            (Capacitor("C1", "in", "0", c, ct, ct),), (),
                            (RailSource("vcc", request.rail_v, vt),), (throw,), "in",
                            (load,) if load else ())
-    contact = Contact("SW1", request.contact_class, ContactForm.SPST_NO, ("n1", "0"), request.bounce_s,
-                      None, None, _LOC, ContactOrigin.CONFIG)
+    contact = Contact("SW1", contact_class.name, ContactForm.SPST_NO, (throw.a, throw.b), request.bounce_s,
+                      contact_class.wetting_a, contact_class.rating_a, _LOC, ContactOrigin.CONFIG,
+                      static=contact_class.static)
     receiver = Receiver("U1", 1, "in", "design", request.family, request.schmitt, False, "data",
                         request.rail_v, vt, _LOC)
     kind = StageKind.RC_SCHMITT if request.schmitt else StageKind.RC
@@ -286,14 +290,17 @@ def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
         series = request.series.upper()
         eseries.decade_codes(series)  # an unknown series is an error here
         cap_series = capacitor_series(series)
+        from drc.library.catalogue import load_library
+        lib = load_library()
+        contact_class = lib.contact_classes.get(request.contact_class)
+        if contact_class is None:
+            raise DesignError(unknown_name_message("contact class", request.contact_class, lib.contact_classes))
         if rx is None or limits is None:
-            from drc.library.catalogue import load_library
-            lib = load_library()
             limits = limits if limits is not None else {k: v.value for k, v in lib.limits.items()}
             # The receiver is supplied from the designed rail: its thresholds follow that rail.
             rx = rx if rx is not None else receiver_electrical(
                 lib, request.family, request.rail_v, request.schmitt,
-                supply_tolerance=float(limits.get("tolerance_rail", 0.05)))
+                supply_tolerance=float(limits["tolerance_rail"]))
         limits = {**limits, "latency_limit": request.latency_s}
         r_pull = (eseries.nearest(series, request.resistor) if request.resistor
                   else _start_pull(series, request.rail_v, limits))
@@ -302,7 +309,8 @@ def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
                                   else _START_TAU_PER_BOUNCE * request.bounce_s / r_series)
     except (ValueError, KeyError) as exc:  # the library's and the E-series' own refusals
         raise DesignError(str(exc)) from exc
-    base = build_stage(request, r_pull, r_series, c_start, limits, (rx.leak_high_a, rx.leak_low_a))
+    base = build_stage(request, r_pull, r_series, c_start, limits, (rx.leak_high_a, rx.leak_low_a),
+                       contact_class=contact_class)
     return _Plan(request, series, cap_series, rx, limits, c_start, base)
 
 
@@ -352,7 +360,7 @@ def _reason(plan: _Plan, failing: tuple[str, ...], count: int) -> str:
         return f"no RC value passes a plain {plan.rx.family} input; use a Schmitt-trigger input"
     if set(failing) - set(FIXABLE):
         return (f"{', '.join(sorted(set(failing) - set(FIXABLE)))} fails whatever the values "
-                f"(a rail, family or topology problem)")
+                f"(a rail, family, contact class or topology problem)")
     held = plan.request.held
     held_text = f" with {' and '.join(held)} held" if held else ""
     return (f"no {plan.series} combination found{held_text} within {count} analyses "
@@ -361,7 +369,7 @@ def _reason(plan: _Plan, failing: tuple[str, ...], count: int) -> str:
 
 def _margins(result: StageResult, limits: Mapping[str, float]) -> tuple[Margin, ...]:
     out: list[Margin] = []
-    need = result.stage.contact.bounce_s * float(limits.get("bounce_margin", 1.0))
+    need = result.stage.contact.bounce_s * float(limits["bounce_margin"])
     latency = float(limits["latency_limit"])
     for e in result.edges.values():
         out.append(Margin(f"{e.edge} fastest vs bounce", e.fastest_s, need, "s",
@@ -369,11 +377,11 @@ def _margins(result: StageResult, limits: Mapping[str, float]) -> tuple[Margin, 
         out.append(Margin(f"{e.edge} slowest vs latency", e.slowest_s, latency, "s",
                           None if e.slowest_s is None else latency - e.slowest_s))
     vcc = result.receiver_electrical.vcc if result.receiver_electrical else result.stage.receiver.supply_v
-    headroom = float(limits.get("leakage_headroom_margin", 0.1)) * vcc
+    headroom = float(limits["leakage_headroom_margin"]) * vcc
     for lv in result.levels.values():
         if lv.margin_v is not None:
             out.append(Margin(f"{lv.state} level margin", lv.margin_v, headroom, "V", lv.margin_v - headroom))
-    if result.pull_current_a is not None and "pull_current_budget" in limits:
+    if result.pull_current_a is not None:
         budget = float(limits["pull_current_budget"])
         out.append(Margin("held pull current", result.pull_current_a, budget, "A",
                           budget - result.pull_current_a))

@@ -189,6 +189,11 @@ def _sorted_pin_names(names: PinNames) -> tuple:
 
 # ------------------------------------------------------------------ loading
 
+# Limits read without a default outside the rules (the design, the fix texts): a rules
+# folder must define each. The rules name theirs in their RuleDoc (checks.context.limit).
+REQUIRED_LIMITS = ("bounce_margin", "min_closure", "leakage_headroom_margin", "pull_current_budget",
+                   "tolerance_resistor", "tolerance_capacitor", "tolerance_rail", "contact_closed_resistance")
+
 
 def _load_folder(folder: Path) -> Library:
     from drc.library.rules_files import (
@@ -229,6 +234,9 @@ def _load_folder(folder: Path) -> Library:
 
     lim_r = RulesFile(folder / "limits.toml")
     limits = {key: parse_limit(lim_r, key, raw) for key, raw in lim_r.data.items()}
+    for key in REQUIRED_LIMITS:
+        if key not in limits:
+            raise lim_r.error(key, "missing: the analysis and the design read this limit")
     return Library(families, part_types, classes, limits, form_words, other_parts, pin_names)
 
 

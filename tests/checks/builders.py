@@ -20,7 +20,8 @@ LOC = SourceLocation("test.cir", 3, 1)
 LIMITS = {  # the defaults of rules/limits.toml (written out: the unit tests must not read it)
     "bounce_margin": 1.0, "latency_limit": 0.100, "leakage_headroom_margin": 0.1,
     "pull_current_budget": 1e-3, "resistance_min": 1e3, "resistance_max": 50e3, "short_current": 0.1,
-    "min_closure": 1e-6,
+    "min_closure": 1e-6, "tolerance_resistor": 0.05, "tolerance_capacitor": 0.20, "tolerance_rail": 0.05,
+    "contact_closed_resistance": 0.1,
 }
 
 

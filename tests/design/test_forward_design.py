@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import eseries as oracle
 import pytest
 
@@ -101,3 +103,31 @@ def test_drc_design_finds_the_12_v_4000b_toggle_stage():
     proc = drc("design", "--rail", "12V", "--family", "4000B", "--contact", "toggle")
     assert proc.returncode == 0, proc.stdout + proc.stderr
     assert "not passing" not in proc.stdout
+
+
+@pytest.mark.parametrize("topology", ["pull-up", "pull-down"])
+@pytest.mark.parametrize("contact_class", ["tactile", "relay-power", "dip"])
+def test_the_fragment_reads_back_as_the_designed_stage_with_its_verdict(contact_class, topology, tmp_path):
+    # The design is analysed as a board is (module docstring): checking the fragment (with a
+    # 74HC14 on net 'in') must give the stage designed, contact included (its class's wetting
+    # minimum and rating from rules/contacts.toml, the switch's terminals, named by the
+    # annotation), and the design's verdict. relay-power's 10 mA wetting minimum against the
+    # 1 mA pull current budget: no values pass both, and the design must not say it passes.
+    from drc.library.catalogue import load_library
+    from drc.pipeline import CheckOptions, check_board_in_memory
+    lib = load_library()
+    d = design_stage(DesignRequest(5.0, "HC", True, lib.contact_classes[contact_class].bounce_s, 0.100,
+                                   topology=topology, contact_class=contact_class))
+    board = tmp_path / "design.cir"
+    board.write_text("* design read back\n" + d.netlist_fragment()
+                     + "XU1 in out 0 0 0 0 0 0 0 0 0 0 0 vcc 74HC14\n.end\n", encoding="utf-8")
+    check = check_board_in_memory(board, CheckOptions(propose_fixes=False))
+    [result] = [r for r in check.results if r.stage.contact.designator == "SW1"]
+    got, want = result.stage, d.stage
+    assert replace(got.contact, location=want.contact.location) == want.contact
+    assert (got.kind, set(got.parts), got.circuit.throws, got.circuit.rails) == \
+        (want.kind, set(want.parts), want.circuit.throws, want.circuit.rails)
+    assert set(got.circuit.resistors) == set(want.circuit.resistors)
+    assert got.circuit.capacitors == want.circuit.capacitors
+    assert set(d.failing_rules) == {f.rule for f in check.findings if f.contact == "SW1"}
+    assert d.ok == (contact_class != "relay-power")

@@ -83,3 +83,18 @@ def test_lookup_errors_belong_to_the_error_hierarchy():
         library.family("HC").check_supply(7.0)
     assert isinstance(outside.value, DrcError) and isinstance(outside.value, ValueError)
     assert str(outside.value) == "VCC 7 V is outside the HC supply range 2-6 V"
+
+
+@pytest.mark.parametrize("key", ["tolerance_resistor", "pull_current_budget", "min_closure"])
+def test_a_limit_the_code_reads_is_required(rules_copy, key):
+    # The design and the fix texts read these limits without a default (REQUIRED_LIMITS).
+    import tomllib
+    path = rules_copy / "limits.toml"
+    tables = tomllib.loads(path.read_text(encoding="utf-8"))
+    assert key in tables
+    kept = [block for block in path.read_text(encoding="utf-8").split("\n[") if not block.startswith(f"{key}]")]
+    path.write_text("\n[".join(kept), encoding="utf-8")
+    assert key not in tomllib.loads(path.read_text(encoding="utf-8"))
+    with pytest.raises(LibraryError, match=key) as info:
+        load_library(rules_copy)
+    assert info.value.location.file.endswith("limits.toml")
