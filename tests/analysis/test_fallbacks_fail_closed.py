@@ -172,6 +172,18 @@ def test_a_level_off_the_way_to_the_steady_level_is_never_reached():
     assert port.time_between(3.9, 3.8) == pytest.approx(t, rel=1e-8)
 
 
+def test_a_long_way_to_near_the_steady_level_keeps_the_quadratures_tolerance():
+    # oneport's docstring: every time to 1e-10 relative (RTOL), or to rounding near the steady
+    # level (1e-13 of the levels over the distance left: about 4e-10 at 1 mV from 3.7117 V).
+    # From far below, across D2's kink, to 1 mV short of the steady level: the separation-of-
+    # variables integral by scipy quad (its own error estimate about 1e-13), within 1e-8.
+    port = released_port()
+    for u_a in (0.5, 1.0, 2.0):
+        t = C1 * quad(lambda u: 1.0 / i_into_c1(u), u_a, 3.7107, points=[KINK], epsabs=0.0, epsrel=1e-13,
+                      limit=500)[0]
+        assert port.time_between(u_a, 3.7107) == pytest.approx(t, rel=1e-8)
+
+
 def test_a_quadrature_cut_short_keeps_every_panel_it_accepted(monkeypatch):
     # From 3.0 V to 3.711 V across D2's kink: the hand integral, with refinement as usual and with
     # no panel refined at all (the cap at 0 panels: every panel's finest estimate stands, those
