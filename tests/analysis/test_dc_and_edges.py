@@ -153,3 +153,23 @@ def test_waveform_is_the_analysis_solution():
             before, after = v[t < tc * 0.999][-1], v[t > tc * 1.001][0]
             assert (before - vth) * (after - vth) < 0
             assert np.interp(tc, t[1:], v[1:]) == pytest.approx(vth, abs=1e-9)
+
+
+def test_edge_batch_marks_a_threshold_never_reached_with_nan():
+    # EdgeBatch's docstring: edge timing at N corners, nan where the threshold is never reached.
+    # A diode from the pin to the rail that never conducts sends the batch down its per-row path
+    # (not the one-capacitor closed form); the release then follows the RC law with tau = R1 C1
+    # from the pressed divider towards 5 V: 3.0 V is reached, t = tau ln((Vf - V0)/(Vf - Vth)),
+    # slope (Vf - Vth)/tau there; 5.5 V, over the rail, never.
+    r1, c1, rc, vcc = 10e3, 100e-9, 0.1, 5.0
+    st = stage(resistors=(Resistor("R1", "vcc", "rx", r1, role="pull"),),
+               capacitors=(Capacitor("C1", "rx", "0", c1),), diodes=(Diode("D1", "rx", "vcc"),),
+               throws=(Throw("rx", "0", "pressed", rc),))
+    m = compile_circuit(st.circuit)
+    P = np.repeat(m.nominal[None, :], 2, axis=0)
+    P[:, m.leak_col] = 0.0
+    got = edge_batch(m, "pressed", "released", P, np.array([3.0, 5.5]), +1)
+    v0, tau = vcc * rc / (r1 + rc), r1 * c1
+    assert got.t[0] == pytest.approx(tau * math.log((vcc - v0) / (vcc - 3.0)), rel=1e-9)
+    assert got.slope[0] == pytest.approx((vcc - 3.0) / tau, rel=1e-9)
+    assert math.isnan(got.t[1]) and math.isnan(got.slope[1])
