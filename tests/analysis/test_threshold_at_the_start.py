@@ -17,8 +17,11 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import pytest
 
+from drc.analysis.physics.compiled import compile_circuit
+from drc.analysis.physics.transient import solve_edge
 from drc.analysis.stage_analysis import edge_solution
 from drc.board.stage import Capacitor, Diode, DiodeCard, RailSource, Resistor, ResistorRole, Throw
 from tests.analysis.builders import pullup_c_at_pin, receiver_electrical, stage
@@ -61,3 +64,27 @@ def test_the_linear_press_a_millivolt_in_follows_the_rc_law():
     assert edge_solution(st, RX, "press", "nominal").start_v == pytest.approx(v0, rel=1e-9)
     got = edge_solution(st, RX, "press", {"threshold": v0 - 1e-3}).crossing_s
     assert got == pytest.approx(tau * math.log((v0 - vf) / (v0 - 1e-3 - vf)), rel=1e-6)
+
+
+@pytest.mark.parametrize("edge", ["press", "release"])
+def test_a_timing_only_edge_that_never_crosses_is_still_a_waveform(edge):
+    # solve_edge with full=False (timing alone) on the quadrature path, a threshold beyond the
+    # level the edge settles to (0.3 V under the pressed level, 5.5 V over the rail): no
+    # crossing, and the record still pairs each sample time with a voltage, so that
+    # EdgeSolution.voltage answers; at t = 0 the pin is where it starts (a capacitor at the pin
+    # does not jump): released at the rail within a microvolt (only gmin's picoamps flow
+    # through R1), pressed below the 1.6 V it was timed to.
+    model = compile_circuit(one_cap_card_diode().circuit)
+    row = model.nominal.copy()
+    row[model.leak_col] = 0.0
+    states, vth, direction = ((("released", "pressed"), 0.3, -1) if edge == "press"
+                              else (("pressed", "released"), 5.5, 1))
+    sol = solve_edge(model, *states, row, vth, direction)
+    assert sol.crossing_s is None and sol.samples is not None
+    t, v = sol.samples
+    assert t.shape == v.shape
+    v0 = float(sol.voltage(np.array([0.0]))[0])
+    if edge == "press":
+        assert v0 == pytest.approx(VCC, abs=1e-6)
+    else:
+        assert 0.3 < v0 < 1.6
