@@ -140,3 +140,21 @@ def test_the_capacitor_system_gives_the_state_equations(pressed):
     rhs, _jac = rhs_of(10e3, 100e-9, 5.0, pressed)
     for u in ([0.0, 0.0], [2.0, 1.6], [4.9, 4.5], [1.0, 0.2], [3.0, 3.2]):
         np.testing.assert_allclose(system.rhs(0.0, np.array(u)), rhs(0.0, u), rtol=1e-9, atol=1e-6)
+
+
+@pytest.mark.parametrize("edge", ["press", "release"])
+def test_the_time_scales_of_an_edge_are_those_of_its_new_state(edge):
+    # _numeric_solution's docstring: the time constants reported are those of the edge's
+    # piecewise-linear stand-in (D1 conducting at its stand-in, Vf 0.6 V and 10 ohm, the
+    # Diode record's defaults, stage.py), with the crossing time joined to them. The stand-in's
+    # state equations by hand, C du/dt = -Y u + b, D1 on: pressed, sw also has the contact's
+    # 0.1 ohm; the time constants are 1 / eigenvalues of C^-1 Y (numpy): about 0.99 ns and
+    # 1.01 us pressed, 90.9 ns and 1.10 ms released.
+    press = edge == "press"
+    g_d, g_sw = 1 / 10.0, 1 / RC if press else 0.0
+    Y = np.array([[1 / 10e3 + g_d, -g_d], [-g_d, g_d + g_sw]])
+    taus = sorted(1.0 / np.linalg.eigvals(np.linalg.solve(np.diag([100e-9, C2]), Y)).real)
+    sol = edge_solution(two_caps(), RX, edge, "nominal")
+    assert sol.crossing_s is not None
+    scales = sorted(t for t in sol.time_constants if t != sol.crossing_s)
+    assert scales == pytest.approx(taus, rel=1e-9)
