@@ -615,7 +615,7 @@ def _structure(stage: Stage, model: LinearModel) -> tuple[list[int], dict[Actuat
 def _tolerance_factors(stage: Stage) -> tuple[tuple[str, ...], np.ndarray, np.ndarray, np.ndarray]:
     """Parameter names, nominal values, and each one's low and high limit as a factor."""
     names, nom, lo, hi = param_table(stage.circuit)
-    nom_a = np.array(nom, dtype=float)
+    nom_a = np.array(nom)  # float64: param_table always ends with a leakage column of 0.0
     safe = np.where(nom_a != 0.0, nom_a, 1.0)
     return (names, nom_a, np.where(nom_a != 0.0, np.array(lo) / safe, 1.0),
             np.where(nom_a != 0.0, np.array(hi) / safe, 1.0))
