@@ -315,10 +315,11 @@ def _plan(request: DesignRequest, rx: ReceiverElectrical | None,
 
 
 def _repairable(start: StageResult, limits: Mapping[str, float]) -> bool:
-    """False for rules no value repairs (a rail, family or topology problem, or a
-    plain input's slow edge): the design says so without searching."""
+    """Whether a search can help: a rule fails at the start, and only rules that values
+    repair (not a rail, family or topology problem, or a plain input's slow edge: the
+    design says so without searching). A start that passes is the design."""
     at_start = {f.rule for f in run_stage_rules(start, limits)}
-    return not (at_start - set(FIXABLE)) and "slow-edge" not in at_start
+    return bool(at_start) and not (at_start - set(FIXABLE)) and "slow-edge" not in at_start
 
 
 def _attempts(plan: _Plan) -> list[tuple[float, tuple[str, ...]]]:

@@ -192,3 +192,46 @@ def test_the_fallback_out_of_budget_claims_no_change():
     stage = rc_stage(r1=10e3, r2=1e3, c1=100e-9, extra_caps=(Capacitor("C2", "n1", "0", 10e-9),))
     solution, count = fixes.search(stage, RX, LIMITS, "E24", budget=1)
     assert solution is None and count == 2
+
+
+def _passes_by_hand(d, bounce, latency, pull_up):
+    """Every stage rule on the design's values, by hand at every vertex (contact 0.1 ohm, the
+    limits of rules/limits.toml): level margins, both edges, the held pull current."""
+    margins, edges = hand_figures(d.pull.ohms, d.series_resistor.ohms, d.capacitor.farads, pull_up,
+                                  rc=LIMITS["contact_closed_resistance"])
+    held = 5.0 * (1 + V_TOL) / (d.pull.ohms * (1 - R_TOL))  # rail max over R1 min, the contact closed
+    return (min(margins.values()) >= LIMITS["leakage_headroom_margin"] * 5.0
+            and all(fast >= bounce and slow <= latency for fast, slow in edges.values())
+            and held <= LIMITS["pull_current_budget"])
+
+
+@pytest.mark.parametrize("bounce, latency", [(1e-3, 8e-3), (0.020, 0.180)])
+def test_a_design_at_a_neighbouring_capacitor_passes_by_hand(bounce, latency):
+    # E6 values, pull-down: here no change of one or two parts from the start values passes (the
+    # complete search of the first two attempts finds none); the design holds a neighbouring
+    # capacitor and moves both resistors (forward._attempts). Its values pass every rule by hand.
+    d = design_stage(DesignRequest(5.0, "HC", True, bounce, latency, topology="pull-down", series="E6"),
+                     rx=RX, limits=LIMITS)
+    assert d.ok, d.reason
+    assert _passes_by_hand(d, bounce, latency, False)
+
+
+def test_a_start_that_passes_is_the_design():
+    # The start of forward's docstring, by hand for E6, 5 V, bounce 1 ms: R1 the least E6 value
+    # with 5.25 V / (0.95 R1) <= 0.8 mA, i.e. R1 >= 6.908 kOhm: 10 kOhm; R2 22 kOhm; C1 the E6
+    # value nearest 2.5 x 1 ms / 22 kOhm = 113.6 nF: 100 nF (|ln(113.6/100)| < |ln(150/113.6)|).
+    # These pass every rule by hand with a 5 ms latency, so no value is moved (the design
+    # proposed R1 33 kOhm, R2 33 kOhm, C1 47 nF before: a neighbouring capacitor's search).
+    d = design_stage(DesignRequest(5.0, "HC", True, 1e-3, 5e-3, series="E6"), rx=RX, limits=LIMITS)
+    assert (d.pull.ohms, d.series_resistor.ohms, d.capacitor.farads) == (10e3, 22e3, 100e-9)
+    assert d.ok and _passes_by_hand(d, 1e-3, 5e-3, True)
+
+
+@pytest.mark.parametrize("resistor, passes", [(10e3, True), (2.2e3, False)])
+def test_a_held_pull_resistor_and_capacitor_stay_as_given(resistor, passes):
+    # DesignRequest: "hold the capacitor or the pull resistor at this value". With both held only
+    # R2 may move; 10 kOhm passes with another R2 (by hand), 2.2 kOhm with none (the verdict).
+    d = design_stage(DesignRequest(5.0, "HC", True, 1e-3, 5e-3, capacitor=100e-9, resistor=resistor),
+                     rx=RX, limits=LIMITS)
+    assert (d.pull.ohms, d.capacitor.farads) == (resistor, 100e-9)
+    assert d.ok == passes == _passes_by_hand(d, 1e-3, 5e-3, True)
