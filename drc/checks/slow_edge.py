@@ -10,6 +10,8 @@ from drc.checks.examples import debounced_stage, netlist
 from drc.checks.registry import rule
 from drc.checks.ruledoc import RuleDoc
 
+UNKNOWN = "transition_limit_unknown"
+
 DOC = RuleDoc(
     id="slow-edge",
     title="Slow RC edge into a plain (non-Schmitt) input",
@@ -22,7 +24,10 @@ DOC = RuleDoc(
          "slower than any plain input's limit, so RC debouncing needs a Schmitt-trigger input."),
     how=("1 / |dV/dt| at the threshold crossing of each edge, slowest corner: for a single RC, "
          "τ/(Vf − Vth). Compared with the family's transition limit in s/V (for HC: the 10-90 % "
-         "rise-time limit divided by 0.8 × VCC), from rules/families.toml."),
+         "rise-time limit divided by 0.8 × VCC), from rules/families.toml. Where the family records "
+         "no limit (LVX, 4000B, LVCMOS, comparators ...), an edge within the strictest recorded "
+         "limit (transition_limit_unknown, 8 ns/V) passes any family's; a slower one could not be "
+         "checked, which is a finding too, with the edge's rate and no limit, never a silent pass."),
     fix=("Feed the RC into a Schmitt-trigger input (a '14 inverter, a '132 NAND, an MCU pin with "
          "Schmitt input) or add one between the filter and this input; no RC value passes a plain input."),
     failing_example=netlist("A relay contact (5 ms bounce) through an RC filter into a plain 74HC04 input",
@@ -30,6 +35,7 @@ DOC = RuleDoc(
     passing_example=netlist("The same filter into a 74HC14 Schmitt input",
                             *debounced_stage(contact="RELAY")),
     figure="edge rate", bound="max",
+    limits=(UNKNOWN,),
 )
 
 
@@ -37,8 +43,8 @@ DOC = RuleDoc(
 def check(result: StageResult, ctx: RuleContext):
     stage = result.stage
     rx = result.receiver_electrical
-    if (rx is None or is_schmitt(result) or rx.transition_limit_s_per_v is None
-            or not stage.circuit.capacitors or stage.kind in DEBOUNCED_ELSEWHERE):
+    if (rx is None or is_schmitt(result) or not stage.circuit.capacitors
+            or stage.kind in DEBOUNCED_ELSEWHERE):
         return
     limit = rx.transition_limit_s_per_v
     for name in EDGES:
@@ -49,7 +55,16 @@ def check(result: StageResult, ctx: RuleContext):
         if not slope or slope <= 0:
             continue
         rate = 1.0 / slope
-        if rate <= limit:
+        if limit is None and rate > ctx.limit(UNKNOWN):  # fail closed: not judged is not passed
+            yield ctx.stage_finding(
+                result, parts=timing_parts(result, name), measured=figure(rate, "s/V"), limit=None,
+                message=(f"{name} edge from {contact_name(result)} crosses the threshold of plain input "
+                         f"{stage.receiver.ref} ({rx.family}) at {fq(rate, 's/V')}; no input transition "
+                         f"limit is known for {rx.family}, so the edge could not be checked"),
+                fix=(f"feed {stage.receiver.ref} from a Schmitt-trigger input after the RC, or waive the "
+                     f"finding with the part's own transition limit as the reason"))
+            continue
+        if limit is None or rate <= limit:
             continue
         yield ctx.stage_finding(
             result, parts=timing_parts(result, name),

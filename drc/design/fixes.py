@@ -297,8 +297,10 @@ def _plain_input_fix(result: StageResult) -> str | None:
     rx = result.receiver_electrical
     if rx is None or rx.schmitt or not result.stage.circuit.capacitors:
         return None
-    return (f"use a Schmitt-trigger input after the RC; no RC value passes a plain {rx.family} input "
-            f"(its transition limit is {fq(rx.transition_limit_s_per_v or 0.0, 's/V')})")
+    limit = rx.transition_limit_s_per_v
+    said = (f"its transition limit is {fq(limit, 's/V')}" if limit is not None
+            else f"no transition limit is known for {rx.family}")
+    return f"use a Schmitt-trigger input after the RC; no RC value passes a plain {rx.family} input ({said})"
 
 
 def propose_fixes(result: StageResult, findings: Sequence[Finding], limits: Mapping[str, float],
