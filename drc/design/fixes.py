@@ -207,7 +207,7 @@ def rule_figure(rule_id: str, result: StageResult, limits: Mapping[str, float],
 
 def _bounce_figure(result: StageResult, limits: Mapping[str, float], edges: list[EdgeResult]) -> str:
     need = result.stage.contact.bounce_s * limits["bounce_margin"]
-    timed = [(*_bounce_reading(result, limits, e, need), e) for e in edges if e.fastest_s is not None]
+    timed = [(*_bounce_reading(result, limits, e, e.fastest_s, need), e) for e in edges if e.fastest_s is not None]
     if not timed:
         return "no edge timed"
     fastest, how, e = min(timed, key=lambda got: got[0])
@@ -218,15 +218,14 @@ def _bounce_figure(result: StageResult, limits: Mapping[str, float], edges: list
     return f"{e.edge} {fq(fastest, 's')} ≥ {fq(need, 's')} at fastest corner"
 
 
-def _bounce_reading(result: StageResult, limits: Mapping[str, float], e: EdgeResult,
+def _bounce_reading(result: StageResult, limits: Mapping[str, float], e: EdgeResult, own: float,
                     need: float) -> tuple[float, str]:
-    """The time bounce-window reads for one edge, as its check does: the edge's own time,
-    or where that is short on an input with hysteresis and the closure-and-opening
+    """The time bounce-window reads for one edge, as its check does: the edge's own time
+    (`own`, its fastest), or where that is short on an input with hysteresis and the closure-and-opening
     reading passes, that reading's pull back ("" or how it was read)."""
     from drc.analysis.first_edge import pull_back
     from drc.checks.bounce_window import CLOSURE_READING, passes_by_pull_back
     from drc.checks.common import is_schmitt
-    own = float(e.fastest_s) if e.fastest_s is not None else math.inf
     rx = result.receiver_electrical
     if own >= need or rx is None or not is_schmitt(result):
         return own, ""
@@ -409,7 +408,8 @@ def _board_outcomes(todo: list[tuple[StageResult, list[Finding], tuple, _Job]],
     jobs = [todo[i][3] for i in firsts]
     budgets = _bisection_budgets(jobs, board_budget, exact_budget)
     for idx, outcome in zip(fresh.values(), _run_jobs(jobs, budgets), strict=True):
-        _SEARCHES.put(todo[idx[0]][2], outcome)
+        if outcome.searched:  # a search left out for want of budget is no answer to remember
+            _SEARCHES.put(todo[idx[0]][2], outcome)
         for i in idx:
             outcomes[i] = outcome
     return _charge(todo, outcomes, board_budget)
@@ -433,17 +433,20 @@ def _bisection_budgets(jobs: Sequence[_Job], board_budget: int, exact_budget: in
 
 def _charge(todo, outcomes: list[_Outcome | None], board_budget: int) -> list[_Outcome | None]:
     """The board budget over the bisection searches, in board order: once it is spent,
-    later bisection-searched stages get the plain-words fix (None). Charged as each
+    later bisection-searched stages get the plain-words fix (None); with no budget at all,
+    every stage the complete search does not answer (none is searched). Charged as each
     search cost when first run, so the texts depend on this board alone."""
     left = board_budget
     seen: set = set()
     for i, outcome in enumerate(outcomes):
-        if outcome is None or outcome.complete or outcome.screened or not outcome.searched:
+        if outcome is None or outcome.complete or outcome.screened:
             continue
-        key = todo[i][2]
-        if left <= 0:
+        if board_budget <= 0 or (outcome.searched and left <= 0):
             outcomes[i] = None
             continue
+        if not outcome.searched:
+            continue
+        key = todo[i][2]
         if key not in seen:
             seen.add(key)
             left -= outcome.analyses

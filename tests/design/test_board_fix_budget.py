@@ -45,3 +45,21 @@ def test_the_board_budget_stops_later_fallback_searches():
     assert fixed(cost) == ["SW1"]
     assert fixed(cost + 1) == ["SW1", "SW2"]
     assert fixed(0) == []
+
+
+def test_a_board_budget_of_nothing_runs_no_fallback_search(monkeypatch):
+    # `board_budget` bounds the analyses of the bisection searches: with 0 none may run (a spy
+    # counts the calls of the bounded fallback) and no stage gets values. A later check with a
+    # budget searches them: what was left unsearched is not remembered as their answer.
+    from drc.caching import clear_caches
+    from drc.design import bisection
+    results = [analysed(_stage(f"SW{k}", c), RX) for k, c in enumerate((100e-9, 150e-9), 1)]
+    findings = [f for r in results for f in run_stage_rules(r, LIMITS)]
+    calls = []
+    real = bisection.search
+    monkeypatch.setattr(bisection, "search", lambda *a, **k: calls.append(a) or real(*a, **k))
+    clear_caches()
+    texts = fixes.propose_board_fixes(results, findings, LIMITS, board_budget=0)
+    assert calls == [] and texts == {}
+    later = fixes.propose_board_fixes(results, findings, LIMITS, board_budget=10 * fixes.FIX_BUDGET)
+    assert len(calls) == 2 and set(later) == set(findings) and all(" → " in t for t in later.values())

@@ -6,8 +6,8 @@ present values, within a board and, through the memo, in later boards of the
 same process; the answer they share is the one a fresh search of each gives.
 References: spies (a wrapper that counts the calls of the search and of the
 rules, as `fixes` calls them) and a fresh search of each stage alone, the memo
-emptied first (`drc.caching.clear_caches`). Also: the latency figure of a result
-whose two edges are equally slow (a hand-built result).
+emptied first (`drc.caching.clear_caches`). Also: the latency and bounce figures
+of results whose two edges are equally slow or fast (hand-built results).
 """
 
 from __future__ import annotations
@@ -97,3 +97,12 @@ def test_the_latency_figure_of_two_equally_slow_edges_names_one_of_them():
     alone = [replace(both, edges={name: e}) for name, e in both.edges.items()]
     figure = fixes.rule_figure("response-latency", both, LIMITS)
     assert figure in {fixes.rule_figure("response-latency", r, LIMITS) for r in alone}
+
+
+def test_the_bounce_figure_of_two_equally_fast_edges_names_one_of_them():
+    # min over (time, reading, edge): with equal times and readings the edges are not ordered.
+    both = result(edges={"press": edge("press", 0.020, 0.080),
+                         "release": edge("release", 0.020, 0.070, "rising", start_v=0.0, final_v=5.0)})
+    alone = [replace(both, edges={name: e}) for name, e in both.edges.items()]
+    figure = fixes.rule_figure("bounce-window", both, LIMITS)
+    assert figure in {fixes.rule_figure("bounce-window", r, LIMITS) for r in alone}
