@@ -34,7 +34,6 @@ DOC = RuleDoc(
 )
 
 
-@rule(DOC, kind="stage")
 def check(result: StageResult, ctx: RuleContext):
     limit = ctx.limit(LATENCY)
     for name in EDGES:
@@ -64,3 +63,8 @@ def check(result: StageResult, ctx: RuleContext):
                          f"{result.stage.receiver.ref} in {fq(edge.slowest_s, 's')} at the slowest "
                          f"corner, over the {fq(limit, 's')} latency limit"),
                 fix=f"speed the {name} edge up: lower the resistance or capacitance of {timing_text(result, name)}")
+
+
+# Registered by a call, not a decorator: mutation testing (mutmut) leaves decorated
+# functions alone, and the rule body is what its tests must pin down.
+rule(DOC, kind="stage")(check)
