@@ -36,7 +36,7 @@ def check(board, ctx: RuleContext):
     if board.netlist.elements:
         return
     location = SourceLocation(board.netlist.path, 1, 1) if board.netlist.path else None
-    yield ctx.finding(parts=(), nets=(), measured=None, limit=None, location=location, related=(),
+    yield ctx.finding(parts=(), measured=None, limit=None, location=location,
                       message="the board file holds no parts (an empty or comments-only netlist): nothing was checked",
                       fix=DOC.fix)
 

@@ -75,6 +75,7 @@ def test_empty_netlist_points_at_the_start_of_the_file():
     # Nothing to point at but the file: its first line, first column (1-based, SourceLocation).
     [f] = board_findings("* LX-24 sheet: the export stopped here\n.end\n", "empty-netlist", "sheet3.cir")
     assert f.location == SourceLocation("sheet3.cir", 1, 1)
+    assert f.parts == () and f.nets == () and f.related == ()  # no part, so no net and no other place
 
 
 def test_empty_netlist_without_a_file_name_has_no_location():
