@@ -17,6 +17,8 @@ import json
 import subprocess
 import sys
 
+import pytest
+
 from drc.library.catalogue import load_library
 from drc.pipeline import check_netlist_text
 
@@ -78,3 +80,15 @@ def test_the_gate_fails_on_it(tmp_path):
     board = json.loads(got.stdout)["boards"][0]
     slow = [f for f in board["findings"] if f["rule"] == "slow-edge"]
     assert slow and all(f["limit"] is None and f["severity"] == "error" for f in slow)
+
+
+@pytest.mark.parametrize("part, vcc", [("74HC04", "5"), ("74LVX04", "3.3")])
+def test_a_press_within_the_limit_does_not_stop_the_release_being_judged(part, vcc):
+    # 1 nF at the pin, the contact straight across it: the press discharges C1 through the
+    # contact's 0.1 ohm (tau 0.1 ns, far within any limit); the release charges it through
+    # R1 10k (tau 10 us: 10.5k x 1.2n / (0.3 x 3.135 V) = 13.4 us/V at most, 8 us/(1.05 x 5 V)
+    # = 1.5 us/V at least by the RC law), slower than HC's 117 ns/V and the 8 ns/V stand-in.
+    _, _, findings = check_netlist_text(_deck(part, r="10k", c="1n", vcc=vcc))
+    assert _slow(findings, "press") == []
+    [release] = _slow(findings, "release")
+    assert 1.5e-6 <= release.measured.value <= 13.4e-6
