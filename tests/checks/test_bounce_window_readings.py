@@ -109,3 +109,15 @@ def test_a_time_finding_on_a_schmitt_input_quotes_the_closure_reading_it_also_fa
     [back] = re.findall(r"closure-and-opening reading pass it: .* in (\S+ \S+)\)$", f.message)
     number, unit = back.split()
     assert 0 < float(number) * SI[unit[:-1]] <= f.measured.value and unit.endswith("s")
+
+
+def test_the_closure_and_opening_reading_passes_a_pull_back_of_at_least_the_bounce():
+    # passes_by_pull_back's docstring: the reading applies and the bounce never brings the
+    # input back, or takes "at least" the time needed (10 ms here): equality passes.
+    from types import SimpleNamespace
+
+    from drc.checks.bounce_window import passes_by_pull_back
+    assert passes_by_pull_back(SimpleNamespace(fastest_s=0.010), 0.010)
+    assert not passes_by_pull_back(SimpleNamespace(fastest_s=0.00999), 0.010)
+    assert passes_by_pull_back(SimpleNamespace(fastest_s=None), 0.010)
+    assert not passes_by_pull_back(None, 0.010)
