@@ -24,11 +24,11 @@ import math
 import numpy as np
 import pytest
 
-from drc.checks import run_stage_rules
-from drc.design.complete import CompleteSearch, run_lockstep, search_vars
-from drc.design.screen import Request, Screen, screen_all
-from tests.checks.builders import LIMITS, analysed
+from drc.design.complete import CompleteSearch
+from drc.design.screen import Request, screen_all
+from tests.checks.builders import LIMITS
 from tests.design.test_fix_completeness import BOUNCE, MARGIN, R_VALUES, RX, _stage, brute_force
+from tests.design.test_fix_search_refuted import complete_search
 
 TWO_PART = [  # (R1, R2, C1, pull-up, bounce) of test_fix_completeness.CASES answered by two parts
     (10e3, 1e3, 100e-9, True, BOUNCE),
@@ -40,15 +40,7 @@ TWO_PART = [  # (R1, R2, C1, pull-up, bounce) of test_fix_completeness.CASES ans
 
 
 def _run(stage, limits=LIMITS):
-    present = analysed(stage, RX)
-    fired = frozenset(f.rule for f in run_stage_rules(present, limits))
-    screen = Screen.build(stage, RX, limits, frozenset())
-    assert screen is not None
-    s = CompleteSearch(stage, RX, limits, frozenset(), screen, search_vars(stage, "E24", "E12", limits),
-                       present, fired)
-    run_lockstep([s])
-    assert s.trusted and s.found is not None
-    return s
+    return complete_search(stage, RX, limits)
 
 
 def _cost(change, present):

@@ -203,19 +203,24 @@ def test_picofarad_stages_get_the_first_passing_change(r1, r2, c, pull_up, bounc
                                 limits=limits)[0] == passes, v
 
 
-def _complete_search(stage, rx, limits):
-    """The complete search of one stage run to its end, as the board driver runs it."""
+def complete_search(stage, rx, limits):
+    """The complete search of one stage run to its end, as the board driver runs it (trusted,
+    with an outcome)."""
     from drc.design.complete import CompleteSearch, run_lockstep, search_vars
     from drc.design.screen import Screen
     present = analysed(stage, rx)
     fired = frozenset(f.rule for f in run_stage_rules(present, limits))
     screen = Screen.build(stage, rx, limits, frozenset())
     assert screen is not None
-    found = CompleteSearch(stage, rx, limits, frozenset(), screen, search_vars(stage, "E24", "E12", limits),
-                           present, fired)
-    run_lockstep([found])
-    assert found.trusted and found.found is not None
-    return found.found
+    search = CompleteSearch(stage, rx, limits, frozenset(), screen, search_vars(stage, "E24", "E12", limits),
+                            present, fired)
+    run_lockstep([search])
+    assert search.trusted and search.found is not None
+    return search
+
+
+def _complete_search(stage, rx, limits):
+    return complete_search(stage, rx, limits).found
 
 
 @pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", REFERENCE_FIRST[:1] + REFERENCE_FIRST[2:])
