@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from drc.analysis.results import StageResult
+from drc.board.stage import Resistor
 from drc.checks.common import contact_name, pull_resistors, resistor_text
 from drc.checks.context import RuleContext, figure
 from drc.checks.context import quantity_text as fq
@@ -50,9 +51,12 @@ def check(result: StageResult, ctx: RuleContext):
     current = closed_current(result)
     if current is None or current < limit:
         return
-    # The culprits: pull resistors that alone would pass the limit, and 0 Ω links.
-    rail_max = max((r.volts * (1 + r.tolerance) for r in stage.circuit.rails), default=0.0)
-    pulls = tuple(r for r in pull_resistors(result) if r.ohms * (1 - r.tol_minus) * limit <= rail_max)
+    # The culprits: pull resistors that alone would pass the limit (Ohm's law from the rail
+    # the resistor hangs from at its maximum, else the stage's highest), and 0 Ω links.
+    rail_top = {r.net: r.volts * (1 + r.tolerance) for r in stage.circuit.rails}
+    rail_max = max(rail_top.values(), default=0.0)
+    pulls = tuple(r for r in pull_resistors(result)
+                  if r.ohms * (1 - r.tol_minus) * limit <= _across(r, rail_top, rail_max))
     links = stage.links
     culprits = [resistor_text(r) for r in pulls] + [f"{name} (0 Ω link)" for name in links]
     what = ", ".join(culprits) if culprits else "the wiring"
@@ -64,6 +68,14 @@ def check(result: StageResult, ctx: RuleContext):
                  f"{what} reads as a short, not a pull"),
         fix=(f"fit the pull resistor meant in place of {what} (a few kΩ to tens of kΩ; SPICE "
              f"reads 1M as 1 mΩ, write 1Meg for a megohm)"))
+
+
+def _across(r: Resistor, rail_top: dict[str, float], rail_max: float) -> float:
+    """The most a closed contact can put across pull resistor `r`: its own supply rail's
+    maximum where one end is one (a pull-up), else (a pull-down to ground, whose contact
+    closes to some rail) the highest rail of the stage."""
+    own = [rail_top[n] for n in (r.a, r.b) if rail_top.get(n, 0.0) > 0.0]
+    return max(own) if own else rail_max
 
 
 # Registered by a call, not a decorator: mutation testing (mutmut) leaves decorated

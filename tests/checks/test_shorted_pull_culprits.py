@@ -58,3 +58,31 @@ def test_with_no_rail_the_short_is_reported_and_no_pull_resistor_is_named():
     assert f.parts == ("SW1", "U1")
     assert f.measured.value == pytest.approx(0.2) and f.measured.unit == "A"
     assert f.limit.value == pytest.approx(SHORT) and f.limit.unit == "A"
+
+
+def _shorted_pull_parts(deck: str) -> set[str]:
+    from drc.pipeline import check_netlist_text
+    _, _, findings = check_netlist_text(deck)
+    [f] = [f for f in findings if f.rule == "shorted-pull"]
+    return set(f.parts)
+
+
+def test_a_pull_up_is_named_by_the_current_from_its_own_rail():
+    # Two pull-ups on the contact node, from two rails; rules/limits.toml's short_current is
+    # 0.1 A. Ohm's law at the worst corner: R2 10 ohm from 5 V: 5.25 / 9.5 = 553 mA, a short;
+    # R1 47 ohm from 3.3 V: 3.465 / 44.65 = 77.6 mA, under the limit alone, so not a culprit
+    # (from the 5 V rail it would be 5.25 / 44.65 = 118 mA: the rail it hangs from decides).
+    deck = ("* two pull-ups from two rails\nV1 vcc 0 DC 5\nV2 v33 0 DC 3.3\nR1 v33 n1 47\nR2 vcc n1 10\n"
+            "SW1 n1 0 TACTILE\nXU1 n1 y1 0 y2 0 y3 0 y4 0 y5 0 y6 0 vcc 74HC14\n.end\n")
+    parts = _shorted_pull_parts(deck)
+    assert "R2" in parts and "R1" not in parts
+
+
+@pytest.mark.parametrize("ground, source", [("0", ""), ("agnd", "V3 agnd 0 DC 0\n")])
+def test_a_pull_down_is_named_by_the_rail_its_contact_closes_to(ground, source):
+    # A 10 ohm pull-down, the contact to 5 V: 5.25 / 9.5 = 553 mA through it when closed
+    # (Ohm's law); the ground it hangs from (the node 0, or a separate ground written as a
+    # 0 V source, as exports write an analog ground) is not the rail that drives it.
+    deck = (f"* a pull-down that reads as a short\nV1 vcc 0 DC 5\n{source}R1 n1 {ground} 10\n"
+            "SW1 vcc n1 TACTILE\nXU1 n1 y1 0 y2 0 y3 0 y4 0 y5 0 y6 0 vcc 74HC14\n.end\n")
+    assert "R1" in _shorted_pull_parts(deck)
