@@ -94,7 +94,14 @@ def test_a_lead_stages_pull_resistor_out_of_the_window_is_moved_first(r1, r2, c)
     import numpy as np
 
     from drc.design.fixes import search
-    from tests.design.test_fix_completeness import MARGIN, RX, _stage, brute_force, order_key, reference_passes
+    from tests.design.test_fix_completeness import (
+        MARGIN,
+        RX,
+        _stage,
+        assert_first_in_order,
+        brute_force,
+        reference_passes,
+    )
     stage = _stage(r1, r2, c, True)
     assert stage.lead
     solution, _count = search(stage, RX, LIMITS, "E24")
@@ -105,5 +112,4 @@ def test_a_lead_stages_pull_resistor_out_of_the_window_is_moved_first(r1, r2, c)
     assert "R1" in change and LIMITS["resistance_min"] <= change["R1"] <= LIMITS["resistance_max"]
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], True, slack=MARGIN)[0]
-    key = order_key(change, present)
-    assert not [item for item in robust if item[0] < key], (change, robust[0])
+    assert_first_in_order(change, present, robust)

@@ -179,6 +179,13 @@ def order_key(change, present):
             tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
 
 
+def assert_first_in_order(change, present, robust):
+    """No passing change of the reference (`robust`, in order) comes before `change` in the
+    stated order (`order_key`)."""
+    earlier = [item for item in robust if item[0] < order_key(change, present)]
+    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+
+
 def passing_changes(present, grids, passes):
     """Every one- and two-part change of the parts in `present` over their value `grids` that
     `passes` (rows of values by designator -> one verdict per row), in the stated order."""
@@ -238,11 +245,9 @@ def test_search_answer_is_the_brute_force_optimum(r1, r2, c, pull_up, bounce):
         return
     change = {ch.designator: ch.new for ch in solution.changes}
     present = {"R1": r1, "R2": r2, "C1": c}
-    key = order_key(change, present)
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN)[0], change
-    earlier = [item for item in robust if item[0] < key]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
 
 
 def test_the_issue_example_is_found():
@@ -287,10 +292,9 @@ def test_a_later_stage_of_a_contact_is_searched_without_the_contact_level_rules(
     assert solution is not None and robust
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    key = order_key(change, present)
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, lead=False)[0]
-    assert not [item for item in robust if item[0] < key], (change, robust[0])
+    assert_first_in_order(change, present, robust)
 
 
 @pytest.mark.parametrize("r1, r2, c, pull_up", [(22e3, 22e3, 470e-9, True), (22e3, 10e3, 1e-6, False)])
@@ -304,10 +308,9 @@ def test_a_contact_needing_wetting_current_gets_the_first_passing_change(r1, r2,
     assert solution is not None and robust
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    key = order_key(change, present)
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, slack=MARGIN, wetting=wetting)[0]
-    assert not [item for item in robust if item[0] < key], (change, robust[0])
+    assert_first_in_order(change, present, robust)
     # The reference's least closed current is the analysis' on the present values (Ohm's law).
     from tests.checks.builders import analysed
     through = _level(np.array([r1]), np.array([r2]), np.array([c]), True, pull_up)[3][0]

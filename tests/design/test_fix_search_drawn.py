@@ -11,8 +11,6 @@ order and lower values) must give the first change the reference passes.
 
 from __future__ import annotations
 
-import math
-
 import eseries as iec
 import numpy as np
 from hypothesis import HealthCheck, given, settings
@@ -20,7 +18,7 @@ from hypothesis import strategies as st
 
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS
-from tests.design.test_fix_completeness import MARGIN, RX, _stage, brute_force, reference_passes
+from tests.design.test_fix_completeness import MARGIN, RX, _stage, assert_first_in_order, brute_force, reference_passes
 
 RESISTORS = sorted(iec.erange(iec.E24, 470.0, 220e3))
 CAPACITORS = sorted(iec.erange(iec.E12, 1e-9, 22e-6))
@@ -39,11 +37,7 @@ def test_the_search_answer_is_the_first_passing_change(r1, r2, c, pull_up, bounc
     if solution is None:
         assert not robust, f"the search found nothing, the reference passes {robust[0]}"
         return
-    order = {"R1": 0, "R2": 1, "C1": 2}
     change = {ch.designator: ch.new for ch in solution.changes}
-    key = (len(change), round(sum(abs(math.log(v / present[k])) for k, v in change.items()), 9),
-           tuple((order[k], change[k]) for k in sorted(change, key=order.get)))
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN)[0], change
-    earlier = [item for item in robust if item[0] < key]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)

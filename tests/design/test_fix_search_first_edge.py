@@ -44,7 +44,7 @@ from tests.design.test_fix_completeness import (
     RX,
     _edge,
     _level,
-    order_key,
+    assert_first_in_order,
     passing_changes,
 )
 
@@ -140,8 +140,7 @@ def test_search_answer_is_the_brute_force_optimum_with_both_readings(r1, c, boun
     change = {ch.designator: ch.new for ch in solution.changes}
     rows = {k: np.array([change.get(k, v)]) for k, v in {"R1": r1, "C1": c}.items()}
     assert reference_passes(rows["R1"], rows["C1"], bounce, slack=MARGIN)[0], change
-    earlier = [item for item in robust if item[0] < order_key(change, {"R1": r1, "C1": c})]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, {"R1": r1, "C1": c}, robust)
 
 
 def test_the_press_passes_only_by_the_closure_and_opening_reading():

@@ -40,7 +40,7 @@ from tests.design.test_fix_completeness import (
     C_VALUES,
     MARGIN,
     _stage,
-    order_key,
+    assert_first_in_order,
     passing_changes,
     reference_passes,
 )
@@ -99,8 +99,7 @@ def test_a_refutation_that_teaches_vertices_keeps_the_first_passing_change(r1, r
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     with np.errstate(divide="ignore", invalid="ignore"):
         assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, MARGIN, RX, LIMITS_WIDE)[0]
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
 
 
 @pytest.mark.parametrize("r1, r2, c, pull_up, bounce", CASES)
@@ -170,8 +169,7 @@ def test_a_round_that_teaches_before_its_last_proposal_keeps_the_first_passing_c
     assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
     # The reference's verdicts on the present values and its first passing change are the rules'.
     from drc.checks import run_stage_rules
     from tests.checks.builders import analysed

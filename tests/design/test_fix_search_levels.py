@@ -35,7 +35,7 @@ from drc.board.stage import Capacitor, RailSource, Resistor, Stage, StageCircuit
 from drc.checks import run_stage_rules
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS, analysed, contact, hc, receiver
-from tests.design.test_fix_completeness import C_VALUES, MARGIN, R_VALUES, order_key, passing_changes
+from tests.design.test_fix_completeness import C_VALUES, MARGIN, R_VALUES, assert_first_in_order, passing_changes
 
 VCC, RC_OHMS = 5.0, 0.1
 R_TOL, C_TOL, V_TOL = 0.05, 0.20, 0.05
@@ -156,8 +156,7 @@ def test_a_level_that_changes_logic_keeps_the_first_passing_change(r1, r2, c, bo
     change = {ch.designator: ch.new for ch in solution.changes}
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], bounce, MARGIN)[0], change
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
 
 
 @pytest.mark.parametrize("r1, r2, c, bounce", CASES)

@@ -30,7 +30,7 @@ import pytest
 from drc.checks import run_stage_rules
 from drc.design.fixes import search
 from tests.checks.builders import LIMITS, analysed, hc
-from tests.design.test_fix_completeness import MARGIN, _stage, brute_force, order_key, reference_passes
+from tests.design.test_fix_completeness import MARGIN, _stage, assert_first_in_order, brute_force, reference_passes
 
 PLAIN = hc(schmitt=False)
 
@@ -65,8 +65,7 @@ def test_refuted_capacitors_lead_to_the_first_passing_change(r1, r2, c, pull_up,
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, rx=PLAIN,
                             limits=limits)[0], change
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
     # The screen's cheapest capacitor was refuted at least once: the answer is not it.
     assert robust[0][1] == change
 
@@ -113,8 +112,7 @@ def test_what_the_search_proposes_comes_first_in_order(r1, r2, c, pull_up, bounc
         return  # out of confirmations: the fix text says so
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
 
 
 @pytest.mark.parametrize("r1, r2, c, pull_up, bounce, latency", REFERENCE_FIRST)
@@ -152,8 +150,7 @@ def test_a_refuted_rows_next_capacitor_comes_before_a_later_proposal_that_passes
     assert solution is not None, f"the search found nothing, the reference passes {robust[0]}"
     present = {"R1": r1, "R2": r2, "C1": c}
     change = {ch.designator: ch.new for ch in solution.changes}
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
 
 
 def test_the_reference_agrees_with_the_analysis_on_the_next_capacitor_case():
@@ -193,8 +190,7 @@ def test_picofarad_stages_get_the_first_passing_change(r1, r2, c, pull_up, bounc
     rows = {k: np.array([change.get(k, v)]) for k, v in present.items()}
     assert reference_passes(rows["R1"], rows["R2"], rows["C1"], pull_up, bounce, slack=MARGIN, rx=PLAIN,
                             limits=limits)[0], change
-    earlier = [item for item in robust if item[0] < order_key(change, present)]
-    assert not earlier, f"search proposed {change}, but {earlier[0][1]} passes and comes first"
+    assert_first_in_order(change, present, robust)
     # The reference's verdicts on the present values and its first passing change are the rules'.
     for v in (present, {**present, **robust[0][1]}):
         passes = not run_stage_rules(analysed(_stage(v["R1"], v["R2"], v["C1"], pull_up, bounce, schmitt=False),
